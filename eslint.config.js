@@ -1,0 +1,33 @@
+// Flat config: the recommended JavaScript and TypeScript rules, plus one
+// architectural rule: the engine stays pure (no server framework, database or
+// schema library inside server/engine/).
+import js from '@eslint/js';
+import tseslint from 'typescript-eslint';
+
+export default tseslint.config(
+  { ignores: ['node_modules/', 'data/', 'coverage/'] },
+  js.configs.recommended,
+  ...tseslint.configs.recommended,
+  {
+    files: ['bin/**/*.js'],
+    languageOptions: { globals: { process: 'readonly', console: 'readonly' } },
+  },
+  {
+    rules: {
+      '@typescript-eslint/no-unused-vars': ['error', { argsIgnorePattern: '^_', varsIgnorePattern: '^_' }],
+    },
+  },
+  {
+    files: ['server/engine/**/*.ts'],
+    rules: {
+      'no-restricted-imports': ['error', {
+        patterns: [
+          { group: ['fastify', 'fastify-*', '@fastify/*'], message: 'server/engine/ is pure numerics: no web framework.' },
+          { group: ['better-sqlite3'], message: 'server/engine/ is pure numerics: no database.' },
+          { group: ['zod', 'zod/*'], message: 'server/engine/ is pure numerics: validate in server/schema/.' },
+          { group: ['mathjs'], message: 'server/engine/ works in SI numbers: convert units in server/units/.' },
+        ],
+      }],
+    },
+  },
+);

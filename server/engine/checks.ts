@@ -1,0 +1,195 @@
+/**
+ * Practical checks on a sample (model.md §8), reported beside the stability
+ * result. All numbers SI. Each check returns its numbers whether or not it
+ * warns; warnings carry the same numbers.
+ */
+import { BOLTZMANN, STANDARD_GRAVITY } from './constants.js';
+import { linearise } from './model.js';
+import type { Mixture } from './types.js';
+
+export interface Warning {
+  code: string;
+  message: string;
+  [key: string]: unknown;
+}
+
+export interface FuelCheck {
+  chemical: string;
+  /** Net consumption |Σ_m α_ms ρ_m|, mol m⁻³ s⁻¹ */
+  consumptionRate: number;
+  /** c⁰ / |Σ_m α_ms ρ_m|, s */
+  lifetime: number;
+}
+
+export interface GasCheck {
+  chemical: string;
+  /** Net production Σ_m α_ms ρ_m, mol m⁻³ s⁻¹ */
+  productionRate: number;
+  /** Saturation concentration, mol m⁻³ */
+  solubility: number;
+  /** Time until the concentration passes the solubility, s (0 when already past it) */
+  timeToSaturation: number;
+}
+
+export interface SedimentationCheck {
+  species: string;
+  /** Gravitational height k_B T / (|Δρ| V g), m */
+  gravitationalHeight: number;
+  /** Settling (Δρ > 0) or creaming (Δρ < 0) speed v = D / h, m s⁻¹ */
+  speed: number;
+  direction: 'settles' | 'rises';
+  /** Time to cross the chamber depth, s (null without a depth) */
+  timeToCrossDepth: number | null;
+}
+
+export interface PracticalChecks {
+  fuel: FuelCheck[];
+  gas: GasCheck[];
+  sedimentation: SedimentationCheck[];
+  /** Total particle volume fraction Σ ρ_m (4/3)π a_m³ */
+  volumeFraction: number;
+}
+
+/** Warn when the fuel lasts fewer than this many growth times ("a few": common practice, no source). */
+export const FUEL_GROWTH_TIMES = 3;
+/** Observation horizon used for the gas check when none is given: 1 h (common practice, no source). */
+export const DEFAULT_HORIZON = 3600;
+
+const fmt = (x: number) => (Math.abs(x) >= 1e4 || Math.abs(x) < 1e-2 ? x.toExponential(2) : x.toPrecision(3));
+const seconds = (t: number) => (t >= 86400 ? `${fmt(t / 86400)} d` : t >= 3600 ? `${fmt(t / 3600)} h` : t >= 60 ? `${fmt(t / 60)} min` : `${fmt(t)} s`);
+const metres = (x: number) => (x >= 1e-3 ? `${fmt(x * 1e3)} mm` : `${fmt(x * 1e6)} µm`);
+
+/** Volume of a sphere of radius a, m³. */
+export const sphereVolume = (a: number) => (4 / 3) * Math.PI * a * a * a;
+
+/**
+ * Compute the practical checks and the warnings they raise.
+ *
+ * @param mix        the sample (SI)
+ * @param growthTime 1/λ_max in s, or null when stable
+ * @param wavelength fastest pattern wavelength in m, or null
+ * @param unstable   whether a pattern is predicted at all
+ */
+export function practicalChecks(
+  mix: Mixture,
+  growthTime: number | null,
+  wavelength: number | null,
+): { checks: PracticalChecks; warnings: Warning[] } {
+  const warnings: Warning[] = [];
+  const { alpha } = linearise(mix);
+  const S = mix.chemicals.length;
+  const fuel: FuelCheck[] = [];
+  const gas: GasCheck[] = [];
+  const duration = mix.conditions.duration;
+  mix.chemicals.forEach((c, s) => {
+    let net = 0;
+    mix.species.forEach((sp, m) => {
+      net += alpha[m * S + s]! * sp.density;
+    });
+    if (net < 0 && c.concentration > 0) {
+      const lifetime = c.concentration / -net;
+      fuel.push({ chemical: c.id, consumptionRate: -net, lifetime });
+      const short = growthTime !== null && lifetime < FUEL_GROWTH_TIMES * growthTime;
+      const beforeEnd = duration !== null && lifetime < duration;
+      if (short || beforeEnd) {
+        const why = short
+          ? `within ${FUEL_GROWTH_TIMES} growth times (growth time ${seconds(growthTime!)}): the pattern may not have time to form`
+          : `before the end of the planned observation (${seconds(duration!)})`;
+        warnings.push({
+          code: 'fuel-runs-out',
+          message: `${c.id} is used up in about ${seconds(lifetime)}, ${why}; raise its concentration or lower the particle density.`,
+          chemical: c.id,
+          lifetime,
+          growthTime,
+          duration,
+        });
+      }
+    }
+    if (c.solubility !== null && net > 0) {
+      const timeToSaturation = Math.max(0, (c.solubility - c.concentration) / net);
+      gas.push({ chemical: c.id, productionRate: net, solubility: c.solubility, timeToSaturation });
+      const horizon = Math.max(duration ?? DEFAULT_HORIZON, growthTime !== null ? FUEL_GROWTH_TIMES * growthTime : 0);
+      if (timeToSaturation < horizon) {
+        const sealed = mix.chamber.walls === 'sealed' ? ' In a sealed chamber the gas also builds pressure.' : '';
+        warnings.push({
+          code: 'gas-exceeds-solubility',
+          message: `${c.id} passes its solubility (${fmt(c.solubility)} mol/m^3) after about ${seconds(timeToSaturation)}, within the ${seconds(horizon)} horizon: bubbles will spoil imaging.${sealed}`,
+          chemical: c.id,
+          timeToSaturation,
+          horizon,
+        });
+      }
+    }
+  });
+
+  const sedimentation: SedimentationCheck[] = [];
+  const T = mix.conditions.temperature;
+  const depth = mix.chamber.depth;
+  let volumeFraction = 0;
+  for (const sp of mix.species) {
+    volumeFraction += sp.density * sphereVolume(sp.radius);
+    if (sp.materialDensity === null) continue;
+    const dRho = sp.materialDensity - mix.conditions.solventDensity;
+    if (dRho === 0) continue;
+    const h = (BOLTZMANN * T) / (Math.abs(dRho) * sphereVolume(sp.radius) * STANDARD_GRAVITY);
+    const speed = sp.diffusivity / h;
+    const direction = dRho > 0 ? 'settles' : 'rises';
+    const timeToCrossDepth = depth !== null ? depth / speed : null;
+    sedimentation.push({ species: sp.id, gravitationalHeight: h, speed, direction, timeToCrossDepth });
+    if (depth !== null && h < depth) {
+      warnings.push({
+        code: 'sedimentation',
+        message: `${sp.id} ${direction} into a layer about ${metres(h)} thick (chamber depth ${metres(depth)}), crossing the depth in about ${seconds(timeToCrossDepth!)}: the bulk model assumes a suspension that stays uniform in depth.`,
+        species: sp.id,
+        gravitationalHeight: h,
+        depth,
+        timeToCrossDepth,
+      });
+    }
+  }
+
+  if (wavelength !== null) {
+    const L = mix.chamber.length;
+    if (mix.chamber.walls === 'unbounded' && L !== null && wavelength > L) {
+      warnings.push({
+        code: 'pattern-larger-than-chamber',
+        message: `the predicted wavelength ${metres(wavelength)} exceeds the chamber size ${metres(L)}: the walls will set the pattern; analyse with sealed walls.`,
+        wavelength,
+        length: L,
+      });
+    }
+    const field = mix.conditions.fieldOfView;
+    if (field !== null && wavelength > field) {
+      warnings.push({
+        code: 'pattern-larger-than-field',
+        message: `the predicted wavelength ${metres(wavelength)} exceeds the imaging field ${metres(field)}: less than one period will be visible; use a lower magnification or tile the field.`,
+        wavelength,
+        fieldOfView: field,
+      });
+    }
+    const aMax = Math.max(0, ...mix.species.map((s) => s.radius));
+    if (wavelength < 10 * aMax) {
+      warnings.push({
+        code: 'pattern-near-particle-size',
+        message: `the predicted wavelength ${metres(wavelength)} is under ten particle radii (${metres(aMax)}): a continuum model is doubtful at that scale (common practice, no source).`,
+        wavelength,
+        radius: aMax,
+      });
+    }
+  }
+
+  if (volumeFraction > 0.1 && !mix.crowding) {
+    warnings.push({
+      code: 'dense-suspension',
+      message: `the particles fill ${fmt(volumeFraction * 100)} % of the volume with crowding off: the dilute model may misjudge the threshold; turn crowding on (common practice, no source).`,
+      volumeFraction,
+    });
+  } else if (volumeFraction > 0.2 && mix.crowding) {
+    warnings.push({
+      code: 'beyond-second-virial',
+      message: `the particles fill ${fmt(volumeFraction * 100)} % of the volume: the second-virial crowding term is a dilute-limit correction and is unreliable here (common practice, no source).`,
+      volumeFraction,
+    });
+  }
+  return { checks: { fuel, gas, sedimentation, volumeFraction }, warnings };
+}

@@ -1,0 +1,112 @@
+/**
+ * The spectrum of J'(k') at one wavenumber, summarised for the mode scan.
+ *
+ * For each k' the scan needs the largest real part over all eigenvalues, and
+ * separately over real eigenvalues (the stationary branch) and complex pairs
+ * (the oscillatory branch). Rank-one mixtures whose couplings share a sign have
+ * only real eigenvalues and take the secular path; all others use the general
+ * eigen routine.
+ */
+import { eigenvalues, eigenvector, type ComplexVector } from './linalg/eigen.js';
+import { jacobian, type ScaledModel } from './model.js';
+import { largestSecularRoot, sameSign } from './secular.js';
+
+/** Summary of the spectrum at one wavenumber (scaled units). */
+export interface ModeSpectrum {
+  k: number;
+  /** max Re λ over all eigenvalues */
+  maxRe: number;
+  /** |Im λ| of the eigenvalue attaining maxRe (0 when real) */
+  imAtMax: number;
+  /** max over real eigenvalues (−∞ if none) */
+  maxReal: number;
+  /** max Re over complex pairs (−∞ if none) */
+  maxComplex: number;
+  /** Imaginary part of that complex pair (≥ 0) */
+  imComplex: number;
+  converged: boolean;
+}
+
+/** Relative size of Im λ below which an eigenvalue counts as real (collisions split by ~√ε). */
+export const REAL_TOLERANCE = 1e-7;
+
+/** Rank-one weights c_m and poles p_m at k' (scaled), for the secular path. */
+export function secularTerms(model: ScaledModel, k: number): { c: Float64Array; poles: Float64Array } {
+  const { M } = model;
+  const k2 = k * k;
+  // k² g = 1/(D'_c + R'/k²): finite at large k, exact for the scalar chemical.
+  const k2g = 1 / (model.chemDiffusivity[0]! + model.reaction[0]! / k2);
+  const c = new Float64Array(M);
+  const poles = new Float64Array(M);
+  for (let m = 0; m < M; m++) {
+    c[m] = k2g * model.P[m]! * model.Q[m]!;
+    poles[m] = -k2 * model.diffusivity[m]!;
+  }
+  return { c, poles };
+}
+
+function matrixScale(J: Float64Array): number {
+  let s = 0;
+  for (const x of J) s = Math.max(s, Math.abs(x));
+  return s;
+}
+
+/**
+ * Evaluate the spectrum summary at scaled wavenumber k' > 0.
+ * Never throws on non-convergence: `converged` says so.
+ */
+export function modeSpectrum(model: ScaledModel, k: number): ModeSpectrum {
+  if (model.M === 0) return { k, maxRe: -Infinity, imAtMax: 0, maxReal: -Infinity, maxComplex: -Infinity, imComplex: 0, converged: true };
+  if (model.rankOne) {
+    const { c, poles } = secularTerms(model, k);
+    if (sameSign(c)) {
+      const top = largestSecularRoot(c, poles);
+      return { k, maxRe: top, imAtMax: 0, maxReal: top, maxComplex: -Infinity, imComplex: 0, converged: Number.isFinite(top) };
+    }
+  }
+  const J = jacobian(model, k);
+  return summarise(k, J, model.M);
+}
+
+function summarise(k: number, J: Float64Array, M: number): ModeSpectrum {
+  const spec = eigenvalues(J, M);
+  const tol = REAL_TOLERANCE * Math.max(matrixScale(J), Number.MIN_VALUE);
+  let maxRe = -Infinity;
+  let imAtMax = 0;
+  let maxReal = -Infinity;
+  let maxComplex = -Infinity;
+  let imComplex = 0;
+  for (let i = 0; i < M; i++) {
+    const re = spec.re[i]!;
+    const im = Math.abs(spec.im[i]!);
+    if (Number.isNaN(re)) continue;
+    if (re > maxRe) {
+      maxRe = re;
+      imAtMax = im > tol ? im : 0;
+    }
+    if (im > tol) {
+      if (re > maxComplex) {
+        maxComplex = re;
+        imComplex = im;
+      }
+    } else if (re > maxReal) {
+      maxReal = re;
+    }
+  }
+  return { k, maxRe, imAtMax, maxReal, maxComplex, imComplex, converged: spec.converged };
+}
+
+/** The eigenpair with the largest real part at k' (general routine), for the mode composition. */
+export function leadingEigenpair(model: ScaledModel, k: number): { re: number; im: number; vector: ComplexVector; converged: boolean; all: { re: Float64Array; im: Float64Array } } {
+  const J = jacobian(model, k);
+  const spec = eigenvalues(J, model.M);
+  let best = 0;
+  for (let i = 1; i < model.M; i++) {
+    if (spec.re[i]! > spec.re[best]! || (spec.re[i] === spec.re[best] && spec.im[i]! > spec.im[best]!)) best = i;
+  }
+  const tol = REAL_TOLERANCE * Math.max(matrixScale(J), Number.MIN_VALUE);
+  const re = spec.re[best]!;
+  const im = Math.abs(spec.im[best]!) > tol ? Math.abs(spec.im[best]!) : 0;
+  const vector = eigenvector(J, model.M, re, im);
+  return { re, im, vector, converged: spec.converged, all: { re: spec.re, im: spec.im } };
+}

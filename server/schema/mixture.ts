@@ -1,0 +1,310 @@
+/**
+ * The mixture file (model.md §9): a zod schema that validates the JSON, reads
+ * every physical value through `server/units/` into SI, and converts the
+ * result to the engine's `Mixture`. Errors carry field paths such as
+ * `species[2].diffusivity`.
+ *
+ * The JSON Schema of the input format is generated from this file by
+ * `npm run schema` into `server/schema/mixture.schema.json` (a test keeps the
+ * committed copy in step).
+ */
+import { z } from 'zod';
+import { DEFAULT_TEMPERATURE, WATER_DENSITY_25C } from '../engine/constants.js';
+import { sphereVolume } from '../engine/checks.js';
+import type { Activity, Chemical, Coupling, Mixture, Species } from '../engine/types.js';
+import { DIMENSIONS, formatDimension, parseQuantity, UnitError, type Dimension, type Quantity, type Sign } from '../units/index.js';
+
+const scalarInput = z.union([z.number(), z.string()]);
+const valueInput = z.union([scalarInput, z.strictObject({ value: scalarInput, sd: scalarInput.optional() })]);
+
+/** A physical value field of the given dimension and sign, read into SI. */
+export function quantity(dimension: Dimension, sign: Sign, description: string) {
+  return valueInput
+    .describe(`${description} — SI number, string with a unit (${formatDimension(dimension)}), or { value, sd }`)
+    .transform((raw, ctx): Quantity => {
+      try {
+        return parseQuantity(raw, { dimension, sign }, '');
+      } catch (e) {
+        if (e instanceof UnitError) {
+          const suffix = e.path.split('.').filter((p) => p !== '');
+          ctx.issues.push({ code: 'custom', message: e.reason, input: raw, path: suffix });
+          return z.NEVER;
+        }
+        throw e;
+      }
+    });
+}
+
+const id = z.string().min(1).max(64).regex(/^[A-Za-z0-9][A-Za-z0-9_.:-]*$/, 'an id is letters, digits and _ . : - (starting with a letter or digit)');
+
+const chemicalSchema = z.strictObject({
+  id,
+  name: z.string().optional(),
+  diffusivity: quantity(DIMENSIONS.diffusivity, 'positive', 'diffusivity D_s'),
+  lossRate: quantity(DIMENSIONS.rate, 'nonnegative', 'first-order bulk loss rate κ_s').optional(),
+  concentration: quantity(DIMENSIONS.concentration, 'nonnegative', 'uniform concentration c_s').optional(),
+  solubility: quantity(DIMENSIONS.concentration, 'positive', 'saturation concentration when the chemical is a gas').optional(),
+});
+
+const saturatingSchema = z.strictObject({
+  maxRate: quantity(DIMENSIONS.amountRate, 'nonnegative', 'per-particle maximal turnover V'),
+  michaelis: quantity(DIMENSIONS.concentration, 'positive', 'Michaelis constant K_m'),
+  product: id.nullable().optional(),
+});
+
+const couplingSchema = z
+  .strictObject({
+    chemical: id,
+    activity: z.union([saturatingSchema, quantity(DIMENSIONS.amountRate, 'any', 'activity α (> 0 produces, < 0 consumes)')]).optional(),
+    mobility: quantity(DIMENSIONS.mobility, 'any', 'mobility μ (> 0 repelled, < 0 attracted)').optional(),
+  })
+  .refine((c) => c.activity !== undefined || c.mobility !== undefined, { message: 'a coupling needs an activity, a mobility or both' });
+
+const speciesSchema = z.strictObject({
+  id,
+  name: z.string().optional(),
+  diffusivity: quantity(DIMENSIONS.diffusivity, 'positive', 'translational diffusivity D_m'),
+  radius: quantity(DIMENSIONS.length, 'positive', 'hydrodynamic radius a_m'),
+  density: quantity(DIMENSIONS.numberDensity, 'nonnegative', 'number density ρ_m').optional(),
+  volumeFraction: quantity(DIMENSIONS.dimensionless, 'nonnegative', 'volume fraction, instead of density').optional(),
+  materialDensity: quantity(DIMENSIONS.massDensity, 'positive', 'mass density of the particle material (sedimentation)').optional(),
+  couplings: z.array(couplingSchema).default([]),
+});
+
+const chamberSchema = z.strictObject({
+  walls: z.enum(['sealed', 'periodic', 'unbounded']),
+  length: quantity(DIMENSIONS.length, 'positive', 'lateral chamber size L').optional(),
+  depth: quantity(DIMENSIONS.length, 'positive', 'chamber depth H').optional(),
+});
+
+const conditionsSchema = z.strictObject({
+  temperature: quantity(DIMENSIONS.temperature, 'positive', 'temperature (default 25 °C)').optional(),
+  solventDensity: quantity(DIMENSIONS.massDensity, 'positive', 'solvent mass density (default water, 997.05 kg/m^3)').optional(),
+  duration: quantity(DIMENSIONS.time, 'positive', 'planned observation time').optional(),
+  fieldOfView: quantity(DIMENSIONS.length, 'positive', 'width of the imaging field').optional(),
+});
+
+type ParsedSpecies = z.output<typeof speciesSchema>;
+
+/** Cross-field rules: ids unique and referenced ids present, chamber length where walls need it. */
+function crossCheck(
+  m: { chemicals: { id: string }[]; species: ParsedSpecies[]; chamber: z.output<typeof chamberSchema> },
+  ctx: z.RefinementCtx,
+  needAmount: boolean,
+): void {
+  const chem = new Set<string>();
+  m.chemicals.forEach((c, i) => {
+    if (chem.has(c.id)) ctx.addIssue({ code: 'custom', message: `duplicate chemical id "${c.id}"`, path: ['chemicals', i, 'id'] });
+    chem.add(c.id);
+  });
+  const sp = new Set<string>();
+  m.species.forEach((s, i) => {
+    if (sp.has(s.id)) ctx.addIssue({ code: 'custom', message: `duplicate species id "${s.id}"`, path: ['species', i, 'id'] });
+    sp.add(s.id);
+    if (needAmount && s.density === undefined && s.volumeFraction === undefined) {
+      ctx.addIssue({ code: 'custom', message: 'give density (number density) or volumeFraction', path: ['species', i, 'density'] });
+    }
+    if (s.density !== undefined && s.volumeFraction !== undefined) {
+      ctx.addIssue({ code: 'custom', message: 'give density or volumeFraction, not both', path: ['species', i, 'volumeFraction'] });
+    }
+    s.couplings.forEach((c, j) => {
+      if (!chem.has(c.chemical)) ctx.addIssue({ code: 'custom', message: `unknown chemical "${c.chemical}"`, path: ['species', i, 'couplings', j, 'chemical'] });
+      const a = c.activity;
+      if (a !== undefined && 'maxRate' in a && a.product != null) {
+        if (!chem.has(a.product)) ctx.addIssue({ code: 'custom', message: `unknown chemical "${a.product}"`, path: ['species', i, 'couplings', j, 'activity', 'product'] });
+        if (a.product === c.chemical) ctx.addIssue({ code: 'custom', message: 'the product must differ from the fuel', path: ['species', i, 'couplings', j, 'activity', 'product'] });
+      }
+    });
+  });
+  if (m.chamber.walls !== 'unbounded' && m.chamber.length === undefined) {
+    ctx.addIssue({ code: 'custom', message: `required for ${m.chamber.walls} walls (expected length)`, path: ['chamber', 'length'] });
+  }
+}
+
+const mixtureObject = z.strictObject({
+  $schema: z.string().optional(),
+  name: z.string().optional(),
+  description: z.string().optional(),
+  chemicals: z.array(chemicalSchema).default([]),
+  species: z.array(speciesSchema).min(1, 'a mixture needs at least one species'),
+  chamber: chamberSchema,
+  crowding: z.boolean().default(false),
+  conditions: conditionsSchema.optional(),
+});
+
+/** The mixture file, validated and read into SI quantities. */
+export const mixtureSchema = mixtureObject.superRefine((m, ctx) => crossCheck(m, ctx, true));
+export type MixtureInput = z.input<typeof mixtureSchema>;
+export type ParsedMixture = z.output<typeof mixtureSchema>;
+
+/** A candidate species (as in the mixture file; its density is ignored). */
+export const candidateSchema = speciesSchema;
+
+function sdOf<K extends string>(entries: [K, Quantity | undefined][]): Partial<Record<K, number>> | undefined {
+  const out: Partial<Record<K, number>> = {};
+  let any = false;
+  for (const [k, q] of entries) {
+    if (q !== undefined && q.sd > 0) {
+      out[k] = q.sd;
+      any = true;
+    }
+  }
+  return any ? out : undefined;
+}
+
+function toCoupling(c: ParsedSpecies['couplings'][number]): Coupling {
+  let activity: Activity | null = null;
+  let sd: Coupling['sd'];
+  const a = c.activity;
+  if (a !== undefined && 'maxRate' in a) {
+    activity = { kind: 'saturating', maxRate: a.maxRate.value, michaelis: a.michaelis.value, product: a.product ?? null };
+    sd = sdOf([
+      ['maxRate', a.maxRate],
+      ['michaelis', a.michaelis],
+      ['mobility', c.mobility],
+    ]);
+  } else {
+    if (a !== undefined) activity = { kind: 'constant', rate: a.value };
+    sd = sdOf([
+      ['rate', a],
+      ['mobility', c.mobility],
+    ]);
+  }
+  const out: Coupling = { chemical: c.chemical, activity, mobility: c.mobility?.value ?? 0 };
+  if (sd) out.sd = sd;
+  return out;
+}
+
+/** One parsed species to the engine's form; `volumeFraction` becomes a number density via the radius. */
+export function toEngineSpecies(s: ParsedSpecies): Species {
+  const radius = s.radius.value;
+  let density = s.density?.value ?? 0;
+  let densitySd = s.density?.sd ?? 0;
+  if (s.volumeFraction !== undefined) {
+    const v = sphereVolume(radius);
+    density = s.volumeFraction.value / v;
+    densitySd = s.volumeFraction.sd / v;
+  }
+  const out: Species = {
+    id: s.id,
+    diffusivity: s.diffusivity.value,
+    radius,
+    density,
+    materialDensity: s.materialDensity?.value ?? null,
+    couplings: s.couplings.map(toCoupling),
+  };
+  const sd = sdOf([
+    ['diffusivity', s.diffusivity],
+    ['radius', s.radius],
+    ['materialDensity', s.materialDensity],
+  ]);
+  if (sd || densitySd > 0) out.sd = { ...(sd ?? {}), ...(densitySd > 0 ? { density: densitySd } : {}) };
+  return out;
+}
+
+/** Convert a parsed mixture file to the engine's SI `Mixture`. */
+export function toEngineMixture(m: ParsedMixture): Mixture {
+  const chemicals: Chemical[] = m.chemicals.map((c) => {
+    const out: Chemical = {
+      id: c.id,
+      diffusivity: c.diffusivity.value,
+      lossRate: c.lossRate?.value ?? 0,
+      concentration: c.concentration?.value ?? 0,
+      solubility: c.solubility?.value ?? null,
+    };
+    const sd = sdOf([
+      ['diffusivity', c.diffusivity],
+      ['lossRate', c.lossRate],
+      ['concentration', c.concentration],
+      ['solubility', c.solubility],
+    ]);
+    if (sd) out.sd = sd;
+    return out;
+  });
+  const cond = m.conditions ?? {};
+  return {
+    chemicals,
+    species: m.species.map(toEngineSpecies),
+    chamber: { walls: m.chamber.walls, length: m.chamber.length?.value ?? null, depth: m.chamber.depth?.value ?? null },
+    crowding: m.crowding,
+    conditions: {
+      temperature: cond.temperature?.value ?? DEFAULT_TEMPERATURE,
+      solventDensity: cond.solventDensity?.value ?? WATER_DENSITY_25C,
+      duration: cond.duration?.value ?? null,
+      fieldOfView: cond.fieldOfView?.value ?? null,
+    },
+  };
+}
+
+/** `["species", 2, "diffusivity"]` → `species[2].diffusivity`. */
+export function formatPath(path: readonly PropertyKey[]): string {
+  let out = '';
+  for (const p of path) {
+    if (typeof p === 'number') out += `[${p}]`;
+    else out += out === '' ? String(p) : `.${String(p)}`;
+  }
+  return out;
+}
+
+type Issue = z.core.$ZodIssue;
+
+/** Whether an issue only says "this branch has the wrong shape" (type or key mismatch at its root). */
+function shapeMismatch(i: Issue): boolean {
+  if (i.code === 'invalid_type' && i.path.length === 0) return true;
+  if (i.code === 'unrecognized_keys' && i.path.length === 0) return true;
+  if (i.code === 'invalid_union') return (i as Issue & { errors: Issue[][] }).errors.every((b) => b.some(shapeMismatch));
+  return false;
+}
+
+function leaves(i: Issue): Issue[] {
+  if (i.code !== 'invalid_union') return [i];
+  return (i as Issue & { errors: Issue[][] }).errors.flatMap((b) => b.flatMap(leaves));
+}
+
+/** Replace union failures by the issues of the branch the input was evidently meant for. */
+function flatten(issues: readonly Issue[], prefix: PropertyKey[] = []): { path: PropertyKey[]; message: string; code: string }[] {
+  const out: { path: PropertyKey[]; message: string; code: string }[] = [];
+  for (const i of issues) {
+    const path = [...prefix, ...i.path];
+    if (i.code === 'invalid_union') {
+      const branches = (i as Issue & { errors: Issue[][] }).errors;
+      const meant = branches.filter((b) => !b.some(shapeMismatch));
+      if (meant.length > 0) {
+        out.push(...flatten(meant[0]!, path));
+        continue;
+      }
+      const missing = leaves(i).every((l) => l.code === 'invalid_type' && /received undefined/.test(l.message));
+      out.push({ path, code: 'invalid_union', message: missing ? 'missing' : 'expected a number in SI, a string with a unit, or an object of the documented form' });
+      continue;
+    }
+    out.push({ path, code: i.code, message: i.message });
+  }
+  return out;
+}
+
+/** One line per problem: `path: message`. */
+export function formatIssues(error: z.ZodError): string[] {
+  return flatten(error.issues).map((i) => {
+    const path = formatPath(i.path);
+    let msg = i.message;
+    if (i.code === 'invalid_type' && /received undefined/.test(msg)) msg = `missing (${msg.replace(/^Invalid input: /, '')})`;
+    return path ? `${path}: ${msg}` : msg;
+  });
+}
+
+export class MixtureFileError extends Error {
+  override readonly name = 'MixtureFileError';
+  constructor(readonly problems: string[]) {
+    super(problems.join('\n'));
+  }
+}
+
+/**
+ * Parse a mixture document (already JSON-decoded) into the engine's SI form.
+ * @throws MixtureFileError listing every problem with its field path
+ */
+export function parseMixture(doc: unknown): Mixture {
+  const r = mixtureSchema.safeParse(doc);
+  if (!r.success) throw new MixtureFileError(formatIssues(r.error));
+  return toEngineMixture(r.data);
+}
