@@ -293,26 +293,33 @@ export function scanModes(model: ScaledModel, walls: Walls, options: ScanOptions
       const r = model.reaction[s * model.S + s]!;
       if (r > 0) kLo = Math.min(kLo, 1e-4 * Math.sqrt(r / model.chemDiffusivity[s]!));
     }
-    const tiny = t.eval(kLo * 1e-4);
-    const fRef = model.reactionSingular ? tiny.maxRe : Math.max(0, tiny.maxRe);
+    // J'(k') = J'(0+) + O(k'²): step k' down by factors of 100 until the value settles
+    // at the rounding level of J'; a limit within rounding of 0 is 0 (the null space
+    // of a singular R' or of the coupling gives eigenvalues → 0).
+    let tiny = t.eval(kLo * 1e-2);
+    if (model.reactionSingular) {
+      for (let j = 2; j <= 12; j++) {
+        const next = t.eval(kLo * 10 ** (-2 * j));
+        const settled = Math.abs(next.maxRe - tiny.maxRe) <= 1e-12 * next.scale;
+        tiny = next;
+        if (settled) break;
+      }
+    }
+    const limitValue = !model.reactionSingular || Math.abs(tiny.maxRe) <= 1e-11 * tiny.scale ? 0 : tiny.maxRe;
+    const fRef = limitValue;
     kHi = Math.sqrt(cutoff(bound, fRef, model));
     kLo = Math.min(kLo, kHi * 1e-4);
     const ks = logGrid(kLo, kHi, perDecade);
     const offerK = (k: number) => t.offer(t.eval(k));
-    const specs = gridSearch(ks, offerK);
+    gridSearch(ks, offerK);
     const best = t.best.maxRe!;
     // Supremum at the long-wave end: the maximum sits on the first grid point and
     // the curve falls away from it.
-    if (best.spec.k <= ks[0]! * (1 + 1e-9) || (specs.length > 1 && specs[0]!.maxRe >= best.spec.maxRe)) {
+    if (best.spec.k < (ks[1] ?? Infinity) || best.spec.maxRe <= limitValue) {
       longWaveLimit = true;
-    }
-    if (longWaveLimit) {
-      const limitValue = model.reactionSingular ? tiny.maxRe : 0;
-      const limitSpec: ModeSpectrum = { ...tiny, k: 0, maxRe: limitValue };
-      if (!model.reactionSingular) {
-        limitSpec.maxReal = Math.max(tiny.maxReal, limitValue);
-      }
+      const limitSpec: ModeSpectrum = { ...tiny, k: 0, maxRe: limitValue, imAtMax: 0, maxReal: Math.max(tiny.maxReal, limitValue) };
       t.best.maxRe = { spec: limitSpec, index: null };
+      if (!(t.best.maxReal !== null && t.best.maxReal.spec.maxReal > limitValue)) t.best.maxReal = { spec: limitSpec, index: null };
     }
   }
 

@@ -25,6 +25,8 @@ export interface ModeSpectrum {
   /** Imaginary part of that complex pair (≥ 0) */
   imComplex: number;
   converged: boolean;
+  /** Largest |entry| of J'(k') (or of the secular poles and weights): the rounding scale of the values above */
+  scale: number;
 }
 
 /** Relative size of Im λ below which an eigenvalue counts as real (collisions split by ~√ε). */
@@ -56,12 +58,14 @@ function matrixScale(J: Float64Array): number {
  * Never throws on non-convergence: `converged` says so.
  */
 export function modeSpectrum(model: ScaledModel, k: number): ModeSpectrum {
-  if (model.M === 0) return { k, maxRe: -Infinity, imAtMax: 0, maxReal: -Infinity, maxComplex: -Infinity, imComplex: 0, converged: true };
+  if (model.M === 0) return { k, maxRe: -Infinity, imAtMax: 0, maxReal: -Infinity, maxComplex: -Infinity, imComplex: 0, converged: true, scale: 0 };
   if (model.rankOne) {
     const { c, poles } = secularTerms(model, k);
     if (sameSign(c)) {
       const top = largestSecularRoot(c, poles);
-      return { k, maxRe: top, imAtMax: 0, maxReal: top, maxComplex: -Infinity, imComplex: 0, converged: Number.isFinite(top) };
+      let scale = 0;
+      for (let m = 0; m < model.M; m++) scale = Math.max(scale, Math.abs(c[m]!), Math.abs(poles[m]!));
+      return { k, maxRe: top, imAtMax: 0, maxReal: top, maxComplex: -Infinity, imComplex: 0, converged: Number.isFinite(top), scale };
     }
   }
   const J = jacobian(model, k);
@@ -70,7 +74,8 @@ export function modeSpectrum(model: ScaledModel, k: number): ModeSpectrum {
 
 function summarise(k: number, J: Float64Array, M: number): ModeSpectrum {
   const spec = eigenvalues(J, M);
-  const tol = REAL_TOLERANCE * Math.max(matrixScale(J), Number.MIN_VALUE);
+  const scale = matrixScale(J);
+  const tol = REAL_TOLERANCE * Math.max(scale, Number.MIN_VALUE);
   let maxRe = -Infinity;
   let imAtMax = 0;
   let maxReal = -Infinity;
@@ -93,7 +98,7 @@ function summarise(k: number, J: Float64Array, M: number): ModeSpectrum {
       maxReal = re;
     }
   }
-  return { k, maxRe, imAtMax, maxReal, maxComplex, imComplex, converged: spec.converged };
+  return { k, maxRe, imAtMax, maxReal, maxComplex, imComplex, converged: spec.converged, scale };
 }
 
 /** The eigenpair with the largest real part at k' (general routine), for the mode composition. */
