@@ -7,11 +7,15 @@
  * status 2 and name the field; no stack traces (set BRINK_DEBUG=1 to see one
  * for an internal error, which exits with status 1).
  */
-import { readFileSync } from 'node:fs';
+import { existsSync, readFileSync, rmSync } from 'node:fs';
+import { createInterface } from 'node:readline/promises';
 import { parseArgs } from 'node:util';
 import { analyze, type AnalysisResult } from './engine/analyze.js';
 import { EngineDomainError, EngineInputError } from './engine/types.js';
 import { MixtureFileError, parseMixture } from './schema/mixture.js';
+import { InputError } from './shelf/errors.js';
+import { seedDemoShelf } from './shelf/seed.js';
+import { DatabaseTooNewError, openDatabase } from './store/db.js';
 
 export interface Io {
   out: (text: string) => void;
@@ -27,7 +31,11 @@ const USAGE = `brink — experiment-design planner for catalytic mixtures
 
 usage:
   brink analyze <mixture.json> [--format json|text]   linear stability of one sample
+  brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
+  brink seed [--reset] [--yes] [--db PATH]             load the demo shelf; --reset empties the database first
   brink help                                         this text
+
+defaults: --db ./data/brink.sqlite, --port 3080, --host 127.0.0.1
 
 Values in the mixture file are SI numbers or strings with units ("0.25 um^2/s",
 "50 mM", "1e-3 um^-3", "5 percent"); see seeds/examples/ and README.md.
@@ -104,6 +112,60 @@ function cmdAnalyze(args: string[], io: Io): number {
   return 0;
 }
 
+export const defaults = () => ({
+  db: process.env.BRINK_DB ?? 'data/brink.sqlite',
+  port: process.env.PORT ?? '3080',
+  host: process.env.HOST ?? '127.0.0.1',
+});
+
+function parsePort(text: string): number {
+  const n = Number(text);
+  if (!Number.isInteger(n) || n < 0 || n > 65535) throw new UsageError(`--port: expected an integer from 0 to 65535, got "${text}"`);
+  return n;
+}
+
+async function cmdServe(args: string[]): Promise<number> {
+  const d = defaults();
+  const { values } = parseArgs({ args, options: { db: { type: 'string', default: d.db }, port: { type: 'string', default: d.port }, host: { type: 'string', default: d.host } } });
+  const { serve } = await import('./serve.js');
+  await serve({ dbPath: values.db, port: parsePort(values.port), host: values.host });
+  return await new Promise<number>(() => {
+    /* runs until a signal closes the server (serve.ts exits the process) */
+  });
+}
+
+async function confirm(question: string): Promise<boolean> {
+  if (!process.stdin.isTTY) return false;
+  const rl = createInterface({ input: process.stdin, output: process.stderr });
+  try {
+    const answer = await rl.question(question);
+    return /^y(es)?$/i.test(answer.trim());
+  } finally {
+    rl.close();
+  }
+}
+
+async function cmdSeed(args: string[], io: Io): Promise<number> {
+  const { values } = parseArgs({ args, options: { db: { type: 'string', default: defaults().db }, reset: { type: 'boolean', default: false }, yes: { type: 'boolean', default: false } } });
+  const path = values.db;
+  if (values.reset && existsSync(path)) {
+    const ok = values.yes || (await confirm(`This deletes ${path} (the whole shelf, every revision) and loads the demo shelf. Continue? [y/N] `));
+    if (!ok) {
+      io.err(values.yes || process.stdin.isTTY ? 'not reset\n' : 'refusing to reset without --yes (no terminal to ask)\n');
+      return 2;
+    }
+    for (const f of [path, `${path}-wal`, `${path}-shm`]) rmSync(f, { force: true });
+  }
+  const db = openDatabase(path);
+  try {
+    const s = seedDemoShelf(db);
+    io.out(`demo shelf loaded into ${path}: ${s.created} created, ${s.revised} revised, ${s.unchanged} unchanged\n`);
+  } finally {
+    db.close();
+  }
+  return 0;
+}
+
 /**
  * Run the command line with the given arguments (without `node` and the script).
  * @returns the exit status
@@ -114,6 +176,10 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
     switch (cmd) {
       case 'analyze':
         return cmdAnalyze(rest, io);
+      case 'serve':
+        return await cmdServe(rest);
+      case 'seed':
+        return await cmdSeed(rest, io);
       case undefined:
       case 'help':
       case '--help':
@@ -128,15 +194,23 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
       io.err(`invalid mixture:\n${e.problems.map((p) => `  ${p}`).join('\n')}\n`);
       return 2;
     }
-    if (e instanceof UsageError || e instanceof EngineInputError) {
+    if (e instanceof UsageError || e instanceof EngineInputError || e instanceof DatabaseTooNewError) {
       io.err(`${e.message}\n`);
+      return 2;
+    }
+    if (e instanceof InputError) {
+      io.err(`invalid input:\n${e.problems.map((p) => `  ${p.path}: ${p.message}`).join('\n')}\n`);
+      return 2;
+    }
+    if ((e as NodeJS.ErrnoException).code === 'EADDRINUSE') {
+      io.err(`${(e as Error).message}: choose another --port\n`);
       return 2;
     }
     if (e instanceof EngineDomainError) {
       io.err(`cannot analyse this mixture (${e.code}): ${e.message}\n`);
       return 2;
     }
-    if (e instanceof Error && (e as NodeJS.ErrnoException).code === 'ERR_PARSE_ARGS_UNKNOWN_OPTION') {
+    if (e instanceof Error && /^ERR_PARSE_ARGS_/.test(String((e as NodeJS.ErrnoException).code))) {
       io.err(`${e.message}\n`);
       return 2;
     }

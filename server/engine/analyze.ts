@@ -46,7 +46,7 @@ export interface Criterion {
 }
 
 export interface Criteria {
-  /** `rank-one`: one chemical, no saturation products, no crowding (closed forms apply) */
+  /** `rank-one`: one chemical that moves the particles, no crowding (closed forms apply) */
   structure: 'rank-one' | 'general';
   /** The wavenumber the long-wave criteria are read at: k₁ of the chamber, or 0 when unbounded (1/m) */
   referenceWavenumber: number;
@@ -144,8 +144,7 @@ function criteria(mix: Mixture, model: ScaledModel): Criteria {
   const discrete = mix.chamber.walls !== 'unbounded';
   const kRefScaled = discrete ? 1 : 0;
   const kRef = kRefScaled / model.lengthUnit;
-  const saturating = mix.species.some((s) => s.couplings.some((c) => c.activity?.kind === 'saturating' && c.activity.product !== null));
-  const rankOne = model.S === 1 && !mix.crowding && !saturating;
+  const rankOne = model.rankOne;
   let det: Criterion | null = null;
   if (model.S > 0 && (discrete || !model.reactionSingular)) {
     const v = determinantIndex(model, kRefScaled);
@@ -156,7 +155,7 @@ function criteria(mix: Mixture, model: ScaledModel): Criteria {
   if (!rankOne) {
     return { structure: 'general', referenceWavenumber: kRef, screeningRate: null, stationary: null, oscillatory: null, determinant: det };
   }
-  const chem = mix.chemicals[0]!;
+  const chem = mix.chemicals[model.chemicalIndex[0]!]!;
   const gamma = chem.diffusivity * kRef * kRef + model.si.reaction[0]!;
   let sumOverD = 0;
   let sum = 0;

@@ -17,7 +17,7 @@
  * pair) can turn positive through the trace before det J changes sign, and only
  * the spectrum can tell (`firstCrossing: false`).
  */
-import { linearise } from './model.js';
+import { buildModel, linearise } from './model.js';
 import type { Mixture, Species } from './types.js';
 
 export type ClosedFormResult =
@@ -48,26 +48,30 @@ export function firstWavenumber(mix: Mixture): number {
  * @example stationaryDoseClosedForm(base, dopant) // { applicable: true, dose: 3.1e14, … }
  */
 export function stationaryDoseClosedForm(base: Mixture, d: Species): ClosedFormResult {
-  if (base.chemicals.length !== 1) return { applicable: false, reason: 'needs exactly one chemical' };
   if (base.crowding) return { applicable: false, reason: 'crowding couples the species beyond rank one' };
   const all = [...base.species, d];
   if (all.some((s) => s.couplings.some((c) => c.activity?.kind === 'saturating'))) {
     return { applicable: false, reason: 'a saturating activity depends on the fuel level' };
   }
-  const chem = base.chemicals[0]!;
-  const { alpha, mu } = linearise({ ...base, species: base.species.map((s) => ({ ...s })) });
+  // The chemicals that can move a particle, with the dopant present (density is irrelevant here).
+  const model = buildModel({ ...base, species: [...base.species, { ...d, density: 0 }] });
+  if (model.S !== 1) return { applicable: false, reason: 'needs exactly one chemical that moves the particles' };
+  const sIdx = model.chemicalIndex[0]!;
+  const chem = base.chemicals[sIdx]!;
+  const S = base.chemicals.length;
+  const { alpha, mu } = linearise({ ...base, species: all });
   let sum = 0;
   let pos = false;
   let neg = false;
   base.species.forEach((s, m) => {
-    const w = alpha[m]! * mu[m]! * s.density;
+    const w = alpha[m * S + sIdx]! * mu[m * S + sIdx]! * s.density;
     sum += w / s.diffusivity;
     if (w > 0) pos = true;
     if (w < 0) neg = true;
   });
-  const dl = linearise({ ...base, species: [{ ...d, density: 1 }] });
-  const ad = dl.alpha[0]!;
-  const md = dl.mu[0]!;
+  const dIdx = base.species.length;
+  const ad = alpha[dIdx * S + sIdx]!;
+  const md = mu[dIdx * S + sIdx]!;
   if (ad * md === 0) return { applicable: false, reason: 'the dopant has no activity × mobility on this chemical' };
   const k1 = firstWavenumber(base);
   const gamma = chem.diffusivity * k1 * k1 + chem.lossRate;

@@ -25,7 +25,10 @@ export interface ScaledModel {
   M: number;
   S: number;
   speciesIds: string[];
+  /** ids of the chemicals kept in the linear model (those that can move a particle) */
   chemicalIds: string[];
+  /** index in mix.chemicals of each kept chemical */
+  chemicalIndex: number[];
   /** ℓ, m */
   lengthUnit: number;
   /** τ, s */
@@ -49,7 +52,7 @@ export interface ScaledModel {
   rankOne: boolean;
   /** Whether R (SI) has a zero or negative eigenvalue direction (no loss for some chemical). */
   reactionSingular: boolean;
-  /** SI intermediates for the criteria and checks. */
+  /** SI intermediates for the criteria and checks (kept chemicals only). */
   si: {
     /** α_ms(c⁰) (M×S), mol s⁻¹ */
     alpha: Float64Array;
@@ -189,9 +192,32 @@ function chooseLength(mix: Mixture, alpha: Float64Array, mu: Float64Array, react
 export function buildModel(mix: Mixture): ScaledModel {
   validateMixture(mix);
   const M = mix.species.length;
-  const S = mix.chemicals.length;
-  const { alpha, mu, reaction } = linearise(mix);
-  const ell = M === 0 ? 1 : chooseLength(mix, alpha, mu, reaction);
+  const full = linearise(mix);
+  // A chemical that no species responds to (μ = 0 throughout) and that is not the
+  // fuel of a saturating turnover cannot change J: drop it (exact reduction, since
+  // R only couples a fuel's column to its product's row).
+  const Sfull = mix.chemicals.length;
+  const fuels = new Set<string>();
+  for (const sp of mix.species) for (const c of sp.couplings) if (c.activity?.kind === 'saturating') fuels.add(c.chemical);
+  const chemicalIndex: number[] = [];
+  for (let s = 0; s < Sfull; s++) {
+    let moves = false;
+    for (let m = 0; m < M; m++) if (full.mu[m * Sfull + s] !== 0) moves = true;
+    if (moves || fuels.has(mix.chemicals[s]!.id)) chemicalIndex.push(s);
+  }
+  const S = chemicalIndex.length;
+  const alpha = new Float64Array(M * S);
+  const mu = new Float64Array(M * S);
+  const reaction = new Float64Array(S * S);
+  for (let m = 0; m < M; m++) {
+    chemicalIndex.forEach((sf, s) => {
+      alpha[m * S + s] = full.alpha[m * Sfull + sf]!;
+      mu[m * S + s] = full.mu[m * Sfull + sf]!;
+    });
+  }
+  chemicalIndex.forEach((sf, s) => chemicalIndex.forEach((tf, t) => (reaction[s * S + t] = full.reaction[sf * Sfull + tf]!)));
+  const kept = { ...mix, chemicals: chemicalIndex.map((i) => mix.chemicals[i]!) };
+  const ell = M === 0 ? 1 : chooseLength(kept, alpha, mu, reaction);
   const Dref = M === 0 ? 1 : Math.max(...mix.species.map((s) => s.diffusivity));
   const tau = (ell * ell) / Dref;
 
@@ -203,7 +229,7 @@ export function buildModel(mix: Mixture): ScaledModel {
       amax = Math.max(amax, Math.abs(alpha[m * S + s]!));
       pmax = Math.max(pmax, Math.abs(mix.species[m]!.density * mu[m * S + s]!));
     }
-    const c0 = mix.chemicals[s]!.concentration;
+    const c0 = kept.chemicals[s]!.concentration;
     cstar[s] = amax > 0 && pmax > 0 ? Math.sqrt(amax / pmax) / (ell * ell) : c0 > 0 ? c0 : 1;
   }
 
@@ -223,7 +249,7 @@ export function buildModel(mix: Mixture): ScaledModel {
     }
   }
   const chemDiffusivity = new Float64Array(S);
-  mix.chemicals.forEach((c, s) => {
+  kept.chemicals.forEach((c, s) => {
     chemDiffusivity[s] = (c.diffusivity * tau) / (ell * ell);
   });
   const R = new Float64Array(S * S);
@@ -247,7 +273,8 @@ export function buildModel(mix: Mixture): ScaledModel {
     M,
     S,
     speciesIds: mix.species.map((s) => s.id),
-    chemicalIds: mix.chemicals.map((c) => c.id),
+    chemicalIds: kept.chemicals.map((c) => c.id),
+    chemicalIndex,
     lengthUnit: ell,
     timeUnit: tau,
     concentrationUnits: cstar,

@@ -71,13 +71,13 @@ const speciesSchema = z.strictObject({
   couplings: z.array(couplingSchema).default([]),
 });
 
-const chamberSchema = z.strictObject({
+export const chamberSchema = z.strictObject({
   walls: z.enum(['sealed', 'periodic', 'unbounded']),
   length: quantity(DIMENSIONS.length, 'positive', 'lateral chamber size L').optional(),
   depth: quantity(DIMENSIONS.length, 'positive', 'chamber depth H').optional(),
 });
 
-const conditionsSchema = z.strictObject({
+export const conditionsSchema = z.strictObject({
   temperature: quantity(DIMENSIONS.temperature, 'positive', 'temperature (default 25 °C)').optional(),
   solventDensity: quantity(DIMENSIONS.massDensity, 'positive', 'solvent mass density (default water, 997.05 kg/m^3)').optional(),
   duration: quantity(DIMENSIONS.time, 'positive', 'planned observation time').optional(),
@@ -282,14 +282,18 @@ function flatten(issues: readonly Issue[], prefix: PropertyKey[] = []): { path: 
   return out;
 }
 
-/** One line per problem: `path: message`. */
-export function formatIssues(error: z.ZodError): string[] {
-  return flatten(error.issues).map((i) => {
-    const path = formatPath(i.path);
+/** Every problem as `{ path, message }`, unions resolved to the branch that was meant. */
+export function issueList(error: z.ZodError, prefix: PropertyKey[] = []): { path: string; message: string }[] {
+  return flatten(error.issues, prefix).map((i) => {
     let msg = i.message;
     if (i.code === 'invalid_type' && /received undefined/.test(msg)) msg = `missing (${msg.replace(/^Invalid input: /, '')})`;
-    return path ? `${path}: ${msg}` : msg;
+    return { path: formatPath(i.path), message: msg };
   });
+}
+
+/** One line per problem: `path: message`. */
+export function formatIssues(error: z.ZodError): string[] {
+  return issueList(error).map((i) => (i.path ? `${i.path}: ${i.message}` : i.message));
 }
 
 export class MixtureFileError extends Error {

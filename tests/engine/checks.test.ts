@@ -90,3 +90,21 @@ describe('crowding', () => {
     expect(analyze(dense).warnings.map((w) => w.code)).toContain('dense-suspension');
   });
 });
+
+describe('model reduction', () => {
+  it('a chemical no species responds to changes nothing in the spectrum, but still counts in the checks', () => {
+    const base = mixture([chemical('h2o2', 1.4e-9, 0, 200)], [species('pt', 0.22e-12, 1e15, [constant('h2o2', -2e-16, 5e-11)])], 'sealed');
+    const withGas: Mixture = {
+      ...base,
+      chemicals: [...base.chemicals, { ...chemical('o2', 2e-9, 0, 0.26), solubility: 1.3 }],
+      species: [{ ...base.species[0]!, couplings: [...base.species[0]!.couplings, constant('o2', 1e-16, 0)] }],
+    };
+    const a = analyze(base);
+    const b = analyze(withGas);
+    expect(b.growthRate).toBe(a.growthRate);
+    expect(b.criteria.structure).toBe('rank-one');
+    expect(b.criteria.stationary).toEqual(a.criteria.stationary);
+    expect(b.checks.gas.map((g) => g.chemical)).toEqual(['o2']);
+    expect(a.checks.gas).toEqual([]);
+  });
+});

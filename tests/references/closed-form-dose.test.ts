@@ -76,8 +76,12 @@ describe('closed-form stationary dose vs the spectrum', () => {
   });
 
   it('says why it does not apply', () => {
-    const base = mixture([chemical('a', 1e-9), chemical('b', 1e-9)], [species('x', 1e-12, 1e14, [constant('a', -1e-17, 1e-11)])], 'sealed');
-    expect(stationaryDoseClosedForm(base, species('d', 1e-12, 0, [constant('a', -1e-17, 1e-11)]))).toEqual({ applicable: false, reason: 'needs exactly one chemical' });
+    const two = [constant('a', -1e-17, 1e-11), constant('b', 1e-17, 1e-11)];
+    const base = mixture([chemical('a', 1e-9), chemical('b', 1e-9)], [species('x', 1e-12, 1e14, two)], 'sealed');
+    expect(stationaryDoseClosedForm(base, species('d', 1e-12, 0, [constant('a', -1e-17, 1e-11)]))).toEqual({ applicable: false, reason: 'needs exactly one chemical that moves the particles' });
+    // A chemical nothing responds to does not count: the closed form still applies.
+    const inert = mixture([chemical('a', 1e-9), chemical('b', 1e-9)], [species('x', 1e-12, 1e14, [constant('a', -1e-17, 1e-11), constant('b', 1e-17, 0)])], 'sealed');
+    expect(stationaryDoseClosedForm(inert, species('d', 1e-12, 0, [constant('a', -1e-17, 1e-11)])).applicable).toBe(true);
     const one = mixture([chemical('a', 1e-9)], [species('x', 1e-12, 1e14, [constant('a', -1e-17, 1e-11)])], 'sealed');
     expect(stationaryDoseClosedForm(one, species('d', 1e-12, 0, [constant('a', 0, 1e-11)])).applicable).toBe(false);
   });

@@ -1,0 +1,88 @@
+/**
+ * The web service: `buildApp({ config, db })` returns a ready fastify
+ * instance over an open database; it does not listen (server/serve.ts does).
+ *
+ * Request bodies, queries and params are zod schemas (fastify-type-provider-zod
+ * for the types and the OpenAPI document); validation failures go through the
+ * one error handler in errors.ts.
+ */
+import fastifySwagger from '@fastify/swagger';
+import fastifySwaggerUi from '@fastify/swagger-ui';
+import Fastify, { type FastifyInstance, type FastifyServerOptions } from 'fastify';
+import { jsonSchemaTransform, type ZodTypeProvider } from 'fastify-type-provider-zod';
+import type { ZodType } from 'zod';
+import { shelfService, type ShelfService } from '../shelf/service.js';
+import type { Db } from '../store/db.js';
+import { shelfRepository } from '../store/shelf.js';
+import { errorHandler, RequestValidationError } from './errors.js';
+import { analyzeRoutes } from './routes/analyze.js';
+import { metaRoutes } from './routes/meta.js';
+import { shelfIoRoutes } from './routes/shelf-io.js';
+import { shelfItemRoutes } from './routes/shelf-items.js';
+import { issueList } from '../schema/mixture.js';
+import { VERSION } from '../version.js';
+
+export interface AppConfig {
+  /** fastify logger option (false in tests) */
+  logger?: FastifyServerOptions['logger'];
+  /** close the database when the app closes (the serving process owns it) */
+  closeDatabase?: boolean;
+  /** largest accepted request body, bytes (default 5 MiB: whole-shelf imports) */
+  bodyLimit?: number;
+}
+
+declare module 'fastify' {
+  interface FastifyInstance {
+    db: Db;
+    shelf: ShelfService;
+  }
+}
+
+export type App = FastifyInstance;
+export { VERSION };
+
+/** Build the app; `await app.ready()` is done here, so it can be injected into at once. */
+export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db }): Promise<App> {
+  const app = Fastify({ logger: config.logger ?? false, bodyLimit: config.bodyLimit ?? 5 * 1024 * 1024 }).withTypeProvider<ZodTypeProvider>();
+
+  // Validation with our own formatting of zod issues (field paths, unions resolved).
+  app.setValidatorCompiler(({ schema, httpPart }) => (data) => {
+    const r = (schema as ZodType).safeParse(data);
+    if (r.success) return { value: r.data };
+    return { error: new RequestValidationError(httpPart ?? 'body', issueList(r.error)) };
+  });
+  app.setErrorHandler(errorHandler);
+  app.setNotFoundHandler((req, reply) => {
+    reply.code(404).send({ error: 'not-found', message: `no route ${req.method} ${req.url.split('?')[0]}` });
+  });
+
+  // The database: decorate, and close with the app when it belongs to the app.
+  app.decorate('db', db);
+  app.decorate('shelf', shelfService(shelfRepository(db)));
+  if (config.closeDatabase) app.addHook('onClose', async () => db.close());
+
+  await app.register(fastifySwagger, {
+    openapi: {
+      info: {
+        title: 'brink',
+        description: 'Experiment-design planner for multi-species catalytic mixtures: the shelf, linear stability, and (to come) plans and bench sheets. Physical values are SI numbers or strings with units.',
+        version: VERSION,
+      },
+      tags: [
+        { name: 'shelf', description: 'Chemicals and species with immutable revisions' },
+        { name: 'analysis', description: 'Linear stability of a sample' },
+        { name: 'meta', description: 'Service facts' },
+      ],
+    },
+    transform: jsonSchemaTransform,
+  });
+  await app.register(fastifySwaggerUi, { routePrefix: '/api/docs' });
+
+  await app.register(metaRoutes);
+  await app.register(shelfItemRoutes, { type: 'chemical', path: '/api/chemicals' });
+  await app.register(shelfItemRoutes, { type: 'species', path: '/api/species' });
+  await app.register(shelfIoRoutes);
+  await app.register(analyzeRoutes);
+  await app.ready();
+  return app;
+}

@@ -1,0 +1,56 @@
+/**
+ * The one error handler. Every error leaves as JSON `{ error, message, … }`:
+ *
+ * | status | when |
+ * |---|---|
+ * | 400 `invalid-input` | the request does not validate; `problems` lists `{ path, message }` |
+ * | 404 `not-found` | unknown id or revision |
+ * | 409 `stale-revision` | an edit based on an old revision; `current` is the current one |
+ * | 409 `duplicate` | create with an id that exists; `existing` is its current revision |
+ * | 422 `domain` | well-formed but outside what brink can answer (`code` says why) |
+ * | 5xx `internal` | anything else; the text is logged, not sent |
+ */
+import type { FastifyError, FastifyReply, FastifyRequest } from 'fastify';
+import { EngineDomainError, EngineInputError } from '../engine/types.js';
+import { DomainError, InputError, type Problem } from '../shelf/errors.js';
+import { DuplicateError, NotFoundError, StaleRevisionError } from '../store/shelf.js';
+
+export class RequestValidationError extends Error {
+  override readonly name = 'RequestValidationError';
+  readonly statusCode = 400;
+  constructor(
+    readonly part: string,
+    readonly problems: Problem[],
+  ) {
+    super(problems.map((p) => (p.path ? `${p.path}: ${p.message}` : p.message)).join('; '));
+  }
+}
+
+function invalid(reply: FastifyReply, problems: Problem[], where?: string) {
+  const lines = problems.map((p) => (p.path ? `${p.path}: ${p.message}` : p.message));
+  return reply.code(400).send({ error: 'invalid-input', message: lines.join('; '), ...(where ? { in: where } : {}), problems });
+}
+
+export function errorHandler(this: unknown, err: FastifyError | Error, req: FastifyRequest, reply: FastifyReply) {
+  if (err instanceof RequestValidationError) return invalid(reply, err.problems, err.part);
+  const v = (err as FastifyError).validation;
+  if (Array.isArray(v) && (err as FastifyError).validationContext) {
+    const cause = (err as { cause?: unknown }).cause;
+    if (cause instanceof RequestValidationError) return invalid(reply, cause.problems, cause.part);
+  }
+  if (err instanceof InputError) return invalid(reply, err.problems);
+  if (err instanceof EngineInputError) return invalid(reply, [{ path: err.path, message: err.reason }]);
+  if (err instanceof NotFoundError) return reply.code(404).send({ error: 'not-found', message: err.message });
+  if (err instanceof StaleRevisionError) return reply.code(409).send({ error: 'stale-revision', message: err.message, current: err.current });
+  if (err instanceof DuplicateError) return reply.code(409).send({ error: 'duplicate', message: err.message, existing: err.existing });
+  if (err instanceof DomainError || err instanceof EngineDomainError) {
+    return reply.code(422).send({ error: 'domain', code: err.code, message: err.message });
+  }
+  const status = (err as FastifyError).statusCode;
+  if (typeof status === 'number' && status >= 400 && status < 500) {
+    // fastify's own client errors: malformed JSON, body too large, wrong content type …
+    return reply.code(status).send({ error: 'bad-request', code: (err as FastifyError).code, message: err.message });
+  }
+  req.log.error({ err }, 'internal error');
+  return reply.code(typeof status === 'number' && status >= 500 ? status : 500).send({ error: 'internal', message: 'internal error' });
+}

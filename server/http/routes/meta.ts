@@ -1,0 +1,21 @@
+/** Health, the mixture JSON Schema, and the landing page. */
+import { readFileSync } from 'node:fs';
+import type { FastifyPluginAsync } from 'fastify';
+import { mixtureJsonSchema } from '../../schema/json-schema.js';
+import { schemaVersion } from '../../store/db.js';
+import { VERSION } from '../../version.js';
+
+const WEB = new URL('../../../web/', import.meta.url);
+
+export const metaRoutes: FastifyPluginAsync = async (app) => {
+  app.get('/api/health', { schema: { tags: ['meta'], summary: 'Liveness, version and database schema version' } }, async () => ({
+    ok: true,
+    version: VERSION,
+    schemaVersion: schemaVersion(app.db),
+    chemicals: app.shelf.repo.count('chemical'),
+    species: app.shelf.repo.count('species'),
+  }));
+  app.get('/api/schema/mixture', { schema: { tags: ['meta'], summary: 'JSON Schema of the mixture file' } }, async () => mixtureJsonSchema());
+  const page = readFileSync(new URL('index.html', WEB), 'utf8');
+  app.get('/', { schema: { hide: true } }, async (_req, reply) => reply.type('text/html; charset=utf-8').send(page));
+};

@@ -1,0 +1,41 @@
+/**
+ * The serving process: open (create, migrate) the database file, seed the demo
+ * shelf on the first run, build the app, listen, and shut down gracefully on
+ * SIGINT / SIGTERM.
+ */
+import { buildApp, type App } from './http/app.js';
+import { ensureDemoShelf } from './shelf/seed.js';
+import { openDatabase } from './store/db.js';
+
+export interface ServeOptions {
+  dbPath: string;
+  port: number;
+  host: string;
+  log?: (line: string) => void;
+}
+
+export async function serve(o: ServeOptions): Promise<{ app: App; url: string }> {
+  const log = o.log ?? ((l) => process.stdout.write(l + '\n'));
+  const db = openDatabase(o.dbPath);
+  if (ensureDemoShelf(db)) log(`loaded the demo shelf into ${o.dbPath}`);
+  const app = await buildApp({ config: { logger: { level: 'warn' }, closeDatabase: true }, db });
+  await app.listen({ port: o.port, host: o.host });
+  const addr = app.server.address();
+  const port = typeof addr === 'object' && addr ? addr.port : o.port;
+  const shownHost = o.host.includes(':') ? `[${o.host}]` : o.host;
+  const url = `http://${shownHost}:${port}/`;
+  log(`brink is serving the shelf at ${url}  (API docs: ${url}api/docs, database: ${o.dbPath})`);
+  let closing = false;
+  const stop = (signal: string) => {
+    if (closing) return;
+    closing = true;
+    log(`${signal}: closing`);
+    app.close().then(
+      () => process.exit(0),
+      () => process.exit(1),
+    );
+  };
+  process.once('SIGINT', () => stop('SIGINT'));
+  process.once('SIGTERM', () => stop('SIGTERM'));
+  return { app, url };
+}

@@ -1,0 +1,26 @@
+/** The demo shelf (seeds/demo-shelf.json, invented): loaded into a new database once. */
+import { readFileSync } from 'node:fs';
+import type { Db } from '../store/db.js';
+import { shelfRepository } from '../store/shelf.js';
+import { shelfService } from './service.js';
+
+export const DEMO_SHELF = new URL('../../seeds/demo-shelf.json', import.meta.url);
+const MARK = 'demo_shelf_seeded_at';
+
+/** Import the demo shelf (all or nothing) and record that it was done. */
+export function seedDemoShelf(db: Db) {
+  const doc = JSON.parse(readFileSync(DEMO_SHELF, 'utf8')) as unknown;
+  const summary = shelfService(shelfRepository(db)).importShelf(doc, { author: 'demo seed', note: 'demo shelf (invented data)' });
+  db.prepare('INSERT INTO app_meta (key, value) VALUES (?, ?) ON CONFLICT (key) DO UPDATE SET value = excluded.value').run(MARK, new Date().toISOString());
+  return summary;
+}
+
+/** Seed on the first run only: never again once done, even if the shelf is later emptied of active items. */
+export function ensureDemoShelf(db: Db): boolean {
+  const done = db.prepare('SELECT value FROM app_meta WHERE key = ?').get(MARK);
+  if (done) return false;
+  const repo = shelfRepository(db);
+  if (repo.count('species') + repo.count('chemical') > 0) return false;
+  seedDemoShelf(db);
+  return true;
+}

@@ -1,0 +1,244 @@
+/**
+ * The shelf's rules on top of the repository: records are validated (units,
+ * dimensions, references between species and chemicals) before anything is
+ * written; import is all or nothing; a shelf mixture is turned into the
+ * engine's SI mixture from current revisions, remembering which ones.
+ */
+import { z } from 'zod';
+import type { Chemical, Mixture, Species } from '../engine/types.js';
+import { DEFAULT_TEMPERATURE, WATER_DENSITY_25C } from '../engine/constants.js';
+import { chamberSchema, conditionsSchema, issueList, quantity } from '../schema/mixture.js';
+import {
+  amountSchema,
+  AmountError,
+  chemicalRecordSchema,
+  engineChemical,
+  engineSpecies,
+  keySchema,
+  numberDensity,
+  referencedChemicals,
+  speciesRecordSchema,
+  toTypedRecord,
+  type ChemicalRecord,
+  type ShelfType,
+  type SpeciesRecord,
+} from '../schema/shelf.js';
+import type { Revision, ShelfRepository, WriteMeta } from '../store/shelf.js';
+import { DIMENSIONS } from '../units/index.js';
+import { InputError, type Problem } from './errors.js';
+
+export const SHELF_FORMAT = 'brink-shelf';
+export const SHELF_FORMAT_VERSION = 1;
+
+type AnyRecord = ChemicalRecord | SpeciesRecord;
+
+function schemaFor(type: ShelfType) {
+  return type === 'chemical' ? chemicalRecordSchema : speciesRecordSchema;
+}
+
+/** Validate a typed record; throws InputError with every problem, paths prefixed by `prefix`. */
+export function parseRecord<T extends ShelfType>(type: T, input: unknown, prefix: PropertyKey[] = []): T extends 'chemical' ? ChemicalRecord : SpeciesRecord {
+  const r = schemaFor(type).safeParse(input);
+  if (!r.success) throw new InputError(issueList(r.error, prefix));
+  return r.data as T extends 'chemical' ? ChemicalRecord : SpeciesRecord;
+}
+
+/** Problems with a species' references to chemicals, given the chemical keys that exist. */
+function referenceProblems(sp: SpeciesRecord, exists: (key: string) => boolean, prefix: string): Problem[] {
+  const out: Problem[] = [];
+  sp.couplings.forEach((c, j) => {
+    if (!exists(c.chemical)) out.push({ path: `${prefix}couplings[${j}].chemical`, message: `unknown chemical "${c.chemical}"` });
+    const a = c.activity;
+    if (a !== undefined && 'maxRate' in a && a.product) {
+      if (!exists(a.product)) out.push({ path: `${prefix}couplings[${j}].activity.product`, message: `unknown chemical "${a.product}"` });
+      if (a.product === c.chemical) out.push({ path: `${prefix}couplings[${j}].activity.product`, message: 'the product must differ from the fuel' });
+    }
+  });
+  return out;
+}
+
+function fields(type: ShelfType, record: AnyRecord) {
+  return { kind: type === 'species' ? (record as SpeciesRecord).kind : null, name: record.name, record };
+}
+
+export function shelfService(repo: ShelfRepository) {
+  const chemicalExists = (key: string) => repo.get('chemical', key) !== null;
+
+  function checkReferences(type: ShelfType, record: AnyRecord, prefix: string): void {
+    if (type !== 'species') return;
+    const problems = referenceProblems(record as SpeciesRecord, chemicalExists, prefix);
+    if (problems.length > 0) throw new InputError(problems);
+  }
+
+  return {
+    repo,
+
+    /** Create from a validated record (see chemicalRecordSchema / speciesRecordSchema). */
+    create(type: ShelfType, record: AnyRecord, meta: WriteMeta): Revision<AnyRecord> {
+      checkReferences(type, record, 'record.');
+      return repo.create(type, record.id, fields(type, record), meta);
+    },
+
+    /** A new revision from a validated record, guarded by the revision it was based on. */
+    edit(type: ShelfType, key: string, baseRevision: number, record: AnyRecord, meta: WriteMeta): Revision<AnyRecord> {
+      repo.mustGet(type, key);
+      if (record.id !== key) throw new InputError([{ path: 'record.id', message: `an item's id cannot change (it is "${key}")` }]);
+      checkReferences(type, record, 'record.');
+      return repo.edit(type, key, baseRevision, fields(type, record), meta);
+    },
+
+    /** The whole shelf, current revisions as typed, retired ones flagged. */
+    exportShelf() {
+      const all = <B>(type: ShelfType) => {
+        const out: Revision<B>[] = [];
+        for (let offset = 0; ; offset += 500) {
+          const page = repo.list<B>(type, { includeRetired: true, limit: 500, offset });
+          out.push(...page.items);
+          if (out.length >= page.total || page.items.length === 0) break;
+        }
+        return out.sort((a, b) => (a.id < b.id ? -1 : a.id > b.id ? 1 : 0));
+      };
+      const entry = (r: Revision<AnyRecord>) => ({ ...(toTypedRecord(r.record) as Record<string, unknown>), ...(r.retired ? { retired: true } : {}) });
+      return {
+        format: SHELF_FORMAT,
+        version: SHELF_FORMAT_VERSION,
+        exportedAt: new Date().toISOString(),
+        chemicals: all<ChemicalRecord>('chemical').map(entry),
+        species: all<SpeciesRecord>('species').map(entry),
+      };
+    },
+
+    /**
+     * Import a shelf document: every entry is validated first and every problem
+     * reported by its path; only then is anything written, in one transaction.
+     * New ids are created, changed ones get a new revision, identical ones are left alone.
+     */
+    importShelf(doc: unknown, meta: WriteMeta) {
+      const problems: Problem[] = [];
+      const envelope = z
+        .strictObject({
+          format: z.literal(SHELF_FORMAT),
+          version: z.literal(SHELF_FORMAT_VERSION),
+          exportedAt: z.string().optional(),
+          chemicals: z.array(z.unknown()).default([]),
+          species: z.array(z.unknown()).default([]),
+        })
+        .safeParse(doc);
+      if (!envelope.success) throw new InputError(issueList(envelope.error));
+      const parsed: { type: ShelfType; record: AnyRecord; retired: boolean }[] = [];
+      const seen = { chemical: new Set<string>(), species: new Set<string>() };
+      const take = (type: ShelfType, list: unknown[], name: string) => {
+        list.forEach((raw, i) => {
+          let retired = false;
+          let body = raw;
+          if (raw !== null && typeof raw === 'object' && 'retired' in raw) {
+            const { retired: flag, ...rest } = raw as Record<string, unknown>;
+            if (typeof flag !== 'boolean') problems.push({ path: `${name}[${i}].retired`, message: 'must be true or false' });
+            retired = flag === true;
+            body = rest;
+          }
+          try {
+            const record = parseRecord(type, body, [name, i]);
+            if (seen[type].has(record.id)) problems.push({ path: `${name}[${i}].id`, message: `duplicate id "${record.id}" in this import` });
+            seen[type].add(record.id);
+            parsed.push({ type, record, retired });
+          } catch (e) {
+            if (e instanceof InputError) problems.push(...e.problems);
+            else throw e;
+          }
+        });
+      };
+      take('chemical', envelope.data.chemicals, 'chemicals');
+      take('species', envelope.data.species, 'species');
+      const exists = (key: string) => seen.chemical.has(key) || chemicalExists(key);
+      parsed.forEach((p) => {
+        if (p.type !== 'species') return;
+        const i = envelope.data.species.findIndex((raw) => (raw as { id?: unknown })?.id === p.record.id);
+        problems.push(...referenceProblems(p.record as SpeciesRecord, exists, `species[${i}].`));
+      });
+      if (problems.length > 0) throw new InputError(problems);
+      const summary = { created: 0, revised: 0, unchanged: 0 };
+      repo.transaction(() => {
+        for (const p of parsed) {
+          const outcome = repo.upsert(p.type, p.record.id, { ...fields(p.type, p.record), retired: p.retired }, meta);
+          summary[outcome]++;
+        }
+      });
+      return summary;
+    },
+
+    /** Turn a shelf sample request into the engine's mixture from current revisions. */
+    buildMixture(request: ShelfSample) {
+      const problems: Problem[] = [];
+      const warnings: { code: string; message: string; [k: string]: unknown }[] = [];
+      const species: Species[] = [];
+      const usedSpecies: { id: string; revision: number; revisionId: number }[] = [];
+      const chemKeys = new Set<string>();
+      const seen = new Set<string>();
+      request.species.forEach((entry, i) => {
+        if (seen.has(entry.id)) problems.push({ path: `species[${i}].id`, message: `species "${entry.id}" is listed twice` });
+        seen.add(entry.id);
+        const rev = repo.get<SpeciesRecord>('species', entry.id);
+        if (!rev) {
+          problems.push({ path: `species[${i}].id`, message: `no species "${entry.id}" on the shelf` });
+          return;
+        }
+        if (rev.retired) warnings.push({ code: 'retired-species', message: `species "${entry.id}" is retired; its last revision was used.`, species: entry.id });
+        try {
+          const { id: _id, ...amount } = entry;
+          species.push(engineSpecies(rev.record, numberDensity(rev.record, amount)));
+        } catch (e) {
+          if (e instanceof AmountError) problems.push({ path: `species[${i}].${e.field}`, message: e.reason });
+          else throw e;
+        }
+        usedSpecies.push({ id: rev.id, revision: rev.revision, revisionId: rev.revisionId });
+        for (const k of referencedChemicals(rev.record)) chemKeys.add(k);
+      });
+      const given = request.chemicals ?? {};
+      for (const k of Object.keys(given)) {
+        if (!chemKeys.has(k) && repo.get('chemical', k) === null) problems.push({ path: `chemicals.${k}`, message: `no chemical "${k}" on the shelf` });
+        chemKeys.add(k);
+      }
+      const chemicals: Chemical[] = [];
+      const usedChemicals: { id: string; revision: number; revisionId: number }[] = [];
+      for (const k of [...chemKeys].sort()) {
+        const rev = repo.get<ChemicalRecord>('chemical', k);
+        if (!rev) continue; // reported above, or a dangling reference caught at write time
+        const c = given[k];
+        chemicals.push(engineChemical(rev.record, c?.value ?? 0, c?.sd ?? 0));
+        usedChemicals.push({ id: rev.id, revision: rev.revision, revisionId: rev.revisionId });
+        if (c === undefined) warnings.push({ code: 'no-concentration', message: `no concentration given for "${k}": taken as 0.`, chemical: k });
+      }
+      if (problems.length > 0) throw new InputError(problems);
+      const cond = request.conditions ?? {};
+      const mixture: Mixture = {
+        chemicals,
+        species,
+        chamber: { walls: request.chamber.walls, length: request.chamber.length?.value ?? null, depth: request.chamber.depth?.value ?? null },
+        crowding: request.crowding ?? false,
+        conditions: {
+          temperature: cond.temperature?.value ?? DEFAULT_TEMPERATURE,
+          solventDensity: cond.solventDensity?.value ?? WATER_DENSITY_25C,
+          duration: cond.duration?.value ?? null,
+          fieldOfView: cond.fieldOfView?.value ?? null,
+        },
+      };
+      if (mixture.chamber.walls !== 'unbounded' && mixture.chamber.length === null) {
+        throw new InputError([{ path: 'chamber.length', message: `required for ${mixture.chamber.walls} walls (expected length)` }]);
+      }
+      return { mixture, revisions: { species: usedSpecies, chemicals: usedChemicals }, warnings };
+    },
+  };
+}
+
+export type ShelfService = ReturnType<typeof shelfService>;
+
+/** A sample made of shelf species: amounts, chamber, chemical levels. */
+export const shelfSampleSchema = z.strictObject({
+  species: z.array(amountSchema.extend({ id: keySchema })).min(1, 'a sample needs at least one species'),
+  chemicals: z.record(keySchema, quantity(DIMENSIONS.concentration, 'nonnegative', 'concentration of this chemical in the sample')).optional(),
+  chamber: chamberSchema,
+  crowding: z.boolean().optional(),
+  conditions: conditionsSchema.optional(),
+});
+export type ShelfSample = z.output<typeof shelfSampleSchema>;

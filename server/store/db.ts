@@ -1,0 +1,95 @@
+/**
+ * The embedded database: open a SQLite file (or `:memory:`), set the pragmas,
+ * and bring the schema up to date with the numbered files in `migrations/`.
+ */
+import Database from 'better-sqlite3';
+import { mkdirSync, readdirSync, readFileSync } from 'node:fs';
+import { dirname, join } from 'node:path';
+
+export type Db = Database.Database;
+
+export const MIGRATIONS_DIR = new URL('../../migrations/', import.meta.url).pathname;
+
+/** The database file was written by a newer brink than this one. */
+export class DatabaseTooNewError extends Error {
+  override readonly name = 'DatabaseTooNewError';
+  constructor(
+    readonly databaseVersion: number,
+    readonly codeVersion: number,
+  ) {
+    super(
+      `the database is at schema version ${databaseVersion}, newer than this brink understands (${codeVersion}); ` +
+        'upgrade brink or point it at another database file (--db PATH).',
+    );
+  }
+}
+
+export interface Migration {
+  version: number;
+  name: string;
+  sql: string;
+}
+
+/** The migration files `NNNN_name.sql`, in order. */
+export function loadMigrations(dir = MIGRATIONS_DIR): Migration[] {
+  const out: Migration[] = [];
+  for (const f of readdirSync(dir).sort()) {
+    const m = /^(\d{4})_([a-z0-9_]+)\.sql$/.exec(f);
+    if (!m) continue;
+    out.push({ version: Number(m[1]), name: m[2]!, sql: readFileSync(join(dir, f), 'utf8') });
+  }
+  out.forEach((m, i) => {
+    if (m.version !== i + 1) throw new Error(`migrations must be numbered 0001, 0002, … without gaps; found ${m.version} at position ${i + 1}`);
+  });
+  return out;
+}
+
+/**
+ * Apply the pending migrations, each in its own transaction, recording them in
+ * `schema_migrations`. Refuses a database newer than the code.
+ * @returns the versions applied now
+ */
+export function migrate(db: Db, migrations: Migration[] = loadMigrations()): number[] {
+  db.exec(`CREATE TABLE IF NOT EXISTS schema_migrations (
+    version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL)`);
+  const current = (db.prepare('SELECT COALESCE(MAX(version), 0) AS v FROM schema_migrations').get() as { v: number }).v;
+  const latest = migrations.length === 0 ? 0 : migrations[migrations.length - 1]!.version;
+  if (current > latest) throw new DatabaseTooNewError(current, latest);
+  const record = db.prepare('INSERT INTO schema_migrations (version, name, applied_at) VALUES (?, ?, ?)');
+  const applied: number[] = [];
+  for (const m of migrations) {
+    if (m.version <= current) continue;
+    db.transaction(() => {
+      db.exec(m.sql);
+      record.run(m.version, m.name, new Date().toISOString());
+    })();
+    applied.push(m.version);
+  }
+  return applied;
+}
+
+/** Current schema version of a database (0 when empty). */
+export function schemaVersion(db: Db): number {
+  const exists = db.prepare("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = 'schema_migrations'").get();
+  if (!exists) return 0;
+  return (db.prepare('SELECT COALESCE(MAX(version), 0) AS v FROM schema_migrations').get() as { v: number }).v;
+}
+
+/**
+ * Open (creating if needed) a database and migrate it.
+ * Pragmas: WAL journal (file databases), foreign keys on, 5 s busy timeout.
+ */
+export function openDatabase(path: string, options: { migrations?: Migration[] } = {}): Db {
+  if (path !== ':memory:') mkdirSync(dirname(path), { recursive: true });
+  const db = new Database(path);
+  try {
+    if (path !== ':memory:') db.pragma('journal_mode = WAL');
+    db.pragma('foreign_keys = ON');
+    db.pragma('busy_timeout = 5000');
+    migrate(db, options.migrations);
+  } catch (e) {
+    db.close();
+    throw e;
+  }
+  return db;
+}
