@@ -125,7 +125,10 @@ export function shelfService(repo: ShelfRepository) {
         })
         .safeParse(doc);
       if (!envelope.success) throw new InputError(issueList(envelope.error));
-      const parsed: { type: ShelfType; record: AnyRecord; retired: boolean }[] = [];
+      const parsed: { type: ShelfType; record: AnyRecord; retired: boolean; index: number }[] = [];
+      // ids declared in the document, valid entries or not (so one bad chemical does not cascade)
+      const declared = new Set<string>();
+      for (const raw of envelope.data.chemicals) if (typeof (raw as { id?: unknown })?.id === 'string') declared.add((raw as { id: string }).id);
       const seen = { chemical: new Set<string>(), species: new Set<string>() };
       const take = (type: ShelfType, list: unknown[], name: string) => {
         list.forEach((raw, i) => {
@@ -141,7 +144,7 @@ export function shelfService(repo: ShelfRepository) {
             const record = parseRecord(type, body, [name, i]);
             if (seen[type].has(record.id)) problems.push({ path: `${name}[${i}].id`, message: `duplicate id "${record.id}" in this import` });
             seen[type].add(record.id);
-            parsed.push({ type, record, retired });
+            parsed.push({ type, record, retired, index: i });
           } catch (e) {
             if (e instanceof InputError) problems.push(...e.problems);
             else throw e;
@@ -150,11 +153,9 @@ export function shelfService(repo: ShelfRepository) {
       };
       take('chemical', envelope.data.chemicals, 'chemicals');
       take('species', envelope.data.species, 'species');
-      const exists = (key: string) => seen.chemical.has(key) || chemicalExists(key);
+      const exists = (key: string) => declared.has(key) || chemicalExists(key);
       parsed.forEach((p) => {
-        if (p.type !== 'species') return;
-        const i = envelope.data.species.findIndex((raw) => (raw as { id?: unknown })?.id === p.record.id);
-        problems.push(...referenceProblems(p.record as SpeciesRecord, exists, `species[${i}].`));
+        if (p.type === 'species') problems.push(...referenceProblems(p.record as SpeciesRecord, exists, `species[${p.index}].`));
       });
       if (problems.length > 0) throw new InputError(problems);
       const summary = { created: 0, revised: 0, unchanged: 0 };
