@@ -152,7 +152,15 @@ function sdOf<K extends string>(entries: [K, Quantity | undefined][]): Partial<R
   return any ? out : undefined;
 }
 
-function toCoupling(c: ParsedSpecies['couplings'][number]): Coupling {
+/** A coupling in SI quantities (from a mixture file or a shelf record). */
+export interface CouplingQuantities {
+  chemical: string;
+  activity?: Quantity | { maxRate: Quantity; michaelis: Quantity; product?: string | null };
+  mobility?: Quantity;
+}
+
+/** A coupling to the engine's form, uncertainties alongside. */
+export function toEngineCoupling(c: CouplingQuantities): Coupling {
   let activity: Activity | null = null;
   let sd: Coupling['sd'];
   const a = c.activity;
@@ -191,7 +199,7 @@ export function toEngineSpecies(s: ParsedSpecies): Species {
     radius,
     density,
     materialDensity: s.materialDensity?.value ?? null,
-    couplings: s.couplings.map(toCoupling),
+    couplings: s.couplings.map(toEngineCoupling),
   };
   const sd = sdOf([
     ['diffusivity', s.diffusivity],

@@ -12,8 +12,9 @@
 import { z } from 'zod';
 import { AVOGADRO } from '../engine/constants.js';
 import { sphereVolume } from '../engine/checks.js';
-import type { Activity, Chemical, Coupling, Species } from '../engine/types.js';
-import { DIMENSIONS, formatDimension, parseQuantity, UnitError, type Dimension, type Sign } from '../units/index.js';
+import type { Chemical, Coupling, Species } from '../engine/types.js';
+import { toEngineCoupling } from './mixture.js';
+import { DIMENSIONS, formatDimension, parseQuantity, UnitError, type Dimension, type Quantity, type Sign } from '../units/index.js';
 
 export const provenanceSchema = z.strictObject({
   source: z.enum(['measured', 'literature', 'estimated', 'demo']),
@@ -218,27 +219,11 @@ export function engineChemical(c: ChemicalRecord, concentration: number, concent
 
 /** A shelf species at a number density, for the engine (SI). */
 export function engineSpecies(sp: SpeciesRecord, density: { value: number; sd: number }): Species {
+  const q = (x: StoredQuantity | undefined): Quantity | undefined => (x === undefined ? undefined : { value: x.si, sd: x.sd, unit: x.unit });
   const couplings: Coupling[] = sp.couplings.map((c) => {
-    let activity: Activity | null = null;
-    let s: Coupling['sd'];
     const a = c.activity;
-    if (a !== undefined && 'maxRate' in a) {
-      activity = { kind: 'saturating', maxRate: a.maxRate.si, michaelis: a.michaelis.si, product: a.product ?? null };
-      s = sd([
-        ['maxRate', a.maxRate],
-        ['michaelis', a.michaelis],
-        ['mobility', c.mobility],
-      ]);
-    } else {
-      if (a !== undefined) activity = { kind: 'constant', rate: a.si };
-      s = sd([
-        ['rate', a],
-        ['mobility', c.mobility],
-      ]);
-    }
-    const out: Coupling = { chemical: c.chemical, activity, mobility: c.mobility?.si ?? 0 };
-    if (s) out.sd = s;
-    return out;
+    const activity = a === undefined ? undefined : 'maxRate' in a ? { maxRate: q(a.maxRate)!, michaelis: q(a.michaelis)!, product: a.product ?? null } : q(a);
+    return toEngineCoupling({ chemical: c.chemical, activity, mobility: q(c.mobility) });
   });
   const out: Species = {
     id: sp.id,
