@@ -22,3 +22,6 @@ export { eigenvalues, eigenvector, eigenResidual } from './linalg/eigen.js';
 export { largestSecularRoot, secularFunction, secularResidual } from './secular.js';
 export { reducedCharacteristic } from './characteristic.js';
 export * as constants from './constants.js';
+export { stationaryDoseClosedForm, firstWavenumber } from './dose.js';
+export { doseCap, findDose, fuelSweep, growth, pastBoundary, perturb, scaleBase, screen, stateMap, thresholdBand, withDose } from './planner.js';
+export type { Boundary, CandidateResult, DoseOptions, DoseSearch, Dosing, ReasonCode, ScreenOptions, StateMap, StateMapOptions, ThresholdBand, UncertaintyOptions } from './planner.js';
