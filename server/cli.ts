@@ -13,6 +13,8 @@ import { parseArgs } from 'node:util';
 import { analyze, type AnalysisResult } from './engine/analyze.js';
 import { EngineDomainError, EngineInputError } from './engine/types.js';
 import { MixtureFileError, parseMixture } from './schema/mixture.js';
+import { parseScreenRequest, screenOutput } from './schema/screen.js';
+import { screen } from './engine/planner.js';
 import { InputError } from './shelf/errors.js';
 import { seedDemoShelf } from './shelf/seed.js';
 import { DatabaseTooNewError, openDatabase } from './store/db.js';
@@ -31,6 +33,7 @@ const USAGE = `brink — experiment-design planner for catalytic mixtures
 
 usage:
   brink analyze <mixture.json> [--format json|text]   linear stability of one sample
+  brink screen <request.json> [--format json|text]   smallest dose of each candidate that crosses a boundary
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
   brink seed [--reset] [--yes] [--db PATH]             load the demo shelf; --reset empties the database first
   brink help                                         this text
@@ -166,6 +169,36 @@ async function cmdSeed(args: string[], io: Io): Promise<number> {
   return 0;
 }
 
+function cmdScreen(args: string[], io: Io): number {
+  const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { format: { type: 'string', default: 'json' } } });
+  if (positionals.length !== 1) throw new UsageError('usage: brink screen <request.json> [--format json|text]');
+  if (values.format !== 'json' && values.format !== 'text') throw new UsageError(`--format: expected json or text, got "${values.format}"`);
+  const { req, base, candidates } = parseScreenRequest(readJson(positionals[0]!));
+  const results = screen(base, candidates, {
+    boundary: req.boundary,
+    dosing: req.dosing,
+    margin: req.margin,
+    ...(req.maxDensity ? { maxDensity: req.maxDensity.value } : {}),
+    ...(req.maxVolumeFraction !== undefined ? { maxVolumeFraction: req.maxVolumeFraction } : {}),
+    ...(req.uncertainty ? { uncertainty: req.uncertainty } : {}),
+  });
+  const out = screenOutput(results);
+  if (values.format === 'json') io.out(JSON.stringify(out, null, 2) + '\n');
+  else {
+    const lines = [`boundary: ${req.boundary} (${req.dosing}), candidates ranked by the smallest dose`];
+    for (const c of out.candidates) {
+      if (!c.feasible) lines.push(`${String(c.rank).padStart(2)}. ${c.species}: cannot (${c.reason}) — ${c.message}`);
+      else {
+        const band = c.threshold!.median !== undefined ? ` [5–95 %: ${g(c.threshold!.p05 ?? Infinity)} – ${c.threshold!.p95 === null ? 'above cap' : g(c.threshold!.p95!)}]` : '';
+        const at = c.atMargin ? `; at ${req.margin}× : ${c.atMargin.state}, growth ${c.atMargin.growthTime === null ? '—' : duration(c.atMargin.growthTime)}` : '';
+        lines.push(`${String(c.rank).padStart(2)}. ${c.species}: ${g(c.threshold!.density)} m^-3 (φ ${g(c.threshold!.volumeFraction)})${band}${c.window ? `, comes back above ${g(c.window.upTo)} m^-3` : ''}${at}`);
+      }
+    }
+    io.out(lines.join('\n') + '\n');
+  }
+  return 0;
+}
+
 /**
  * Run the command line with the given arguments (without `node` and the script).
  * @returns the exit status
@@ -176,6 +209,8 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
     switch (cmd) {
       case 'analyze':
         return cmdAnalyze(rest, io);
+      case 'screen':
+        return cmdScreen(rest, io);
       case 'serve':
         return await cmdServe(rest);
       case 'seed':
@@ -199,7 +234,7 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
       return 2;
     }
     if (e instanceof InputError) {
-      io.err(`invalid input:\n${e.problems.map((p) => `  ${p.path}: ${p.message}`).join('\n')}\n`);
+      io.err(`invalid input:\n${e.problems.map((p) => `  ${p.path ? `${p.path}: ` : ''}${p.message}`).join('\n')}\n`);
       return 2;
     }
     if ((e as NodeJS.ErrnoException).code === 'EADDRINUSE') {

@@ -11,12 +11,15 @@ import fastifySwaggerUi from '@fastify/swagger-ui';
 import Fastify, { type FastifyInstance, type FastifyServerOptions } from 'fastify';
 import { jsonSchemaTransform, type ZodTypeProvider } from 'fastify-type-provider-zod';
 import type { ZodType } from 'zod';
+import { planService, type PlanService } from '../shelf/plans.js';
 import { shelfService, type ShelfService } from '../shelf/service.js';
+import { plansRepository } from '../store/plans.js';
 import type { Db } from '../store/db.js';
 import { shelfRepository } from '../store/shelf.js';
 import { errorHandler, RequestValidationError } from './errors.js';
 import { analyzeRoutes } from './routes/analyze.js';
 import { metaRoutes } from './routes/meta.js';
+import { planRoutes } from './routes/plans.js';
 import { shelfIoRoutes } from './routes/shelf-io.js';
 import { shelfItemRoutes } from './routes/shelf-items.js';
 import { issueList } from '../schema/mixture.js';
@@ -35,6 +38,7 @@ declare module 'fastify' {
   interface FastifyInstance {
     db: Db;
     shelf: ShelfService;
+    plans: PlanService;
   }
 }
 
@@ -58,7 +62,9 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
 
   // The database: decorate, and close with the app when it belongs to the app.
   app.decorate('db', db);
-  app.decorate('shelf', shelfService(shelfRepository(db)));
+  const shelf = shelfService(shelfRepository(db));
+  app.decorate('shelf', shelf);
+  app.decorate('plans', planService(shelf, plansRepository(db)));
   if (config.closeDatabase) app.addHook('onClose', async () => db.close());
 
   await app.register(fastifySwagger, {
@@ -71,6 +77,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
       tags: [
         { name: 'shelf', description: 'Chemicals and species with immutable revisions' },
         { name: 'analysis', description: 'Linear stability of a sample' },
+        { name: 'planner', description: 'Smallest doses that cross a boundary, stored as plans' },
         { name: 'meta', description: 'Service facts' },
       ],
     },
@@ -83,6 +90,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   await app.register(shelfItemRoutes, { type: 'species', path: '/api/species' });
   await app.register(shelfIoRoutes);
   await app.register(analyzeRoutes);
+  await app.register(planRoutes);
   await app.ready();
   return app;
 }

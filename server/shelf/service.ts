@@ -168,8 +168,12 @@ export function shelfService(repo: ShelfRepository) {
       return summary;
     },
 
-    /** Turn a shelf sample request into the engine's mixture from current revisions. */
-    buildMixture(request: ShelfSample) {
+    /**
+     * Turn a shelf sample request into the engine's mixture from current revisions.
+     * `candidates` (species ids) come back as engine species at density 0, and
+     * their chemicals join the mixture.
+     */
+    buildMixture(request: ShelfSample, candidateIds: string[] = []) {
       const problems: Problem[] = [];
       const warnings: { code: string; message: string; [k: string]: unknown }[] = [];
       const species: Species[] = [];
@@ -193,6 +197,22 @@ export function shelfService(repo: ShelfRepository) {
           else throw e;
         }
         usedSpecies.push({ id: rev.id, revision: rev.revision, revisionId: rev.revisionId });
+        for (const k of referencedChemicals(rev.record)) chemKeys.add(k);
+      });
+      const candidates: Species[] = [];
+      const usedCandidates: { id: string; revision: number; revisionId: number }[] = [];
+      candidateIds.forEach((id, i) => {
+        const rev = repo.get<SpeciesRecord>('species', id);
+        if (!rev) {
+          problems.push({ path: `candidates[${i}]`, message: `no species "${id}" on the shelf` });
+          return;
+        }
+        if (seen.has(id)) {
+          problems.push({ path: `candidates[${i}]`, message: `species "${id}" is already in the base` });
+          return;
+        }
+        candidates.push(engineSpecies(rev.record, { value: 0, sd: 0 }));
+        usedCandidates.push({ id: rev.id, revision: rev.revision, revisionId: rev.revisionId });
         for (const k of referencedChemicals(rev.record)) chemKeys.add(k);
       });
       const given = request.chemicals ?? {};
@@ -227,7 +247,7 @@ export function shelfService(repo: ShelfRepository) {
       if (mixture.chamber.walls !== 'unbounded' && mixture.chamber.length === null) {
         throw new InputError([{ path: 'chamber.length', message: `required for ${mixture.chamber.walls} walls (expected length)` }]);
       }
-      return { mixture, revisions: { species: usedSpecies, chemicals: usedChemicals }, warnings };
+      return { mixture, candidates, revisions: { species: usedSpecies, chemicals: usedChemicals, candidates: usedCandidates }, warnings };
     },
   };
 }

@@ -150,7 +150,7 @@ describe('list: search and pagination', () => {
 
 describe('service facts', () => {
   it('health, the mixture schema, OpenAPI at /api/docs, the landing page, unknown routes', async () => {
-    expect((await get('/api/health')).json()).toMatchObject({ ok: true, schemaVersion: 1 });
+    expect((await get('/api/health')).json()).toMatchObject({ ok: true, schemaVersion: 2 });
     expect((await get('/api/schema/mixture')).json().title).toBe('brink mixture file');
     const doc = (await get('/api/docs/json')).json();
     expect(doc.openapi).toMatch(/^3\./);

@@ -1,0 +1,63 @@
+/**
+ * The `brink screen` request file: a base mixture file, candidate species as in
+ * the mixture file (their density is ignored), a boundary and a dosing mode.
+ */
+import { z } from 'zod';
+import type { CandidateResult } from '../engine/planner.js';
+import { DIMENSIONS } from '../units/index.js';
+import { candidateSchema, mixtureSchema, quantity, toEngineMixture, toEngineSpecies, issueList } from './mixture.js';
+import { InputError } from '../shelf/errors.js';
+import type { Mixture, Species } from '../engine/types.js';
+
+export const screenRequestSchema = z
+  .strictObject({
+    name: z.string().optional(),
+    description: z.string().optional(),
+    base: mixtureSchema,
+    candidates: z.array(candidateSchema).min(1).max(50),
+    boundary: z.enum(['stationary', 'oscillatory', 'any', 'restore']),
+    dosing: z.enum(['add', 'replace']).default('add'),
+    maxDensity: quantity(DIMENSIONS.numberDensity, 'positive', 'largest dopant number density').optional(),
+    maxVolumeFraction: z.number().gt(0).max(0.74).optional(),
+    margin: z.number().min(1).max(100).default(1.25),
+    uncertainty: z.strictObject({ samples: z.number().int().min(0).max(2000), seed: z.number().int().min(0).max(4294967295) }).optional(),
+  })
+  .superRefine((r, ctx) => {
+    const chems = new Set(r.base.chemicals.map((c) => c.id));
+    r.candidates.forEach((c, i) => {
+      c.couplings.forEach((cp, j) => {
+        if (!chems.has(cp.chemical)) ctx.addIssue({ code: 'custom', message: `unknown chemical "${cp.chemical}" (not in base.chemicals)`, path: ['candidates', i, 'couplings', j, 'chemical'] });
+        const a = cp.activity;
+        if (a && 'maxRate' in a && a.product && !chems.has(a.product)) ctx.addIssue({ code: 'custom', message: `unknown chemical "${a.product}"`, path: ['candidates', i, 'couplings', j, 'activity', 'product'] });
+      });
+    });
+  });
+export type ScreenRequest = z.output<typeof screenRequestSchema>;
+
+/** Parse a screen request into SI inputs; throws InputError with every problem by path. */
+export function parseScreenRequest(doc: unknown): { req: ScreenRequest; base: Mixture; candidates: Species[] } {
+  const r = screenRequestSchema.safeParse(doc);
+  if (!r.success) throw new InputError(issueList(r.error));
+  return { req: r.data, base: toEngineMixture(r.data.base), candidates: r.data.candidates.map((c) => ({ ...toEngineSpecies(c), density: 0 })) };
+}
+
+/** The `brink screen` output contract. */
+export function screenOutput(results: CandidateResult[]) {
+  return {
+    candidates: results.map((c) => ({
+      species: c.species,
+      rank: c.rank,
+      feasible: c.feasible,
+      reason: c.reason,
+      message: c.message,
+      threshold: c.threshold
+        ? { density: c.threshold.density, volumeFraction: c.threshold.volumeFraction, ...(c.band ? { median: c.band.median, p05: c.band.p05, p95: c.band.p95, feasibleFraction: c.band.feasibleFraction } : {}) }
+        : null,
+      window: c.window,
+      method: c.method,
+      cap: c.cap,
+      atThreshold: c.atThreshold,
+      atMargin: c.atMargin,
+    })),
+  };
+}

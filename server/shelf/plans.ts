@@ -1,0 +1,154 @@
+/**
+ * Plans: a screening request against the shelf, run by the engine's planner
+ * and stored with the exact revisions and SI inputs it used, so that its
+ * numbers can be read back unchanged after the shelf moves on.
+ */
+import { z } from 'zod';
+import { screen, stateMap, fuelSweep, type CandidateResult, type ScreenOptions } from '../engine/planner.js';
+import type { Mixture, Species } from '../engine/types.js';
+import { issueList, quantity } from '../schema/mixture.js';
+import { keySchema } from '../schema/shelf.js';
+import type { PlansRepository } from '../store/plans.js';
+import { DIMENSIONS } from '../units/index.js';
+import { VERSION } from '../version.js';
+import { DomainError, InputError } from './errors.js';
+import { shelfSampleSchema, type ShelfService } from './service.js';
+
+const dose = (desc: string) => quantity(DIMENSIONS.numberDensity, 'positive', desc);
+
+export const planRequestSchema = z.strictObject({
+  name: z.string().min(1).max(200).optional(),
+  notes: z.string().max(5000).optional(),
+  author: z.string().min(1).max(200).optional(),
+  base: shelfSampleSchema.shape.species,
+  chemicals: shelfSampleSchema.shape.chemicals,
+  chamber: shelfSampleSchema.shape.chamber,
+  crowding: shelfSampleSchema.shape.crowding,
+  conditions: shelfSampleSchema.shape.conditions,
+  boundary: z.enum(['stationary', 'oscillatory', 'any', 'restore']),
+  dosing: z.enum(['add', 'replace']).default('add'),
+  candidates: z.union([z.literal('all'), z.array(keySchema).min(1).max(50)]).default('all'),
+  maxVolumeFraction: z.number().gt(0).max(0.74).optional(),
+  maxDensity: dose('largest dopant number density allowed').optional(),
+  margin: z.number().min(1).max(100).default(1.25),
+  uncertainty: z.strictObject({ samples: z.number().int().min(0).max(2000), seed: z.number().int().min(0).max(4294967295) }).optional(),
+  probabilityAt: z.array(dose('a dose at which to report the probability of crossing')).max(20).optional(),
+  stateMap: z
+    .strictObject({
+      candidate: keySchema.optional(),
+      baseSpecies: keySchema.optional(),
+      baseRange: z.tuple([z.number().positive(), z.number().positive()]).optional(),
+      doseRange: z.tuple([dose('lowest dose'), dose('highest dose')]).optional(),
+      baseSteps: z.number().int().min(3).max(80).optional(),
+      doseSteps: z.number().int().min(3).max(80).optional(),
+    })
+    .optional(),
+  fuelSweep: z
+    .strictObject({
+      chemical: keySchema,
+      range: z.tuple([quantity(DIMENSIONS.concentration, 'nonnegative', 'lowest level'), quantity(DIMENSIONS.concentration, 'positive', 'highest level')]),
+      steps: z.number().int().min(2).max(60).optional(),
+      scale: z.enum(['log', 'linear']).optional(),
+    })
+    .optional(),
+});
+export type PlanRequest = z.output<typeof planRequestSchema>;
+/** The request as sent (before units were read), stored for reruns. */
+export type PlanRequestInput = z.input<typeof planRequestSchema>;
+
+export interface PlanResult {
+  candidates: CandidateResult[];
+  stateMap: (ReturnType<typeof stateMap> & { candidate: string }) | null;
+  fuelSweep: ReturnType<typeof fuelSweep> | null;
+  engineVersion: string;
+  computedAt: string;
+}
+
+/** Run the planner on SI inputs (no database): what a stored plan and `brink screen` both do. */
+export function runPlan(base: Mixture, candidates: Species[], req: PlanRequest): PlanResult {
+  const o: ScreenOptions = {
+    boundary: req.boundary,
+    dosing: req.dosing,
+    margin: req.margin,
+    ...(req.maxVolumeFraction !== undefined ? { maxVolumeFraction: req.maxVolumeFraction } : {}),
+    ...(req.maxDensity !== undefined ? { maxDensity: req.maxDensity.value } : {}),
+    ...(req.uncertainty ? { uncertainty: { ...req.uncertainty, doses: (req.probabilityAt ?? []).map((q) => q.value) } } : {}),
+  };
+  const ranked = screen(base, candidates, o);
+  let map: PlanResult['stateMap'] = null;
+  if (req.stateMap) {
+    const m = req.stateMap;
+    const chosen = m.candidate ?? ranked.find((c) => c.feasible)?.species;
+    if (chosen === undefined) throw new DomainError('no-feasible-candidate', 'no candidate crosses the boundary, so there is no state map to draw; name one with stateMap.candidate');
+    const d = candidates.find((c) => c.id === chosen);
+    if (!d) throw new InputError([{ path: 'stateMap.candidate', message: `"${chosen}" is not one of the candidates` }]);
+    map = {
+      candidate: chosen,
+      ...stateMap(base, d, {
+        ...o,
+        ...(m.baseSpecies !== undefined ? { baseSpecies: m.baseSpecies } : {}),
+        ...(m.baseRange ? { baseRange: m.baseRange } : {}),
+        ...(m.doseRange ? { doseRange: [m.doseRange[0].value, m.doseRange[1].value] as [number, number] } : {}),
+        ...(m.baseSteps ? { baseSteps: m.baseSteps } : {}),
+        ...(m.doseSteps ? { doseSteps: m.doseSteps } : {}),
+      }),
+    };
+  }
+  let sweep: PlanResult['fuelSweep'] = null;
+  if (req.fuelSweep) {
+    const f = req.fuelSweep;
+    sweep = fuelSweep(base, candidates, { ...o, chemical: f.chemical, range: [f.range[0].value, f.range[1].value], ...(f.steps ? { steps: f.steps } : {}), ...(f.scale ? { scale: f.scale } : {}) });
+  }
+  return { candidates: ranked, stateMap: map, fuelSweep: sweep, engineVersion: VERSION, computedAt: new Date().toISOString() };
+}
+
+export function planService(shelf: ShelfService, plans: PlansRepository) {
+  function compute(raw: PlanRequestInput, rerunOf: number | null) {
+    const parsed = planRequestSchema.safeParse(raw);
+    if (!parsed.success) throw new Error('stored plan request no longer validates'); // validated before it was stored
+    const req = parsed.data;
+    let ids: string[];
+    if (req.candidates === 'all') {
+      const inBase = new Set(req.base.map((b) => b.id));
+      ids = shelf.repo
+        .list('species', { includeRetired: false, limit: 500, offset: 0 })
+        .items.map((r) => r.id)
+        .filter((id) => !inBase.has(id));
+    } else ids = req.candidates;
+    const built = shelf.buildMixture({ species: req.base, chemicals: req.chemicals, chamber: req.chamber, crowding: req.crowding, conditions: req.conditions }, ids);
+    const result = runPlan(built.mixture, built.candidates, req);
+    const revisions = [
+      ...built.revisions.species.map((r) => ({ revisionId: r.revisionId, role: 'base' as const })),
+      ...built.revisions.candidates.map((r) => ({ revisionId: r.revisionId, role: 'candidate' as const })),
+      ...built.revisions.chemicals.map((r) => ({ revisionId: r.revisionId, role: 'chemical' as const })),
+    ];
+    const name = req.name ?? `${req.boundary} screen of ${req.base.map((b) => b.id).join(' + ')}`;
+    return plans.create({
+      name,
+      notes: req.notes ?? '',
+      author: req.author ?? 'anonymous',
+      request: raw,
+      inputs: { base: built.mixture, candidates: built.candidates, warnings: built.warnings, shelfRevisions: built.revisions },
+      result,
+      rerunOf,
+      revisions,
+    });
+  }
+  return {
+    /** Validate, run and store a plan; `raw` is the request as sent. */
+    create(raw: unknown) {
+      const parsed = planRequestSchema.safeParse(raw);
+      if (!parsed.success) throw new InputError(issueList(parsed.error));
+      return compute(raw as PlanRequestInput, null);
+    },
+    /** A new plan from the same request on the current shelf. */
+    rerun(id: number) {
+      const old = plans.get(id);
+      return compute(old.request as PlanRequestInput, id);
+    },
+    get: (id: number) => plans.get(id),
+    list: (limit: number, offset: number) => plans.list(limit, offset),
+    rename: (id: number, name: string, notes: string) => plans.rename(id, name, notes),
+  };
+}
+export type PlanService = ReturnType<typeof planService>;
