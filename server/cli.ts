@@ -15,6 +15,7 @@ import { EngineDomainError, EngineInputError } from './engine/types.js';
 import { MixtureFileError, parseMixture } from './schema/mixture.js';
 import { parseScreenRequest, screenOutput } from './schema/screen.js';
 import { screen } from './engine/planner.js';
+import { FIT_METHODS, parseFitOptions, runFit, type FitMethod } from './calibrate/run.js';
 import { InputError } from './shelf/errors.js';
 import { seedDemoShelf } from './shelf/seed.js';
 import { DatabaseTooNewError, openDatabase } from './store/db.js';
@@ -34,6 +35,10 @@ const USAGE = `brink — experiment-design planner for catalytic mixtures
 usage:
   brink analyze <mixture.json> [--format json|text]   linear stability of one sample
   brink screen <request.json> [--format json|text]   smallest dose of each candidate that crosses a boundary
+  brink fit <msd|kinetics|drift> <file.csv|file.json> [options]   coefficients from raw data
+      msd:      --model passive-2d|passive-3d|active-2d|active-3d|active-focal  --offset
+                --radius R (fix the rotation time by Stokes–Einstein–Debye)  --temperature T
+      kinetics: --particles DENSITY | --enzyme CONCENTRATION   (per-particle maximal turnover)
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
   brink seed [--reset] [--yes] [--db PATH]             load the demo shelf; --reset empties the database first
   brink help                                         this text
@@ -199,6 +204,51 @@ function cmdScreen(args: string[], io: Io): number {
   return 0;
 }
 
+function cmdFit(args: string[], io: Io): number {
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    options: {
+      model: { type: 'string' },
+      offset: { type: 'boolean', default: false },
+      radius: { type: 'string' },
+      temperature: { type: 'string' },
+      particles: { type: 'string' },
+      enzyme: { type: 'string' },
+    },
+  });
+  const [method, file] = positionals;
+  if (positionals.length !== 2 || !FIT_METHODS.includes(method as FitMethod)) throw new UsageError('usage: brink fit <msd|kinetics|drift> <file.csv|file.json> [options]');
+  let text: string;
+  try {
+    text = readFileSync(file!, 'utf8');
+  } catch (e) {
+    throw new UsageError(`cannot read ${file}: ${(e as NodeJS.ErrnoException).code ?? (e as Error).message}`);
+  }
+  let data: unknown = text;
+  if (/\.json$/i.test(file!)) {
+    try {
+      data = JSON.parse(text);
+    } catch (e) {
+      throw new UsageError(`${file} is not valid JSON: ${(e as Error).message}`);
+    }
+  }
+  const raw: Record<string, unknown> = {};
+  if (method === 'msd') {
+    if (values.model !== undefined) raw.model = values.model;
+    if (values.offset) raw.offset = true;
+    if (values.radius !== undefined) raw.radius = values.radius;
+    if (values.temperature !== undefined) raw.temperature = values.temperature;
+  } else if (method === 'kinetics') {
+    if (values.particles !== undefined) raw.particleDensity = values.particles;
+    if (values.enzyme !== undefined) raw.enzymeConcentration = values.enzyme;
+  }
+  const m = method as FitMethod;
+  const fit = runFit(m, data, parseFitOptions(m, raw));
+  io.out(JSON.stringify(fit, null, 2) + '\n');
+  return 0;
+}
+
 /**
  * Run the command line with the given arguments (without `node` and the script).
  * @returns the exit status
@@ -209,6 +259,8 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
     switch (cmd) {
       case 'analyze':
         return cmdAnalyze(rest, io);
+      case 'fit':
+        return cmdFit(rest, io);
       case 'screen':
         return cmdScreen(rest, io);
       case 'serve':

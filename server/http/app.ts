@@ -11,13 +11,16 @@ import fastifySwaggerUi from '@fastify/swagger-ui';
 import Fastify, { type FastifyInstance, type FastifyServerOptions } from 'fastify';
 import { jsonSchemaTransform, type ZodTypeProvider } from 'fastify-type-provider-zod';
 import type { ZodType } from 'zod';
+import { calibrationService, type CalibrationService } from '../calibrate/service.js';
 import { planService, type PlanService } from '../shelf/plans.js';
+import { measurementsRepository } from '../store/measurements.js';
 import { shelfService, type ShelfService } from '../shelf/service.js';
 import { plansRepository } from '../store/plans.js';
 import type { Db } from '../store/db.js';
 import { shelfRepository } from '../store/shelf.js';
 import { errorHandler, RequestValidationError } from './errors.js';
 import { analyzeRoutes } from './routes/analyze.js';
+import { calibrateRoutes } from './routes/calibrate.js';
 import { metaRoutes } from './routes/meta.js';
 import { planRoutes } from './routes/plans.js';
 import { shelfIoRoutes } from './routes/shelf-io.js';
@@ -39,6 +42,7 @@ declare module 'fastify' {
     db: Db;
     shelf: ShelfService;
     plans: PlanService;
+    calibration: CalibrationService;
   }
 }
 
@@ -65,6 +69,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   const shelf = shelfService(shelfRepository(db));
   app.decorate('shelf', shelf);
   app.decorate('plans', planService(shelf, plansRepository(db)));
+  app.decorate('calibration', calibrationService(shelf, measurementsRepository(db)));
   if (config.closeDatabase) app.addHook('onClose', async () => db.close());
 
   await app.register(fastifySwagger, {
@@ -78,6 +83,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
         { name: 'shelf', description: 'Chemicals and species with immutable revisions' },
         { name: 'analysis', description: 'Linear stability of a sample' },
         { name: 'planner', description: 'Smallest doses that cross a boundary, stored as plans' },
+        { name: 'calibrate', description: 'Coefficients from raw measurements' },
         { name: 'meta', description: 'Service facts' },
       ],
     },
@@ -91,6 +97,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   await app.register(shelfIoRoutes);
   await app.register(analyzeRoutes);
   await app.register(planRoutes);
+  await app.register(calibrateRoutes);
   await app.ready();
   return app;
 }

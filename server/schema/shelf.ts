@@ -21,6 +21,8 @@ export const provenanceSchema = z.strictObject({
   reference: z.string().max(2000).optional(),
   date: z.string().regex(/^\d{4}-\d{2}-\d{2}$/, 'a date is YYYY-MM-DD').optional(),
   by: z.string().max(200).optional(),
+  /** id of the stored measurement this value was fitted from */
+  measurement: z.number().int().min(1).optional(),
 });
 export type Provenance = z.infer<typeof provenanceSchema>;
 

@@ -1,0 +1,111 @@
+/**
+ * Calibration:
+ *
+ *   POST /api/fits/msd | /kinetics | /drift     fit raw data, store nothing     { data, options? }
+ *   POST /api/fits/stokes-einstein              D, D_r, τ_r from radius and temperature
+ *   POST /api/species/:id/measurements          store raw data with its fit     { method, data, options?, fileName?, author?, note? }
+ *   GET  /api/species/:id/measurements          a species' measurements
+ *   GET  /api/measurements/:id                  one measurement, with the revisions it was applied to
+ *   POST /api/measurements/:id/apply            write a new species revision from the fit
+ *
+ * `data` is CSV text (a header row with units in brackets) or a JSON table
+ * `{ "lag [s]": [...], "msd [um^2]": [...] }`.
+ */
+import type { FastifyPluginAsync } from 'fastify';
+import type { ZodTypeProvider } from 'fastify-type-provider-zod';
+import { z } from 'zod';
+import { FIT_METHODS, parseFitOptions, runFit, type FitMethod } from '../../calibrate/run.js';
+import { stokesEinstein, stokesEinsteinDebye, waterViscosity } from '../../engine/transport.js';
+import { quantity } from '../../schema/mixture.js';
+import { keySchema } from '../../schema/shelf.js';
+import { DIMENSIONS } from '../../units/index.js';
+import { present } from './shelf-items.js';
+
+const data = z.union([z.string().max(5_000_000), z.record(z.string(), z.array(z.unknown()))]).describe('CSV text with a header row (units in brackets), or a JSON table of columns');
+
+export const calibrateRoutes: FastifyPluginAsync = async (base) => {
+  const app = base.withTypeProvider<ZodTypeProvider>();
+  const tags = ['calibrate'];
+
+  for (const method of FIT_METHODS) {
+    app.post(`/api/fits/${method}`, {
+      schema: { tags, summary: `Fit ${method} data (nothing is stored)`, body: z.strictObject({ data, options: z.unknown().optional() }) },
+      handler: async (req) => runFit(method, req.body.data, parseFitOptions(method, req.body.options)),
+    });
+  }
+
+  app.post('/api/fits/stokes-einstein', {
+    schema: {
+      tags,
+      summary: 'Stokes–Einstein D = kT/(6πηa) and Stokes–Einstein–Debye D_r = kT/(8πηa³) in water (or a given viscosity)',
+      body: z.strictObject({
+        radius: quantity(DIMENSIONS.length, 'positive', 'hydrodynamic radius'),
+        temperature: quantity(DIMENSIONS.temperature, 'positive', 'temperature (default 25 °C)').optional(),
+        viscosity: quantity(DIMENSIONS.viscosity, 'positive', 'solvent viscosity (default water at the temperature)').optional(),
+      }),
+    },
+    handler: async (req) => {
+      const T = req.body.temperature?.value ?? 298.15;
+      const eta = req.body.viscosity?.value ?? waterViscosity(T);
+      const a = req.body.radius.value;
+      const Dr = stokesEinsteinDebye(a, T, eta);
+      return {
+        parameters: {
+          diffusivity: { value: stokesEinstein(a, T, eta), sd: 0, unit: 'm^2/s' },
+          rotationalDiffusivity: { value: Dr, sd: 0, unit: '1/s' },
+          rotationTime: { value: 1 / Dr, sd: 0, unit: 's' },
+          viscosity: { value: eta, sd: 0, unit: 'Pa*s' },
+        },
+        temperature: T,
+        viscositySource: req.body.viscosity ? 'given' : 'water, IAPWS 2008 values as tabulated in the CRC Handbook (interpolated)',
+      };
+    },
+  });
+
+  app.post('/api/species/:id/measurements', {
+    schema: {
+      tags,
+      summary: 'Store raw data for a species with its fit',
+      params: z.object({ id: keySchema }),
+      body: z.strictObject({
+        method: z.enum(FIT_METHODS as [FitMethod, ...FitMethod[]]),
+        data,
+        options: z.unknown().optional(),
+        fileName: z.string().max(300).optional(),
+        author: z.string().min(1).max(200).optional(),
+        note: z.string().max(2000).optional(),
+      }),
+    },
+    handler: async (req, reply) => {
+      const m = app.calibration.record(req.params.id, req.body);
+      reply.code(201).header('location', `/api/measurements/${m.id}`);
+      return m;
+    },
+  });
+
+  app.get('/api/species/:id/measurements', {
+    schema: { tags, summary: "A species' stored measurements", params: z.object({ id: keySchema }) },
+    handler: async (req) => ({ species: req.params.id, measurements: app.calibration.forSpecies(req.params.id) }),
+  });
+
+  app.get('/api/measurements/:id', {
+    schema: { tags, summary: 'One measurement: raw data, fit, and the revisions it was applied to', params: z.object({ id: z.coerce.number().int().min(1) }) },
+    handler: async (req) => app.calibration.get(req.params.id),
+  });
+
+  app.post('/api/measurements/:id/apply', {
+    schema: {
+      tags,
+      summary: "Apply a measurement's fit: a new species revision whose provenance points to the measurement",
+      params: z.object({ id: z.coerce.number().int().min(1) }),
+      body: z.strictObject({
+        baseRevision: z.number().int().min(1),
+        use: z.enum(['diffusivity', 'effectiveDiffusivity']).optional(),
+        chemical: keySchema.optional(),
+        product: keySchema.nullable().optional(),
+        author: z.string().min(1).max(200).optional(),
+      }),
+    },
+    handler: async (req) => present(app.calibration.apply(req.params.id, req.body)),
+  });
+};
