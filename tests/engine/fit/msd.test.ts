@@ -1,0 +1,76 @@
+/**
+ * MSD fits recover known parameters from simulated trajectories (positions and
+ * orientations simulated here with a seeded generator, the MSD computed from
+ * them — not the fitted formula evaluated). Every lag has its own independent
+ * particles, so the fit's standard errors measure the simulation's scatter;
+ * the tolerance is 4 standard errors plus 1.5 % for the Euler time step
+ * (dt/τ = 0.005). The forms fitted are those of references.md (ten Hagen, van
+ * Teeffelen & Löwen 2011; Bechinger et al. 2016; the focal-plane form derived
+ * from the 3D one) — from memory there.
+ */
+import { describe, expect, it } from 'vitest';
+import { fitMsd, type MsdModel } from '../../../server/engine/fit/models.js';
+import { stokesEinsteinDebye } from '../../../server/engine/transport.js';
+import { simulateMsd, type Sim } from './simulate.js';
+
+const lags = [...new Set(Array.from({ length: 24 }, (_, i) => Math.round(Math.pow(10, (3 * i) / 23))))];
+
+function expectRecovered(got: { value: number; sd: number }, truth: number, what: string) {
+  const tol = 4 * got.sd + 0.015 * Math.abs(truth);
+  expect(Math.abs(got.value - truth), `${what}: ${got.value} ± ${got.sd} vs ${truth}`).toBeLessThan(tol);
+  // and the standard error is an honest, small fraction of the value
+  expect(got.sd).toBeGreaterThan(0);
+  expect(got.sd).toBeLessThan(0.2 * Math.abs(truth));
+}
+
+describe('MSD fits on simulated trajectories', () => {
+  const D = 0.2e-12;
+  const v = 2e-6;
+  const tau = 2;
+  const cases: [MsdModel, Partial<Sim>][] = [
+    ['active-2d', { dims: 2 }],
+    ['active-3d', { dims: 3 }],
+    ['active-focal', { dims: 3, project: true }],
+  ];
+  for (const [model, sim] of cases) {
+    it(`${model}: diffusivity, speed and rotation time`, () => {
+      const s = simulateMsd({ dims: 2, D, v, tau, dt: 0.01, particles: 250, seed: 101, ...sim }, lags);
+      const f = fitMsd(s.lag, s.msd, { model, sd: s.sd });
+      expect(f.converged).toBe(true);
+      expectRecovered(f.parameters.diffusivity!, D, 'D');
+      expectRecovered(f.parameters.speed!, v, 'v');
+      expectRecovered(f.parameters.rotationTime!, tau, 'τ');
+      // a reduced chi-square near 1 says the weights (the simulation's own scatter) fit the model
+      expect(f.residualStandardError).toBeGreaterThan(0.5);
+      expect(f.residualStandardError).toBeLessThan(1.6);
+      const c = model === 'active-2d' ? 1 / 2 : 1 / 3;
+      expectRecovered(f.parameters.effectiveDiffusivity!, D + c * v * v * tau, 'D_eff');
+    }, 30_000);
+  }
+
+  it('passive 2D and 3D, with a localisation-error offset', () => {
+    for (const dims of [2, 3] as const) {
+      const sigma = 0.05e-6; // per coordinate, at both ends of each displacement: offset 2·d·σ²
+      const s = simulateMsd({ dims, D, v: 0, tau: 1, dt: 0.01, particles: 250, seed: 7 + dims, noise: sigma }, lags);
+      const f = fitMsd(s.lag, s.msd, { model: dims === 2 ? 'passive-2d' : 'passive-3d', offset: true, sd: s.sd });
+      expectRecovered(f.parameters.diffusivity!, D, `D (${dims}D)`);
+      const offset = 2 * dims * sigma * sigma;
+      expect(Math.abs(f.parameters.offset!.value - offset)).toBeLessThan(4 * f.parameters.offset!.sd + 0.05 * offset);
+    }
+  }, 30_000);
+
+  it('the rotation time can be fixed from Stokes–Einstein–Debye for the radius', () => {
+    const a = 1e-6;
+    const tauSED = 1 / stokesEinsteinDebye(a, 298.15);
+    const s = simulateMsd({ dims: 2, D, v, tau: tauSED, dt: 0.02, particles: 250, seed: 55 }, lags);
+    const f = fitMsd(s.lag, s.msd, { model: 'active-2d', radius: a, sd: s.sd });
+    expect(f.parameters.rotationTime).toMatchObject({ value: tauSED, sd: 0, fixed: true });
+    expectRecovered(f.parameters.diffusivity!, D, 'D');
+    expectRecovered(f.parameters.speed!, v, 'v');
+    expect(f.notes.join(' ')).toMatch(/Stokes–Einstein–Debye/);
+  }, 30_000);
+
+  it('refuses too few points for the model', () => {
+    expect(() => fitMsd([1, 2, 3], [1, 2, 3], { model: 'active-2d' })).toThrow(/at least 4 points/);
+  });
+});

@@ -1,0 +1,107 @@
+/** Calibration over HTTP: compute-only fits, stored measurements, and applying a fit with provenance. */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { App } from '../../server/http/app.js';
+import { freshApp } from '../helpers/app.js';
+
+let app: App;
+beforeAll(async () => {
+  app = await freshApp({ demo: true });
+});
+afterAll(async () => {
+  await app.close();
+});
+
+const msdCsv = 'lag [s],msd [um^2]\n0.1,0.092\n0.2,0.175\n0.5,0.44\n1,0.90\n2,1.77\n5,4.41\n';
+// v = −μ g with μ ≈ 1e-10 m^5/(mol s) = 100 um^2/(s*mM): 1 mM/mm = 1000 mol/m^4 → 0.1 um/s
+const driftCsv = 'gradient [mM/mm],velocity [um/s]\n-2,0.21\n-1,0.09\n1,-0.11\n2,-0.19\n3,-0.31\n';
+
+describe('fits over HTTP', () => {
+  it('POST /api/fits/msd and /drift fit and store nothing', async () => {
+    const r = await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: msdCsv, options: { model: 'passive-2d' } } });
+    expect(r.statusCode).toBe(200);
+    const d = r.json().parameters.diffusivity;
+    expect(d.unit).toBe('m^2/s');
+    expect(d.value).toBeGreaterThan(0.2e-12);
+    expect(d.value).toBeLessThan(0.24e-12);
+    const dr = await app.inject({ method: 'POST', url: '/api/fits/drift', payload: { data: driftCsv } });
+    expect(dr.json().parameters.mobility.value).toBeCloseTo(1.02e-10, 11);
+    expect((await app.inject({ method: 'GET', url: '/api/species/ptj-1um-b07/measurements' })).json().measurements).toEqual([]);
+  });
+
+  it('errors name the line: 400 with problems', async () => {
+    const r = await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: 'lag [s],msd [um^2]\n1,x\n' } });
+    expect(r.statusCode).toBe(400);
+    expect(r.json().problems[0]).toEqual({ path: 'line 2, column 2 (msd [um^2])', message: 'not a number: "x"' });
+  });
+});
+
+describe('measurements', () => {
+  let msdId = 0;
+  it('stores the raw data, the method, the fit, who and when', async () => {
+    const r = await app.inject({
+      method: 'POST',
+      url: '/api/species/ptj-1um-b07/measurements',
+      payload: { method: 'msd', data: msdCsv, options: { model: 'passive-2d' }, fileName: 'b07-msd-2026-11-30.csv', author: 'a student (invented)' },
+    });
+    expect(r.statusCode).toBe(201);
+    const m = r.json();
+    msdId = m.id;
+    expect(m).toMatchObject({ species: 'ptj-1um-b07', method: 'msd', data: msdCsv, fileName: 'b07-msd-2026-11-30.csv', author: 'a student (invented)', applications: [] });
+    expect(m.fit.parameters.diffusivity.value).toBeGreaterThan(0);
+    expect((await app.inject({ method: 'GET', url: '/api/species/ptj-1um-b07/measurements' })).json().measurements).toHaveLength(1);
+    expect((await app.inject({ method: 'POST', url: '/api/species/ghost/measurements', payload: { method: 'msd', data: msdCsv } })).statusCode).toBe(404);
+  });
+
+  it('applying a fit writes a new revision whose provenance links to the measurement', async () => {
+    const cur = (await app.inject({ method: 'GET', url: '/api/species/ptj-1um-b07' })).json();
+    const r = await app.inject({ method: 'POST', url: `/api/measurements/${msdId}/apply`, payload: { baseRevision: cur.revision, author: 'a student (invented)' } });
+    expect(r.statusCode).toBe(200);
+    const rev = r.json();
+    expect(rev.revision).toBe(cur.revision + 1);
+    expect(rev.note).toBe(`applied measurement ${msdId} (msd)`);
+    const fitted = (await app.inject({ method: 'GET', url: `/api/measurements/${msdId}` })).json();
+    expect(rev.record.diffusivity.si).toBe(fitted.fit.parameters.diffusivity.value);
+    expect(rev.record.diffusivity.sd).toBe(fitted.fit.parameters.diffusivity.sd);
+    expect(rev.record.diffusivity.provenance).toMatchObject({ source: 'measured', measurement: msdId, by: 'a student (invented)' });
+    expect(rev.record.diffusivity.provenance.reference).toMatch(/b07-msd-2026-11-30\.csv/);
+    // other values keep their own provenance
+    expect(rev.record.radius).toEqual(cur.record.radius);
+    // the history shows it, and the measurement points to the revision
+    const h = (await app.inject({ method: 'GET', url: '/api/species/ptj-1um-b07/revisions' })).json();
+    expect(h.revisions.at(-1).record.diffusivity.provenance.measurement).toBe(msdId);
+    expect(fitted.applications).toEqual([{ revisionId: rev.revisionId, fields: ['diffusivity (diffusivity)'], createdAt: expect.any(String) }]);
+    // a stale apply is refused like a stale edit
+    expect((await app.inject({ method: 'POST', url: `/api/measurements/${msdId}/apply`, payload: { baseRevision: cur.revision } })).statusCode).toBe(409);
+  });
+
+  it('a drift fit sets the mobility of the named coupling', async () => {
+    const m = (await app.inject({ method: 'POST', url: '/api/species/ptj-1um-b09/measurements', payload: { method: 'drift', data: driftCsv } })).json();
+    const cur = (await app.inject({ method: 'GET', url: '/api/species/ptj-1um-b09' })).json();
+    const noChem = await app.inject({ method: 'POST', url: `/api/measurements/${m.id}/apply`, payload: { baseRevision: cur.revision } });
+    expect(noChem.statusCode).toBe(400);
+    expect(noChem.json().problems[0].path).toBe('chemical');
+    const r = (await app.inject({ method: 'POST', url: `/api/measurements/${m.id}/apply`, payload: { baseRevision: cur.revision, chemical: 'h2o2' } })).json();
+    const c = r.record.couplings.find((x: { chemical: string }) => x.chemical === 'h2o2');
+    expect(c.mobility.si).toBeCloseTo(1.02e-10, 11);
+    expect(c.mobility.provenance.measurement).toBe(m.id);
+    expect(c.activity).toEqual(cur.record.couplings[0].activity);
+  });
+
+  it('a kinetics fit in the file\'s own units cannot go on the shelf (422), one with units and an assay concentration can', async () => {
+    const raw = (await app.inject({ method: 'POST', url: '/api/species/gox-e1/measurements', payload: { method: 'kinetics', data: 'c,r\n1,1\n2,1.6\n5,2.6\n10,3.2\n20,3.6\n' } })).json();
+    const cur = (await app.inject({ method: 'GET', url: '/api/species/gox-e1' })).json();
+    const refused = await app.inject({ method: 'POST', url: `/api/measurements/${raw.id}/apply`, payload: { baseRevision: cur.revision, chemical: 'glucose' } });
+    expect(refused.statusCode).toBe(422);
+    expect(refused.json().code).toBe('needs-particle-density');
+    const cs = [1, 2, 5, 10, 30, 60, 120];
+    const data = 'glucose [mM],rate [uM/s]\n' + cs.map((c) => `${c},${(5 * c) / (30 + c)}`).join('\n');
+    const m = (await app.inject({ method: 'POST', url: '/api/species/gox-e1/measurements', payload: { method: 'kinetics', data, options: { enzymeConcentration: '10 nM' } } })).json();
+    const r = await app.inject({ method: 'POST', url: `/api/measurements/${m.id}/apply`, payload: { baseRevision: cur.revision, chemical: 'glucose' } });
+    expect(r.statusCode).toBe(200);
+    const a = r.json().record.couplings.find((x: { chemical: string }) => x.chemical === 'glucose').activity;
+    expect(a.michaelis.si).toBeCloseTo(30, 6);
+    expect(a.maxRate.si / (5e-3 / (1e-5 * 6.02214076e23))).toBeCloseTo(1, 6);
+    expect(a.product).toBe('h2o2');
+    expect(a.maxRate.provenance.measurement).toBe(m.id);
+  });
+});
