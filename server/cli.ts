@@ -7,7 +7,7 @@
  * status 2 and name the field; no stack traces (set BRINK_DEBUG=1 to see one
  * for an internal error, which exits with status 1).
  */
-import { existsSync, readFileSync, rmSync } from 'node:fs';
+import { existsSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { createInterface } from 'node:readline/promises';
 import { parseArgs } from 'node:util';
 import { analyze, type AnalysisResult } from './engine/analyze.js';
@@ -19,6 +19,11 @@ import { FIT_METHODS, parseFitOptions, runFit, type FitMethod } from './calibrat
 import { InputError } from './shelf/errors.js';
 import { seedDemoShelf } from './shelf/seed.js';
 import { DatabaseTooNewError, openDatabase } from './store/db.js';
+import { hazardsRepository } from './store/hazards.js';
+import { plansRepository } from './store/plans.js';
+import { shelfRepository, NotFoundError } from './store/shelf.js';
+import { sheetService } from './protocol/service.js';
+import { DomainError } from './shelf/errors.js';
 
 export interface Io {
   out: (text: string) => void;
@@ -39,6 +44,9 @@ usage:
       msd:      --model passive-2d|passive-3d|active-2d|active-3d|active-focal  --offset
                 --radius R (fix the rotation time by Stokes–Einstein–Debye)  --temperature T
       kinetics: --particles DENSITY | --enzyme CONCENTRATION   (per-particle maximal turnover)
+  brink sheet <plan-id> [--db PATH] [--candidate ID] [--format html|md|json] [--paper A4|Letter] [--out FILE]
+              [--sample-volume 100uL] [--replicates 3] [--min-volume 1uL] [--overage 0.1] [--buffer NAME] [--options FILE]
+                                                     the bench sheet of a stored plan
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
   brink seed [--reset] [--yes] [--db PATH]             load the demo shelf; --reset empties the database first
   brink help                                         this text
@@ -249,6 +257,51 @@ function cmdFit(args: string[], io: Io): number {
   return 0;
 }
 
+function cmdSheet(args: string[], io: Io): number {
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    options: {
+      db: { type: 'string', default: defaults().db },
+      candidate: { type: 'string' },
+      format: { type: 'string', default: 'html' },
+      paper: { type: 'string', default: 'A4' },
+      out: { type: 'string' },
+      'sample-volume': { type: 'string' },
+      replicates: { type: 'string' },
+      'min-volume': { type: 'string' },
+      overage: { type: 'string' },
+      buffer: { type: 'string' },
+      options: { type: 'string' },
+    },
+  });
+  const id = Number(positionals[0]);
+  if (positionals.length !== 1 || !Number.isInteger(id) || id < 1) throw new UsageError('usage: brink sheet <plan-id> [--db PATH] [--candidate ID] [--format html|md|json] …');
+  const format = values.format;
+  if (format !== 'html' && format !== 'md' && format !== 'json') throw new UsageError(`--format: expected html, md or json, got "${format}"`);
+  if (values.paper !== 'A4' && values.paper !== 'Letter') throw new UsageError(`--paper: expected A4 or Letter, got "${values.paper}"`);
+  if (!existsSync(values.db)) throw new UsageError(`no database at ${values.db} (use --db PATH or BRINK_DB)`);
+  const opts: Record<string, unknown> = values.options ? (readJson(values.options) as Record<string, unknown>) : {};
+  if (values.candidate) opts.candidate = values.candidate;
+  if (values['sample-volume']) opts.sampleVolume = values['sample-volume'];
+  if (values['min-volume']) opts.minVolume = values['min-volume'];
+  if (values.replicates) opts.replicates = Number(values.replicates);
+  if (values.overage) opts.overage = Number(values.overage);
+  if (values.buffer) opts.buffer = values.buffer;
+  const db = openDatabase(values.db);
+  try {
+    const sheets = sheetService(plansRepository(db), shelfRepository(db), hazardsRepository(db));
+    const text = sheets.render(sheets.build(id, opts), format, values.paper);
+    if (values.out) {
+      writeFileSync(values.out, text);
+      io.out(`wrote ${values.out}\n`);
+    } else io.out(text);
+  } finally {
+    db.close();
+  }
+  return 0;
+}
+
 /**
  * Run the command line with the given arguments (without `node` and the script).
  * @returns the exit status
@@ -261,6 +314,8 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
         return cmdAnalyze(rest, io);
       case 'fit':
         return cmdFit(rest, io);
+      case 'sheet':
+        return cmdSheet(rest, io);
       case 'screen':
         return cmdScreen(rest, io);
       case 'serve':
@@ -291,6 +346,14 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
     }
     if ((e as NodeJS.ErrnoException).code === 'EADDRINUSE') {
       io.err(`${(e as Error).message}: choose another --port\n`);
+      return 2;
+    }
+    if (e instanceof NotFoundError) {
+      io.err(`${e.message}\n`);
+      return 2;
+    }
+    if (e instanceof DomainError) {
+      io.err(`cannot do that (${e.code}): ${e.message}\n`);
       return 2;
     }
     if (e instanceof EngineDomainError) {

@@ -14,6 +14,8 @@ import type { ZodType } from 'zod';
 import { calibrationService, type CalibrationService } from '../calibrate/service.js';
 import { planService, type PlanService } from '../shelf/plans.js';
 import { measurementsRepository } from '../store/measurements.js';
+import { hazardsRepository, type HazardsRepository } from '../store/hazards.js';
+import { sheetService, type SheetService } from '../protocol/service.js';
 import { shelfService, type ShelfService } from '../shelf/service.js';
 import { plansRepository } from '../store/plans.js';
 import type { Db } from '../store/db.js';
@@ -21,6 +23,7 @@ import { shelfRepository } from '../store/shelf.js';
 import { errorHandler, RequestValidationError } from './errors.js';
 import { analyzeRoutes } from './routes/analyze.js';
 import { calibrateRoutes } from './routes/calibrate.js';
+import { protocolRoutes } from './routes/protocol.js';
 import { metaRoutes } from './routes/meta.js';
 import { planRoutes } from './routes/plans.js';
 import { shelfIoRoutes } from './routes/shelf-io.js';
@@ -43,6 +46,8 @@ declare module 'fastify' {
     shelf: ShelfService;
     plans: PlanService;
     calibration: CalibrationService;
+    hazards: HazardsRepository;
+    sheets: SheetService;
   }
 }
 
@@ -68,7 +73,11 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   app.decorate('db', db);
   const shelf = shelfService(shelfRepository(db));
   app.decorate('shelf', shelf);
-  app.decorate('plans', planService(shelf, plansRepository(db)));
+  const plansRepo = plansRepository(db);
+  app.decorate('plans', planService(shelf, plansRepo));
+  const hazards = hazardsRepository(db);
+  app.decorate('hazards', hazards);
+  app.decorate('sheets', sheetService(plansRepo, shelf.repo, hazards));
   app.decorate('calibration', calibrationService(shelf, measurementsRepository(db)));
   if (config.closeDatabase) app.addHook('onClose', async () => db.close());
 
@@ -84,6 +93,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
         { name: 'analysis', description: 'Linear stability of a sample' },
         { name: 'planner', description: 'Smallest doses that cross a boundary, stored as plans' },
         { name: 'calibrate', description: 'Coefficients from raw measurements' },
+        { name: 'bench sheet', description: 'Printable protocols for plans, with hazards as handled' },
         { name: 'meta', description: 'Service facts' },
       ],
     },
@@ -98,6 +108,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   await app.register(analyzeRoutes);
   await app.register(planRoutes);
   await app.register(calibrateRoutes);
+  await app.register(protocolRoutes);
   await app.ready();
   return app;
 }

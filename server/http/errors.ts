@@ -6,6 +6,7 @@
  * | 400 `invalid-input` | the request does not validate; `problems` lists `{ path, message }` |
  * | 404 `not-found` | unknown id or revision |
  * | 409 `stale-revision` | an edit based on an old revision; `current` is the current one |
+ * | 409 `stale-version` | hazard data written on an old version; `current` is the current one |
  * | 409 `duplicate` | create with an id that exists; `existing` is its current revision |
  * | 422 `domain` | well-formed but outside what brink can answer (`code` says why) |
  * | 5xx `internal` | anything else; the text is logged, not sent |
@@ -13,6 +14,7 @@
 import type { FastifyError, FastifyReply, FastifyRequest } from 'fastify';
 import { EngineDomainError, EngineInputError } from '../engine/types.js';
 import { DomainError, InputError, type Problem } from '../shelf/errors.js';
+import { StaleVersionError } from '../store/errors.js';
 import { DuplicateError, NotFoundError, StaleRevisionError } from '../store/shelf.js';
 
 export class RequestValidationError extends Error {
@@ -42,6 +44,7 @@ export function errorHandler(this: unknown, err: FastifyError | Error, req: Fast
   if (err instanceof EngineInputError) return invalid(reply, [{ path: err.path, message: err.reason }]);
   if (err instanceof NotFoundError) return reply.code(404).send({ error: 'not-found', message: err.message });
   if (err instanceof StaleRevisionError) return reply.code(409).send({ error: 'stale-revision', message: err.message, current: err.current });
+  if (err instanceof StaleVersionError) return reply.code(409).send({ error: 'stale-version', message: err.message, current: err.current });
   if (err instanceof DuplicateError) return reply.code(409).send({ error: 'duplicate', message: err.message, existing: err.existing });
   if (err instanceof DomainError || err instanceof EngineDomainError) {
     return reply.code(422).send({ error: 'domain', code: err.code, message: err.message });

@@ -3,14 +3,24 @@ import { readFileSync } from 'node:fs';
 import type { Db } from '../store/db.js';
 import { shelfRepository } from '../store/shelf.js';
 import { shelfService } from './service.js';
+import { hazardsRepository } from '../store/hazards.js';
+import { hazardSetSchema } from '../protocol/hazards.js';
 
 export const DEMO_SHELF = new URL('../../seeds/demo-shelf.json', import.meta.url);
+export const DEMO_HAZARDS = new URL('../../seeds/demo-hazards.json', import.meta.url);
 const MARK = 'demo_shelf_seeded_at';
 
 /** Import the demo shelf (all or nothing) and record that it was done. */
 export function seedDemoShelf(db: Db) {
   const doc = JSON.parse(readFileSync(DEMO_SHELF, 'utf8')) as unknown;
   const summary = shelfService(shelfRepository(db)).importShelf(doc, { author: 'demo seed', note: 'demo shelf (invented data)' });
+  const hazards = JSON.parse(readFileSync(DEMO_HAZARDS, 'utf8')) as Record<string, unknown>;
+  const repo = hazardsRepository(db);
+  for (const [key, body] of Object.entries(hazards)) {
+    const parsed = hazardSetSchema.parse(body);
+    const cur = repo.current(key);
+    if (!cur || JSON.stringify(cur.body) !== JSON.stringify(parsed)) repo.write(key, null, parsed, { author: 'demo seed', note: 'demo hazard data: verify against the supplier safety data sheet' });
+  }
   db.prepare('INSERT INTO app_meta (key, value) VALUES (?, ?) ON CONFLICT (key) DO UPDATE SET value = excluded.value').run(MARK, new Date().toISOString());
   return summary;
 }

@@ -1,0 +1,56 @@
+/**
+ * A bench sheet for a stored plan: the plan's own SI inputs and the exact shelf
+ * revisions it used (so the same plan prints the same sheet), the chemicals'
+ * current hazard data, rendered as HTML, Markdown or JSON.
+ */
+import type { Mixture, Species } from '../engine/types.js';
+import type { CandidateResult } from '../engine/planner.js';
+import type { ChemicalRecord, SpeciesRecord } from '../schema/shelf.js';
+import type { PlansRepository } from '../store/plans.js';
+import type { ShelfRepository } from '../store/shelf.js';
+import type { HazardsRepository } from '../store/hazards.js';
+import { hazardSetSchema, type HazardSet } from './hazards.js';
+import { renderHtml, renderMarkdown } from './render.js';
+import { buildSheet, sheetRequestSchema, type Sheet } from './sheet.js';
+import { issueList } from '../schema/mixture.js';
+import { InputError } from '../shelf/errors.js';
+
+export type SheetFormat = 'html' | 'md' | 'json';
+
+export function sheetService(plans: PlansRepository, shelf: ShelfRepository, hazards: HazardsRepository) {
+  return {
+    /** Build the sheet model of plan `id` with the given (raw) options. */
+    build(id: number, rawOptions: unknown, printedAt = new Date().toISOString()): Sheet {
+      const parsed = sheetRequestSchema.safeParse(rawOptions ?? {});
+      if (!parsed.success) throw new InputError(issueList(parsed.error));
+      const plan = plans.get(id);
+      const revs = plan.revisions.map((r) => ({ r, rev: shelf.byRevisionId(r.revisionId)! })).filter((x) => x.rev !== null);
+      const species = new Map<string, SpeciesRecord>();
+      const chemicals = new Map<string, ChemicalRecord>();
+      for (const { rev } of revs) {
+        if (rev.type === 'species') species.set(rev.id, rev.record as SpeciesRecord);
+        else chemicals.set(rev.id, rev.record as ChemicalRecord);
+      }
+      return buildSheet(
+        {
+          plan: { ...(plan as object), request: { boundary: (plan.request as { boundary: string }).boundary, dosing: (plan.request as { dosing?: string }).dosing ?? 'add' } } as unknown as { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string }; result: { candidates: CandidateResult[] }; inputs: { base: Mixture; candidates: Species[] } },
+          revisions: revs.map(({ r, rev }) => ({ role: r.role, id: rev.id, revision: rev.revision, revisionId: rev.revisionId })),
+          speciesRecord: (k) => species.get(k) ?? null,
+          chemicalRecord: (k) => chemicals.get(k) ?? null,
+          hazards: (k) => {
+            const h = hazards.current<HazardSet>(k);
+            return h ? hazardSetSchema.parse(h.body) : null;
+          },
+          printedAt,
+        },
+        parsed.data,
+      );
+    },
+    render(sheet: Sheet, format: SheetFormat, paper: 'A4' | 'Letter' = 'A4'): string {
+      if (format === 'html') return renderHtml(sheet, paper);
+      if (format === 'md') return renderMarkdown(sheet);
+      return JSON.stringify(sheet, null, 2) + '\n';
+    },
+  };
+}
+export type SheetService = ReturnType<typeof sheetService>;

@@ -1,0 +1,364 @@
+/**
+ * The bench sheet of a stored plan and one candidate: stocks, dilutions,
+ * master mix, the dose series and the controls with their volumes, an imaging
+ * plan from the plan's numbers, the practical warnings, and the hazards of each
+ * chemical as handled (stock bottle and working solution).
+ *
+ * The model built here is the JSON format; html.ts and markdown.ts render it.
+ * Every number carries its unit. Nothing depends on the clock but `printedAt`.
+ */
+import { z } from 'zod';
+import type { AnalysisResult } from '../engine/analyze.js';
+import type { CandidateResult } from '../engine/planner.js';
+import type { Mixture, Species } from '../engine/types.js';
+import { quantity } from '../schema/mixture.js';
+import { numberDensity, type ChemicalRecord, type SpeciesRecord } from '../schema/shelf.js';
+import { DomainError, InputError } from '../shelf/errors.js';
+import { DIMENSIONS } from '../units/index.js';
+import { VERSION } from '../version.js';
+import { classify, type Classification, type HazardSet } from './hazards.js';
+import { planPipetting, type Component, type SampleSpec } from './pipetting.js';
+
+const stockSchema = z.strictObject({
+  density: quantity(DIMENSIONS.numberDensity, 'positive', 'particles per volume').optional(),
+  volumeFraction: quantity(DIMENSIONS.dimensionless, 'positive', 'volume fraction').optional(),
+  massConcentration: quantity(DIMENSIONS.massDensity, 'positive', 'mass concentration (mg/mL)').optional(),
+  percentWv: z.number().positive().max(100).optional(),
+  percentWw: z.number().positive().max(100).optional(),
+  solutionDensity: quantity(DIMENSIONS.massDensity, 'positive', 'density of the stock solution (for % w/w)').optional(),
+  molarConcentration: quantity(DIMENSIONS.concentration, 'positive', 'molar concentration (mol/L)').optional(),
+  description: z.string().max(500).optional(),
+});
+
+/** Options of a sheet (all optional). */
+export const sheetRequestSchema = z.strictObject({
+  candidate: z.string().min(1).max(64).optional(),
+  sampleVolume: quantity({ length: 3 }, 'positive', 'volume of one sample (chamber)').optional(),
+  replicates: z.number().int().min(1).max(24).default(3),
+  /** doses as multiples of the reference (median, or threshold) dose; default 0, 0.5, 0.8, 1, 1.25, 1.6, 2 and the 5 % and 95 % doses */
+  doseFactors: z.array(z.number().min(0).max(1000)).min(1).max(24).optional(),
+  minVolume: quantity({ length: 3 }, 'positive', 'smallest volume to pipette (default 1 µL)').optional(),
+  overage: z.number().min(0).max(1).default(0.1),
+  buffer: z.string().min(1).max(100).default('buffer'),
+  stocks: z.record(z.string(), stockSchema).optional(),
+  operator: z.string().max(200).optional(),
+});
+export type SheetRequest = z.output<typeof sheetRequestSchema>;
+
+export interface Amount {
+  value: number;
+  unit: string;
+}
+
+export interface HazardEntry {
+  chemical: string;
+  name: string;
+  asHandled: { where: string; massFraction: number; classification: Classification }[];
+  source: string | null;
+  incompatibilities: string | null;
+  storage: string | null;
+  disposal: string | null;
+  handling: string | null;
+  verify: string;
+}
+
+export interface Sheet {
+  title: string;
+  software: { name: 'brink'; version: string };
+  printedAt: string;
+  plan: { id: number; name: string; boundary: string; dosing: string; createdAt: string };
+  candidate: { id: string; name: string };
+  shelfRevisions: { role: string; id: string; revision: number; revisionId: number }[];
+  prediction: {
+    threshold: Amount & { volumeFraction: number };
+    band: { p05: Amount | null; median: Amount | null; p95: Amount | null; samples: number; seed: number } | null;
+    referenceDose: Amount;
+    atMargin: { state: string; growthTime: Amount | null; wavelength: Amount | null; oscillationPeriod: Amount | null; gathers: string[]; pushedOut: string[] } | null;
+  };
+  options: { sampleVolume: Amount; replicates: number; minVolume: Amount; overage: number; buffer: string };
+  stocks: { id: string; name: string; kind: 'species' | 'chemical'; concentration: Amount; described: string; source: 'shelf' | 'option' }[];
+  dilutions: { name: string; concentration: Amount; volume: Amount; steps: { what: string; from: string; volume: Amount }[] }[];
+  masterMix: { tubes: number; perTube: Amount; total: Amount; steps: { what: string; from: string; volume: Amount }[] } | null;
+  samples: { name: string; role: 'series' | 'control'; dose: Amount | null; doseFactor: number | null; tubes: number; steps: { what: string; from: string; volume: Amount }[] }[];
+  imaging: { frameInterval: Amount; duration: Amount; fuelLife: Amount | null; wavelength: Amount | null; chamberLength: Amount | null; fieldOfView: Amount | null; notes: string[] };
+  warnings: { code: string; message: string }[];
+  hazards: HazardEntry[];
+  safety: string[];
+}
+
+export interface SheetContext {
+  plan: { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string }; result: { candidates: CandidateResult[] }; inputs: { base: Mixture; candidates: Species[] } };
+  revisions: { role: string; id: string; revision: number; revisionId: number }[];
+  speciesRecord: (id: string) => SpeciesRecord | null;
+  chemicalRecord: (id: string) => ChemicalRecord | null;
+  hazards: (id: string) => HazardSet | null;
+  printedAt: string;
+}
+
+const UL = 1e-9;
+const ul = (v: number): Amount => ({ value: Number((v / UL).toPrecision(4)), unit: 'µL' });
+const perMl = (x: number): Amount => ({ value: Number((x * 1e-6).toPrecision(4)), unit: 'particles/mL' });
+const mM = (x: number): Amount => ({ value: Number(x.toPrecision(4)), unit: 'mM' });
+const s = (t: number): Amount => ({ value: Number(t.toPrecision(3)), unit: 's' });
+const mm = (x: number): Amount => ({ value: Number((x * 1e3).toPrecision(3)), unit: 'mm' });
+const WATER = 997.05;
+
+/** 1, 2, 5 × 10^k at or below x. */
+function niceFloor(x: number): number {
+  const e = Math.floor(Math.log10(x));
+  const m = x / Math.pow(10, e);
+  const base = m >= 5 ? 5 : m >= 2 ? 2 : 1;
+  return base * Math.pow(10, e);
+}
+
+/** Molar concentration (mol/m³) and mass fraction of a chemical stock. */
+export function chemicalStock(c: ChemicalRecord, o: z.output<typeof stockSchema> | undefined): { molar: number; massFraction: number | null; text: string; source: 'shelf' | 'option' } | null {
+  const M = c.molarMass?.si;
+  if (o) {
+    if (o.molarConcentration) {
+      const w = M ? (o.molarConcentration.value * M) / (o.solutionDensity?.value ?? WATER) : null;
+      return { molar: o.molarConcentration.value, massFraction: w, text: `${o.molarConcentration.value / 1000} mol/L`, source: 'option' };
+    }
+    if (o.percentWw !== undefined) {
+      if (!M || !o.solutionDensity) throw new InputError([{ path: `stocks.${c.id}`, message: '% w/w needs the chemical’s molar mass and the solution density (solutionDensity)' }]);
+      return { molar: ((o.percentWw / 100) * o.solutionDensity.value) / M, massFraction: o.percentWw / 100, text: `${o.percentWw} % w/w (density ${o.solutionDensity.value / 1000} g/mL)`, source: 'option' };
+    }
+    const massConc = o.massConcentration?.value ?? (o.percentWv !== undefined ? o.percentWv * 10 : undefined);
+    if (massConc !== undefined) {
+      if (!M) throw new InputError([{ path: `stocks.${c.id}`, message: 'a mass concentration needs the chemical’s molar mass' }]);
+      return { molar: massConc / M, massFraction: massConc / (o.solutionDensity?.value ?? WATER), text: o.percentWv !== undefined ? `${o.percentWv} % w/v` : `${massConc} mg/mL`, source: 'option' };
+    }
+  }
+  const st = c.stock;
+  if (!st) return null;
+  if (st.concentration) {
+    const w = M ? (st.concentration.si * M) / (st.density?.si ?? WATER) : null;
+    return { molar: st.concentration.si, massFraction: w, text: `${st.description} (${String(st.concentration.input)})`, source: 'shelf' };
+  }
+  if (st.massFraction && st.density && M) {
+    return { molar: (st.massFraction.si * st.density.si) / M, massFraction: st.massFraction.si, text: st.description, source: 'shelf' };
+  }
+  return null;
+}
+
+/** Number density (m⁻³) of a species stock. */
+export function speciesStock(sp: SpeciesRecord, o: z.output<typeof stockSchema> | undefined): { density: number; text: string; source: 'shelf' | 'option' } | null {
+  if (o) {
+    const massConcentration = o.massConcentration ?? (o.percentWv !== undefined ? { value: o.percentWv * 10, sd: 0, unit: null } : undefined);
+    const amount = o.density
+      ? { density: { si: o.density.value, sd: 0, unit: null, input: o.density.value } }
+      : o.volumeFraction
+        ? { volumeFraction: { si: o.volumeFraction.value, sd: 0, unit: null, input: o.volumeFraction.value } }
+        : massConcentration
+          ? { massConcentration: { si: massConcentration.value, sd: 0, unit: null, input: massConcentration.value } }
+          : o.molarConcentration
+            ? { molarConcentration: { si: o.molarConcentration.value, sd: 0, unit: null, input: o.molarConcentration.value } }
+            : null;
+    if (!amount) throw new InputError([{ path: `stocks.${sp.id}`, message: 'give the stock as density, volumeFraction, massConcentration, percentWv or molarConcentration' }]);
+    try {
+      return { density: numberDensity(sp, amount).value, text: o.description ?? 'as given', source: 'option' };
+    } catch (e) {
+      throw new InputError([{ path: `stocks.${sp.id}`, message: (e as Error).message }]);
+    }
+  }
+  const st = sp.stock;
+  if (!st) return null;
+  const { description, ...amount } = st;
+  try {
+    return { density: numberDensity(sp, amount).value, text: description, source: 'shelf' };
+  } catch {
+    return null;
+  }
+}
+
+/** Build the sheet model. @throws InputError, DomainError (what is impossible and what would fix it) */
+export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
+  const { plan } = ctx;
+  const results = plan.result.candidates;
+  const chosen = req.candidate ?? results.find((c) => c.feasible)?.species;
+  if (!chosen) throw new DomainError('no-feasible-candidate', `no candidate of plan ${plan.id} crosses the boundary: there is no dose series to print`);
+  const cand = results.find((c) => c.species === chosen);
+  if (!cand) throw new InputError([{ path: 'candidate', message: `"${chosen}" is not a candidate of plan ${plan.id}` }]);
+  if (!cand.feasible || !cand.threshold) throw new DomainError('candidate-infeasible', `"${chosen}" cannot cross the boundary (${cand.reason}): ${cand.message}`);
+  const base = plan.inputs.base;
+  const dopant = plan.inputs.candidates.find((c) => c.id === chosen)!;
+  const o = {
+    sampleVolume: req.sampleVolume?.value ?? 100 * UL,
+    replicates: req.replicates,
+    minVolume: req.minVolume?.value ?? 1 * UL,
+    overage: req.overage,
+    buffer: req.buffer,
+  };
+
+  // Reference dose and the series.
+  const ref = cand.band?.median ?? cand.threshold.density;
+  const factors = req.doseFactors ?? [0, 0.5, 0.8, 1, 1.25, 1.6, 2];
+  const doses = factors.map((f) => f * ref);
+  if (!req.doseFactors && cand.band) {
+    if (cand.band.p05 !== null) doses.push(cand.band.p05);
+    if (cand.band.p95 !== null) doses.push(cand.band.p95);
+  }
+  const series = [...new Set(doses.map((d) => Number(d.toPrecision(6))))].sort((a, b) => a - b);
+
+  // Stocks.
+  const stocks: Sheet['stocks'] = [];
+  const components: Component[] = [];
+  const spIds = [...base.species.map((x) => x.id), dopant.id];
+  for (const id of spIds) {
+    const rec = ctx.speciesRecord(id);
+    if (!rec) throw new DomainError('missing-revision', `species "${id}" of the plan is not on the shelf`);
+    const st = speciesStock(rec, req.stocks?.[id]);
+    if (!st) throw new InputError([{ path: `stocks.${id}`, message: `no usable stock for "${id}" on the shelf: give one (e.g. { "massConcentration": "10 mg/mL" })` }]);
+    components.push({ id, label: rec.name, stock: st.density, stockText: st.text, per: 'particles' });
+    stocks.push({ id, name: rec.name, kind: 'species', concentration: perMl(st.density), described: st.text, source: st.source });
+  }
+  const fuelIds: string[] = [];
+  const warnings: Sheet['warnings'] = [];
+  const stockFractions = new Map<string, number | null>();
+  for (const ch of base.chemicals) {
+    if (!(ch.concentration > 0)) continue;
+    const rec = ctx.chemicalRecord(ch.id);
+    if (!rec) continue;
+    const st = chemicalStock(rec, req.stocks?.[ch.id]);
+    if (!st) {
+      warnings.push({ code: 'no-stock', message: `${rec.name}: no stock on the shelf, so it is not pipetted (taken as already present at ${mM(ch.concentration).value} mM, e.g. dissolved from air).` });
+      continue;
+    }
+    fuelIds.push(ch.id);
+    components.push({ id: ch.id, label: rec.name, stock: st.molar, stockText: st.text, per: 'mol' });
+    stocks.push({ id: ch.id, name: rec.name, kind: 'chemical', concentration: mM(st.molar), described: st.text, source: st.source });
+    stockFractions.set(ch.id, st.massFraction);
+  }
+
+  // Samples: the series and the controls.
+  const baseConc = Object.fromEntries(base.species.map((x) => [x.id, x.density]));
+  const fuelConc = Object.fromEntries(base.chemicals.filter((c) => fuelIds.includes(c.id)).map((c) => [c.id, c.concentration]));
+  const replaceScale = (x: number) => {
+    if (plan.request.dosing !== 'replace') return 1;
+    const phi = base.species.reduce((a, b) => a + b.density * (4 / 3) * Math.PI * b.radius ** 3, 0);
+    return Math.max(0, 1 - (x * (4 / 3) * Math.PI * dopant.radius ** 3) / phi);
+  };
+  const replace = plan.request.dosing === 'replace';
+  const specs: SampleSpec[] = series.map((x) => ({
+    name: x === 0 ? 'dose 0 (control: no dopant)' : `dose ${(x / ref).toPrecision(3)} ×`,
+    role: x === 0 ? 'control' : 'series',
+    dose: x,
+    conc: { ...Object.fromEntries(Object.entries(baseConc).map(([k, v]) => [k, v * replaceScale(x)])), [dopant.id]: x, ...fuelConc },
+    usesMasterMix: !replace,
+  }));
+  specs.push({ name: 'control: no fuel (dopant at 1 ×)', role: 'control', dose: ref, conc: { ...Object.fromEntries(Object.entries(baseConc).map(([k, v]) => [k, v * replaceScale(ref)])), [dopant.id]: ref }, usesMasterMix: !replace });
+  specs.push({ name: 'control: dopant alone (1 ×, with fuel)', role: 'control', dose: ref, conc: { [dopant.id]: ref, ...fuelConc }, usesMasterMix: false });
+
+  const pip = planPipetting(components, specs, o, base.species.map((x) => x.id), dopant.id, fuelIds);
+  const tr = (t: { what: string; from: string; volume: number }) => ({ what: t.what, from: t.from, volume: ul(t.volume) });
+
+  // Imaging plan from the numbers at the margin dose.
+  const m: AnalysisResult | null = cand.atMargin;
+  const tau = m ? (m.growthTime ?? (m.growthRate !== 0 ? 1 / Math.abs(m.growthRate) : null)) : null;
+  const notes: string[] = [];
+  let frame = 10;
+  let duration = 3600;
+  let fuelLife: number | null = null;
+  if (m && tau) {
+    frame = niceFloor(tau / 10);
+    duration = 5 * tau;
+    fuelLife = m.checks.fuel.length > 0 ? Math.min(...m.checks.fuel.map((f) => f.lifetime)) : null;
+    notes.push(`frame interval at most a tenth of the ${m.growthTime ? 'growth' : 'decay'} time (${s(tau).value} s at the ${cand.atMargin === cand.atThreshold ? 'threshold' : 'margin'} dose)`);
+    if (fuelLife !== null && fuelLife < duration) {
+      warnings.push({ code: 'imaging-capped-by-fuel', message: `five growth times (${s(duration).value} s) outlast the fuel (about ${s(fuelLife).value} s): the imaging stops when the fuel runs out; refuel or use more fuel if the pattern needs longer.` });
+      duration = fuelLife;
+    }
+  }
+  const lambda = m?.fastestMode.wavelength ?? null;
+  const L = base.chamber.length;
+  let fov: number | null = null;
+  if (lambda !== null) {
+    fov = L !== null ? Math.min(2 * lambda, L) : 2 * lambda;
+    notes.push(L !== null && 2 * lambda >= L ? 'the pattern fills the chamber: image the whole chamber (tile if needed)' : 'a field of view of two wavelengths shows the pattern');
+  } else notes.push('the least stable mode is the longest wave: image the whole chamber');
+  if (m) for (const w of m.warnings) warnings.push({ code: w.code, message: w.message });
+
+  // Hazards as handled: the stock bottle and the working solution.
+  const hazards: HazardEntry[] = [];
+  for (const id of fuelIds) {
+    const rec = ctx.chemicalRecord(id)!;
+    const set = ctx.hazards(id);
+    const M = rec.molarMass?.si ?? null;
+    const wStock = stockFractions.get(id) ?? null;
+    const wWork = M ? (fuelConc[id]! * M) / WATER : null;
+    const asHandled: HazardEntry['asHandled'] = [];
+    if (wStock !== null) asHandled.push({ where: `stock bottle (${(wStock * 100).toPrecision(3)} % w/w)`, massFraction: wStock, classification: classify(set, wStock) });
+    if (wWork !== null) asHandled.push({ where: `working solution in the sample (${(wWork * 100).toPrecision(3)} % w/w, ${mM(fuelConc[id]!).value} mM)`, massFraction: wWork, classification: classify(set, wWork) });
+    hazards.push({
+      chemical: id,
+      name: rec.name,
+      asHandled,
+      source: set?.source ?? null,
+      incompatibilities: set?.incompatibilities ?? null,
+      storage: set?.storage ?? null,
+      disposal: set?.disposal ?? null,
+      handling: set?.handling ?? null,
+      verify: set ? "Hazard data are the shelf's: verify them against your supplier's safety data sheet." : 'No hazard data on the shelf for this chemical: read the supplier’s safety data sheet before handling it.',
+    });
+  }
+  const catalytic = [...base.species, dopant].some((x) => x.couplings.some((c) => (c.activity?.kind === 'constant' && c.activity.rate < 0) || c.activity?.kind === 'saturating'));
+  const gas = base.chemicals.some((c) => c.solubility !== null);
+  const safety = [
+    'Wear eye protection and gloves (nitrile) and a lab coat for every step; handle concentrated stocks in a fume hood if the safety data sheet asks for it.',
+    ...(catalytic || gas ? ['Catalytic particles and enzymes decompose the fuel and can evolve gas: never seal a vial, tube or chamber that holds catalyst and fuel unless it is built to take the pressure; keep stock vials vented.'] : []),
+    'Add the fuel last, to the diluted mixture, never the other way round; do not return unused fuel to its stock bottle.',
+    'Biological materials (enzymes, coated beads): follow your institution’s biosafety rules; particles and nanoparticles: avoid aerosols.',
+    'Local regulations, your institution’s safety rules and the supplier’s safety data sheet take precedence over this sheet.',
+  ];
+
+  const prediction: Sheet['prediction'] = {
+    threshold: { ...perMl(cand.threshold.density), volumeFraction: cand.threshold.volumeFraction },
+    band: cand.band
+      ? { p05: cand.band.p05 !== null ? perMl(cand.band.p05) : null, median: cand.band.median !== null ? perMl(cand.band.median) : null, p95: cand.band.p95 !== null ? perMl(cand.band.p95) : null, samples: cand.band.samples, seed: cand.band.seed }
+      : null,
+    referenceDose: perMl(ref),
+    atMargin: m
+      ? {
+          state: m.state,
+          growthTime: m.growthTime !== null ? s(m.growthTime) : null,
+          wavelength: m.fastestMode.wavelength !== null ? mm(m.fastestMode.wavelength) : null,
+          oscillationPeriod: m.fastestMode.oscillationPeriod !== null ? s(m.fastestMode.oscillationPeriod) : null,
+          gathers: m.composition.filter((c) => c.weight > 0.05).map((c) => c.species),
+          pushedOut: m.composition.filter((c) => c.weight < -0.05).map((c) => c.species),
+        }
+      : null,
+  };
+
+  return {
+    title: `Bench sheet — plan ${plan.id}: ${plan.name}`,
+    software: { name: 'brink', version: VERSION },
+    printedAt: ctx.printedAt,
+    plan: { id: plan.id, name: plan.name, boundary: plan.request.boundary, dosing: plan.request.dosing, createdAt: plan.createdAt },
+    candidate: { id: chosen, name: ctx.speciesRecord(chosen)?.name ?? chosen },
+    shelfRevisions: ctx.revisions,
+    prediction,
+    options: { sampleVolume: ul(o.sampleVolume), replicates: o.replicates, minVolume: ul(o.minVolume), overage: o.overage, buffer: o.buffer },
+    stocks,
+    dilutions: pip.dilutions.map((d) => ({
+      name: d.name,
+      concentration: components.find((c) => c.id === d.component)!.per === 'mol' ? mM(d.concentration) : perMl(d.concentration),
+      volume: ul(d.volume),
+      steps: d.steps.map(tr),
+    })),
+    masterMix: pip.masterMix ? { tubes: pip.masterMix.tubes, perTube: ul(pip.masterMix.perTube), total: ul(pip.masterMix.total), steps: pip.masterMix.steps.map(tr) } : null,
+    samples: pip.samples.map((x) => ({ name: x.name, role: x.role, dose: x.dose === null ? null : perMl(x.dose), doseFactor: x.dose === null ? null : Number((x.dose / ref).toPrecision(4)), tubes: x.tubes, steps: x.steps.map(tr) })),
+    imaging: {
+      frameInterval: s(frame),
+      duration: s(duration),
+      fuelLife: fuelLife !== null ? s(fuelLife) : null,
+      wavelength: lambda !== null ? mm(lambda) : null,
+      chamberLength: L !== null ? mm(L) : null,
+      fieldOfView: fov !== null ? mm(fov) : null,
+      notes,
+    },
+    warnings,
+    hazards,
+    safety,
+  };
+}
+
