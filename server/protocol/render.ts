@@ -49,7 +49,7 @@ ${a.classification.statements.length === 0 ? '<p>No hazard statement applies at 
 ${a.classification.signal ? `<p class="signal">Signal word: <strong>${e(a.classification.signal)}</strong></p>` : ''}
 ${a.classification.pictograms.length ? `<p>Pictograms: ${a.classification.pictograms.map((p) => `${e(p)} (${e(PICTOGRAMS[p] ?? '')})`).join(', ')}</p>` : ''}
 ${a.classification.statements.length ? `<ul>${a.classification.statements.map((s) => `<li><strong>${e(s.code)}</strong> ${e(s.text)} <span class="muted">(${e(s.hazardClass)})</span></li>`).join('')}</ul>` : ''}
-${a.classification.precautionary.length ? `<p class="muted">Precautionary: ${a.classification.precautionary.map(e).join('; ')}</p>` : ''}
+${a.classification.precautionary.length ? `<p class="muted">Precautionary: ${a.classification.precautionary.map(e).join(' ')}</p>` : ''}
 </div>`,
   )
   .join('')}
@@ -72,7 +72,7 @@ ${h.disposal ? `<p><strong>Disposal:</strong> ${e(h.disposal)}</p>` : ''}
   th { background: #eef2ee; } td.num, th.num { text-align: right; white-space: nowrap; } .chk { width: 9mm; text-align: center; }
   caption { text-align: left; font-weight: 600; padding: 1mm 0; }
   .box { font-size: 12pt; } .muted { color: #555; font-size: 9pt; } .signal strong { text-transform: uppercase; }
-  .fields td { height: 8mm; } .warn { border-left: 3px solid #b5651d; padding-left: 2mm; }
+  .fields td { height: 8mm; width: 34%; } .warn { border-left: 3px solid #b5651d; padding-left: 2mm; }
   .hazard { border: 1px solid #b33; padding: 1mm 3mm; margin: 3mm 0; page-break-inside: avoid; }
   @media print {
     body { padding: 0; max-width: none; }

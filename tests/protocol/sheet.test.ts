@@ -1,0 +1,177 @@
+/** The bench sheet of a stored plan over the demo shelf: content, determinism, escaping, the hazard editor, the CLI. */
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { main } from '../../server/cli.js';
+import type { App } from '../../server/http/app.js';
+import { buildApp } from '../../server/http/app.js';
+import type { Sheet } from '../../server/protocol/sheet.js';
+import { seedDemoShelf } from '../../server/shelf/seed.js';
+import { openDatabase } from '../../server/store/db.js';
+import { freshApp } from '../helpers/app.js';
+
+export const planRequest = {
+  name: 'washed B09: what makes it cluster?',
+  base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }],
+  chemicals: { h2o2: '200 mM' },
+  chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' },
+  boundary: 'stationary',
+  candidates: ['ptj-1um-b07', 'catb-0.22-l04'],
+  uncertainty: { samples: 40, seed: 5 },
+};
+
+let app: App;
+let planId = 0;
+beforeAll(async () => {
+  app = await freshApp({ demo: true });
+  planId = (await app.inject({ method: 'POST', url: '/api/plans', payload: planRequest })).json().id;
+});
+afterAll(async () => {
+  await app.close();
+});
+
+const sheet = async (q = '') => (await app.inject({ method: 'GET', url: `/api/plans/${planId}/sheet?format=json${q}` })).json() as Sheet;
+
+describe('bench sheet', () => {
+  it('carries the plan, the revisions, the software version, stocks, volumes, controls, imaging and hazards', async () => {
+    const s = await sheet();
+    expect(s.plan).toMatchObject({ id: planId, boundary: 'stationary', dosing: 'add' });
+    expect(s.candidate.id).toBe('ptj-1um-b07');
+    expect(s.software).toEqual({ name: 'brink', version: expect.any(String) });
+    expect(s.shelfRevisions.map((r) => r.id).sort()).toEqual(['catb-0.22-l04', 'h2o2', 'o2', 'ptj-1um-b07', 'ptj-1um-b09']);
+    expect(s.stocks.map((x) => x.id)).toEqual(['ptj-1um-b09', 'ptj-1um-b07', 'h2o2']);
+    expect(s.samples.filter((x) => x.role === 'control').map((x) => x.name)).toEqual(['dose 0 (control: no dopant)', 'control: no fuel (dopant at 1 ×)', 'control: dopant alone (1 ×, with fuel)']);
+    // fuel last wherever fuel is added; the no-fuel control has none
+    for (const x of s.samples) {
+      const fuel = x.steps.findIndex((st) => st.what === 'hydrogen peroxide');
+      if (x.name.startsWith('control: no fuel')) expect(fuel).toBe(-1);
+      else expect(fuel).toBe(x.steps.length - 1);
+    }
+    // every pipetted volume at or above the 1 µL minimum
+    const vols = [...s.dilutions.flatMap((d) => d.steps), ...(s.masterMix?.steps ?? []), ...s.samples.flatMap((x) => x.steps)].map((st) => st.volume);
+    for (const v of vols) {
+      expect(v.unit).toBe('µL');
+      expect(v.value).toBeGreaterThanOrEqual(1);
+    }
+    // imaging: frame interval ≤ a tenth of the growth time; duration five growth times or the fuel life
+    const tg = s.prediction.atMargin!.growthTime!.value;
+    expect(s.imaging.frameInterval.value).toBeLessThanOrEqual(tg / 10);
+    expect(s.imaging.duration.value).toBeCloseTo(Math.min(5 * tg, s.imaging.fuelLife?.value ?? Infinity), -1);
+    // hazards: the 30 % stock bottle (Eye Dam. 1) and the 0.68 % working solution (no statement)
+    const h = s.hazards.find((x) => x.chemical === 'h2o2')!;
+    expect(h.asHandled[0]!.where).toMatch(/^stock bottle \(30\.0 % w\/w\)/);
+    expect(h.asHandled[0]!.classification.statements.map((x) => x.code)).toEqual(['H318']);
+    expect(h.asHandled[1]!.where).toMatch(/^working solution/);
+    expect(h.asHandled[1]!.classification.statements).toEqual([]);
+    expect(h.verify).toMatch(/supplier's safety data sheet/);
+    expect(s.safety.join(' ')).toMatch(/eye protection and gloves/);
+    expect(s.safety.join(' ')).toMatch(/never seal/);
+    expect(s.safety.join(' ')).toMatch(/Local regulations, your institution’s safety rules and the supplier’s safety data sheet take precedence/);
+    expect(h.incompatibilities).toMatch(/platinum/);
+    expect(h.disposal).toBeTruthy();
+  });
+
+  it('the default dose series brackets the uncertainty band', async () => {
+    const s = await sheet();
+    const doses = s.samples.filter((x) => x.role === 'series').map((x) => x.dose!.value);
+    expect(Math.min(...doses)).toBeLessThanOrEqual(s.prediction.band!.p05!.value);
+    expect(Math.max(...doses)).toBeGreaterThanOrEqual(s.prediction.band!.p95!.value);
+    expect(doses).toContain(s.prediction.band!.p05!.value);
+    expect(doses).toContain(s.prediction.band!.p95!.value);
+  });
+
+  it('the same plan printed twice is identical apart from the print date', async () => {
+    const a = app.sheets.build(planId, {}, '2026-12-02T08:00:00.000Z');
+    const b = app.sheets.build(planId, {}, '2026-12-03T09:30:00.000Z');
+    expect({ ...a, printedAt: 0 }).toEqual({ ...b, printedAt: 0 });
+    for (const f of ['html', 'md'] as const) {
+      expect(app.sheets.render(a, f).replaceAll(a.printedAt, 'DATE')).toBe(app.sheets.render(b, f).replaceAll(b.printedAt, 'DATE'));
+    }
+  });
+
+  it('HTML and Markdown carry the sections and the print rules', async () => {
+    const html = (await app.inject({ method: 'GET', url: `/api/plans/${planId}/sheet?format=html&paper=Letter` })).body;
+    expect(html).toContain('@media print');
+    expect(html).toContain('size: letter');
+    expect(html).toContain('thead { display: table-header-group; }');
+    expect(html).toContain('☐');
+    expect(html).toMatch(/<th>Operator<\/th><td><\/td><th>Date<\/th><td><\/td>/);
+    expect(html).toContain('Hazards and safe handling');
+    const md = (await app.inject({ method: 'GET', url: `/api/plans/${planId}/sheet?format=md` })).body;
+    expect(md).toContain('## Hazards and safe handling');
+    expect(md).toContain('| [ ] |');
+  });
+
+  it('user text is escaped in HTML and Markdown', async () => {
+    const evil = '<img src=x onerror=alert(1)>';
+    const a = await freshApp({ demo: true });
+    const cur = (await a.inject({ method: 'GET', url: '/api/species/ptj-1um-b07' })).json();
+    await a.inject({ method: 'PUT', url: '/api/species/ptj-1um-b07', payload: { baseRevision: cur.revision, record: { ...cur.typed, name: evil } } });
+    const p = (await a.inject({ method: 'POST', url: '/api/plans', payload: { ...planRequest, name: `plan ${evil}`, uncertainty: undefined } })).json();
+    const html = (await a.inject({ method: 'GET', url: `/api/plans/${p.id}/sheet?format=html&buffer=${encodeURIComponent('<b>PBS</b>')}` })).body;
+    expect(html).not.toContain('<img');
+    expect(html).not.toContain('<b>PBS');
+    expect(html).toContain('&lt;img src=x onerror=alert(1)&gt;');
+    const md = (await a.inject({ method: 'GET', url: `/api/plans/${p.id}/sheet?format=md` })).body;
+    expect(md).not.toContain('<img');
+    expect(md).toContain('&lt;img src=x onerror=alert(1)&gt;');
+    await a.close();
+  });
+
+  it('options: sample volume, replicates, minimum volume; errors for bad options and impossible plans', async () => {
+    const s = await sheet('&sampleVolume=50%20uL&replicates=2&minVolume=2%20uL');
+    expect(s.options).toMatchObject({ sampleVolume: { value: 50, unit: 'µL' }, replicates: 2, minVolume: { value: 2, unit: 'µL' } });
+    expect(Math.min(...s.samples.flatMap((x) => x.steps.map((st) => st.volume.value)))).toBeGreaterThanOrEqual(2);
+    const bad = await app.inject({ method: 'GET', url: `/api/plans/${planId}/sheet?sampleVolume=3%20mM` });
+    expect(bad.statusCode).toBe(400);
+    expect(bad.json().problems[0].path).toBe('sampleVolume');
+    const impossible = await app.inject({ method: 'POST', url: `/api/plans/${planId}/sheet?format=json`, payload: { stocks: { 'ptj-1um-b07': { massConcentration: '0.05 mg/mL' } } } });
+    expect(impossible.statusCode).toBe(422);
+    expect(impossible.json().message).toMatch(/would fit|larger sample volume/);
+    const cannot = await app.inject({ method: 'GET', url: `/api/plans/${planId}/sheet?candidate=catb-0.22-l04` });
+    expect(cannot.statusCode).toBe(422);
+    expect(cannot.json().code).toBe('candidate-infeasible');
+  });
+});
+
+describe('hazard editor', () => {
+  it('reads and versions hazard data, refusing a stale write', async () => {
+    const cur = (await app.inject({ method: 'GET', url: '/api/chemicals/h2o2/hazards' })).json();
+    expect(cur.current.version).toBe(1);
+    const body = { ...cur.current.body, storage: 'cold room, vented cap' };
+    const w = await app.inject({ method: 'PUT', url: '/api/chemicals/h2o2/hazards', payload: { baseVersion: 1, hazards: body, author: 'safety officer (invented)' } });
+    expect(w.statusCode).toBe(200);
+    expect(w.json().version).toBe(2);
+    const stale = await app.inject({ method: 'PUT', url: '/api/chemicals/h2o2/hazards', payload: { baseVersion: 1, hazards: body } });
+    expect(stale.statusCode).toBe(409);
+    expect(stale.json().error).toBe('stale-version');
+    const bad = await app.inject({ method: 'PUT', url: '/api/chemicals/h2o2/hazards', payload: { baseVersion: 2, hazards: { ...body, bands: [{ ...body.bands[0], pictograms: ['GHS10'] }] } } });
+    expect(bad.statusCode).toBe(400);
+    expect(bad.json().problems[0].path).toBe('hazards.bands[0].pictograms[0]');
+    expect((await app.inject({ method: 'GET', url: '/api/chemicals/h2o2/hazards' })).json().history.map((h: { version: number }) => h.version)).toEqual([1, 2]);
+    expect((await app.inject({ method: 'PUT', url: '/api/chemicals/ghost/hazards', payload: { baseVersion: 0, hazards: body } })).statusCode).toBe(404);
+  });
+});
+
+describe('brink sheet', () => {
+  it('prints the sheet of a plan from the database', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'brink-sheet-'));
+    const path = join(dir, 'b.sqlite');
+    const db = openDatabase(path);
+    seedDemoShelf(db);
+    const a = await buildApp({ config: { closeDatabase: true }, db });
+    const p = (await a.inject({ method: 'POST', url: '/api/plans', payload: { ...planRequest, uncertainty: undefined } })).json();
+    await a.close();
+    let out = '';
+    let err = '';
+    const io = { out: (t: string) => (out += t), err: (t: string) => (err += t) };
+    expect(await main(['sheet', String(p.id), '--db', path, '--format', 'md'], io)).toBe(0);
+    expect(out).toContain(`plan ${p.id}`);
+    expect(out).toContain('## Hazards and safe handling');
+    const file = join(dir, 'sheet.html');
+    expect(await main(['sheet', String(p.id), '--db', path, '--out', file], io)).toBe(0);
+    expect(await main(['sheet', '999', '--db', path], io)).toBe(2);
+    expect(err).toMatch(/no plan 999/);
+  });
+});

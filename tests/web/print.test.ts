@@ -1,0 +1,77 @@
+/// <reference lib="dom" />
+/**
+ * In a real browser (Debian's Chromium, driven by playwright-core): the shelf
+ * page lists the demo shelf, and a plan's bench sheet opens and prints to PDF
+ * with its hazard section. The service listens on 127.0.0.1 only.
+ */
+import { existsSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { chromium, type Browser } from 'playwright-core';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { App } from '../../server/http/app.js';
+import { freshApp } from '../helpers/app.js';
+
+const CHROMIUM = '/usr/bin/chromium';
+let app: App;
+let browser: Browser;
+let base = '';
+
+beforeAll(async () => {
+  if (!existsSync(CHROMIUM)) throw new Error(`${CHROMIUM} is missing: install Debian's chromium (apt-get install -y chromium), as .ci/run does`);
+  app = await freshApp({ demo: true });
+  await app.listen({ port: 0, host: '127.0.0.1' });
+  const addr = app.server.address();
+  base = `http://127.0.0.1:${typeof addr === 'object' && addr ? addr.port : 0}`;
+  browser = await chromium.launch({
+    executablePath: CHROMIUM,
+    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run', '--disable-quic'],
+  });
+}, 60_000);
+
+afterAll(async () => {
+  await browser?.close();
+  await app?.close();
+});
+
+describe('in the browser', () => {
+  it('the shelf page lists the demo species', async () => {
+    const page = await browser.newPage();
+    await page.goto(`${base}/`);
+    await page.waitForSelector('#species tbody tr');
+    const ids = await page.$$eval('#species tbody tr td:first-child', (tds) => tds.map((td) => td.textContent));
+    expect(ids).toContain('ptj-1um-b07');
+    expect(ids.length).toBe(8);
+    await page.fill('#q', 'janus');
+    await page.waitForFunction(() => document.querySelectorAll('#species tbody tr').length === 3);
+    await page.close();
+  }, 60_000);
+
+  it("a plan's bench sheet opens and prints to PDF with its hazard section", async () => {
+    const r = await fetch(`${base}/api/plans`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json' },
+      body: JSON.stringify({
+        base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }],
+        chemicals: { h2o2: '200 mM' },
+        chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' },
+        boundary: 'stationary',
+        candidates: ['ptj-1um-b07'],
+        uncertainty: { samples: 20, seed: 1 },
+      }),
+    });
+    const plan = (await r.json()) as { id: number };
+    const page = await browser.newPage();
+    await page.goto(`${base}/api/plans/${plan.id}/sheet?format=html`);
+    expect(await page.title()).toMatch(/^Bench sheet — plan /);
+    const headings = await page.$$eval('h2', (hs) => hs.map((h) => h.textContent));
+    expect(headings).toEqual(expect.arrayContaining(['Stocks', 'Master mix', 'Imaging plan', 'Hazards and safe handling', 'Traceability']));
+    expect(await page.isVisible('text=H318')).toBe(true);
+    const pdf = await page.pdf({ format: 'A4', printBackground: true });
+    expect(pdf.subarray(0, 5).toString()).toBe('%PDF-');
+    const pages = (pdf.toString('latin1').match(/\/Type\s*\/Page[^s]/g) ?? []).length;
+    expect(pages).toBeGreaterThanOrEqual(2);
+    writeFileSync(join(tmpdir(), 'brink-sheet.pdf'), pdf);
+    await page.close();
+  }, 60_000);
+});
