@@ -5,7 +5,7 @@ import { tmpdir } from 'node:os';
 import { describe, expect, it } from 'vitest';
 import { main } from '../../server/cli.js';
 
-const file = new URL('../../seeds/examples/screen-washed-janus.json', import.meta.url).pathname;
+const file = new URL('../../seeds/screens/washed-janus.json', import.meta.url).pathname;
 async function run(args: string[]) {
   let out = '';
   let err = '';
