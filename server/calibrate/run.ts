@@ -18,6 +18,8 @@ export const fitOptionsSchemas = {
     model: z.enum(MSD_MODELS as [MsdModel, ...MsdModel[]]).default('passive-2d'),
     offset: z.boolean().default(false),
     radius: quantity(DIMENSIONS.length, 'positive', 'radius for a rotation time fixed by Stokes–Einstein–Debye').optional(),
+    /** for a stored measurement: fix the rotation time by Stokes–Einstein–Debye for the species' own radius */
+    rotationFromSpeciesRadius: z.boolean().default(false),
     temperature: quantity(DIMENSIONS.temperature, 'positive', 'temperature (default 25 °C)').optional(),
   }),
   kinetics: z.strictObject({
@@ -56,6 +58,9 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
   const input = { columns: t.columns.map((c) => ({ header: c.header, unit: c.unit })), rows: t.lines.length };
   if (method === 'msd') {
     const o = options as FitOptions['msd'];
+    if (o.rotationFromSpeciesRadius && !o.radius) {
+      throw new InputError([{ path: 'options.rotationFromSpeciesRadius', message: "needs a species: store the data as a measurement of one (POST /api/species/:id/measurements), or give options.radius" }]);
+    }
     const c = siColumns(t, [
       { role: 'lag time', dimension: DIMENSIONS.time },
       { role: 'mean-squared displacement', dimension: { length: 2 } },

@@ -9,7 +9,7 @@ import { toTypedRecord } from '../schema/shelf.js';
 import { DomainError, InputError } from '../shelf/errors.js';
 import { parseRecord, type ShelfService } from '../shelf/service.js';
 import type { MeasurementsRepository } from '../store/measurements.js';
-import { parseFitOptions, runFit, type FitMethod } from './run.js';
+import { parseFitOptions, runFit, type FitMethod, type FitOptions } from './run.js';
 
 export interface ApplyRequest {
   baseRevision: number;
@@ -27,8 +27,15 @@ type Typed = Record<string, unknown> & { couplings?: Record<string, unknown>[] }
 export function calibrationService(shelf: ShelfService, repo: MeasurementsRepository) {
   return {
     record(speciesKey: string, body: { method: FitMethod; data: unknown; options?: unknown; fileName?: string; author?: string; note?: string }) {
-      shelf.repo.mustGet('species', speciesKey);
+      const sp = shelf.repo.mustGet<SpeciesRecord>('species', speciesKey);
       const options = parseFitOptions(body.method, body.options);
+      if (body.method === 'msd') {
+        const o = options as FitOptions['msd'];
+        if (o.rotationFromSpeciesRadius) {
+          if (o.radius) throw new InputError([{ path: 'options.radius', message: 'give a radius or rotationFromSpeciesRadius, not both' }]);
+          o.radius = { value: sp.record.radius.si, sd: sp.record.radius.sd, unit: 'm' };
+        }
+      }
       const fit = runFit(body.method, body.data, options);
       return repo.create({
         species: speciesKey,

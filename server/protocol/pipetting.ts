@@ -182,9 +182,17 @@ export function planPipetting(components: Component[], samples: SampleSpec[], o:
       const need = baseInTube + reserve;
       const top = perTube.reduce((best, t) => (t.dopant.volume > best.dopant.volume ? t : best));
       const dop = comp.get(dopantId)!;
+      // How much more concentrated the dopant stock must be for the rest to fit: other + D/f ≤ V.
+      const other = need - top.dopant.volume;
+      const room = o.sampleVolume - other;
+      const f = room > 0 ? top.dopant.volume / room : Infinity;
+      const per = dop.per === 'mol' ? (x: number) => `${(x / 1000).toPrecision(3)} mol/L` : (x: number) => `${(x * 1e-6).toPrecision(3)} particles/mL`;
+      const stockFix = Number.isFinite(f)
+        ? `a ${dop.label} stock of at least ${per(dop.stock * f * 1.05)} (now ${per(dop.stock)}, ${dop.stockText})`
+        : `more concentrated base and fuel stocks (they alone take ${fmtUl(other)})`;
       problems.push(
-        `the components need ${fmtUl(need)} in a ${fmtUl(o.sampleVolume)} tube (the top dose alone takes ${fmtUl(top.dopant.volume)} of the ${dop.label} stock, ${dop.stockText}). ` +
-          `Use a larger sample volume (at least ${fmtUl(roundUp(need * 1.05))}), more concentrated stocks (the ${dop.label} stock at least ${(need / o.sampleVolume).toPrecision(2)}× more concentrated would fit), or fewer or lower doses.`,
+        `the components need ${fmtUl(need)} in a ${fmtUl(o.sampleVolume)} tube (the top dose alone takes ${fmtUl(top.dopant.volume)} of the ${dop.label} stock). ` +
+          `Use a larger sample volume (at least ${fmtUl(roundUp(need * 1.05))}), ${stockFix}, or fewer or lower doses.`,
       );
     } else {
       const total = roundUp(mmPerTube * mmTubes * ov);

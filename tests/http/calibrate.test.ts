@@ -74,6 +74,22 @@ describe('measurements', () => {
     expect((await app.inject({ method: 'POST', url: `/api/measurements/${msdId}/apply`, payload: { baseRevision: cur.revision } })).statusCode).toBe(409);
   });
 
+  it("an active MSD fit can fix the rotation time from the species' own radius", async () => {
+    // ABP 2D curve of D = 0.2 µm²/s, v = 1 µm/s, τ = 5.434 s (Stokes–Einstein–Debye for a = 1 µm at 25 °C)
+    const tau = 5.434;
+    const lags = [0.1, 0.2, 0.5, 1, 2, 5, 10, 20, 50];
+    const msd = lags.map((t) => 4 * 0.2 * t + 2 * tau * tau * (t / tau + Math.exp(-t / tau) - 1));
+    const data = 'lag [s],msd [um^2]\n' + lags.map((t, i) => `${t},${msd[i]! * (1 + 0.01 * Math.sin(7 * i))}`).join('\n');
+    const r = await app.inject({ method: 'POST', url: '/api/species/ptj-1um-b07/measurements', payload: { method: 'msd', data, options: { model: 'active-2d', rotationFromSpeciesRadius: true } } });
+    expect(r.statusCode).toBe(201);
+    const p = r.json().fit.parameters;
+    expect(p.rotationTime.fixed).toBe(true);
+    expect(p.rotationTime.value).toBeCloseTo(tau, 2);
+    expect(p.speed.value).toBeCloseTo(1e-6, 7);
+    const alone = await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data, options: { model: 'active-2d', rotationFromSpeciesRadius: true } } });
+    expect(alone.statusCode).toBe(400);
+  });
+
   it('a drift fit sets the mobility of the named coupling', async () => {
     const m = (await app.inject({ method: 'POST', url: '/api/species/ptj-1um-b09/measurements', payload: { method: 'drift', data: driftCsv } })).json();
     const cur = (await app.inject({ method: 'GET', url: '/api/species/ptj-1um-b09' })).json();

@@ -89,7 +89,14 @@ describe('pipetting', () => {
       expect(e).toBeInstanceOf(DomainError);
       expect((e as DomainError).code).toBe('impossible-volumes');
       expect((e as Error).message).toMatch(/need .* µL in a 100 µL tube/);
-      expect((e as Error).message).toMatch(/larger sample volume \(at least .* µL\)|more concentrated/);
+      expect((e as Error).message).toMatch(/larger sample volume \(at least .* µL\)/);
+      // the stock that would do: the dopant at 2e14 m⁻³ = 2e8/mL is too dilute for a 2e14 m⁻³ dose in 100 µL
+      const m = /a dopant stock of at least ([\d.e+]+) particles\/mL \(now 2\.00e\+8 particles\/mL/.exec((e as Error).message);
+      expect(m).not.toBeNull();
+      expect(Number(m![1])).toBeGreaterThan(2e8);
+      // and that stock does fit
+      const fixed = setup(Number(m![1]) * 1e6, [0, 1e14, 2e14]);
+      expect(() => planPipetting(fixed.comps, fixed.samples, o, ['base'], 'dop', ['fuel'])).not.toThrow();
     }
   });
 });
