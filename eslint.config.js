@@ -9,6 +9,10 @@ export default tseslint.config(
   js.configs.recommended,
   ...tseslint.configs.recommended,
   {
+    files: ['web/**/*.js'],
+    languageOptions: { globals: { document: 'readonly', fetch: 'readonly', Node: 'readonly', window: 'readonly' } },
+  },
+  {
     files: ['bin/**/*.js'],
     languageOptions: { globals: { process: 'readonly', console: 'readonly' } },
   },

@@ -75,3 +75,42 @@ describe('in the browser', () => {
     await page.close();
   }, 60_000);
 });
+
+describe('the Planner and Calibrate pages', () => {
+  it('the Planner runs a screen over the demo shelf and links each feasible candidate to its bench sheet', async () => {
+    const page = await browser.newPage();
+    await page.goto(`${base}/planner`);
+    await page.waitForSelector('#base option', { state: 'attached' });
+    expect(await page.inputValue('#base')).toBe('ptj-1um-b09');
+    await page.fill('#samples', '10');
+    await page.click('#run');
+    await page.waitForSelector('#results:not([hidden]) tbody tr');
+    const rows = await page.$$eval('#results tbody tr', (trs) => trs.map((tr) => Array.from(tr.querySelectorAll('td')).map((td) => td.textContent ?? '')));
+    expect(rows.length).toBe(7);
+    expect(rows.find((r) => r[1] === 'silica-1um-t01')![5]).toMatch(/^no-coupling/);
+    const href = await page.getAttribute('#results tbody tr:first-child a', 'href');
+    expect(href).toMatch(/^\/api\/plans\/\d+\/sheet\?format=html&candidate=/);
+    const sheet = await page.request.get(`${base}${href}`);
+    expect(sheet.status()).toBe(200);
+    expect(await sheet.text()).toContain('Hazards and safe handling');
+    await page.close();
+  }, 60_000);
+
+  it('Calibrate fits pasted data, plots it, and stores it as a measurement', async () => {
+    const page = await browser.newPage();
+    await page.goto(`${base}/calibrate`);
+    await page.waitForSelector('#species option', { state: 'attached' });
+    await page.click('#run');
+    await page.waitForSelector('#params:not([hidden]) tbody tr');
+    const first = await page.$$eval('#params tbody tr:first-child td', (tds) => tds.map((td) => td.textContent));
+    expect(first[0]).toBe('diffusivity');
+    expect(first[3]).toBe('m^2/s');
+    expect(await page.$$eval('#plot circle', (c) => c.length)).toBe(6);
+    await page.click('#store');
+    await page.waitForFunction(() => /stored as measurement \d+/.test(document.getElementById('status')?.textContent ?? ''));
+    await page.fill('#data', 'lag [s],msd [um]\n1,2\n2,4\n');
+    await page.click('#run');
+    await page.waitForFunction(() => /needs a unit of length\^2/.test(document.getElementById('error')?.textContent ?? ''));
+    await page.close();
+  }, 60_000);
+});

@@ -45,6 +45,8 @@ export interface FitResult {
   rss: number;
   /** 1 − RSS/TSS (unweighted) */
   rSquared: number;
+  /** the independent variable of each point (SI) */
+  x: number[];
   residuals: number[];
   fitted: number[];
   converged: boolean;
@@ -62,7 +64,7 @@ function rSquared(y: number[], fitted: number[]): number {
   return tss > 0 ? 1 - rss / tss : 1;
 }
 
-function summarise(method: string, model: string, r: LsqResult, names: [string, string][], y: number[], fittedFn: (i: number) => number, notes: string[]): FitResult {
+function summarise(method: string, model: string, r: LsqResult, names: [string, string][], x: number[], y: number[], fittedFn: (i: number) => number, notes: string[]): FitResult {
   const parameters: Record<string, FitParameter> = {};
   names.forEach(([name, unit], i) => {
     parameters[name] = { value: r.parameters[i]!, sd: r.standardErrors[i]!, unit, ...(r.free.includes(i) ? {} : { fixed: true }) };
@@ -77,6 +79,7 @@ function summarise(method: string, model: string, r: LsqResult, names: [string, 
     points: y.length,
     rss: r.weightedRss,
     rSquared: rSquared(y, fitted),
+    x,
     residuals: r.residuals,
     fitted,
     converged: r.converged,
@@ -163,7 +166,7 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
         ['diffusivity', 'm^2/s'],
         ['offset', 'm^2'],
       ];
-  const res = summarise('msd', o.model, r, names, msd, (i) => model(lag[i]!, r.parameters), notes);
+  const res = summarise('msd', o.model, r, names, lag, msd, (i) => model(lag[i]!, r.parameters), notes);
   if (!o.offset) delete res.parameters.offset;
   if (active) {
     // Long-time (effective) diffusivity seen in the observed dimensions: D + v²τ/2 (2D), D + v²τ/3 (3D, and
@@ -213,7 +216,7 @@ export function fitKinetics(c: number[], rate: number[], o: KineticsOptions = {}
   const res = summarise('kinetics', 'michaelis-menten', r, [
     ['maxRate', ru],
     ['michaelis', cu],
-  ], rate, (i) => model(c[i]!, r.parameters), []);
+  ], c, rate, (i) => model(c[i]!, r.parameters), []);
   if (o.particleDensity !== undefined) {
     if (!(o.particleDensity > 0)) throw new EngineInputError('particleDensity', 'must be positive');
     const v = res.parameters.maxRate!;
@@ -253,6 +256,7 @@ export function fitDrift(gradient: number[], velocity: number[], sd?: number[]):
     points: gradient.length,
     rss,
     rSquared: rSquared(velocity, fitted),
+    x: gradient,
     residuals,
     fitted,
     converged: true,

@@ -16,6 +16,16 @@ export const metaRoutes: FastifyPluginAsync = async (app) => {
     species: app.shelf.repo.count('species'),
   }));
   app.get('/api/schema/mixture', { schema: { tags: ['meta'], summary: 'JSON Schema of the mixture file' } }, async () => mixtureJsonSchema());
-  const page = readFileSync(new URL('index.html', WEB), 'utf8');
-  app.get('/', { schema: { hide: true } }, async (_req, reply) => reply.type('text/html; charset=utf-8').send(page));
+  // The pages and their two shared files, read once at start-up.
+  const files: [string, string, string][] = [
+    ['/', 'index.html', 'text/html; charset=utf-8'],
+    ['/planner', 'planner.html', 'text/html; charset=utf-8'],
+    ['/calibrate', 'calibrate.html', 'text/html; charset=utf-8'],
+    ['/web/style.css', 'style.css', 'text/css; charset=utf-8'],
+    ['/web/common.js', 'common.js', 'text/javascript; charset=utf-8'],
+  ];
+  for (const [url, file, type] of files) {
+    const body = readFileSync(new URL(file, WEB), 'utf8');
+    app.get(url, { schema: { hide: true } }, async (_req, reply) => reply.type(type).send(body));
+  }
 };
