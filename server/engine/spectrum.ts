@@ -72,8 +72,29 @@ export function modeSpectrum(model: ScaledModel, k: number): ModeSpectrum {
   return summarise(k, J, model.M);
 }
 
+/** Eigenvalues of a real 2×2 matrix from its trace and determinant (stable quadratic). */
+function eigen2(J: Float64Array): { re: Float64Array; im: Float64Array; converged: boolean } {
+  const a = J[0]!;
+  const b = J[1]!;
+  const c = J[2]!;
+  const d = J[3]!;
+  const half = 0.5 * (a - d);
+  const disc = half * half + b * c;
+  const mean = 0.5 * (a + d);
+  if (disc >= 0) {
+    const r = Math.sqrt(disc);
+    // λ₁ = mean + sign·r without cancellation, λ₂ = det/λ₁ when λ₁ ≠ 0
+    const l1 = mean >= 0 ? mean + r : mean - r;
+    const det = a * d - b * c;
+    const l2 = l1 !== 0 ? det / l1 : mean - (l1 - mean);
+    return { re: Float64Array.of(Math.max(l1, l2), Math.min(l1, l2)), im: new Float64Array(2), converged: true };
+  }
+  const w = Math.sqrt(-disc);
+  return { re: Float64Array.of(mean, mean), im: Float64Array.of(w, -w), converged: true };
+}
+
 function summarise(k: number, J: Float64Array, M: number): ModeSpectrum {
-  const spec = eigenvalues(J, M);
+  const spec = M === 2 ? eigen2(J) : eigenvalues(J, M);
   const scale = matrixScale(J);
   const tol = REAL_TOLERANCE * Math.max(scale, Number.MIN_VALUE);
   let maxRe = -Infinity;

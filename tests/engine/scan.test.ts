@@ -72,3 +72,23 @@ describe('mode scan', () => {
     }
   });
 });
+
+describe('two-species spectra', () => {
+  it('the 2×2 closed form used for M = 2 agrees with the general QR routine', async () => {
+    const { eigenvalues } = await import('../../server/engine/linalg/eigen.js');
+    const { jacobian } = await import('../../server/engine/model.js');
+    const rng = new Random(2222);
+    let complex = 0;
+    for (let t = 0; t < 500; t++) {
+      const model = buildModel(randomMixture(rng, 'sealed'));
+      if (model.M !== 2) continue;
+      const k = 10 ** rng.between(-1, 2);
+      const s = modeSpectrum(model, k);
+      const e = eigenvalues(jacobian(model, k), 2);
+      const scale = Math.max(...Array.from(jacobian(model, k), Math.abs));
+      expect(Math.abs(s.maxRe - Math.max(e.re[0]!, e.re[1]!))).toBeLessThan(1e-12 * scale);
+      if (e.im[0] !== 0) complex++;
+    }
+    expect(complex).toBeGreaterThan(3);
+  });
+});
