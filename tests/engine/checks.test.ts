@@ -1,8 +1,8 @@
 /**
  * Practical checks (model.md §8) and crowding (§3).
  *
- * Sources: gravitational height h = k_B T/(Δρ V g) is the barometric
- * (Perrin) length of a sedimenting Brownian particle — textbook; k_B exact
+ * Sources: gravitational height h = k_B T/(Δρ V g) is the barometric length
+ * of a sedimenting Brownian particle (model.md §8; textbook); k_B exact
  * (SI 2019); standard gravity 9.80665 m s⁻² by definition (3rd CGPM, 1901).
  * Hard-sphere second virial coefficient B₂ = 2πσ³/3 with σ the contact
  * distance (Hansen & McDonald, *Theory of Simple Liquids*).
