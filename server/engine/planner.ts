@@ -453,6 +453,26 @@ export function screen(base: Mixture, candidates: Species[], o: ScreenOptions): 
   return order;
 }
 
+/** The default dose factors of a bench series (× the median or threshold dose). */
+export const DEFAULT_DOSE_FACTORS = [0, 0.5, 0.8, 1, 1.25, 1.6, 2];
+
+/**
+ * The dose series that brackets a candidate's threshold and its uncertainty band:
+ * factors × the reference dose (the Monte Carlo median, else the threshold), plus
+ * the 5 % and 95 % doses when there is a band (and the factors are the default).
+ * Sorted, duplicates removed (m⁻³).
+ */
+export function doseSeries(c: Pick<CandidateResult, 'threshold' | 'band'>, factors?: number[]): { reference: number; doses: number[] } {
+  if (!c.threshold) throw new EngineInputError('candidate', 'an infeasible candidate has no dose series');
+  const reference = c.band?.median ?? c.threshold.density;
+  const doses = (factors ?? DEFAULT_DOSE_FACTORS).map((f) => f * reference);
+  if (!factors && c.band) {
+    if (c.band.p05 !== null) doses.push(c.band.p05);
+    if (c.band.p95 !== null) doses.push(c.band.p95);
+  }
+  return { reference, doses: [...new Set(doses.map((d) => Number(d.toPrecision(6))))].sort((a, b) => a - b) };
+}
+
 // ---------------------------------------------------------------- state map
 
 export interface StateMapOptions extends DoseOptions {

@@ -9,7 +9,7 @@
  */
 import { z } from 'zod';
 import type { AnalysisResult } from '../engine/analyze.js';
-import type { CandidateResult } from '../engine/planner.js';
+import { doseSeries, type CandidateResult } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
 import { quantity } from '../schema/mixture.js';
 import { numberDensity, type ChemicalRecord, type SpeciesRecord } from '../schema/shelf.js';
@@ -190,15 +190,8 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     buffer: req.buffer,
   };
 
-  // Reference dose and the series.
-  const ref = cand.band?.median ?? cand.threshold.density;
-  const factors = req.doseFactors ?? [0, 0.5, 0.8, 1, 1.25, 1.6, 2];
-  const doses = factors.map((f) => f * ref);
-  if (!req.doseFactors && cand.band) {
-    if (cand.band.p05 !== null) doses.push(cand.band.p05);
-    if (cand.band.p95 !== null) doses.push(cand.band.p95);
-  }
-  const series = [...new Set(doses.map((d) => Number(d.toPrecision(6))))].sort((a, b) => a - b);
+  // Reference dose and the series (engine/planner.ts: factors × median, plus the band's ends).
+  const { reference: ref, doses: series } = doseSeries(cand, req.doseFactors);
 
   // Stocks.
   const stocks: Sheet['stocks'] = [];

@@ -4,7 +4,7 @@
  * numbers can be read back unchanged after the shelf moves on.
  */
 import { z } from 'zod';
-import { screen, stateMap, fuelSweep, type CandidateResult, type ScreenOptions } from '../engine/planner.js';
+import { doseSeries, screen, stateMap, fuelSweep, type CandidateResult, type ScreenOptions } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
 import { issueList, quantity } from '../schema/mixture.js';
 import { keySchema } from '../schema/shelf.js';
@@ -58,7 +58,8 @@ export type PlanRequestInput = z.input<typeof planRequestSchema>;
 
 export interface PlanResult {
   candidates: CandidateResult[];
-  stateMap: (ReturnType<typeof stateMap> & { candidate: string }) | null;
+  /** the state map of one candidate, with the bench sheet's default dose series at base factor 1 */
+  stateMap: (ReturnType<typeof stateMap> & { candidate: string; doseSeries: number[] }) | null;
   fuelSweep: ReturnType<typeof fuelSweep> | null;
   engineVersion: string;
   computedAt: string;
@@ -82,13 +83,20 @@ export function runPlan(base: Mixture, candidates: Species[], req: PlanRequest):
     if (chosen === undefined) throw new DomainError('no-feasible-candidate', 'no candidate crosses the boundary, so there is no state map to draw; name one with stateMap.candidate');
     const d = candidates.find((c) => c.id === chosen);
     if (!d) throw new InputError([{ path: 'stateMap.candidate', message: `"${chosen}" is not one of the candidates` }]);
+    const cr = ranked.find((c) => c.species === chosen)!;
     map = {
       candidate: chosen,
+      doseSeries: cr.feasible ? doseSeries(cr).doses : [],
       ...stateMap(base, d, {
         ...o,
         ...(m.baseSpecies !== undefined ? { baseSpecies: m.baseSpecies } : {}),
         ...(m.baseRange ? { baseRange: m.baseRange } : {}),
-        ...(m.doseRange ? { doseRange: [m.doseRange[0].value, m.doseRange[1].value] as [number, number] } : {}),
+        // default dose range: a factor of 20 either side of the threshold (under the cap), so the boundary shows
+        ...(m.doseRange
+          ? { doseRange: [m.doseRange[0].value, m.doseRange[1].value] as [number, number] }
+          : cr.feasible
+            ? { doseRange: [cr.threshold!.density / 20, Math.min(cr.threshold!.density * 20, cr.cap.density)] as [number, number] }
+            : {}),
         ...(m.baseSteps ? { baseSteps: m.baseSteps } : {}),
         ...(m.doseSteps ? { doseSteps: m.doseSteps } : {}),
       }),

@@ -114,3 +114,21 @@ describe('the Planner and Calibrate pages', () => {
     await page.close();
   }, 60_000);
 });
+
+describe('the state map on the Planner page', () => {
+  it('draws the cells, the boundary and the dose series of the top candidate', async () => {
+    const page = await browser.newPage();
+    await page.goto(`${base}/planner`);
+    await page.waitForSelector('#base option', { state: 'attached' });
+    await page.fill('#samples', '0');
+    await page.check('#withMap');
+    await page.click('#run');
+    await page.waitForSelector('#mapFigure:not([hidden])');
+    expect(await page.$$eval('#map rect', (r) => r.length)).toBe(14 * 18);
+    expect(await page.$$eval('#map polyline', (p) => p.length)).toBeGreaterThanOrEqual(1);
+    expect(await page.$$eval('#map circle', (c) => c.length)).toBeGreaterThanOrEqual(3);
+    expect(await page.textContent('#mapCaption')).toMatch(/^State map for /);
+    await page.screenshot({ path: join(tmpdir(), 'brink-planner-map.png'), fullPage: true });
+    await page.close();
+  }, 90_000);
+});
