@@ -4,7 +4,8 @@
  * checks of §8. Input and output are SI.
  */
 import { practicalChecks, type PracticalChecks, type Warning } from './checks.js';
-import { buildModel, solveInPlace, type ScaledModel } from './model.js';
+import { determinant, solveInPlace } from './linalg/dense.js';
+import { buildModel, type ScaledModel } from './model.js';
 import { scanModes, type BranchBest, type ScanOptions } from './scan.js';
 import { leadingEigenpair } from './spectrum.js';
 import type { Mixture } from './types.js';
@@ -113,31 +114,6 @@ export function determinantIndex(model: ScaledModel, k: number): number | null {
   if (!solveInPlace(A, S, Z, S)) return null;
   for (let s = 0; s < S; s++) Z[s * S + s]! += 1;
   return determinant(Z, S);
-}
-
-function determinant(A: Float64Array, n: number): number {
-  const a = Float64Array.from(A);
-  let det = 1;
-  for (let k = 0; k < n; k++) {
-    let piv = k;
-    for (let i = k + 1; i < n; i++) if (Math.abs(a[i * n + k]!) > Math.abs(a[piv * n + k]!)) piv = i;
-    const p = a[piv * n + k]!;
-    if (p === 0) return 0;
-    if (piv !== k) {
-      det = -det;
-      for (let j = 0; j < n; j++) {
-        const t = a[k * n + j]!;
-        a[k * n + j] = a[piv * n + j]!;
-        a[piv * n + j] = t;
-      }
-    }
-    det *= p;
-    for (let i = k + 1; i < n; i++) {
-      const f = a[i * n + k]! / p;
-      for (let j = k; j < n; j++) a[i * n + j]! -= f * a[k * n + j]!;
-    }
-  }
-  return det;
 }
 
 function criteria(mix: Mixture, model: ScaledModel): Criteria {

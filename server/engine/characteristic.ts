@@ -8,6 +8,7 @@
  * vanish. This file evaluates that S×S determinant at a complex λ (scaled
  * units), which the tests use to check computed eigenvalues on rank-S cases.
  */
+import { swapRows } from './linalg/dense.js';
 import { chemicalResponse, type ScaledModel } from './model.js';
 
 /** Complex determinant of an S×S matrix (row-major re/im), by Gaussian elimination with pivoting. */
@@ -18,14 +19,8 @@ function complexDet(re: Float64Array, im: Float64Array, n: number): { re: number
     let piv = k;
     for (let i = k + 1; i < n; i++) if (Math.hypot(re[i * n + k]!, im[i * n + k]!) > Math.hypot(re[piv * n + k]!, im[piv * n + k]!)) piv = i;
     if (piv !== k) {
-      for (let j = 0; j < n; j++) {
-        let t = re[k * n + j]!;
-        re[k * n + j] = re[piv * n + j]!;
-        re[piv * n + j] = t;
-        t = im[k * n + j]!;
-        im[k * n + j] = im[piv * n + j]!;
-        im[piv * n + j] = t;
-      }
+      swapRows(re, n, k, piv);
+      swapRows(im, n, k, piv);
       dr = -dr;
       di = -di;
     }

@@ -19,6 +19,7 @@
  * Eigenvalues scale back as λ = λ'/τ and wavenumbers as k = k'/ℓ; eigenvectors
  * (density perturbations δρ) are unchanged.
  */
+import { isSingular, solveInPlace } from './linalg/dense.js';
 import { EngineDomainError, EngineInputError, type Mixture } from './types.js';
 
 export interface ScaledModel {
@@ -289,76 +290,6 @@ export function buildModel(mix: Mixture): ScaledModel {
     reactionSingular,
     si: { alpha, mu, reaction },
   };
-}
-
-/** Whether a small square matrix is singular to working precision (LU pivot test). */
-export function isSingular(A: Float64Array, n: number): boolean {
-  let scale = 0;
-  for (const x of A) scale = Math.max(scale, Math.abs(x));
-  if (scale === 0) return true;
-  const a = Float64Array.from(A);
-  for (let k = 0; k < n; k++) {
-    let piv = k;
-    for (let i = k + 1; i < n; i++) if (Math.abs(a[i * n + k]!) > Math.abs(a[piv * n + k]!)) piv = i;
-    if (Math.abs(a[piv * n + k]!) <= 1e-12 * scale) return true;
-    if (piv !== k) {
-      for (let j = 0; j < n; j++) {
-        const t = a[k * n + j]!;
-        a[k * n + j] = a[piv * n + j]!;
-        a[piv * n + j] = t;
-      }
-    }
-    for (let i = k + 1; i < n; i++) {
-      const f = a[i * n + k]! / a[k * n + k]!;
-      for (let j = k; j < n; j++) a[i * n + j]! -= f * a[k * n + j]!;
-    }
-  }
-  return false;
-}
-
-/** Solve the small dense system A X = B in place of B (A n×n, B n×r, row-major), partial pivoting. */
-export function solveInPlace(A: Float64Array, n: number, B: Float64Array, r: number): boolean {
-  const a = A;
-  for (let k = 0; k < n; k++) {
-    let piv = k;
-    let best = Math.abs(a[k * n + k]!);
-    for (let i = k + 1; i < n; i++) {
-      const v = Math.abs(a[i * n + k]!);
-      if (v > best) {
-        best = v;
-        piv = i;
-      }
-    }
-    if (best === 0) return false;
-    if (piv !== k) {
-      for (let j = 0; j < n; j++) {
-        const t = a[k * n + j]!;
-        a[k * n + j] = a[piv * n + j]!;
-        a[piv * n + j] = t;
-      }
-      for (let j = 0; j < r; j++) {
-        const t = B[k * r + j]!;
-        B[k * r + j] = B[piv * r + j]!;
-        B[piv * r + j] = t;
-      }
-    }
-    const d = a[k * n + k]!;
-    for (let i = k + 1; i < n; i++) {
-      const f = a[i * n + k]! / d;
-      if (f === 0) continue;
-      for (let j = k; j < n; j++) a[i * n + j]! -= f * a[k * n + j]!;
-      for (let j = 0; j < r; j++) B[i * r + j]! -= f * B[k * r + j]!;
-    }
-  }
-  for (let i = n - 1; i >= 0; i--) {
-    const d = a[i * n + i]!;
-    for (let j = 0; j < r; j++) {
-      let s = B[i * r + j]!;
-      for (let l = i + 1; l < n; l++) s -= a[i * n + l]! * B[l * r + j]!;
-      B[i * r + j] = s / d;
-    }
-  }
-  return true;
 }
 
 /**

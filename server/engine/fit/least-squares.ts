@@ -11,6 +11,7 @@
  * s² = S/(n − p) — the weights are relative, the scale comes from the residuals.
  * Non-convergence is reported (`converged: false`), not thrown.
  */
+import { solveInPlace } from '../linalg/dense.js';
 
 export interface LsqProblem {
   /** model value at x for parameters p (all parameters, free and fixed) */
@@ -44,39 +45,19 @@ export interface LsqResult {
   converged: boolean;
 }
 
-function solve(A: number[][], b: number[]): number[] | null {
-  const n = b.length;
-  const M = A.map((row, i) => [...row, b[i]!]);
-  for (let k = 0; k < n; k++) {
-    let piv = k;
-    for (let i = k + 1; i < n; i++) if (Math.abs(M[i]![k]!) > Math.abs(M[piv]![k]!)) piv = i;
-    if (M[piv]![k] === 0) return null;
-    [M[k], M[piv]] = [M[piv]!, M[k]!];
-    for (let i = k + 1; i < n; i++) {
-      const f = M[i]![k]! / M[k]![k]!;
-      for (let j = k; j <= n; j++) M[i]![j]! -= f * M[k]![j]!;
-    }
-  }
-  const x = new Array<number>(n).fill(0);
-  for (let i = n - 1; i >= 0; i--) {
-    let s = M[i]![n]!;
-    for (let j = i + 1; j < n; j++) s -= M[i]![j]! * x[j]!;
-    x[i] = s / M[i]![i]!;
-  }
-  return x;
+/** Solve A X = B for m×m A and m×r B given as rows (A and B untouched); null when A is singular. */
+function solve(A: number[][], B: number[][]): number[][] | null {
+  const m = A.length;
+  const r = B[0]?.length ?? 0;
+  const a = Float64Array.from(A.flat());
+  const x = Float64Array.from(B.flat());
+  if (!solveInPlace(a, m, x, r)) return null;
+  return Array.from({ length: m }, (_, i) => Array.from(x.subarray(i * r, i * r + r)));
 }
 
-function invert(A: number[][]): number[][] | null {
-  const n = A.length;
-  const out: number[][] = A.map(() => new Array<number>(n).fill(0));
-  for (let j = 0; j < n; j++) {
-    const e = new Array<number>(n).fill(0);
-    e[j] = 1;
-    const col = solve(A, e);
-    if (!col) return null;
-    for (let i = 0; i < n; i++) out[i]![j] = col[i]!;
-  }
-  return out;
+/** JᵀJ of a Jacobian given as rows. */
+function normalMatrix(J: number[][], m: number): number[][] {
+  return Array.from({ length: m }, (_, a) => Array.from({ length: m }, (_, b) => J.reduce((acc, row) => acc + row[a]! * row[b]!, 0)));
 }
 
 /** Fit; see the file header for the method and what the standard errors mean. */
@@ -126,12 +107,12 @@ export function leastSquares(pr: LsqProblem): LsqResult {
     const J = jacobian(q);
     const r = pr.x.map((x, i) => Math.sqrt(w[i]!) * (pr.y[i]! - pr.model(x, p)));
     const m = free.length;
-    const A = Array.from({ length: m }, (_, a) => Array.from({ length: m }, (_, b) => J.reduce((acc, row) => acc + row[a]! * row[b]!, 0)));
+    const A = normalMatrix(J, m);
     const g = Array.from({ length: m }, (_, a) => J.reduce((acc, row, i) => acc + row[a]! * r[i]!, 0));
     let accepted = false;
     for (let tries = 0; tries < 60 && !accepted; tries++) {
       const Al = A.map((row, a) => row.map((v, b) => (a === b ? v * (1 + lambda) + 1e-300 : v)));
-      const d = solve(Al, g);
+      const d = solve(Al, g.map((v) => [v]))?.map((row) => row[0]!);
       if (!d) {
         lambda *= 4;
         continue;
@@ -161,8 +142,8 @@ export function leastSquares(pr: LsqProblem): LsqResult {
   // covariance in natural units: J in scaled q, so cov_p = diag(scale) cov_q diag(scale)
   const J = jacobian(q);
   const m = free.length;
-  const A = Array.from({ length: m }, (_, a) => Array.from({ length: m }, (_, b) => J.reduce((acc, row) => acc + row[a]! * row[b]!, 0)));
-  const inv = m > 0 ? invert(A) : [];
+  const identity = Array.from({ length: m }, (_, a) => Array.from({ length: m }, (_, b) => (a === b ? 1 : 0)));
+  const inv = m > 0 ? solve(normalMatrix(J, m), identity) : [];
   const covariance = Array.from({ length: m }, (_, a) => Array.from({ length: m }, (_, b) => (inv ? inv[a]![b]! * s2 * scale[free[a]!]! * scale[free[b]!]! : Number.NaN)));
   const standardErrors = pr.start.map(() => 0);
   free.forEach((i, k) => (standardErrors[i] = Math.sqrt(Math.max(0, covariance[k]![k]!))));

@@ -19,6 +19,7 @@
  *
  * Non-convergence is a result (`converged: false`), not a throw.
  */
+import { swapRows } from './dense.js';
 
 export interface Spectrum {
   /** Real parts, length n. Complex pairs are adjacent, positive imaginary part first. */
@@ -85,11 +86,8 @@ function hessenberg(a: Float64Array, n: number): void {
       }
     }
     if (piv !== m) {
-      for (let j = m - 1; j < n; j++) {
-        const t = a[piv * n + j]!;
-        a[piv * n + j] = a[m * n + j]!;
-        a[m * n + j] = t;
-      }
+      // (columns before m − 1 are already zero in both rows)
+      swapRows(a, n, piv, m);
       for (let j = 0; j < n; j++) {
         const t = a[j * n + piv]!;
         a[j * n + piv] = a[j * n + m]!;
@@ -338,14 +336,8 @@ export function eigenvector(a: Float64Array, n: number, lr: number, li: number, 
     }
     perm[k] = piv;
     if (piv !== k) {
-      for (let j = 0; j < n; j++) {
-        let t = br[k * n + j]!;
-        br[k * n + j] = br[piv * n + j]!;
-        br[piv * n + j] = t;
-        t = bi[k * n + j]!;
-        bi[k * n + j] = bi[piv * n + j]!;
-        bi[piv * n + j] = t;
-      }
+      swapRows(br, n, k, piv);
+      swapRows(bi, n, k, piv);
     }
     if (Math.hypot(br[k * n + k]!, bi[k * n + k]!) < tiny) {
       br[k * n + k] = tiny;
@@ -380,12 +372,8 @@ export function eigenvector(a: Float64Array, n: number, lr: number, li: number, 
     for (let k = 0; k < n; k++) {
       const p = perm[k]!;
       if (p !== k) {
-        let t = yr[k]!;
-        yr[k] = yr[p]!;
-        yr[p] = t;
-        t = yi[k]!;
-        yi[k] = yi[p]!;
-        yi[p] = t;
+        swapRows(yr, 1, k, p);
+        swapRows(yi, 1, k, p);
       }
       for (let i = k + 1; i < n; i++) {
         const lr_ = br[i * n + k]!;
