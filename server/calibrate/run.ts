@@ -3,6 +3,7 @@
  * the engine's fit. Shared by the HTTP endpoints and `brink fit`.
  */
 import { z } from 'zod';
+import { AVOGADRO } from '../engine/constants.js';
 import { fitDrift, fitKinetics, fitMsd, MSD_MODELS, type FitResult, type MsdModel } from '../engine/fit/models.js';
 import { EngineInputError } from '../engine/types.js';
 import { quantity, issueList } from '../schema/mixture.js';
@@ -105,7 +106,7 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
     });
     if (problems.length > 0) throw new InputError(problems);
     let particleDensity: number | undefined = o.particleDensity?.value;
-    if (o.enzymeConcentration) particleDensity = o.enzymeConcentration.value * 6.02214076e23;
+    if (o.enzymeConcentration) particleDensity = o.enzymeConcentration.value * AVOGADRO;
     if (particleDensity !== undefined && rate.unit === null) {
       throw new InputError([{ path: `line 1, column 2 (${t.columns[1]!.header})`, message: 'a per-particle turnover needs the rate in units of concentration/time, e.g. "rate [uM/s]"' }]);
     }

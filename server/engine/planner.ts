@@ -21,7 +21,7 @@
  * window) the same way.
  */
 import { analyze, type AnalysisResult } from './analyze.js';
-import { practicalChecks, sphereVolume } from './checks.js';
+import { sphereVolume } from './checks.js';
 import { stationaryDoseClosedForm } from './dose.js';
 import { buildModel, linearise } from './model.js';
 import { Random } from './random.js';
@@ -580,7 +580,7 @@ export function fuelSweep(base: Mixture, candidates: Species[], o: FuelSweepOpti
     const b = { ...base, chemicals: base.chemicals.map((ch, i) => (i === idx ? { ...ch, concentration: c } : ch)) };
     const growthTimes = (x: number, d: Species) => {
       const r = analyze(withDose(b, d, x, o.dosing));
-      const fuel = practicalChecks(withDose(b, d, x, o.dosing), r.growthTime, null).checks.fuel.find((f) => f.chemical === o.chemical);
+      const fuel = r.checks.fuel.find((f) => f.chemical === o.chemical);
       return { growthTime: r.growthTime, fuelLifetime: fuel?.lifetime ?? null };
     };
     return {

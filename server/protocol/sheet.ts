@@ -9,7 +9,8 @@
  */
 import { z } from 'zod';
 import type { AnalysisResult } from '../engine/analyze.js';
-import { doseSeries, type CandidateResult } from '../engine/planner.js';
+import { WATER_DENSITY_25C } from '../engine/constants.js';
+import { doseSeries, withDose, type CandidateResult } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
 import { quantity } from '../schema/mixture.js';
 import { numberDensity, type ChemicalRecord, type SpeciesRecord } from '../schema/shelf.js';
@@ -101,7 +102,6 @@ const perMl = (x: number): Amount => ({ value: Number((x * 1e-6).toPrecision(4))
 const mM = (x: number): Amount => ({ value: Number(x.toPrecision(4)), unit: 'mM' });
 const s = (t: number): Amount => ({ value: Number(t.toPrecision(3)), unit: 's' });
 const mm = (x: number): Amount => ({ value: Number((x * 1e3).toPrecision(3)), unit: 'mm' });
-const WATER = 997.05;
 
 /** 1, 2, 5 × 10^k at or below x. */
 function niceFloor(x: number): number {
@@ -116,7 +116,7 @@ export function chemicalStock(c: ChemicalRecord, o: z.output<typeof stockSchema>
   const M = c.molarMass?.si;
   if (o) {
     if (o.molarConcentration) {
-      const w = M ? (o.molarConcentration.value * M) / (o.solutionDensity?.value ?? WATER) : null;
+      const w = M ? (o.molarConcentration.value * M) / (o.solutionDensity?.value ?? WATER_DENSITY_25C) : null;
       return { molar: o.molarConcentration.value, massFraction: w, text: `${o.molarConcentration.value / 1000} mol/L`, source: 'option' };
     }
     if (o.percentWw !== undefined) {
@@ -126,13 +126,13 @@ export function chemicalStock(c: ChemicalRecord, o: z.output<typeof stockSchema>
     const massConc = o.massConcentration?.value ?? (o.percentWv !== undefined ? o.percentWv * 10 : undefined);
     if (massConc !== undefined) {
       if (!M) throw new InputError([{ path: `stocks.${c.id}`, message: 'a mass concentration needs the chemical’s molar mass' }]);
-      return { molar: massConc / M, massFraction: massConc / (o.solutionDensity?.value ?? WATER), text: o.percentWv !== undefined ? `${o.percentWv} % w/v` : `${massConc} mg/mL`, source: 'option' };
+      return { molar: massConc / M, massFraction: massConc / (o.solutionDensity?.value ?? WATER_DENSITY_25C), text: o.percentWv !== undefined ? `${o.percentWv} % w/v` : `${massConc} mg/mL`, source: 'option' };
     }
   }
   const st = c.stock;
   if (!st) return null;
   if (st.concentration) {
-    const w = M ? (st.concentration.si * M) / (st.density?.si ?? WATER) : null;
+    const w = M ? (st.concentration.si * M) / (st.density?.si ?? WATER_DENSITY_25C) : null;
     return { molar: st.concentration.si, massFraction: w, text: `${st.description} (${String(st.concentration.input)})`, source: 'shelf' };
   }
   if (st.massFraction && st.density && M) {
@@ -224,22 +224,19 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   }
 
   // Samples: the series and the controls.
-  const baseConc = Object.fromEntries(base.species.map((x) => [x.id, x.density]));
   const fuelConc = Object.fromEntries(base.chemicals.filter((c) => fuelIds.includes(c.id)).map((c) => [c.id, c.concentration]));
-  const replaceScale = (x: number) => {
-    if (plan.request.dosing !== 'replace') return 1;
-    const phi = base.species.reduce((a, b) => a + b.density * (4 / 3) * Math.PI * b.radius ** 3, 0);
-    return Math.max(0, 1 - (x * (4 / 3) * Math.PI * dopant.radius ** 3) / phi);
-  };
-  const replace = plan.request.dosing === 'replace';
+  // base and dopant densities at dose x, exactly as the planner doses (add, or replace at fixed φ)
+  const dosing = plan.request.dosing === 'replace' ? 'replace' : 'add';
+  const dosed = (x: number) => Object.fromEntries(withDose(base, dopant, x, dosing).species.map((sp) => [sp.id, sp.density]));
+  const replace = dosing === 'replace';
   const specs: SampleSpec[] = series.map((x) => ({
     name: x === 0 ? 'dose 0 (control: no dopant)' : `dose ${(x / ref).toPrecision(3)} ×`,
     role: x === 0 ? 'control' : 'series',
     dose: x,
-    conc: { ...Object.fromEntries(Object.entries(baseConc).map(([k, v]) => [k, v * replaceScale(x)])), [dopant.id]: x, ...fuelConc },
+    conc: { ...dosed(x), ...fuelConc },
     usesMasterMix: !replace,
   }));
-  specs.push({ name: 'control: no fuel (dopant at 1 ×)', role: 'control', dose: ref, conc: { ...Object.fromEntries(Object.entries(baseConc).map(([k, v]) => [k, v * replaceScale(ref)])), [dopant.id]: ref }, usesMasterMix: !replace });
+  specs.push({ name: 'control: no fuel (dopant at 1 ×)', role: 'control', dose: ref, conc: dosed(ref), usesMasterMix: !replace });
   specs.push({ name: 'control: dopant alone (1 ×, with fuel)', role: 'control', dose: ref, conc: { [dopant.id]: ref, ...fuelConc }, usesMasterMix: false });
 
   const pip = planPipetting(components, specs, o, base.species.map((x) => x.id), dopant.id, fuelIds);
@@ -278,7 +275,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     const set = ctx.hazards(id);
     const M = rec.molarMass?.si ?? null;
     const wStock = stockFractions.get(id) ?? null;
-    const wWork = M ? (fuelConc[id]! * M) / WATER : null;
+    const wWork = M ? (fuelConc[id]! * M) / WATER_DENSITY_25C : null;
     const asHandled: HazardEntry['asHandled'] = [];
     if (wStock !== null) asHandled.push({ where: `stock bottle (${(wStock * 100).toPrecision(3)} % w/w)`, massFraction: wStock, classification: classify(set, wStock) });
     if (wWork !== null) asHandled.push({ where: `working solution in the sample (${(wWork * 100).toPrecision(3)} % w/w, ${mM(fuelConc[id]!).value} mM)`, massFraction: wWork, classification: classify(set, wWork) });

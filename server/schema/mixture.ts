@@ -140,7 +140,8 @@ export type ParsedMixture = z.output<typeof mixtureSchema>;
 /** A candidate species (as in the mixture file; its density is ignored). */
 export const candidateSchema = speciesSchema;
 
-function sdOf<K extends string>(entries: [K, Quantity | undefined][]): Partial<Record<K, number>> | undefined {
+/** The non-zero standard uncertainties of named values, or undefined when there are none. */
+export function sdOf<K extends string>(entries: [K, { sd: number } | undefined][]): Partial<Record<K, number>> | undefined {
   const out: Partial<Record<K, number>> = {};
   let any = false;
   for (const [k, q] of entries) {
@@ -229,18 +230,27 @@ export function toEngineMixture(m: ParsedMixture): Mixture {
     if (sd) out.sd = sd;
     return out;
   });
-  const cond = m.conditions ?? {};
   return {
     chemicals,
     species: m.species.map(toEngineSpecies),
-    chamber: { walls: m.chamber.walls, length: m.chamber.length?.value ?? null, depth: m.chamber.depth?.value ?? null },
+    chamber: toEngineChamber(m.chamber),
     crowding: m.crowding,
-    conditions: {
-      temperature: cond.temperature?.value ?? DEFAULT_TEMPERATURE,
-      solventDensity: cond.solventDensity?.value ?? WATER_DENSITY_25C,
-      duration: cond.duration?.value ?? null,
-      fieldOfView: cond.fieldOfView?.value ?? null,
-    },
+    conditions: toEngineConditions(m.conditions),
+  };
+}
+
+/** A parsed chamber to the engine's form. */
+export function toEngineChamber(c: z.output<typeof chamberSchema>): Mixture['chamber'] {
+  return { walls: c.walls, length: c.length?.value ?? null, depth: c.depth?.value ?? null };
+}
+
+/** Parsed conditions to the engine's form, with the defaults (25 °C, water). */
+export function toEngineConditions(c: z.output<typeof conditionsSchema> | undefined): Mixture['conditions'] {
+  return {
+    temperature: c?.temperature?.value ?? DEFAULT_TEMPERATURE,
+    solventDensity: c?.solventDensity?.value ?? WATER_DENSITY_25C,
+    duration: c?.duration?.value ?? null,
+    fieldOfView: c?.fieldOfView?.value ?? null,
   };
 }
 

@@ -13,7 +13,7 @@ import { z } from 'zod';
 import { AVOGADRO } from '../engine/constants.js';
 import { sphereVolume } from '../engine/checks.js';
 import type { Chemical, Coupling, Species } from '../engine/types.js';
-import { toEngineCoupling } from './mixture.js';
+import { sdOf, toEngineCoupling } from './mixture.js';
 import { DIMENSIONS, formatDimension, parseQuantity, UnitError, type Dimension, type Quantity, type Sign } from '../units/index.js';
 
 export const provenanceSchema = z.strictObject({
@@ -189,18 +189,6 @@ export function numberDensity(sp: SpeciesRecord, amount: Amount): { value: numbe
   return { value: q.si / mass, sd: q.sd / mass };
 }
 
-function sd<K extends string>(pairs: [K, StoredQuantity | undefined][]): Partial<Record<K, number>> | undefined {
-  const out: Partial<Record<K, number>> = {};
-  let any = false;
-  for (const [k, q] of pairs) {
-    if (q && q.sd > 0) {
-      out[k] = q.sd;
-      any = true;
-    }
-  }
-  return any ? out : undefined;
-}
-
 /** A shelf chemical at a concentration, for the engine (SI). */
 export function engineChemical(c: ChemicalRecord, concentration: number, concentrationSd = 0): Chemical {
   const out: Chemical = {
@@ -210,7 +198,7 @@ export function engineChemical(c: ChemicalRecord, concentration: number, concent
     concentration,
     solubility: c.solubility?.si ?? null,
   };
-  const s = sd([
+  const s = sdOf([
     ['diffusivity', c.diffusivity],
     ['lossRate', c.lossRate],
     ['solubility', c.solubility],
@@ -235,7 +223,7 @@ export function engineSpecies(sp: SpeciesRecord, density: { value: number; sd: n
     materialDensity: sp.materialDensity?.si ?? null,
     couplings,
   };
-  const s = sd([
+  const s = sdOf([
     ['diffusivity', sp.diffusivity],
     ['radius', sp.radius],
     ['materialDensity', sp.materialDensity],

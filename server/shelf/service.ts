@@ -6,8 +6,7 @@
  */
 import { z } from 'zod';
 import type { Chemical, Mixture, Species } from '../engine/types.js';
-import { DEFAULT_TEMPERATURE, WATER_DENSITY_25C } from '../engine/constants.js';
-import { chamberSchema, conditionsSchema, issueList, quantity } from '../schema/mixture.js';
+import { chamberSchema, conditionsSchema, issueList, quantity, toEngineChamber, toEngineConditions } from '../schema/mixture.js';
 import {
   amountSchema,
   AmountError,
@@ -231,18 +230,12 @@ export function shelfService(repo: ShelfRepository) {
         if (c === undefined) warnings.push({ code: 'no-concentration', message: `no concentration given for "${k}": taken as 0.`, chemical: k });
       }
       if (problems.length > 0) throw new InputError(problems);
-      const cond = request.conditions ?? {};
       const mixture: Mixture = {
         chemicals,
         species,
-        chamber: { walls: request.chamber.walls, length: request.chamber.length?.value ?? null, depth: request.chamber.depth?.value ?? null },
+        chamber: toEngineChamber(request.chamber),
         crowding: request.crowding ?? false,
-        conditions: {
-          temperature: cond.temperature?.value ?? DEFAULT_TEMPERATURE,
-          solventDensity: cond.solventDensity?.value ?? WATER_DENSITY_25C,
-          duration: cond.duration?.value ?? null,
-          fieldOfView: cond.fieldOfView?.value ?? null,
-        },
+        conditions: toEngineConditions(request.conditions),
       };
       if (mixture.chamber.walls !== 'unbounded' && mixture.chamber.length === null) {
         throw new InputError([{ path: 'chamber.length', message: `required for ${mixture.chamber.walls} walls (expected length)` }]);
