@@ -62,18 +62,24 @@ export class UsageError extends Error {
   override readonly name = 'UsageError';
 }
 
-function readJson(path: string): unknown {
-  let text: string;
+function readText(path: string): string {
   try {
-    text = readFileSync(path, 'utf8');
+    return readFileSync(path, 'utf8');
   } catch (e) {
     throw new UsageError(`cannot read ${path}: ${(e as NodeJS.ErrnoException).code ?? (e as Error).message}`);
   }
+}
+
+function parseJson(text: string, path: string): unknown {
   try {
     return JSON.parse(text) as unknown;
   } catch (e) {
     throw new UsageError(`${path} is not valid JSON: ${(e as Error).message}`);
   }
+}
+
+function readJson(path: string): unknown {
+  return parseJson(readText(path), path);
 }
 
 const g = (x: number, digits = 3) => (x === 0 ? '0' : Math.abs(x) >= 1e4 || Math.abs(x) < 1e-2 ? x.toExponential(digits - 1) : x.toPrecision(digits));
@@ -227,20 +233,8 @@ function cmdFit(args: string[], io: Io): number {
   });
   const [method, file] = positionals;
   if (positionals.length !== 2 || !FIT_METHODS.includes(method as FitMethod)) throw new UsageError('usage: brink fit <msd|kinetics|drift> <file.csv|file.json> [options]');
-  let text: string;
-  try {
-    text = readFileSync(file!, 'utf8');
-  } catch (e) {
-    throw new UsageError(`cannot read ${file}: ${(e as NodeJS.ErrnoException).code ?? (e as Error).message}`);
-  }
-  let data: unknown = text;
-  if (/\.json$/i.test(file!)) {
-    try {
-      data = JSON.parse(text);
-    } catch (e) {
-      throw new UsageError(`${file} is not valid JSON: ${(e as Error).message}`);
-    }
-  }
+  const text = readText(file!);
+  const data: unknown = /\.json$/i.test(file!) ? parseJson(text, file!) : text;
   const raw: Record<string, unknown> = {};
   if (method === 'msd') {
     if (values.model !== undefined) raw.model = values.model;

@@ -170,9 +170,8 @@ class Tracker {
     const index = this.discrete ? Math.round(s.k) : null;
     for (const b of BRANCHES) {
       const v = s[b];
-      if (!Number.isFinite(v) && v !== -Infinity) continue;
       const cur = this.best[b];
-      if (v > -Infinity && (cur === null || v > cur.spec[b])) this.best[b] = { spec: s, index };
+      if (Number.isFinite(v) && (cur === null || v > cur.spec[b])) this.best[b] = { spec: s, index };
     }
     if (this.best.maxRe === null && s.maxRe === -Infinity) this.best.maxRe = { spec: s, index };
   }

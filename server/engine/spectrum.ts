@@ -123,7 +123,7 @@ function summarise(k: number, J: Float64Array, M: number): ModeSpectrum {
 }
 
 /** The eigenpair with the largest real part at k' (general routine), for the mode composition. */
-export function leadingEigenpair(model: ScaledModel, k: number): { re: number; im: number; vector: ComplexVector; converged: boolean; all: { re: Float64Array; im: Float64Array } } {
+export function leadingEigenpair(model: ScaledModel, k: number): { re: number; im: number; vector: ComplexVector; converged: boolean } {
   const J = jacobian(model, k);
   const spec = eigenvalues(J, model.M);
   let best = 0;
@@ -134,5 +134,5 @@ export function leadingEigenpair(model: ScaledModel, k: number): { re: number; i
   const re = spec.re[best]!;
   const im = Math.abs(spec.im[best]!) > tol ? Math.abs(spec.im[best]!) : 0;
   const vector = eigenvector(J, model.M, re, im);
-  return { re, im, vector, converged: spec.converged, all: { re: spec.re, im: spec.im } };
+  return { re, im, vector, converged: spec.converged };
 }
