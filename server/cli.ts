@@ -1,7 +1,13 @@
 /**
  * The `brink` command line.
  *
- *   brink analyze <mixture.json> [--format json|text]
+ *   brink analyze <mixture.json> [--format json|text]      linear stability of one sample
+ *   brink screen <request.json> [--format json|text]       smallest dose of each candidate (no database)
+ *   brink fit <msd|kinetics|drift> <file> [options]        coefficients from raw measurements
+ *   brink sheet <plan-id> [--db PATH] [options]            the bench sheet of a stored plan
+ *   brink serve [--db PATH] [--port N] [--host H]          the web service
+ *   brink seed [--reset] [--yes] [--db PATH]               load the demo shelf
+ *   brink help                                             the usage text (USAGE below has every option)
  *
  * Output goes to stdout; problems with the input go to stderr with exit
  * status 2 and name the field; no stack traces (set BRINK_DEBUG=1 to see one

@@ -85,7 +85,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
     openapi: {
       info: {
         title: 'brink',
-        description: 'Experiment-design planner for multi-species catalytic mixtures: the shelf, linear stability, and (to come) plans and bench sheets. Physical values are SI numbers or strings with units.',
+        description: 'Experiment-design planner for multi-species catalytic mixtures: the shelf, calibration fits, linear stability, dose plans and bench sheets. Physical values are SI numbers or strings with units.',
         version: VERSION,
       },
       tags: [

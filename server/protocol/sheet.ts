@@ -4,7 +4,7 @@
  * plan from the plan's numbers, the practical warnings, and the hazards of each
  * chemical as handled (stock bottle and working solution).
  *
- * The model built here is the JSON format; html.ts and markdown.ts render it.
+ * The model built here is the JSON format; render.ts renders it as HTML and Markdown.
  * Every number carries its unit. Nothing depends on the clock but `printedAt`.
  */
 import { z } from 'zod';
