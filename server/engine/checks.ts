@@ -1,11 +1,26 @@
 /**
- * Practical checks on a sample (model.md §8), reported beside the stability
- * result. All numbers SI. Each check returns its numbers whether or not it
- * warns; warnings carry the same numbers.
+ * Practical checks on a sample (docs/model.md §8), reported beside the
+ * stability result. All numbers SI. Each check returns its numbers whether or
+ * not it warns; warnings carry the same numbers.
+ *
+ * - fuel: lifetime c⁰/|Σ_m α_ms ρ_m| of each consumed chemical;
+ * - gas: time until a produced chemical with a solubility passes it,
+ *   (c_sat − c⁰)/Σ_m α_ms ρ_m; a saturating turnover makes its product at
+ *   `productYield` × the fuel turnover (model.ts), e.g. 0.5 O₂ per H₂O₂ for catalase;
+ * - sedimentation: Stokes settling speed v = (2/9) Δρ g a²/η (η: the given solvent
+ *   viscosity, else water at the sample temperature), the time H/v to cross the
+ *   depth, and the sedimentation length ℓ = D/v with the species' (effective)
+ *   diffusivity (Palacci et al., PRL 105, 088304 (2010) for active colloids;
+ *   for a passive particle ℓ = k_B T/(Δρ V g)); warns when ℓ < H;
+ * - pattern fit and crowding: wavelength against chamber, field and particle size;
+ *   volume fraction against the dilute model.
+ *
+ * Sources: docs/references.md.
  */
 import { BOLTZMANN, STANDARD_GRAVITY } from './constants.js';
 import { linearise } from './model.js';
-import type { Mixture } from './types.js';
+import { stokesSettlingSpeed, waterViscosity } from './transport.js';
+import { EngineInputError, type Mixture } from './types.js';
 
 export interface Warning {
   code: string;
@@ -33,13 +48,26 @@ export interface GasCheck {
 
 export interface SedimentationCheck {
   species: string;
-  /** Gravitational height k_B T / (|Δρ| V g), m */
-  gravitationalHeight: number;
-  /** Settling (Δρ > 0) or creaming (Δρ < 0) speed v = D / h, m s⁻¹ */
-  speed: number;
   direction: 'settles' | 'rises';
-  /** Time to cross the chamber depth, s (null without a depth) */
+  /** ρ_p − ρ_w, kg m⁻³ (signed: > 0 settles) */
+  densityDifference: number;
+  /** Solvent viscosity η used for the drag, Pa·s */
+  viscosity: number;
+  /** Where η came from: the conditions, or water at the sample temperature (transport.ts table) */
+  viscositySource: 'given' | 'water-at-temperature';
+  /** Stokes settling (or creaming) speed |v| = (2/9)|Δρ| g a²/η, m s⁻¹ */
+  speed: number;
+  /** Time to cross the chamber depth at that speed, H/|v|, s (null without a depth) */
   timeToCrossDepth: number | null;
+  /**
+   * Sedimentation length ℓ = D/|v| with the species' own (effective) diffusivity, m:
+   * the decay length of the steady density profile. For a passive particle
+   * (D = k_B T/(6π η a)) it equals `gravitationalHeight`; for an active one it is
+   * longer by D/D_passive (effective temperature; Palacci et al., PRL 105, 088304 (2010)).
+   */
+  sedimentationLength: number;
+  /** Passive gravitational height k_B T/(|Δρ| V g), m (independent of η and of activity) */
+  gravitationalHeight: number;
 }
 
 export interface PracticalChecks {
@@ -67,8 +95,9 @@ export const sphereVolume = (a: number) => (4 / 3) * Math.PI * a * a * a;
  *
  * @param mix        the sample (SI)
  * @param growthTime 1/λ_max in s, or null when stable
- * @param wavelength fastest pattern wavelength in m, or null
- * @param unstable   whether a pattern is predicted at all
+ * @param wavelength fastest pattern wavelength in m, or null when no pattern is predicted
+ *                   (stable) or the least stable mode is the longest wave
+ * @example practicalChecks(mix, 120, 4e-4).checks.sedimentation[0].speed // m/s
  */
 export function practicalChecks(
   mix: Mixture,
@@ -126,26 +155,63 @@ export function practicalChecks(
   const T = mix.conditions.temperature;
   const depth = mix.chamber.depth;
   let volumeFraction = 0;
+  const given = mix.conditions.solventViscosity ?? null;
+  let eta: number | null = given;
+  let etaProblem: string | null = null;
+  if (eta === null) {
+    try {
+      eta = waterViscosity(T);
+    } catch (e) {
+      if (!(e instanceof EngineInputError)) throw e;
+      etaProblem = e.reason;
+    }
+  }
+  const viscositySource = given !== null ? 'given' : 'water-at-temperature';
+  const unchecked: string[] = [];
   for (const sp of mix.species) {
     volumeFraction += sp.density * sphereVolume(sp.radius);
     if (sp.materialDensity === null) continue;
     const dRho = sp.materialDensity - mix.conditions.solventDensity;
     if (dRho === 0) continue;
+    if (eta === null) {
+      unchecked.push(sp.id);
+      continue;
+    }
+    const speed = Math.abs(stokesSettlingSpeed(sp.radius, dRho, eta, STANDARD_GRAVITY));
     const h = (BOLTZMANN * T) / (Math.abs(dRho) * sphereVolume(sp.radius) * STANDARD_GRAVITY);
-    const speed = sp.diffusivity / h;
+    const ell = sp.diffusivity / speed;
     const direction = dRho > 0 ? 'settles' : 'rises';
     const timeToCrossDepth = depth !== null ? depth / speed : null;
-    sedimentation.push({ species: sp.id, gravitationalHeight: h, speed, direction, timeToCrossDepth });
-    if (depth !== null && h < depth) {
+    sedimentation.push({
+      species: sp.id,
+      direction,
+      densityDifference: dRho,
+      viscosity: eta,
+      viscositySource,
+      speed,
+      timeToCrossDepth,
+      sedimentationLength: ell,
+      gravitationalHeight: h,
+    });
+    if (depth !== null && ell < depth) {
       warnings.push({
         code: 'sedimentation',
-        message: `${sp.id} ${direction} into a layer about ${metres(h)} thick (chamber depth ${metres(depth)}), crossing the depth in about ${seconds(timeToCrossDepth!)}: the bulk model assumes a suspension that stays uniform in depth.`,
+        message: `${sp.id} ${direction} at about ${fmt(speed * 1e6)} µm/s (Stokes drag), crossing the chamber depth ${metres(depth)} in about ${seconds(timeToCrossDepth!)}, into a layer about ${metres(ell)} thick: the bulk model assumes a suspension that stays uniform in depth.`,
         species: sp.id,
+        speed,
+        sedimentationLength: ell,
         gravitationalHeight: h,
         depth,
         timeToCrossDepth,
       });
     }
+  }
+  if (unchecked.length > 0) {
+    warnings.push({
+      code: 'sedimentation-not-checked',
+      message: `settling of ${unchecked.join(', ')} was not checked: ${etaProblem}; give conditions.solventViscosity.`,
+      species: unchecked,
+    });
   }
 
   if (wavelength !== null) {

@@ -8,5 +8,9 @@ export const AVOGADRO = 6.02214076e23;
 export const STANDARD_GRAVITY = 9.80665;
 /** Default temperature, K (25 °C). */
 export const DEFAULT_TEMPERATURE = 298.15;
-/** Density of water at 25 °C, kg m⁻³ — handbook value recalled from memory (≈ 997.05). */
-export const WATER_DENSITY_25C = 997.05;
+/**
+ * Density of water at 25 °C, kg m⁻³: 997.047, the IAPWS-95 value as tabulated
+ * in the CRC Handbook of Chemistry and Physics (recalled from memory; see
+ * docs/references.md). `waterDensity(T)` in transport.ts gives other temperatures.
+ */
+export const WATER_DENSITY_25C = 997.047;

@@ -4,7 +4,7 @@
  * mol s⁻¹, mobilities in m⁵ mol⁻¹ s⁻¹). Unit strings are the business of
  * `server/units/`; the engine never sees them.
  *
- * Sign conventions (model.md §1): activity α > 0 produces the chemical, α < 0
+ * Sign conventions (docs/model.md §1): activity α > 0 produces the chemical, α < 0
  * consumes it; mobility μ > 0 drifts down the gradient (repelled), μ < 0 up it
  * (attracted), v = −μ ∇c.
  */
@@ -38,6 +38,12 @@ export type Activity =
       michaelis: number;
       /** id of the chemical made from the fuel, or null when it is not tracked */
       product: string | null;
+      /**
+       * Stoichiometric yield: product made per fuel turned over (> 0; default 1),
+       * e.g. 0.5 for catalase (2 H₂O₂ → 2 H₂O + O₂). The product's source is
+       * productYield × the fuel turnover (docs/model.md §3).
+       */
+      productYield?: number;
     };
 
 export interface Coupling {
@@ -76,6 +82,8 @@ export interface Conditions {
   temperature: number;
   /** Solvent mass density, kg m⁻³ */
   solventDensity: number;
+  /** Solvent viscosity, Pa·s, for the settling check; null or absent: water at the temperature (transport.ts). */
+  solventViscosity?: number | null;
   /** Planned observation time, s; null when not given. */
   duration: number | null;
   /** Width of the imaging field, m; null when not given. */
@@ -86,7 +94,7 @@ export interface Mixture {
   chemicals: Chemical[];
   species: Species[];
   chamber: Chamber;
-  /** Hard-sphere second-virial crowding correction of the diffusion matrix (model.md §3). */
+  /** Hard-sphere second-virial crowding correction of the diffusion matrix (docs/model.md §3). */
   crowding: boolean;
   conditions: Conditions;
 }

@@ -1,8 +1,9 @@
 /**
- * Practical checks (model.md §8) and crowding (§3).
+ * Practical checks (docs/model.md §8) and crowding (§3).
  *
- * Sources: gravitational height h = k_B T/(Δρ V g) is the barometric length
- * of a sedimenting Brownian particle (model.md §8; textbook); k_B exact
+ * Sources (docs/references.md): gravitational height h = k_B T/(Δρ V g) is the
+ * barometric length of a sedimenting Brownian particle (textbook); Stokes drag
+ * v = (2/9) Δρ g a²/η (Stokes 1851, textbook); k_B exact
  * (SI 2019); standard gravity 9.80665 m s⁻² by definition (3rd CGPM, 1901).
  * Hard-sphere second virial coefficient B₂ = 2πσ³/3 with σ the contact
  * distance (Hansen & McDonald, *Theory of Simple Liquids*).
@@ -15,24 +16,47 @@ import type { Mixture } from '../../server/engine/types.js';
 import { chemical, constant, mixture, rel, species } from '../helpers/mixtures.js';
 
 describe('sedimentation', () => {
-  it('gravitational height of a 1 µm-radius silica-like sphere (Δρ = 1000 kg/m³, 25 °C)', () => {
+  it('a 1 µm-radius silica-like sphere (Δρ = 1000 kg/m³, 25 °C): Stokes speed, crossing time, lengths', () => {
     const m = mixture([], [{ ...species('si', 0.245e-12, 1e14, []), materialDensity: 1997.05 }], 'sealed');
     m.chamber.depth = 1e-4;
     const { checks, warnings } = practicalChecks(m, null, null);
+    const sed = checks.sedimentation[0]!;
     const V = (4 / 3) * Math.PI * 1e-18;
     // h = k_B T/(Δρ V g), derived by hand from the constants above: ≈ 1.0021e-7 m
     const h = (1.380649e-23 * 298.15) / (1000 * V * 9.80665);
-    expect(rel(checks.sedimentation[0]!.gravitationalHeight, h)).toBeLessThan(1e-12);
+    expect(rel(sed.gravitationalHeight, h)).toBeLessThan(1e-12);
     expect(h).toBeCloseTo(1.0021e-7, 10);
-    // v = D/h, time to cross the 100 µm depth = H h/D
-    expect(rel(checks.sedimentation[0]!.timeToCrossDepth!, (1e-4 * h) / 0.245e-12)).toBeLessThan(1e-12);
+    // Stokes (1851): v = (2/9) Δρ g a²/η with η = 0.8900 mPa·s at 25 °C (IAPWS 2008 via the CRC
+    // Handbook, from memory): (2/9)·1000·9.80665·1e-12/0.89e-3 = 2.4486e-6 m/s by hand
+    expect(sed.viscosity).toBeCloseTo(0.89e-3, 12);
+    expect(sed.viscositySource).toBe('water-at-temperature');
+    expect(sed.speed).toBeCloseTo(2.4486e-6, 9);
+    // 100 µm / 2.4486 µm/s = 40.84 s
+    expect(sed.timeToCrossDepth!).toBeCloseTo(40.84, 1);
+    // ℓ = D/v = 0.245e-12/2.4486e-6 = 1.0006e-7 m (D here is 0.2 % below Stokes–Einstein's 0.2454 µm²/s)
+    expect(sed.sedimentationLength).toBeCloseTo(1.0006e-7, 10);
     expect(warnings.map((w) => w.code)).toEqual(['sedimentation']);
+    expect(warnings[0]!.message).toMatch(/2\.45 µm\/s/);
   });
 
   it('a particle lighter than the solvent rises; one matched to it is not reported', () => {
     const m = mixture([], [{ ...species('oil', 1e-12, 1e14, []), materialDensity: 900 }, { ...species('match', 1e-12, 1e14, []), materialDensity: 997.05 }], 'sealed');
     const { checks } = practicalChecks(m, null, null);
     expect(checks.sedimentation.map((s) => [s.species, s.direction])).toEqual([['oil', 'rises']]);
+  });
+
+  it('a given solvent viscosity is used; outside the water table without one, the check says it was not done', () => {
+    const m = mixture([], [{ ...species('si', 0.245e-12, 1e14, []), materialDensity: 1997.05 }], 'sealed');
+    m.conditions.solventViscosity = 2 * 0.89e-3;
+    const sed = practicalChecks(m, null, null).checks.sedimentation[0]!;
+    // v ∝ 1/η: half the 2.4486e-6 m/s of water at 25 °C
+    expect(sed.speed).toBeCloseTo(1.2243e-6, 9);
+    expect(sed.viscositySource).toBe('given');
+    const hot = mixture([], [{ ...species('si', 0.245e-12, 1e14, []), materialDensity: 1997.05 }], 'sealed');
+    hot.conditions.temperature = 400;
+    const r = practicalChecks(hot, null, null);
+    expect(r.checks.sedimentation).toEqual([]);
+    expect(r.warnings.find((w) => w.code === 'sedimentation-not-checked')).toMatchObject({ species: ['si'] });
   });
 });
 
