@@ -1,6 +1,6 @@
 // Flat config: the recommended JavaScript and TypeScript rules, plus one
 // architectural rule: the engine stays pure (no server framework, database or
-// schema library inside server/engine/).
+// schema library inside server/engine/; of packages, only ml-matrix).
 import js from '@eslint/js';
 import tseslint from 'typescript-eslint';
 
@@ -30,6 +30,9 @@ export default tseslint.config(
           { group: ['better-sqlite3'], message: 'server/engine/ is pure numerics: no database.' },
           { group: ['zod', 'zod/*'], message: 'server/engine/ is pure numerics: validate in server/schema/.' },
           { group: ['mathjs'], message: 'server/engine/ works in SI numbers: convert units in server/units/.' },
+          // The only package the engine may import is ml-matrix (the general eigen solver, linalg/eigen.ts):
+          // any other bare specifier is refused; tests/engine/purity.test.ts checks the same list.
+          { regex: '^(?!ml-matrix$)(?![./])', message: 'server/engine/ imports only itself and ml-matrix (DEVELOPERS.md, dependencies).' },
         ],
       }],
     },

@@ -61,7 +61,7 @@ for (const walls of ['sealed', 'unbounded'] as Walls[]) {
 }
 
 console.log('\neigenvalues of dense random matrices');
-for (const n of [2, 6, 12, 24, 48]) {
+for (const n of [2, 3, 4, 5, 6, 7, 8, 12, 24, 48]) {
   const rng = new Random(n);
   const a = Float64Array.from({ length: n * n }, () => rng.normal());
   const { perCallMs } = time(() => eigenvalues(a, n));

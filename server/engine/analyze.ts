@@ -195,16 +195,22 @@ export function analyze(mix: Mixture, options: ScanOptions = {}): AnalysisResult
 
   const warnings: Warning[] = [];
   let composition: CompositionEntry[] = [];
+  let compositionMissing = false;
   if (model.M > 0) {
     const kEig = o.k > 0 ? o.k : Math.max(scan.upperWavenumber, 1) * 1e-8;
+    // The eigenvector of the fastest mode (linalg/eigen.ts, ml-matrix), largest component 1.
     const lead = leadingEigenpair(model, kEig);
-    if (!lead.converged) scan.unconverged++;
-    composition = model.speciesIds.map((id, m) => {
-      const re = lead.vector.re[m]!;
-      const im = lead.vector.im[m]!;
-      const magnitude = Math.hypot(re, im);
-      return { species: id, weight: clean(re), magnitude: clean(magnitude), phase: magnitude > 1e-12 ? Math.atan2(im, re) : 0 };
-    });
+    if (!lead.converged) {
+      scan.unconverged++;
+      compositionMissing = true;
+    } else {
+      composition = model.speciesIds.map((id, m) => {
+        const re = lead.vector.re[m]!;
+        const im = lead.vector.im[m]!;
+        const magnitude = Math.hypot(re, im);
+        return { species: id, weight: clean(re), magnitude: clean(magnitude), phase: magnitude > 1e-12 ? Math.atan2(im, re) : 0 };
+      });
+    }
   }
   if (scan.longWaveLimit) {
     warnings.push({
@@ -222,7 +228,7 @@ export function analyze(mix: Mixture, options: ScanOptions = {}): AnalysisResult
   if (scan.unconverged > 0) {
     warnings.push({
       code: 'eigen-not-converged',
-      message: `the eigenvalue iteration did not converge at ${scan.unconverged} wavenumber(s); those modes were skipped.`,
+      message: `the eigenvalue iteration did not converge at ${scan.unconverged} wavenumber(s); those modes were skipped${compositionMissing ? ' and the mode composition is left out' : ''}.`,
       count: scan.unconverged,
     });
   }

@@ -5,8 +5,9 @@
  * units (m, s, mol, kg, K; number densities m⁻³, concentrations mol m⁻³ — the
  * same number as mM —, activities mol s⁻¹, mobilities m⁵ mol⁻¹ s⁻¹). Inside,
  * the linear algebra runs on non-dimensional numbers (model.ts) and converts
- * back before returning. Nothing here imports fastify, better-sqlite3, zod or
- * mathjs (a lint rule and a test enforce it).
+ * back before returning. The only package imported here is ml-matrix (the
+ * general eigen solver, linalg/eigen.ts); nothing imports fastify,
+ * better-sqlite3, zod or mathjs (a lint rule and a test enforce it).
  */
 export * from './types.js';
 export { analyze, determinantIndex } from './analyze.js';
@@ -18,7 +19,8 @@ export type { ScaledModel } from './model.js';
 export { eigenvaluesAt, jacobianAt } from './probe.js';
 export { Random } from './random.js';
 export { scanModes } from './scan.js';
-export { eigenvalues, eigenvector, eigenResidual } from './linalg/eigen.js';
+export { eigenDecomposition, eigenvalues } from './linalg/eigen.js';
+export type { ComplexVector, EigenDecomposition, Spectrum } from './linalg/eigen.js';
 export { largestSecularRoot, secularFunction, secularResidual } from './secular.js';
 export { reducedCharacteristic } from './characteristic.js';
 export * as constants from './constants.js';

@@ -4,10 +4,11 @@
  * For each k' the scan needs the largest real part over all eigenvalues, and
  * separately over real eigenvalues (the stationary branch) and complex pairs
  * (the oscillatory branch). Rank-one mixtures whose couplings share a sign have
- * only real eigenvalues and take the secular path; all others use the general
- * eigen routine.
+ * only real eigenvalues and take the secular path; two species use the
+ * closed-form 2×2 eigenvalues; all others use the general eigen routine
+ * (linalg/eigen.ts, ml-matrix).
  */
-import { eigenvalues, eigenvector, type ComplexVector } from './linalg/eigen.js';
+import { eigenDecomposition, eigenvalues, type ComplexVector } from './linalg/eigen.js';
 import { jacobian, type ScaledModel } from './model.js';
 import { largestSecularRoot, sameSign } from './secular.js';
 
@@ -72,12 +73,18 @@ export function modeSpectrum(model: ScaledModel, k: number): ModeSpectrum {
   return summarise(k, J, model.M);
 }
 
-/** Eigenvalues of a real 2×2 matrix from its trace and determinant (stable quadratic). */
-function eigen2(J: Float64Array): { re: Float64Array; im: Float64Array; converged: boolean } {
+/**
+ * Eigenvalues of a real 2×2 matrix (row-major) in closed form: λ = tr/2 ± √((a−d)²/4 + bc),
+ * the larger-magnitude real root without cancellation and the other as det/λ₁.
+ * Real roots come largest first; a complex pair +Im first. A non-finite entry is `converged: false`.
+ * @example eigenvalues2x2(Float64Array.of(0, -2, 2, 0)) // ±2i
+ */
+export function eigenvalues2x2(J: Float64Array): { re: Float64Array; im: Float64Array; converged: boolean } {
   const a = J[0]!;
   const b = J[1]!;
   const c = J[2]!;
   const d = J[3]!;
+  if (!Number.isFinite(a + b + c + d)) return { re: Float64Array.of(Number.NaN, Number.NaN), im: Float64Array.of(Number.NaN, Number.NaN), converged: false };
   const half = 0.5 * (a - d);
   const disc = half * half + b * c;
   const mean = 0.5 * (a + d);
@@ -94,7 +101,7 @@ function eigen2(J: Float64Array): { re: Float64Array; im: Float64Array; converge
 }
 
 function summarise(k: number, J: Float64Array, M: number): ModeSpectrum {
-  const spec = M === 2 ? eigen2(J) : eigenvalues(J, M);
+  const spec = M === 2 ? eigenvalues2x2(J) : eigenvalues(J, M);
   const scale = matrixScale(J);
   const tol = REAL_TOLERANCE * Math.max(scale, Number.MIN_VALUE);
   let maxRe = -Infinity;
@@ -122,17 +129,26 @@ function summarise(k: number, J: Float64Array, M: number): ModeSpectrum {
   return { k, maxRe, imAtMax, maxReal, maxComplex, imComplex, converged: spec.converged, scale };
 }
 
-/** The eigenpair with the largest real part at k' (general routine), for the mode composition. */
+/**
+ * The eigenpair with the largest real part at k' (general routine), for the mode
+ * composition. Of a complex pair the member with Im λ > 0 is taken; a pair whose
+ * |Im λ| is within REAL_TOLERANCE of the matrix scale counts as real, and its
+ * vector's imaginary parts (rounding of a collision) are dropped.
+ *
+ * @returns λ = re + i·im (im ≥ 0) and its eigenvector, largest component 1
+ */
 export function leadingEigenpair(model: ScaledModel, k: number): { re: number; im: number; vector: ComplexVector; converged: boolean } {
   const J = jacobian(model, k);
-  const spec = eigenvalues(J, model.M);
+  const dec = eigenDecomposition(J, model.M);
   let best = 0;
   for (let i = 1; i < model.M; i++) {
-    if (spec.re[i]! > spec.re[best]! || (spec.re[i] === spec.re[best] && spec.im[i]! > spec.im[best]!)) best = i;
+    if (dec.re[i]! > dec.re[best]! || (dec.re[i] === dec.re[best] && dec.im[i]! > dec.im[best]!)) best = i;
   }
   const tol = REAL_TOLERANCE * Math.max(matrixScale(J), Number.MIN_VALUE);
-  const re = spec.re[best]!;
-  const im = Math.abs(spec.im[best]!) > tol ? Math.abs(spec.im[best]!) : 0;
-  const vector = eigenvector(J, model.M, re, im);
-  return { re, im, vector, converged: spec.converged };
+  const re = dec.re[best]!;
+  const real = !(Math.abs(dec.im[best]!) > tol);
+  const im = real ? 0 : Math.abs(dec.im[best]!);
+  const v = dec.vectors[best]!;
+  const vector = real ? { re: v.re, im: new Float64Array(model.M) } : dec.im[best]! > 0 ? v : { re: v.re, im: v.im.map((x) => -x) };
+  return { re, im, vector, converged: dec.converged };
 }
