@@ -49,6 +49,9 @@ usage:
   brink fit <msd|kinetics|drift> <file.csv|file.json> [options]   coefficients from raw data
       msd:      --model passive-2d|passive-3d|active-2d|active-3d|active-focal  --offset
                 --radius R (fix the rotation time by Stokes–Einstein–Debye)  --temperature T
+                a curve (lag [s], msd [um^2], sd) or tracked positions (track, t [s], x [um], y [um], z):
+                tracks are recognised by a first column named track, or --tracks; then
+                --max-lag 5s  --lags 16  --unweighted (ordinary least squares, for comparison)
       kinetics: --particles DENSITY | --enzyme CONCENTRATION   (per-particle maximal turnover)
   brink sheet <plan-id> [--db PATH] [--candidate ID] [--format html|md|json] [--paper A4|Letter] [--out FILE]
               [--sample-volume 100uL] [--replicates 3] [--min-volume 1uL] [--overage 0.1] [--buffer NAME] [--options FILE]
@@ -238,6 +241,10 @@ function cmdFit(args: string[], io: Io): number {
       temperature: { type: 'string' },
       particles: { type: 'string' },
       enzyme: { type: 'string' },
+      tracks: { type: 'boolean' },
+      'max-lag': { type: 'string' },
+      lags: { type: 'string' },
+      unweighted: { type: 'boolean', default: false },
     },
   });
   const [method, file] = positionals;
@@ -250,6 +257,10 @@ function cmdFit(args: string[], io: Io): number {
     if (values.offset) raw.offset = true;
     if (values.radius !== undefined) raw.radius = values.radius;
     if (values.temperature !== undefined) raw.temperature = values.temperature;
+    if (values.tracks !== undefined) raw.tracks = values.tracks;
+    if (values['max-lag'] !== undefined) raw.maxLag = values['max-lag'];
+    if (values.lags !== undefined) raw.lags = Number(values.lags);
+    if (values.unweighted) raw.weighting = 'unweighted';
   } else if (method === 'kinetics') {
     if (values.particles !== undefined) raw.particleDensity = values.particles;
     if (values.enzyme !== undefined) raw.enzymeConcentration = values.enzyme;

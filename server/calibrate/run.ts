@@ -1,10 +1,18 @@
 /**
  * A fit from raw data: read the table, check its columns, convert to SI, run
  * the engine's fit. Shared by the HTTP endpoints and `brink fit`.
+ *
+ * An MSD fit takes either an MSD curve (`lag [s], msd [um^2]`, optional sd) or
+ * tracked positions (`track, t [s], x [um], y [um]`, optional `z [um]`): a
+ * first column named `track` (or `track id`, `particle`) selects the tracks,
+ * as does `options.tracks: true`. From tracks the MSD and its covariance
+ * between lags come from engine/fit/tracks.ts and the fit is generalised least
+ * squares (`weighting: 'gls-covariance'`).
  */
 import { z } from 'zod';
 import { AVOGADRO } from '../engine/constants.js';
 import { fitDrift, fitKinetics, fitMsd, MSD_MODELS, type FitResult, type MsdModel } from '../engine/fit/models.js';
+import { msdFromTracks, TRACKS_DEFAULT_LAGS, TRACKS_MAX_LAGS, TRACKS_MAX_ROWS, type Track } from '../engine/fit/tracks.js';
 import { EngineInputError } from '../engine/types.js';
 import { quantity, issueList } from '../schema/mixture.js';
 import { InputError, type Problem } from '../shelf/errors.js';
@@ -22,6 +30,14 @@ export const fitOptionsSchemas = {
     /** for a stored measurement: fix the rotation time by Stokes–Einstein–Debye for the species' own radius */
     rotationFromSpeciesRadius: z.boolean().default(false),
     temperature: quantity(DIMENSIONS.temperature, 'positive', 'temperature (default 25 °C)').optional(),
+    /** the data are tracked positions (default: when the first column is named track) */
+    tracks: z.boolean().optional(),
+    /** tracks: the largest lag (default a quarter of the median track duration) */
+    maxLag: quantity(DIMENSIONS.time, 'positive', 'largest lag time for an MSD from tracks').optional(),
+    /** tracks: number of log-spaced lags */
+    lags: z.number().int().min(2).max(TRACKS_MAX_LAGS).default(TRACKS_DEFAULT_LAGS),
+    /** tracks: generalised least squares with the MSD's covariance (default), or equal weights (for comparison only) */
+    weighting: z.enum(['gls-covariance', 'unweighted']).default('gls-covariance'),
   }),
   kinetics: z.strictObject({
     particleDensity: quantity(DIMENSIONS.numberDensity, 'positive', 'number density of particles in the assay').optional(),
@@ -52,15 +68,121 @@ function engineErrors<T>(fn: () => T): T {
   }
 }
 
+const TRACK_HEADER = /^(track|track[ _-]?id|particle)$/i;
+
+/** True when a table's first column names a track (a table of positions, not an MSD curve). */
+export function looksLikeTracks(t: Table): boolean {
+  return t.columns.length >= 4 && TRACK_HEADER.test(t.columns[0]!.name);
+}
+
+export interface TracksSummary {
+  tracks: number;
+  positions: number;
+  /** s */
+  frameInterval: number;
+  lagFrames: number[];
+  /** standard deviation of each pooled MSD point (m²), from the covariance */
+  sd: number[];
+  units: 'tracks' | 'blocks';
+  unitCount: number;
+  blockFrames?: number;
+  hartlapFactor: number;
+  covarianceSource: string;
+}
+
+type RunResult = FitResult & { input: { columns: { header: string; unit: string | null }[]; rows: number }; covarianceSource?: string; tracks?: TracksSummary };
+
+/** Group position rows by track, on a regular frame grid; problems name the line. */
+function readTracks(t: Table, dims: 2 | 3): { tracks: Track[]; dt: number } {
+  const c = siColumns(t, [
+    { role: 'track', dimension: {}, unitless: true },
+    { role: 'time', dimension: DIMENSIONS.time },
+    { role: 'x', dimension: DIMENSIONS.length },
+    { role: 'y', dimension: DIMENSIONS.length },
+  ], dims === 3 ? [{ role: 'z', dimension: DIMENSIONS.length }] : []);
+  if (dims === 3 && !c.z) throw new InputError([{ path: 'line 1', message: 'a 3D model needs a fifth column z, e.g. "z [um]"' }]);
+  const roles = dims === 3 ? ['x', 'y', 'z'] : ['x', 'y'];
+  const byTrack = new Map<number, number[]>();
+  c.track!.values.forEach((id, i) => {
+    if (!byTrack.has(id)) byTrack.set(id, []);
+    byTrack.get(id)!.push(i);
+  });
+  const time = c.time!.values;
+  const problems: Problem[] = [];
+  // the frame interval: the median positive step between consecutive times within tracks
+  const steps: number[] = [];
+  for (const rows of byTrack.values()) {
+    rows.sort((a, b) => time[a]! - time[b]!);
+    for (let j = 1; j < rows.length; j++) {
+      const d = time[rows[j]!]! - time[rows[j - 1]!]!;
+      if (d > 0) steps.push(d);
+      else problems.push({ path: where(t, rows[j]!, 1), message: `track ${c.track!.values[rows[j]!]} has two positions at the same time` });
+    }
+  }
+  if (problems.length > 0) throw new InputError(problems.slice(0, 20));
+  if (steps.length === 0) throw new InputError([{ path: 'data', message: 'no track has two positions: nothing to compute an MSD from' }]);
+  steps.sort((a, b) => a - b);
+  const dt = Number(steps[Math.floor(steps.length / 2)]!.toPrecision(12)); // a grid read back from text: drop the rounding noise
+  const tracks: Track[] = [];
+  for (const [id, rows] of byTrack) {
+    const t0 = time[rows[0]!]!;
+    const frame = rows.map((i) => {
+      const f = (time[i]! - t0) / dt;
+      const k = Math.round(f);
+      if (Math.abs(f - k) > 0.01) problems.push({ path: where(t, i, 1), message: `times must lie on a regular grid: ${t.columns[1]!.values[i]} is not a whole number of frames (${dt} s) after the track's first time` });
+      return k;
+    });
+    tracks.push({ id: String(id), frame, coords: roles.map((r) => rows.map((i) => c[r]!.values[i]!)) });
+  }
+  if (problems.length > 0) throw new InputError(problems.slice(0, 20));
+  return { tracks, dt };
+}
+
 /** Run a fit on raw data (CSV text or a JSON table) with validated options. */
-export function runFit<M extends FitMethod>(method: M, data: unknown, options: FitOptions[M]): FitResult & { input: { columns: { header: string; unit: string | null }[]; rows: number } } {
+export function runFit<M extends FitMethod>(method: M, data: unknown, options: FitOptions[M]): RunResult {
   const t = readTable(data);
   const problems: Problem[] = [];
   const input = { columns: t.columns.map((c) => ({ header: c.header, unit: c.unit })), rows: t.lines.length };
+  if (t.lines.length > TRACKS_MAX_ROWS) throw new InputError([{ path: 'data', message: `at most ${TRACKS_MAX_ROWS} data rows in one fit, got ${t.lines.length}` }]);
   if (method === 'msd') {
     const o = options as FitOptions['msd'];
     if (o.rotationFromSpeciesRadius && !o.radius) {
       throw new InputError([{ path: 'options.rotationFromSpeciesRadius', message: "needs a species: store the data as a measurement of one (POST /api/species/:id/measurements), or give options.radius" }]);
+    }
+    const engineOptions = {
+      model: o.model,
+      offset: o.offset,
+      ...(o.radius ? { radius: o.radius.value } : {}),
+      ...(o.temperature ? { temperature: o.temperature.value } : {}),
+    };
+    if (o.tracks ?? looksLikeTracks(t)) {
+      const dims = o.model === 'passive-3d' || o.model === 'active-3d' ? 3 : 2;
+      const { tracks, dt } = readTracks(t, dims);
+      const m = engineErrors(() => msdFromTracks(tracks, { dt, lags: o.lags, ...(o.maxLag ? { maxLagFrames: Math.max(1, Math.round(o.maxLag.value / dt)) } : {}) }));
+      const gls = o.weighting === 'gls-covariance';
+      const fit = engineErrors(() => fitMsd(m.lag, m.msd, { ...engineOptions, ...(gls ? { covariance: m.covariance } : {}) }));
+      const notes = [`MSD computed from ${m.tracks} tracks (${m.positions} positions, frame interval ${dt} s) at ${m.lag.length} lags, all overlapping windows.`, ...m.notes];
+      if (dims === 2 && t.columns.length >= 5) notes.push('a z column is present but the model is two-dimensional: x and y only were used');
+      if (!gls) notes.push('unweighted on purpose (options.weighting): the lags are correlated, so these standard errors understate the uncertainty.');
+      else if (fit.residualStandardError > 1.5 && fit.dof > 0) notes.push(`reduced chi-square ${(fit.residualStandardError ** 2).toPrecision(3)} > 2: the model does not describe these data within their own scatter.`);
+      return {
+        ...fit,
+        notes: [...notes, ...fit.notes],
+        input,
+        ...(gls ? { covarianceSource: m.covarianceSource } : {}),
+        tracks: {
+          tracks: m.tracks,
+          positions: m.positions,
+          frameInterval: dt,
+          lagFrames: m.lagFrames,
+          sd: m.sd,
+          units: m.units,
+          unitCount: m.unitCount,
+          ...(m.blockFrames !== undefined ? { blockFrames: m.blockFrames } : {}),
+          hartlapFactor: m.hartlapFactor,
+          covarianceSource: m.covarianceSource,
+        },
+      };
     }
     const c = siColumns(t, [
       { role: 'lag time', dimension: DIMENSIONS.time },
@@ -80,18 +202,11 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
       if (!(s > 0)) problems.push({ path: where(t, i, 2), message: 'standard deviations must be positive' });
     });
     if (problems.length > 0) throw new InputError(problems);
-    return {
-      ...engineErrors(() =>
-        fitMsd(lag, msd, {
-          model: o.model,
-          offset: o.offset,
-          ...(o.radius ? { radius: o.radius.value } : {}),
-          ...(o.temperature ? { temperature: o.temperature.value } : {}),
-          ...(sd ? { sd } : {}),
-        }),
-      ),
-      input,
-    };
+    const fit = engineErrors(() => fitMsd(lag, msd, { ...engineOptions, ...(sd ? { sd } : {}) }));
+    fit.notes.push(
+      `${sd ? 'weighted by 1/sd² lag by lag' : 'unweighted'}: an MSD curve carries no covariance between its lags, and those of overlapping windows are strongly correlated, so the standard errors may understate the uncertainty; fit the tracked positions (track, t, x, y) for honest ones.`,
+    );
+    return { ...fit, input };
   }
   if (method === 'kinetics') {
     const o = options as FitOptions['kinetics'];

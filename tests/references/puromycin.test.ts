@@ -3,7 +3,7 @@
  *
  * Source: M. A. Treloar (1974), analysed in D. M. Bates and D. G. Watts,
  * *Nonlinear Regression Analysis and Its Applications* (1988); the same data
- * ship as R's `datasets::Puromycin` (references.md, "data and fit confirmed"):
+ * ship as R's `datasets::Puromycin` (docs/references.md, "data and fit confirmed"):
  * V_max = 212.68 ± 6.947, K = 0.06412 ± 0.00828 ppm, residual sum of squares
  * 1195.45, residual standard error 10.93 on 10 degrees of freedom.
  */
@@ -22,6 +22,8 @@ describe('Puromycin (Bates & Watts 1988)', () => {
   it('the engine fit gives the published estimates, standard errors and residual standard error to four figures', () => {
     const f = fitKinetics(conc, rate);
     expect(f.converged).toBe(true);
+    expect(f.stop).toBe('converged');
+    expect(f.weighting).toBe('unweighted');
     expect(sig4(f.parameters.maxRate!.value)).toBe(212.7);
     expect(sig4(f.parameters.maxRate!.sd)).toBe(6.947);
     expect(sig4(f.parameters.michaelis!.value)).toBe(0.06412);

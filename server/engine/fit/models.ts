@@ -7,7 +7,8 @@
  * localisation-error offset):
  *   passive-2d   MSD = 4 D t + c
  *   passive-3d   MSD = 6 D t + c
- *   active-2d    MSD = 4 D t + 2 v² τ² [t/τ + e^(−t/τ) − 1] + c          (ten Hagen, van Teeffelen & Löwen 2011)
+ *   active-2d    MSD = 4 D t + 2 v² τ² [t/τ + e^(−t/τ) − 1] + c          (ten Hagen, van Teeffelen & Löwen 2011,
+ *                                                                         docs/references.md)
  *   active-3d    MSD = 6 D t + (v² τ²/2) [2t/τ + e^(−2t/τ) − 1] + c      (same; Bechinger et al. 2016)
  *   active-focal MSD = 4 D t + (v² τ²/3) [2t/τ + e^(−2t/τ) − 1] + c      (a 3D swimmer seen in a focal plane:
  *                                                                         two thirds of the 3D active part)
@@ -16,22 +17,26 @@
  * Kinetics: r = V c/(K + c) (Michaelis–Menten); with the particle (or enzyme)
  * number density of the assay ρ, the per-particle maximal turnover is V/ρ.
  *
- * Drift: v = −μ ∂c/∂x (model.md §1: μ > 0 moves down the gradient); a line
+ * Drift: v = −μ ∂c/∂x (docs/model.md §1: μ > 0 moves down the gradient); a line
  * through the origin, slope −μ.
  */
 import { stokesEinsteinDebye } from '../transport.js';
 import { EngineInputError } from '../types.js';
-import { leastSquares, type LsqResult } from './least-squares.js';
+import { solveInPlace } from '../linalg/dense.js';
+import { leastSquares, whitener, type LsqResult, type LsqStop, type LsqWeighting } from './least-squares.js';
 
 export type MsdModel = 'passive-2d' | 'passive-3d' | 'active-2d' | 'active-3d' | 'active-focal';
 export const MSD_MODELS: MsdModel[] = ['passive-2d', 'passive-3d', 'active-2d', 'active-3d', 'active-focal'];
 
 export interface FitParameter {
   value: number;
-  sd: number;
+  /** standard error; null when the parameter ended on a bound (no honest linearised error there) */
+  sd: number | null;
   unit: string;
   /** true when held fixed (not fitted) */
   fixed?: boolean;
+  /** the bound the fit ended on (e.g. a diffusivity of 0): the value is a limit, not an estimate */
+  atBound?: 'lower' | 'upper';
 }
 
 export interface FitResult {
@@ -41,7 +46,7 @@ export interface FitResult {
   residualStandardError: number;
   dof: number;
   points: number;
-  /** weighted residual sum of squares */
+  /** weighted residual sum of squares (whitened, for a covariance) */
   rss: number;
   /** 1 − RSS/TSS (unweighted) */
   rSquared: number;
@@ -49,7 +54,13 @@ export interface FitResult {
   x: number[];
   residuals: number[];
   fitted: number[];
+  /** how the points were weighted: a full covariance (generalised least squares), 1/sd², or equally */
+  weighting: LsqWeighting;
+  /** true only when the optimiser showed stationarity (see `stop`) */
   converged: boolean;
+  /** what ended the fit: converged, no-progress (no step lowered the residuals), max-iterations */
+  stop: LsqStop;
+  iterations: number;
   notes: string[];
 }
 
@@ -67,8 +78,11 @@ function rSquared(y: number[], fitted: number[]): number {
 function summarise(method: string, model: string, r: LsqResult, names: [string, string][], x: number[], y: number[], fittedFn: (i: number) => number, notes: string[]): FitResult {
   const parameters: Record<string, FitParameter> = {};
   names.forEach(([name, unit], i) => {
-    parameters[name] = { value: r.parameters[i]!, sd: r.standardErrors[i]!, unit, ...(r.free.includes(i) ? {} : { fixed: true }) };
+    const bound = r.atBound[i];
+    parameters[name] = { value: r.parameters[i]!, sd: r.standardErrors[i]!, unit, ...(r.free.includes(i) ? {} : { fixed: true }), ...(bound ? { atBound: bound } : {}) };
+    if (bound) notes.push(`${name} ended on its ${bound} bound (${r.parameters[i]} ${unit}): the data do not resolve it; it has no standard error and the others' are conditional on it.`);
   });
+  if (!r.converged) notes.push(`the fit did not converge (${r.stop} after ${r.iterations} iterations): the values are the best point reached, not an optimum.`);
   const fitted = y.map((_, i) => fittedFn(i));
   return {
     method,
@@ -82,7 +96,10 @@ function summarise(method: string, model: string, r: LsqResult, names: [string, 
     x,
     residuals: r.residuals,
     fitted,
+    weighting: r.weighting,
     converged: r.converged,
+    stop: r.stop,
+    iterations: r.iterations,
     notes,
   };
 }
@@ -97,8 +114,11 @@ export interface MsdOptions {
   temperature?: number;
   /** standard deviations of the MSD values (m²); weights 1/sd² */
   sd?: number[];
+  /** covariance of the MSD values between lags (m⁴): generalised least squares, taken as absolute */
+  covariance?: number[][];
 }
 
+/** Active part of the MSD for speed v and rotation time τ (file header). */
 function activePart(model: MsdModel, t: number, v: number, tau: number): number {
   const u = t / tau;
   // series for small u avoids cancellation in e^(−u) − 1 + u
@@ -109,7 +129,58 @@ function activePart(model: MsdModel, t: number, v: number, tau: number): number 
 }
 
 /**
+ * Long-time limit of the active part, slope per unit of v²τ: 2 (2D: 2v²τ²·t/τ),
+ * 1 (3D: (v²τ²/2)·2t/τ), 2/3 (focal plane: (v²τ²/3)·2t/τ). The long-time
+ * diffusivity in the observed d dimensions is D + (this/2d) v²τ: D + v²τ/2 in
+ * 2D, D + v²τ/6 in 3D and in a focal plane (the 3D value: a projection keeps
+ * the diffusivity per coordinate).
+ */
+function longSlopeCoefficient(model: MsdModel): number {
+  return model === 'active-2d' ? 2 : model === 'active-3d' ? 1 : 2 / 3;
+}
+
+/**
+ * Non-negative linear least squares over a handful of columns by trying every
+ * subset of the constrained ones at zero (at most 2³ small systems).
+ * @returns coefficients and the whitened residual sum of squares, or null
+ */
+function smallNnls(cols: number[][], y: number[], nonneg: boolean[]): { coef: number[]; cost: number } | null {
+  const k = cols.length;
+  let best: { coef: number[]; cost: number } | null = null;
+  for (let mask = 0; mask < 1 << k; mask++) {
+    // mask bit set: coefficient forced to zero (only for constrained ones)
+    if ([...Array(k).keys()].some((j) => mask & (1 << j) && !nonneg[j])) continue;
+    const act = [...Array(k).keys()].filter((j) => !(mask & (1 << j)));
+    const coef = new Array<number>(k).fill(0);
+    if (act.length > 0) {
+      const A = act.map((a) => act.map((b) => cols[a]!.reduce((s, v, i) => s + v * cols[b]![i]!, 0)));
+      const g = act.map((a) => cols[a]!.reduce((s, v, i) => s + v * y[i]!, 0));
+      const m = act.length;
+      const flat = Float64Array.from(A.flat());
+      const rhs = Float64Array.from(g);
+      if (!solveInPlace(flat, m, rhs, 1)) continue;
+      act.forEach((j, a) => (coef[j] = rhs[a]!));
+    }
+    if (act.some((j) => nonneg[j] && coef[j]! < 0)) continue;
+    const cost = y.reduce((s, v, i) => s + (v - cols.reduce((acc, c, j) => acc + coef[j]! * c[i]!, 0)) ** 2, 0);
+    if (!best || cost < best.cost) best = { coef, cost };
+  }
+  return best;
+}
+
+/**
  * Fit an MSD curve. `lag` in s (strictly increasing, > 0), `msd` in m².
+ *
+ * Starting points the data support (an active model has several minima and a
+ * boundary at D = 0, so one start is not enough):
+ *   - slopes: MSD ≈ a t + b t² over the first fifth of the lags gives
+ *     D ≈ a/2d and v² from b (the short-time active part is v²t², or (2/3)v²t²
+ *     in a focal plane); the last fifth's slope s₁ = 2dD + κ v²τ gives τ;
+ *   - a profile in τ: for fixed τ the model is linear in D, v² (and the
+ *     offset), solved with D, v² ≥ 0 on a log grid of τ spanning the lags;
+ *     the two best grid points start the full fit.
+ * Every start runs the bounded Levenberg–Marquardt (D ≥ 0, v ≥ 0); the lowest
+ * residual sum of squares wins, and the notes say how many starts agreed.
  * @returns diffusivity (m²/s), and for active models speed (m/s) and rotationTime (s); offset (m²) if asked
  */
 export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
@@ -118,43 +189,82 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
   const dimension = o.model === 'passive-3d' || o.model === 'active-3d' ? 3 : 2;
   const nPar = (active ? (o.radius !== undefined ? 2 : 3) : 1) + (o.offset ? 1 : 0);
   need(lag.length, nPar + 1, o.model);
-  // start: D from the first points' slope; v, τ from the curvature
   const n = lag.length;
-  const k0 = Math.max(2, Math.ceil(n / 5));
-  const slope0 = (msd[k0 - 1]! - msd[0]!) / (lag[k0 - 1]! - lag[0]!) || msd[n - 1]! / lag[n - 1]!;
-  const slope1 = (msd[n - 1]! - msd[n - 1 - Math.max(1, Math.floor(n / 5))]!) / (lag[n - 1]! - lag[n - 1 - Math.max(1, Math.floor(n / 5))]!);
   const notes: string[] = [];
   let tauFixed: number | undefined;
   if (o.radius !== undefined) {
     tauFixed = 1 / stokesEinsteinDebye(o.radius, o.temperature ?? 298.15);
     notes.push(`rotation time fixed at ${tauFixed.toPrecision(4)} s from Stokes–Einstein–Debye for a = ${o.radius} m`);
   }
-  let start: number[];
-  if (!active) start = [Math.max(slope0, 1e-30) / (2 * dimension), 0];
-  else {
-    const tau0 = tauFixed ?? Math.sqrt(lag[0]! * lag[n - 1]!);
-    const D0 = Math.max(Math.min(slope0, slope1) / (2 * dimension) / 2, 1e-30);
-    const activeCoef = o.model === 'active-2d' ? 2 : o.model === 'active-3d' ? 1 : 2 / 3;
-    const v2 = Math.max((slope1 - 2 * dimension * D0) / (activeCoef * tau0), (slope1 * 0.5) / tau0);
-    start = [D0, Math.sqrt(Math.max(v2, 1e-30)), tau0, 0];
-  }
+  const weights = o.sd ? o.sd.map((s) => 1 / (s * s)) : undefined;
+  const { whiten } = whitener(n, o.covariance ? undefined : weights, o.covariance);
+  const wy = whiten(msd);
   const model = (t: number, p: number[]) => (active ? 2 * dimension * p[0]! * t + activePart(o.model, t, p[1]!, p[2]!) + p[3]! : 2 * dimension * p[0]! * t + p[1]!);
   const offsetIndex = active ? 3 : 1;
   const fixed: number[] = [];
   if (!o.offset) fixed.push(offsetIndex);
   if (active && tauFixed !== undefined) fixed.push(2);
-  if (!o.offset) start[offsetIndex] = 0;
-  else start[offsetIndex] = Math.max(msd[0]! - slope0 * lag[0]!, Math.abs(msd[0]!) * 1e-3);
-  const r = leastSquares({
-    model,
-    x: lag,
-    y: msd,
-    ...(o.sd ? { weights: o.sd.map((s) => 1 / (s * s)) } : {}),
-    start,
-    fixed,
-    valid: (p) => p[0]! > 0 && (!active || p[2]! > 0),
-  });
-  if (active) r.parameters[1] = Math.abs(r.parameters[1]!);
+  const withOffset = (p: number[], c: number) => {
+    const q = [...p];
+    q[offsetIndex] = o.offset ? c : 0;
+    return q;
+  };
+  // slope estimates: quadratic a t + b t² (+ c) over the first fifth, a line over the last fifth
+  const k0 = Math.min(n, Math.max(o.offset ? 4 : 3, Math.ceil(n / 5)));
+  const head = smallNnls(
+    [lag.slice(0, k0), lag.slice(0, k0).map((t) => t * t), ...(o.offset ? [lag.slice(0, k0).map(() => 1)] : [])],
+    msd.slice(0, k0),
+    [true, true, false],
+  );
+  const k1 = Math.max(2, Math.ceil(n / 5));
+  const tail = smallNnls([lag.slice(n - k1), lag.slice(n - k1).map(() => 1)], msd.slice(n - k1), [true, false]);
+  const a0 = head?.coef[0] ?? msd[n - 1]! / lag[n - 1]!;
+  const b0 = head?.coef[1] ?? 0;
+  const c0 = o.offset ? (head?.coef[2] ?? 0) : 0;
+  const s1 = tail?.coef[0] ?? msd[n - 1]! / lag[n - 1]!;
+  const starts: number[][] = [];
+  const tiny = (x: number) => Math.max(x, 1e-300);
+  if (!active) starts.push(withOffset([tiny(Math.max(a0, s1) / (2 * dimension)), 0], c0));
+  else {
+    const kappa = longSlopeCoefficient(o.model);
+    const shortCoef = o.model === 'active-focal' ? 2 / 3 : 1;
+    const D0 = a0 / (2 * dimension);
+    const v20 = b0 / shortCoef;
+    const span = [lag[0]! / 4, 4 * lag[n - 1]!];
+    const tauSlope = v20 > 0 && s1 > a0 ? (s1 - a0) / (kappa * v20) : Math.sqrt(lag[0]! * lag[n - 1]!);
+    const tau0 = tauFixed ?? Math.min(span[1]!, Math.max(span[0]!, tauSlope));
+    starts.push(withOffset([tiny(D0), Math.sqrt(tiny(v20)), tau0, 0], c0));
+    // profile in τ (or just the fixed τ): D, v² (, c) by non-negative linear least squares on whitened columns
+    const grid = tauFixed !== undefined ? [tauFixed] : Array.from({ length: 25 }, (_, i) => span[0]! * Math.pow(span[1]! / span[0]!, i / 24));
+    const prof = grid
+      .map((tau) => {
+        const cols = [whiten(lag.map((t) => 2 * dimension * t)), whiten(lag.map((t) => activePart(o.model, t, 1, tau))), ...(o.offset ? [whiten(lag.map(() => 1))] : [])];
+        const r = smallNnls(cols, wy, [true, true, false]);
+        return r ? { tau, ...r } : null;
+      })
+      .filter((r): r is NonNullable<typeof r> => r !== null);
+    // local minima of the profile, best first
+    const minima = prof.filter((r, i) => (i === 0 || r.cost <= prof[i - 1]!.cost) && (i === prof.length - 1 || r.cost <= prof[i + 1]!.cost)).sort((a, b) => a.cost - b.cost);
+    for (const r of minima.slice(0, 2)) starts.push(withOffset([tiny(r.coef[0]!), Math.sqrt(tiny(r.coef[1]!)), r.tau, 0], r.coef[2] ?? 0));
+  }
+  const runs = starts.map((start) =>
+    leastSquares({
+      model,
+      x: lag,
+      y: msd,
+      ...(o.covariance ? { covariance: o.covariance, errorScale: 'known' as const } : weights ? { weights } : {}),
+      start,
+      fixed,
+      lower: active ? [0, 0] : [0],
+      valid: (p) => !active || p[2]! > 0,
+    }),
+  );
+  const best = runs.reduce((a, b) => (b.weightedRss < a.weightedRss ? b : a));
+  const r = best;
+  if (runs.length > 1) {
+    const agree = runs.filter((x) => Math.abs(x.weightedRss - best.weightedRss) <= 1e-6 * Math.max(best.weightedRss, 1e-300)).length;
+    notes.push(`best of ${runs.length} starts (slope estimates and a profile in the rotation time); ${agree} reached the same minimum.`);
+  }
   const names: [string, string][] = active
     ? [
         ['diffusivity', 'm^2/s'],
@@ -166,18 +276,23 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
         ['diffusivity', 'm^2/s'],
         ['offset', 'm^2'],
       ];
+  if (o.covariance) notes.push('generalised least squares with the covariance of the MSD between lags; standard errors from (Jᵀ C⁻¹ J)⁻¹ with C as given (not rescaled by the residuals).');
   const res = summarise('msd', o.model, r, names, lag, msd, (i) => model(lag[i]!, r.parameters), notes);
   if (!o.offset) delete res.parameters.offset;
   if (active) {
-    // Long-time (effective) diffusivity seen in the observed dimensions: D + v²τ/2 (2D), D + v²τ/3 (3D, and
-    // a 3D swimmer seen in a plane); its sd by the delta method with the fit covariance.
-    const [D, v, tau] = r.parameters as [number, number, number];
-    const c = o.model === 'active-2d' ? 1 / 2 : 1 / 3;
+    const tau = r.parameters[2]!;
+    if (tauFixed === undefined && (tau < lag[0]! || tau > lag[n - 1]!)) {
+      notes.push(`the rotation time (${tau.toPrecision(3)} s) lies outside the lags measured (${lag[0]} to ${lag[n - 1]} s): it and the speed are weakly determined.`);
+    }
+    // Long-time (effective) diffusivity seen in the observed dimensions (longSlopeCoefficient);
+    // its sd by the delta method with the covariance of the estimated parameters.
+    const [D, v] = r.parameters as [number, number, number];
+    const c = longSlopeCoefficient(o.model) / (2 * dimension);
     const grad = [1, 2 * c * v * tau, c * v * v]; // ∂/∂(D, v, τ)
     let varE = 0;
-    r.free.forEach((i, a) => r.free.forEach((j, b) => (i <= 2 && j <= 2 ? (varE += grad[i]! * grad[j]! * r.covariance[a]![b]!) : 0)));
-    res.parameters.effectiveDiffusivity = { value: D + c * v * v * tau, sd: Math.sqrt(Math.max(varE, 0)), unit: 'm^2/s' };
-    res.notes.push('effectiveDiffusivity is the long-time diffusivity of the active particle, the one a continuum model of an active species uses.');
+    r.estimated.forEach((i, a) => r.estimated.forEach((j, b) => (i <= 2 && j <= 2 ? (varE += grad[i]! * grad[j]! * r.covariance[a]![b]!) : 0)));
+    res.parameters.effectiveDiffusivity = { value: D + c * v * v * tau, sd: Number.isFinite(varE) ? Math.sqrt(Math.max(varE, 0)) : null, unit: 'm^2/s' };
+    res.notes.push(`effectiveDiffusivity = D + v²τ/${1 / c} is the long-time diffusivity of the active particle, the one a continuum model of an active species uses.`);
   }
   return res;
 }
@@ -220,7 +335,7 @@ export function fitKinetics(c: number[], rate: number[], o: KineticsOptions = {}
   if (o.particleDensity !== undefined) {
     if (!(o.particleDensity > 0)) throw new EngineInputError('particleDensity', 'must be positive');
     const v = res.parameters.maxRate!;
-    res.parameters.maxRatePerParticle = { value: v.value / o.particleDensity, sd: v.sd / o.particleDensity, unit: 'mol/s' };
+    res.parameters.maxRatePerParticle = { value: v.value / o.particleDensity, sd: v.sd === null ? null : v.sd / o.particleDensity, unit: 'mol/s' };
     res.notes.push('maxRatePerParticle = maxRate / particle density of the assay (the value to put on the shelf as a coupling maxRate)');
   }
   return res;
@@ -259,7 +374,10 @@ export function fitDrift(gradient: number[], velocity: number[], sd?: number[]):
     x: gradient,
     residuals,
     fitted,
+    weighting: sd ? 'weighted' : 'unweighted',
     converged: true,
-    notes: ['v = −μ ∂c/∂x: μ > 0 means the particles move down the gradient (repelled), μ < 0 up it (attracted) — model.md §1.'],
+    stop: 'converged',
+    iterations: 0,
+    notes: ['v = −μ ∂c/∂x: μ > 0 means the particles move down the gradient (repelled), μ < 0 up it (attracted) — docs/model.md §1.'],
   };
 }

@@ -1,5 +1,5 @@
 /**
- * Mobility from drift against gradient: v = −μ ∂c/∂x (model.md §1). Exact data
+ * Mobility from drift against gradient: v = −μ ∂c/∂x (docs/model.md §1). Exact data
  * give μ exactly; noisy data (seeded, known noise) give μ within the standard
  * error the fit reports; the ordinary least-squares slope through the origin is
  * Σ x y / Σ x² (any regression text).
@@ -28,8 +28,8 @@ describe('drift fit', () => {
       const f = fitDrift(g, v);
       const byHand = -g.reduce((a, x, i) => a + x * v[i]!, 0) / g.reduce((a, x) => a + x * x, 0);
       expect(f.parameters.mobility!.value).toBeCloseTo(byHand, 24);
-      if (Math.abs(f.parameters.mobility!.value - mu) < 2 * f.parameters.mobility!.sd) inside++;
-      expect(Math.abs(f.parameters.mobility!.value - mu)).toBeLessThan(6 * f.parameters.mobility!.sd);
+      if (Math.abs(f.parameters.mobility!.value - mu) < 2 * f.parameters.mobility!.sd!) inside++;
+      expect(Math.abs(f.parameters.mobility!.value - mu)).toBeLessThan(6 * f.parameters.mobility!.sd!);
     }
     // about 95 % should fall within 2 standard errors (t with 5 dof: ~90 %)
     expect(inside).toBeGreaterThan(38);

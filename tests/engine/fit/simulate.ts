@@ -70,3 +70,74 @@ function randomUnit(rng: Random): number[] {
   const n = Math.hypot(v[0]!, v[1]!, v[2]!);
   return v.map((c) => c / n);
 }
+
+export interface TrackSim {
+  dims: 2 | 3;
+  D: number;
+  v: number;
+  tau: number;
+  /** frame interval (s) */
+  dt: number;
+  /** Euler substeps per frame (default 1) */
+  substeps?: number;
+  frames: number;
+  tracks: number;
+  seed: number;
+}
+
+/**
+ * Seeded tracks sampled every `dt` (as a tracker exports them): per track the
+ * positions at frames 0 … frames−1, same Euler–Maruyama scheme as above. The
+ * MSD is then computed from these positions by the code under test.
+ */
+export function simulateTracks(s: TrackSim): { track: number; t: number; x: number[] }[][] {
+  const rng = new Random(s.seed);
+  const sub = s.substeps ?? 1;
+  const h = s.dt / sub;
+  const kt = Math.sqrt(2 * s.D * h);
+  const kr = Math.sqrt((2 * h) / s.tau);
+  const out: { track: number; t: number; x: number[] }[][] = [];
+  for (let j = 0; j < s.tracks; j++) {
+    const x = [0, 0, 0];
+    let theta = 2 * Math.PI * rng.uniform();
+    let u = s.dims === 3 ? randomUnit(rng) : [Math.cos(theta), Math.sin(theta), 0];
+    const rows: { track: number; t: number; x: number[] }[] = [];
+    for (let f = 0; f < s.frames; f++) {
+      if (f > 0)
+        for (let k = 0; k < sub; k++) {
+          for (let d = 0; d < s.dims; d++) x[d] = x[d]! + s.v * u[d]! * h + kt * rng.normal();
+          if (s.dims === 2) {
+            theta += kr * rng.normal();
+            u = [Math.cos(theta), Math.sin(theta), 0];
+          } else {
+            const xi = [rng.normal(), rng.normal(), rng.normal()];
+            const dot = xi[0]! * u[0]! + xi[1]! * u[1]! + xi[2]! * u[2]!;
+            const nu = u.map((c, i) => c + kr * (xi[i]! - dot * c));
+            const norm = Math.hypot(nu[0]!, nu[1]!, nu[2]!);
+            u = nu.map((c) => c / norm);
+          }
+        }
+      rows.push({ track: j + 1, t: f * s.dt, x: x.slice(0, s.dims) });
+    }
+    out.push(rows);
+  }
+  return out;
+}
+
+/** Tracks as the CSV a tracker exports: `track, t [s], x [um], y [um]` (and `z [um]` in 3D). */
+export function tracksCsv(tracks: { track: number; t: number; x: number[] }[][], dims: 2 | 3 = 2): string {
+  const head = dims === 3 ? 'track,t [s],x [um],y [um],z [um]' : 'track,t [s],x [um],y [um]';
+  const lines = tracks.flat().map((r) => [r.track, r.t.toPrecision(10), ...r.x.slice(0, dims).map((v) => (v * 1e6).toPrecision(10))].join(','));
+  return head + '\n' + lines.join('\n') + '\n';
+}
+
+/** Time-averaged MSD of one track at lags 1 … maxLag frames (all overlapping windows), for a two-column CSV. */
+export function timeAveragedMsd(rows: { x: number[] }[], maxLag: number): number[] {
+  const out: number[] = [];
+  for (let k = 1; k <= maxLag; k++) {
+    let s = 0;
+    for (let i = 0; i + k < rows.length; i++) for (let d = 0; d < rows[i]!.x.length; d++) s += (rows[i + k]!.x[d]! - rows[i]!.x[d]!) ** 2;
+    out.push(s / (rows.length - k));
+  }
+  return out;
+}
