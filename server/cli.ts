@@ -220,10 +220,16 @@ function cmdScreen(args: string[], io: Io): number {
     for (const c of out.candidates) {
       if (!c.feasible) lines.push(`${String(c.rank).padStart(2)}. ${c.species}: cannot (${c.reason}) — ${c.message}`);
       else {
-        const band = c.threshold!.median !== undefined ? ` [5–95 %: ${g(c.threshold!.p05 ?? Infinity)} – ${c.threshold!.p95 === null ? 'above cap' : g(c.threshold!.p95!)}]` : '';
+        const q = (v: number | null | undefined) => (v === null || v === undefined ? 'above cap' : g(v));
+        const t = c.threshold!;
+        const band = c.band
+          ? ` [median ${q(c.band.median)}, 5–95 %: ${q(c.band.p05)} – ${q(c.band.p95)}; crosses by the cap in ${(100 * c.band.feasibleFraction).toFixed(1)} %, already past in ${(100 * c.band.alreadyPast).toFixed(1)} % of ${c.band.samples} draws]`
+          : '';
         const at = c.atMargin ? `; at ${req.margin}× : ${c.atMargin.state}, growth ${c.atMargin.growthTime === null ? '—' : duration(c.atMargin.growthTime)}` : '';
-        lines.push(`${String(c.rank).padStart(2)}. ${c.species}: ${g(c.threshold!.density)} m^-3 (φ ${g(c.threshold!.volumeFraction)})${band}${c.window ? `, comes back above ${g(c.window.upTo)} m^-3` : ''}${at}`);
+        lines.push(`${String(c.rank).padStart(2)}. ${c.species}: ${t.anyDose ? 'any dose (0⁺)' : `${g(t.density)} m^-3 (φ ${g(t.volumeFraction)})`}${band}${c.window ? `, comes back above ${g(c.window.upTo)} m^-3` : ''}${at}`);
       }
+      if (c.dosePath.length > 0) lines.push(`    dose path: ${c.dosePath.map((iv) => `${iv.state} (${g(iv.from)}, ${g(iv.to)}]`).join(', ')}${c.firstOnset ? `; first onset ${c.firstOnset.state} at ${g(c.firstOnset.density)} m^-3` : ''}`);
+      for (const w of c.warnings) lines.push(`    warning ${w.code}: ${w.message}`);
     }
     io.out(lines.join('\n') + '\n');
   }

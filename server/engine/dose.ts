@@ -28,6 +28,13 @@ export type ClosedFormResult =
       crossesBelowBase: boolean;
       /** True when x* is provably the first stationary crossing (one sign of α μ throughout) */
       firstCrossing: boolean;
+      /**
+       * α_d μ_d of the dopant on the chemical (mol s⁻¹ × m⁵ mol⁻¹ s⁻¹ = m⁵ s⁻²): negative for a
+       * self-attracting dopant. With x* ≤ 0 and the base not past the boundary, a negative value
+       * means the base sits exactly on the boundary and every dose x > 0 crosses (threshold 0⁺);
+       * a positive one, that the dopant pushes the other way.
+       */
+      dopantActivityMobility: number;
     }
   | { applicable: false; reason: string };
 
@@ -78,5 +85,5 @@ export function stationaryDoseClosedForm(base: Mixture, d: Species): ClosedFormR
   const dose = (-(gamma + sum) * d.diffusivity) / (ad * md);
   if (ad * md > 0) pos = true;
   else neg = true;
-  return { applicable: true, dose, crossesBelowBase: dose <= 0, firstCrossing: !(pos && neg) };
+  return { applicable: true, dose, crossesBelowBase: dose <= 0, firstCrossing: !(pos && neg), dopantActivityMobility: ad * md };
 }

@@ -1,9 +1,10 @@
 /**
  * The dose planner (model.md §6, §7): for a base mixture and a candidate
  * dopant, the smallest dose that crosses a chosen boundary, with a reason when
- * there is none, the analysis at the threshold and above it, Monte Carlo
- * uncertainty, a state map and a fuel sweep. All numbers SI; doses are number
- * densities (m⁻³) of the dopant.
+ * there is none, the analysis at the threshold and above it, the dose path
+ * (the state over the whole dose range), Monte Carlo uncertainty, a state map
+ * and a fuel sweep. All numbers SI; doses are number densities (m⁻³) of the
+ * dopant.
  *
  * Boundaries (a predicate P(x) on the mixture with dose x):
  *   stationary  — some allowed mode has a growing real eigenvalue;
@@ -16,12 +17,18 @@
  *
  * Search: the closed form of dose.ts where it provably gives the first crossing
  * (stationary, add, one chemical, one sign of α μ, no saturation or crowding);
- * otherwise a logarithmic scan of (0, cap] then bisection of the first crossing
- * to a relative bracket of `relTol` (1e-6), and the first return after it (a
- * window) the same way.
+ * otherwise a logarithmic scan of (0, cap] (48 doses over 9 decades), refined
+ * between scan doses: wherever the sampled growth of the relevant branch has a
+ * local maximum (or, past the boundary, a local minimum) that the samples do
+ * not show crossing zero, a golden-section search in ln x over the two
+ * neighbouring intervals looks for a crossing the samples missed (a narrow
+ * window). Then bisection of the first crossing to a relative bracket of
+ * `relTol` (1e-6), and the first return after it (a window) the same way.
+ * A search that finds nothing says "not found below the cap by a search of N
+ * doses", never "too weak": only the closed form proves that.
  */
-import { analyze, type AnalysisResult } from './analyze.js';
-import { sphereVolume } from './checks.js';
+import { analyze, type AnalysisResult, type State } from './analyze.js';
+import { sphereVolume, type Warning } from './checks.js';
 import { stationaryDoseClosedForm } from './dose.js';
 import { buildModel, linearise } from './model.js';
 import { Random } from './random.js';
@@ -33,11 +40,13 @@ export type Dosing = 'add' | 'replace';
 
 export type ReasonCode =
   | 'base-already-past'
+  | 'no-room-under-cap'
   | 'no-coupling'
   | 'wrong-sign'
   | 'no-oscillation-possible'
   | 'crowding-wins'
   | 'too-weak-before-cap'
+  | 'not-found-below-cap'
   | 'nothing-to-replace';
 
 export interface DoseOptions {
@@ -60,17 +69,25 @@ export interface DoseSearch {
   feasible: boolean;
   reason: ReasonCode | null;
   message: string | null;
-  /** Threshold dose, m⁻³, and the dopant's volume fraction there; null when infeasible */
+  /** Threshold dose, m⁻³, and the dopant's volume fraction there; null when infeasible (0 when any dose crosses) */
   threshold: { density: number; volumeFraction: number } | null;
+  /**
+   * True when every dose above zero crosses (threshold 0⁺): e.g. a self-attracting dopant in an
+   * unbounded chamber without chemical loss, where λ(k → 0⁺) = −α μ x / D_c > 0 for every x > 0.
+   */
+  anyDose: boolean;
   /** Dose at which the mixture comes back to its old side of the boundary, if below the cap */
   window: { upTo: number } | null;
   method: 'closed-form' | 'search' | null;
   /** The dose cap used, m⁻³, and why */
   cap: { density: number; limitedBy: 'volume-fraction' | 'max-density' | 'replaced-everything' };
+  /** Doses at which the growth was evaluated by the search (scan, refinement, bisection); 0 for the closed form */
   evaluations: number;
 }
 
 const DEFAULT_MAX_PHI = 0.3;
+/** The search's floor, as a fraction of the cap: crossing at every dose down to cap × 1e-30 is read as "any dose". */
+const FLOOR = 1e-30;
 
 function baseVolumeFraction(base: Mixture): number {
   return base.species.reduce((acc, s) => acc + s.density * sphereVolume(s.radius), 0);
@@ -114,30 +131,53 @@ export function doseCap(base: Mixture, d: Species, o: DoseOptions): DoseSearch['
   return { density, limitedBy };
 }
 
-/** Growth of each branch (1/s) without the extras of analyze(): the predicates' only input. */
-export function growth(mix: Mixture): { any: number; real: number; complex: number } {
+/** Each branch's growth (1/s) and the state (model.md §5), from one mode scan. */
+interface Evaluation {
+  any: number;
+  real: number;
+  complex: number;
+  state: State;
+}
+
+function evaluate(mix: Mixture): Evaluation {
   const model = buildModel(mix);
   const scan = scanModes(model, mix.chamber.walls);
+  const t = model.timeUnit;
   return {
-    any: scan.overall.value / model.timeUnit,
-    real: scan.real ? scan.real.value / model.timeUnit : -Infinity,
-    complex: scan.complex ? scan.complex.value / model.timeUnit : -Infinity,
+    any: scan.overall.value / t,
+    real: scan.real ? scan.real.value / t : -Infinity,
+    complex: scan.complex ? scan.complex.value / t : -Infinity,
+    state: scan.overall.value > 0 ? (scan.overall.im > 0 ? 'oscillatory' : 'stationary') : 'stable',
   };
+}
+
+/** Growth of each branch (1/s) without the extras of analyze(): the predicates' only input. */
+export function growth(mix: Mixture): { any: number; real: number; complex: number } {
+  const { any, real, complex } = evaluate(mix);
+  return { any, real, complex };
+}
+
+function past(e: Evaluation, boundary: Boundary): boolean {
+  switch (boundary) {
+    case 'stationary':
+      return e.real > 0;
+    case 'oscillatory':
+      return e.complex > 0;
+    case 'any':
+      return e.any > 0;
+    case 'restore':
+      return !(e.any > 0);
+  }
+}
+
+/** The growth whose sign decides the boundary (restore: minus the overall growth). */
+function measure(e: Evaluation, boundary: Boundary): number {
+  return boundary === 'stationary' ? e.real : boundary === 'oscillatory' ? e.complex : boundary === 'any' ? e.any : -e.any;
 }
 
 /** Whether a mixture is past the boundary. */
 export function pastBoundary(mix: Mixture, boundary: Boundary): boolean {
-  const g = growth(mix);
-  switch (boundary) {
-    case 'stationary':
-      return g.real > 0;
-    case 'oscillatory':
-      return g.complex > 0;
-    case 'any':
-      return g.any > 0;
-    case 'restore':
-      return !(g.any > 0);
-  }
+  return past(evaluate(mix), boundary);
 }
 
 /** First x in (lo, hi] with pred true, given pred(lo) false and pred(hi) true; log bisection when lo > 0. */
@@ -148,6 +188,86 @@ function bisect(pred: (x: number) => boolean, lo: number, hi: number, relTol: nu
     else lo = mid;
   }
   return hi;
+}
+
+/** The scan doses: n points log-spaced over 9 decades below the cap (m⁻³). */
+export function scanDoses(cap: number, n = 48): number[] {
+  const xs: number[] = [];
+  for (let i = 0; i < n; i++) xs.push(cap * Math.pow(10, -9 + (9 * i) / (n - 1)));
+  return xs;
+}
+
+interface Sample {
+  x: number;
+  e: Evaluation;
+}
+
+const GOLDEN = (Math.sqrt(5) - 1) / 2;
+
+/**
+ * Golden-section search in ln x over [a, b] for the extremum of h (maximum when
+ * `sign` = 1, minimum when −1), stopping at the first dose whose evaluation
+ * satisfies `hit`. Returns that sample, or null when the extremum (to a
+ * relative bracket of `relTol`) does not satisfy it.
+ */
+function goldenHunt(at: (x: number) => Evaluation, h: (e: Evaluation) => number, sign: 1 | -1, a: number, b: number, hit: (e: Evaluation) => boolean, relTol: number): Sample | null {
+  let lo = Math.log(a);
+  let hi = Math.log(b);
+  const f = (u: number): Sample => ({ x: Math.exp(u), e: at(Math.exp(u)) });
+  let c = f(hi - GOLDEN * (hi - lo));
+  let d = f(lo + GOLDEN * (hi - lo));
+  for (let it = 0; it < 80; it++) {
+    if (hit(c.e)) return c;
+    if (hit(d.e)) return d;
+    if (hi - lo < relTol) break;
+    const hc = sign * h(c.e);
+    const hd = sign * h(d.e);
+    // −Infinity (the branch is absent) on both sides: no information, stop.
+    if (hc === -Infinity && hd === -Infinity) break;
+    if (hc >= hd) {
+      hi = Math.log(d.x);
+      d = c;
+      c = f(hi - GOLDEN * (hi - lo));
+    } else {
+      lo = Math.log(c.x);
+      c = d;
+      d = f(lo + GOLDEN * (hi - lo));
+    }
+  }
+  return null;
+}
+
+/**
+ * Look between scan doses for crossings the samples missed (model.md §6): for
+ * each sampled local maximum of h among samples not past (h ≤ 0 there), and
+ * each local minimum among samples past, a golden-section search over the two
+ * neighbouring intervals. Returns the samples with any new ones, in dose order.
+ * This finds a window that is one hump of h between two samples; it is not a
+ * proof that no narrower feature exists.
+ */
+function refine(samples: Sample[], h: (e: Evaluation) => number, isPast: (e: Evaluation) => boolean, at: (x: number) => Evaluation, relTol: number): Sample[] {
+  const found: Sample[] = [];
+  const n = samples.length;
+  for (let i = 0; i < n; i++) {
+    const s = samples[i]!;
+    const p = isPast(s.e);
+    const left = samples[i - 1];
+    const right = samples[i + 1];
+    if (!right) continue; // at the cap: the extremum is the cap itself
+    if ((left && isPast(left.e) !== p) || isPast(right.e) !== p) continue; // a crossing the samples already show
+    const v = h(s.e);
+    if (!Number.isFinite(v)) continue; // the branch is absent here
+    const sign: 1 | -1 = p ? -1 : 1;
+    const sv = sign * v;
+    const sl = left ? sign * h(left.e) : -Infinity;
+    const sr = sign * h(right.e);
+    if (!(sv >= sl && sv >= sr) || (sv === sl && sv === sr)) continue;
+    const hit = (e: Evaluation) => isPast(e) !== p;
+    const r = goldenHunt(at, h, sign, left ? left.x : s.x, right.x, hit, relTol);
+    if (r) found.push(r);
+  }
+  if (found.length === 0) return samples;
+  return [...samples, ...found].sort((a, b) => a.x - b.x);
 }
 
 function signs(d: Species, base: Mixture): { pos: boolean; neg: boolean; coupled: boolean } {
@@ -168,9 +288,12 @@ function signs(d: Species, base: Mixture): { pos: boolean; neg: boolean; coupled
   return { pos: pos || saturating, neg: neg || saturating, coupled };
 }
 
+const fmt = (x: number) => x.toPrecision(3);
+
 const MESSAGES: Record<ReasonCode, (b: Boundary) => string> = {
   'base-already-past': (b) =>
     b === 'restore' ? 'the base mixture is already stable: there is nothing to restore.' : `the base mixture is already past the ${b} boundary without any dopant.`,
+  'no-room-under-cap': () => 'the base alone already fills the volume-fraction cap: there is no room to add any dopant (raise maxVolumeFraction or dilute the base).',
   'no-coupling': () => 'this species neither makes, consumes nor responds to any chemical in the mixture: it cannot move the boundary.',
   'wrong-sign': (b) =>
     b === 'restore'
@@ -178,12 +301,13 @@ const MESSAGES: Record<ReasonCode, (b: Boundary) => string> = {
       : 'this species is self-repelling (activity × mobility > 0 on every chemical it couples to): adding it cannot start clustering.',
   'no-oscillation-possible': () => 'with one chemical and every species of one sign of activity × mobility all eigenvalues are real: no dose can make the mixture oscillate.',
   'crowding-wins': () => 'without crowding this dose would cross, but the crowding correction stabilises the mixture faster than the dopant destabilises it below the cap.',
-  'too-weak-before-cap': () => 'the effect has the right sign but is too weak: the boundary is not crossed below the dose cap.',
+  'too-weak-before-cap': () => 'the effect has the right sign but is too weak: the closed-form threshold lies above the dose cap.',
+  'not-found-below-cap': () => 'the boundary was not found below the cap by the dose search.',
   'nothing-to-replace': () => 'replace mode needs a base with a non-zero volume fraction.',
 };
 
-function infeasible(d: Species, cap: DoseSearch['cap'], reason: ReasonCode, o: DoseOptions, evaluations: number): DoseSearch {
-  return { species: d.id, feasible: false, reason, message: MESSAGES[reason](o.boundary), threshold: null, window: null, method: null, cap, evaluations };
+function infeasible(d: Species, cap: DoseSearch['cap'], reason: ReasonCode, o: DoseOptions, evaluations: number, message?: string): DoseSearch {
+  return { species: d.id, feasible: false, reason, message: message ?? MESSAGES[reason](o.boundary), threshold: null, anyDose: false, window: null, method: null, cap, evaluations };
 }
 
 /**
@@ -194,17 +318,19 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
   const relTol = o.relTol ?? 1e-6;
   const cap = doseCap(base, d, o);
   let evaluations = 0;
-  const pred = (x: number) => {
+  const at = (x: number) => {
     evaluations++;
-    return pastBoundary(withDose(base, d, x, o.dosing), o.boundary);
+    return evaluate(withDose(base, d, x, o.dosing));
   };
+  const pred = (x: number) => past(at(x), o.boundary);
   const V = sphereVolume(d.radius);
-  const ok = (x: number, method: DoseSearch['method'], window: DoseSearch['window']): DoseSearch => ({
+  const ok = (x: number, method: DoseSearch['method'], window: DoseSearch['window'], anyDose = false, message: string | null = null): DoseSearch => ({
     species: d.id,
     feasible: true,
     reason: null,
-    message: null,
+    message,
     threshold: { density: x, volumeFraction: x * V },
+    anyDose,
     window,
     method,
     cap,
@@ -213,14 +339,23 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
 
   if (o.dosing === 'replace' && baseVolumeFraction(base) === 0) return infeasible(d, cap, 'nothing-to-replace', o, evaluations);
   if (pred(0)) return infeasible(d, cap, 'base-already-past', o, evaluations);
+  if (!(cap.density > 0)) {
+    if (cap.limitedBy === 'volume-fraction') return infeasible(d, cap, 'no-room-under-cap', o, evaluations);
+    return infeasible(d, cap, 'not-found-below-cap', o, evaluations, 'the dose cap is zero: no dose can be searched.');
+  }
   const sg = signs(d, base);
   if (!sg.coupled) return infeasible(d, cap, 'no-coupling', o, evaluations);
 
   if (o.boundary === 'stationary' && o.dosing === 'add' && o.closedForm !== false) {
     const cf = stationaryDoseClosedForm(base, d);
     if (cf.applicable && cf.firstCrossing) {
-      // x* ≤ 0 with the base below the boundary means α_d μ_d > 0: the dopant pushes the other way.
-      if (cf.dose <= 0) return infeasible(d, cap, 'wrong-sign', o, evaluations);
+      if (cf.dose <= 0) {
+        // x* ≤ 0 with the base not past: either the dopant pushes the other way (α_d μ_d > 0), or
+        // the base sits exactly on the boundary (D_c k₁² + κ + Σ s_m/D_m = 0, e.g. an unbounded
+        // chamber without chemical loss) and a self-attracting dopant crosses at every x > 0.
+        if (cf.dopantActivityMobility < 0) return ok(0, 'closed-form', null, true, ANY_DOSE_CLOSED);
+        return infeasible(d, cap, 'wrong-sign', o, evaluations);
+      }
       if (cf.dose > cap.density) return infeasible(d, cap, 'too-weak-before-cap', o, evaluations);
       return ok(cf.dose, 'closed-form', null);
     }
@@ -241,21 +376,12 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
     }
   }
 
-  // Scan (0, cap] on a log grid, then bisect the first crossing and the first return.
+  // Scan (0, cap] on a log grid, look between the scan doses, then bisect the first crossing and the first return.
   const n = o.scanPoints ?? 48;
-  const xs: number[] = [];
-  for (let i = 0; i < n; i++) xs.push(cap.density * Math.pow(10, -9 + (9 * i) / (n - 1)));
-  let prevX = 0;
-  let crossed: number | null = null;
-  let k = 0;
-  for (; k < xs.length; k++) {
-    if (pred(xs[k]!)) {
-      crossed = bisect(pred, prevX, xs[k]!, relTol);
-      break;
-    }
-    prevX = xs[k]!;
-  }
-  if (crossed === null) {
+  const grid = scanDoses(cap.density, n).map((x) => ({ x, e: at(x) }));
+  const samples = refine(grid, (e) => measure(e, o.boundary), (e) => past(e, o.boundary), at, relTol);
+  const k = samples.findIndex((s) => past(s.e, o.boundary));
+  if (k < 0) {
     if ((o.boundary === 'stationary' || o.boundary === 'any') && !sg.neg) return infeasible(d, cap, 'wrong-sign', o, evaluations);
     if (o.boundary === 'restore' && !sg.pos) return infeasible(d, cap, 'wrong-sign', o, evaluations);
     if (base.crowding) {
@@ -263,19 +389,121 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
       evaluations += free.evaluations;
       if (free.feasible) return infeasible(d, cap, 'crowding-wins', o, evaluations);
     }
-    return infeasible(d, cap, 'too-weak-before-cap', o, evaluations);
+    return infeasible(d, cap, 'not-found-below-cap', o, evaluations, notFoundMessage(o.boundary, n, samples.length - n, grid[0]!.x, cap.density));
   }
+  let crossed: number;
+  if (k === 0) {
+    const floor = cap.density * FLOOR;
+    if (pred(floor)) return ok(0, 'search', null, true, anyDoseSearched(floor));
+    crossed = bisect(pred, floor, samples[0]!.x, relTol);
+  } else crossed = bisect(pred, samples[k - 1]!.x, samples[k]!.x, relTol);
   let window: DoseSearch['window'] = null;
-  let last = xs[k]!;
-  for (let j = k + 1; j < xs.length; j++) {
-    if (!pred(xs[j]!)) {
-      const back = bisect((x) => !pred(x), last, xs[j]!, relTol);
-      window = { upTo: back };
+  for (let j = k + 1; j < samples.length; j++) {
+    if (!past(samples[j]!.e, o.boundary)) {
+      window = { upTo: bisect((x) => !pred(x), samples[j - 1]!.x, samples[j]!.x, relTol) };
       break;
     }
-    last = xs[j]!;
   }
   return ok(crossed, 'search', window);
+}
+
+const ANY_DOSE_CLOSED =
+  'any dose crosses (threshold 0⁺): the base sits exactly on the stationary boundary (D_c k₁² + κ + Σ α μ ρ/D = 0, as in an unbounded chamber without chemical loss) and this species is self-attracting, so λ(k → 0⁺) = −α μ x / D_c > 0 for every dose x > 0.';
+
+function anyDoseSearched(floor: number): string {
+  return `any dose crosses (threshold 0⁺): the boundary is past at every scan dose and still at ${fmt(floor)} m⁻³ (10⁻³⁰ of the cap).`;
+}
+
+function notFoundMessage(b: Boundary, n: number, extra: number, lowest: number, cap: number): string {
+  const branch = b === 'stationary' ? 'real-eigenvalue' : b === 'oscillatory' ? 'complex-pair' : 'overall';
+  return (
+    `the ${b} boundary was not found below the cap (${fmt(cap)} m⁻³) by a search of ${n} doses log-spaced from ${fmt(lowest)} m⁻³` +
+    `${extra > 0 ? ` and ${extra} more` : ''}, with every local extremum of the ${branch} growth between them refined; ` +
+    'this does not prove that no narrower window exists.'
+  );
+}
+
+// ---------------------------------------------------------------- dose path
+
+/** One stretch of dose with one state: the state holds for doses in (from, to] (m⁻³). */
+export interface DoseInterval {
+  from: number;
+  to: number;
+  state: State;
+}
+
+export interface DosePath {
+  /** The intervals of (0, cap] with the state in each, in dose order; empty when the cap is 0 */
+  intervals: DoseInterval[];
+  /** The base's own state (dose 0) */
+  baseState: State;
+  /** For a stable base: the smallest dose at which any mode grows, and the state there; null otherwise or if none below the cap */
+  firstOnset: { density: number; state: State } | null;
+  /** How the path was searched: scan doses, extra doses from the refinement, the lowest scan dose and the floor (m⁻³) */
+  search: { doses: number; refined: number; lowest: number | null; floor: number | null; evaluations: number };
+}
+
+/**
+ * The state over the whole dose range (0, cap] (model.md §5, §6): the log scan
+ * of findDose, refined between scan doses on both branches (real and complex
+ * growth), and every change of state bisected to `relTol`. When the state at
+ * the lowest scan dose differs from the base's, the change is bisected down to
+ * cap × 1e-30; if the state there is still the new one, the path starts at 0⁺
+ * (any dose changes it). A change of which branch is fastest while both grow,
+ * hidden between two scan doses, is not searched for.
+ */
+export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
+  const relTol = o.relTol ?? 1e-6;
+  const cap = doseCap(base, d, o).density;
+  let evaluations = 0;
+  const at = (x: number) => {
+    evaluations++;
+    return evaluate(withDose(base, d, x, o.dosing));
+  };
+  const baseState = at(0).state;
+  const n = o.scanPoints ?? 48;
+  if (!(cap > 0)) return { intervals: [], baseState, firstOnset: null, search: { doses: 0, refined: 0, lowest: null, floor: null, evaluations } };
+  let samples = scanDoses(cap, n).map((x) => ({ x, e: at(x) }));
+  samples = refine(samples, (e) => e.real, (e) => e.real > 0, at, relTol);
+  samples = refine(samples, (e) => e.complex, (e) => e.complex > 0, at, relTol);
+  const stateAt = (x: number) => at(x).state;
+  const intervals: DoseInterval[] = [];
+  const push = (from: number, state: State) => {
+    const last = intervals[intervals.length - 1];
+    if (last && last.state === state) return;
+    if (last) last.to = from;
+    intervals.push({ from, to: cap, state });
+  };
+  const floor = cap * FLOOR;
+  const s0 = samples[0]!.e.state;
+  if (s0 !== baseState) {
+    const sf = stateAt(floor);
+    if (sf === s0) push(0, s0);
+    else {
+      push(0, sf);
+      resolve(floor, sf, samples[0]!.x, s0, 0);
+    }
+  } else push(0, s0);
+  function resolve(a: number, sa: State, b: number, sb: State, depth: number): void {
+    const c = bisect((y) => stateAt(y) !== sa, a, b, relTol);
+    const sc = c === b ? sb : stateAt(c);
+    push(c, sc);
+    if (sc !== sb && depth < 8 && c < b) resolve(c, sc, b, sb, depth + 1);
+    else if (sc !== sb) push(b, sb);
+  }
+  for (let i = 1; i < samples.length; i++) {
+    const a = samples[i - 1]!;
+    const b = samples[i]!;
+    const cur = intervals[intervals.length - 1]!.state;
+    if (b.e.state !== cur) resolve(a.x, cur, b.x, b.e.state, 0);
+  }
+  const onset = baseState === 'stable' ? intervals.find((iv) => iv.state !== 'stable') : undefined;
+  return {
+    intervals,
+    baseState,
+    firstOnset: onset ? { density: onset.from, state: onset.state } : null,
+    search: { doses: n, refined: samples.length - n, lowest: samples[0]!.x, floor, evaluations },
+  };
 }
 
 // ---------------------------------------------------------------- uncertainty
@@ -344,52 +572,71 @@ export interface UncertaintyOptions {
 export interface ThresholdBand {
   samples: number;
   seed: number;
-  /** Fraction of draws that cross below the cap */
+  /** Fraction of draws in which the base alone is already past the boundary (their threshold is dose 0) */
+  alreadyPast: number;
+  /** Fraction of draws that cross at or below the cap, the already-past ones (dose 0) included */
   feasibleFraction: number;
-  /** Median, 5 % and 95 % quantiles of the threshold dose (m⁻³); null when that quantile lies above the cap */
+  /**
+   * Median, 5 % and 95 % quantiles of the threshold dose (m⁻³) over every draw: a draw already
+   * past counts as 0, one that does not cross below the cap as +∞. A quantile above the cap is
+   * null, and `aboveCap` says so.
+   */
   median: number | null;
   p05: number | null;
   p95: number | null;
+  aboveCap: { median: boolean; p05: boolean; p95: boolean };
   /** P(crossed at dose) for each requested dose */
   probability: { density: number; probability: number }[];
 }
 
-function quantile(sorted: number[], q: number): number | null {
-  if (sorted.length === 0) return null;
+/** Linear interpolation between order statistics (the "type 7" sample quantile); +∞ propagates. */
+function quantile(sorted: number[], q: number): number {
+  if (sorted.length === 0) return Infinity;
   const pos = (sorted.length - 1) * q;
   const lo = Math.floor(pos);
   const hi = Math.ceil(pos);
-  const v = sorted[lo]! + (sorted[hi]! - sorted[lo]!) * (pos - lo);
-  return Number.isFinite(v) ? v : null;
+  if (lo === hi) return sorted[lo]!;
+  if (!Number.isFinite(sorted[hi]!)) return Infinity;
+  return sorted[lo]! + (sorted[hi]! - sorted[lo]!) * (pos - lo);
 }
 
 /**
- * Monte Carlo band of the threshold dose: each draw perturbs the base (the same
- * draw for every candidate, "common random numbers") and the dopant, and finds
- * its own threshold (bisection to 1e-4 relative, enough for a band).
- * Same seed, same numbers.
+ * Monte Carlo band of the threshold dose (model.md §7): each draw perturbs the
+ * base (the same draw for every candidate, "common random numbers") and the
+ * dopant, and finds its own threshold (bisection to 1e-4 relative, enough for a
+ * band). A draw whose base is already past the boundary has threshold 0; one
+ * that does not cross below the cap, +∞. Same seed, same numbers.
  */
 export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: UncertaintyOptions): ThresholdBand {
   const thresholds: number[] = [];
   const crossedAt = (u.doses ?? []).map(() => 0);
+  let already = 0;
   for (let i = 0; i < u.samples; i++) {
     const b = perturb(base, new Random(streamSeed(u.seed, i, '')));
     const dd = perturbSpecies(d, ...posSigned(new Random(streamSeed(u.seed, i, d.id))));
     const r = findDose(b, dd, { ...o, relTol: Math.max(o.relTol ?? 1e-6, 1e-4), scanPoints: Math.min(o.scanPoints ?? 48, 28) });
-    thresholds.push(r.feasible ? r.threshold!.density : Infinity);
+    if (r.reason === 'base-already-past') {
+      already++;
+      thresholds.push(0);
+    } else thresholds.push(r.feasible ? r.threshold!.density : Infinity);
     (u.doses ?? []).forEach((x, j) => {
       if (pastBoundary(withDose(b, dd, x, o.dosing), o.boundary)) crossedAt[j]!++;
     });
   }
   thresholds.sort((a, b) => a - b);
-  const feasible = thresholds.filter(Number.isFinite).length;
+  const crossed = thresholds.filter(Number.isFinite).length;
+  const q = (p: number) => quantile(thresholds, p);
+  const [median, p05, p95] = [q(0.5), q(0.05), q(0.95)];
+  const orNull = (v: number) => (Number.isFinite(v) ? v : null);
   return {
     samples: u.samples,
     seed: u.seed,
-    feasibleFraction: u.samples > 0 ? feasible / u.samples : 0,
-    median: quantile(thresholds, 0.5),
-    p05: quantile(thresholds, 0.05),
-    p95: quantile(thresholds, 0.95),
+    alreadyPast: u.samples > 0 ? already / u.samples : 0,
+    feasibleFraction: u.samples > 0 ? crossed / u.samples : 0,
+    median: orNull(median),
+    p05: orNull(p05),
+    p95: orNull(p95),
+    aboveCap: { median: !Number.isFinite(median), p05: !Number.isFinite(p05), p95: !Number.isFinite(p95) },
     probability: (u.doses ?? []).map((x, j) => ({ density: x, probability: u.samples > 0 ? crossedAt[j]! / u.samples : 0 })),
   };
 }
@@ -416,15 +663,24 @@ export interface CandidateResult extends DoseSearch {
   rank: number;
   /** Analysis at the threshold dose (the critical mode: wavelength, composition) */
   atThreshold: AnalysisResult | null;
-  /** Analysis at margin × threshold (growth time, period, warnings of the sample to make) */
+  /** Analysis at margin × threshold (growth time, period, warnings of the sample to make); null when any dose crosses */
   atMargin: AnalysisResult | null;
   band: ThresholdBand | null;
+  /** Smallest dose in (0, cap] at which any mode grows, and the state there (stable base only; else null) */
+  firstOnset: { density: number; state: State } | null;
+  /** The states over (0, cap]: [{ from, to, state }], boundaries bisected to relTol */
+  dosePath: DoseInterval[];
+  /** How the dose path was searched */
+  pathSearch: DosePath['search'];
+  /** What the reader must know about this candidate's answer (kebab-case codes) */
+  warnings: Warning[];
 }
 
 /**
  * Screen candidates: the dose search for each, the analyses at the threshold and
- * at the margin, the Monte Carlo band, ranked by the smallest (median) dose;
- * infeasible candidates after, with their reasons, never dropped.
+ * at the margin, the dose path and first onset, the Monte Carlo band, ranked by
+ * the smallest (median) dose; infeasible candidates after, with their reasons,
+ * never dropped.
  */
 export function screen(base: Mixture, candidates: Species[], o: ScreenOptions): CandidateResult[] {
   const margin = o.margin ?? 1.25;
@@ -436,18 +692,48 @@ export function screen(base: Mixture, candidates: Species[], o: ScreenOptions): 
   }
   const results = candidates.map((d): CandidateResult => {
     const r = findDose(base, d, o);
+    const path = dosePath(base, d, o);
+    const warnings: Warning[] = [];
     let atThreshold: AnalysisResult | null = null;
     let atMargin: AnalysisResult | null = null;
     if (r.feasible) {
       const x = r.threshold!.density;
       atThreshold = analyze(withDose(base, d, x, o.dosing));
-      const xm = Math.min(x * margin, r.window ? Math.sqrt(x * r.window.upTo) : Infinity, r.cap.density);
-      atMargin = analyze(withDose(base, d, xm, o.dosing));
+      if (r.anyDose) {
+        warnings.push({ code: 'any-dose', message: 'any dose above zero crosses the boundary (threshold 0⁺): there is no margin dose; choose the doses to make from the dose path.' });
+      } else {
+        const xm = Math.min(x * margin, r.window ? Math.sqrt(x * r.window.upTo) : Infinity, r.cap.density);
+        atMargin = analyze(withDose(base, d, xm, o.dosing));
+      }
+    }
+    const on = path.firstOnset;
+    const tol = 1 + 10 * (o.relTol ?? 1e-6);
+    if (on && o.boundary !== 'restore') {
+      if (r.feasible && r.threshold!.density > on.density * tol) {
+        warnings.push({
+          code: 'earlier-instability',
+          message: `the mixture already turns ${on.state} from ${fmt(on.density)} m⁻³, below this ${o.boundary} threshold of ${fmt(r.threshold!.density)} m⁻³.`,
+          onset: on.density,
+          state: on.state,
+        });
+      } else if (!r.feasible && r.reason !== 'base-already-past') {
+        warnings.push({
+          code: 'earlier-instability',
+          message: `no ${o.boundary} crossing below the cap, but the mixture turns ${on.state} from ${fmt(on.density)} m⁻³.`,
+          onset: on.density,
+          state: on.state,
+        });
+      }
     }
     const band = o.uncertainty && o.uncertainty.samples > 0 ? thresholdBand(base, d, o, o.uncertainty) : null;
-    return { ...r, rank: 0, atThreshold, atMargin, band };
+    if (band && band.alreadyPast > 0)
+      warnings.push({ code: 'already-past-in-draws', message: `in ${(100 * band.alreadyPast).toFixed(1)} % of the Monte Carlo draws the base alone is already past the boundary (threshold 0).` });
+    if (band && r.feasible && (band.aboveCap.median || band.aboveCap.p95))
+      warnings.push({ code: 'band-above-cap', message: `the ${band.aboveCap.median ? 'median' : '95 % point'} of the threshold lies above the dose cap: only ${(100 * band.feasibleFraction).toFixed(1)} % of the draws cross at or below it.` });
+    return { ...r, rank: 0, atThreshold, atMargin, band, firstOnset: path.firstOnset, dosePath: path.intervals, pathSearch: path.search, warnings };
   });
-  const key = (r: CandidateResult) => (r.feasible ? (r.band?.median ?? r.threshold!.density) : Infinity);
+  // by the median dose (zeros included) when there is a band, else the threshold; a median above the cap ranks last of the feasible
+  const key = (r: CandidateResult) => (!r.feasible ? Infinity : r.band ? (r.band.median ?? Infinity) : r.threshold!.density);
   const order = [...results].sort((a, b) => key(a) - key(b) || (a.feasible === b.feasible ? a.species.localeCompare(b.species) : a.feasible ? -1 : 1));
   order.forEach((r, i) => (r.rank = i + 1));
   return order;
@@ -458,13 +744,16 @@ export const DEFAULT_DOSE_FACTORS = [0, 0.5, 0.8, 1, 1.25, 1.6, 2];
 
 /**
  * The dose series that brackets a candidate's threshold and its uncertainty band:
- * factors × the reference dose (the Monte Carlo median, else the threshold), plus
- * the 5 % and 95 % doses when there is a band (and the factors are the default).
- * Sorted, duplicates removed (m⁻³).
+ * factors × the reference dose (the Monte Carlo median when it is above zero,
+ * else the threshold), plus the 5 % and 95 % doses when there is a band (and the
+ * factors are the default). Sorted, duplicates removed (m⁻³). Throws when any
+ * dose crosses (threshold 0⁺): there is nothing to scale.
  */
 export function doseSeries(c: Pick<CandidateResult, 'threshold' | 'band'>, factors?: number[]): { reference: number; doses: number[] } {
   if (!c.threshold) throw new EngineInputError('candidate', 'an infeasible candidate has no dose series');
-  const reference = c.band?.median ?? c.threshold.density;
+  const median = c.band?.median ?? null;
+  const reference = median !== null && median > 0 ? median : c.threshold.density;
+  if (!(reference > 0)) throw new EngineInputError('candidate', 'any dose crosses (threshold 0⁺): there is no reference dose to scale a series by; give the doses explicitly');
   const doses = (factors ?? DEFAULT_DOSE_FACTORS).map((f) => f * reference);
   if (!factors && c.band) {
     if (c.band.p05 !== null) doses.push(c.band.p05);

@@ -41,7 +41,16 @@ export function parseScreenRequest(doc: unknown): { req: ScreenRequest; base: Mi
   return { req: r.data, base: toEngineMixture(r.data.base), candidates: r.data.candidates.map((c) => ({ ...toEngineSpecies(c), density: 0 })) };
 }
 
-/** The `brink screen` output contract. */
+/**
+ * The `brink screen` output contract. Every candidate carries its dose path
+ * (`dosePath`: [{ from, to, state }] over (0, cap]), `firstOnset` ({ density,
+ * state } or null) and `warnings`; with `uncertainty`, `band` (the whole Monte
+ * Carlo band, also for infeasible candidates) and, for feasible ones, the band's
+ * numbers beside the threshold: `alreadyPast` (fraction of draws whose base is
+ * already past: threshold 0), `feasibleFraction` (crossed at or below the cap,
+ * zeros included), `median`/`p05`/`p95` over every draw (null above the cap,
+ * with `aboveCap` saying which).
+ */
 export function screenOutput(results: CandidateResult[]) {
   return {
     candidates: results.map((c) => ({
@@ -51,11 +60,22 @@ export function screenOutput(results: CandidateResult[]) {
       reason: c.reason,
       message: c.message,
       threshold: c.threshold
-        ? { density: c.threshold.density, volumeFraction: c.threshold.volumeFraction, ...(c.band ? { median: c.band.median, p05: c.band.p05, p95: c.band.p95, feasibleFraction: c.band.feasibleFraction } : {}) }
+        ? {
+            density: c.threshold.density,
+            volumeFraction: c.threshold.volumeFraction,
+            anyDose: c.anyDose,
+            ...(c.band
+              ? { median: c.band.median, p05: c.band.p05, p95: c.band.p95, aboveCap: c.band.aboveCap, feasibleFraction: c.band.feasibleFraction, alreadyPast: c.band.alreadyPast }
+              : {}),
+          }
         : null,
       window: c.window,
       method: c.method,
       cap: c.cap,
+      firstOnset: c.firstOnset,
+      dosePath: c.dosePath,
+      warnings: c.warnings,
+      band: c.band,
       atThreshold: c.atThreshold,
       atMargin: c.atMargin,
     })),

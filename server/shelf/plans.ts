@@ -4,6 +4,7 @@
  * numbers can be read back unchanged after the shelf moves on.
  */
 import { z } from 'zod';
+import type { Warning } from '../engine/checks.js';
 import { doseSeries, screen, stateMap, fuelSweep, type CandidateResult, type ScreenOptions } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
 import { issueList, quantity } from '../schema/mixture.js';
@@ -11,7 +12,7 @@ import { keySchema } from '../schema/shelf.js';
 import type { PlansRepository } from '../store/plans.js';
 import { DIMENSIONS } from '../units/index.js';
 import { VERSION } from '../version.js';
-import { DomainError, InputError } from './errors.js';
+import { InputError } from './errors.js';
 import { shelfSampleSchema, type ShelfService } from './service.js';
 
 const dose = (desc: string) => quantity(DIMENSIONS.numberDensity, 'positive', desc);
@@ -56,8 +57,30 @@ export type PlanRequest = z.output<typeof planRequestSchema>;
 /** The request as sent (before units were read), stored for reruns. */
 export type PlanRequestInput = z.input<typeof planRequestSchema>;
 
+/**
+ * The most dose searches one plan may run: candidates × (1 + Monte Carlo draws).
+ * At about 25–60 ms a search (a dose scan, its refinement and the dose path) this keeps
+ * one request to minutes; a larger one is refused with the count, never truncated.
+ */
+export const PLAN_SEARCH_LIMIT = 20_000;
+
+/** Refuse a plan whose work would exceed PLAN_SEARCH_LIMIT, naming the count and the limit. */
+export function checkPlanWork(candidates: number, samples: number, allOfShelf: boolean): void {
+  const searches = candidates * (1 + samples);
+  if (searches <= PLAN_SEARCH_LIMIT) return;
+  const what = allOfShelf ? `"all" is ${candidates} species on the shelf` : `${candidates} candidates`;
+  throw new InputError([
+    {
+      path: samples > 0 ? 'uncertainty.samples' : 'candidates',
+      message: `this plan would run ${searches} dose searches (${what} × (1 + ${samples} Monte Carlo draws)); the limit is ${PLAN_SEARCH_LIMIT}: name fewer candidates or use fewer draws`,
+    },
+  ]);
+}
+
 export interface PlanResult {
   candidates: CandidateResult[];
+  /** What happened other than what was asked (e.g. a state map that could not be drawn) */
+  warnings: Warning[];
   /** the state map of one candidate, with the bench sheet's default dose series at base factor 1 */
   stateMap: (ReturnType<typeof stateMap> & { candidate: string; doseSeries: number[] }) | null;
   fuelSweep: ReturnType<typeof fuelSweep> | null;
@@ -76,17 +99,23 @@ export function runPlan(base: Mixture, candidates: Species[], req: PlanRequest):
     ...(req.uncertainty ? { uncertainty: { ...req.uncertainty, doses: (req.probabilityAt ?? []).map((q) => q.value) } } : {}),
   };
   const ranked = screen(base, candidates, o);
+  const warnings: Warning[] = [];
   let map: PlanResult['stateMap'] = null;
-  if (req.stateMap) {
-    const m = req.stateMap;
-    const chosen = m.candidate ?? ranked.find((c) => c.feasible)?.species;
-    if (chosen === undefined) throw new DomainError('no-feasible-candidate', 'no candidate crosses the boundary, so there is no state map to draw; name one with stateMap.candidate');
-    const d = candidates.find((c) => c.id === chosen);
-    if (!d) throw new InputError([{ path: 'stateMap.candidate', message: `"${chosen}" is not one of the candidates` }]);
-    const cr = ranked.find((c) => c.species === chosen)!;
+  const m = req.stateMap;
+  const chosen = m ? (m.candidate ?? ranked.find((c) => c.feasible)?.species) : undefined;
+  if (m && m.candidate !== undefined && !candidates.some((c) => c.id === m.candidate))
+    throw new InputError([{ path: 'stateMap.candidate', message: `"${m.candidate}" is not one of the candidates` }]);
+  const cr = chosen !== undefined ? ranked.find((c) => c.species === chosen)! : undefined;
+  if (m && !cr) {
+    warnings.push({ code: 'no-state-map', message: 'a state map was asked for, but no candidate crosses the boundary below its cap: the plan is stored without a map (name one with stateMap.candidate to draw it anyway).' });
+  } else if (m && cr && !(cr.cap.density > 0)) {
+    warnings.push({ code: 'no-state-map', message: `a state map was asked for, but "${cr.species}" has no dose range to draw (its dose cap is 0): the plan is stored without a map.`, candidate: cr.species });
+  } else if (m && cr) {
+    const d = candidates.find((c) => c.id === cr.species)!;
+    const x = cr.feasible ? cr.threshold!.density : 0;
     map = {
-      candidate: chosen,
-      doseSeries: cr.feasible ? doseSeries(cr).doses : [],
+      candidate: cr.species,
+      doseSeries: cr.feasible && x > 0 ? doseSeries(cr).doses : [],
       ...stateMap(base, d, {
         ...o,
         ...(m.baseSpecies !== undefined ? { baseSpecies: m.baseSpecies } : {}),
@@ -94,8 +123,8 @@ export function runPlan(base: Mixture, candidates: Species[], req: PlanRequest):
         // default dose range: a factor of 20 either side of the threshold (under the cap), so the boundary shows
         ...(m.doseRange
           ? { doseRange: [m.doseRange[0].value, m.doseRange[1].value] as [number, number] }
-          : cr.feasible
-            ? { doseRange: [cr.threshold!.density / 20, Math.min(cr.threshold!.density * 20, cr.cap.density)] as [number, number] }
+          : x > 0
+            ? { doseRange: [x / 20, Math.min(x * 20, cr.cap.density)] as [number, number] }
             : {}),
         ...(m.baseSteps ? { baseSteps: m.baseSteps } : {}),
         ...(m.doseSteps ? { doseSteps: m.doseSteps } : {}),
@@ -107,7 +136,7 @@ export function runPlan(base: Mixture, candidates: Species[], req: PlanRequest):
     const f = req.fuelSweep;
     sweep = fuelSweep(base, candidates, { ...o, chemical: f.chemical, range: [f.range[0].value, f.range[1].value], ...(f.steps ? { steps: f.steps } : {}), ...(f.scale ? { scale: f.scale } : {}) });
   }
-  return { candidates: ranked, stateMap: map, fuelSweep: sweep, engineVersion: VERSION, computedAt: new Date().toISOString() };
+  return { candidates: ranked, warnings, stateMap: map, fuelSweep: sweep, engineVersion: VERSION, computedAt: new Date().toISOString() };
 }
 
 export function planService(shelf: ShelfService, plans: PlansRepository) {
@@ -117,12 +146,16 @@ export function planService(shelf: ShelfService, plans: PlansRepository) {
     const req = parsed.data;
     let ids: string[];
     if (req.candidates === 'all') {
+      // every active species not in the base, page by page: never a silent cut
       const inBase = new Set(req.base.map((b) => b.id));
-      ids = shelf.repo
-        .list('species', { includeRetired: false, limit: 500, offset: 0 })
-        .items.map((r) => r.id)
-        .filter((id) => !inBase.has(id));
+      ids = [];
+      for (let offset = 0; ; offset += 500) {
+        const page = shelf.repo.list('species', { includeRetired: false, limit: 500, offset });
+        ids.push(...page.items.map((r) => r.id).filter((id) => !inBase.has(id)));
+        if (page.items.length < 500 || offset + 500 >= page.total) break;
+      }
     } else ids = req.candidates;
+    checkPlanWork(ids.length, req.uncertainty?.samples ?? 0, req.candidates === 'all');
     const built = shelf.buildMixture({ species: req.base, chemicals: req.chemicals, chamber: req.chamber, crowding: req.crowding, conditions: req.conditions }, ids);
     const result = runPlan(built.mixture, built.candidates, req);
     const revisions = [
