@@ -1,5 +1,5 @@
 /**
- * The linearised model of model.md §3, non-dimensionalised.
+ * The linearised model of docs/model.md §3, non-dimensionalised.
  *
  * SI inputs span some forty decades (activities ~1e-20 mol/s, densities
  * ~1e17 m⁻³), so before any linear algebra everything is rewritten in units of
@@ -13,8 +13,10 @@
  * R'_ss' = τ R_ss' c*_s'/c*_s, and
  *
  *     R_ss' = ∂/∂c_s' [ κ_s c_s − Σ_m α_ms(c) ρ_m ]  at c⁰:
- *     diag(κ) plus, for each saturating turnover of fuel f into product p,
- *     w = ρ_m V_m K_m/(K_m + c_f)² added to R_ff and subtracted from R_pf.
+ *     diag(κ) plus, for each saturating turnover of fuel f into product p with
+ *     yield y (product per fuel, default 1), w = ρ_m V_m K_m/(K_m + c_f)² added
+ *     to R_ff and y·w subtracted from R_pf; at the uniform state the product's
+ *     activity is y × the fuel turnover V c_f/(K_m + c_f).
  *
  * Eigenvalues scale back as λ = λ'/τ and wavenumbers as k = k'/ℓ; eigenvectors
  * (density perturbations δρ) are unchanged.
@@ -94,6 +96,10 @@ export function validateMixture(mix: Mixture): void {
           if (!chemIndex.has(a.product)) throw new EngineInputError(`${p}.activity.product`, `unknown chemical "${a.product}"`);
           if (a.product === c.chemical) throw new EngineInputError(`${p}.activity.product`, 'the product must differ from the fuel');
         }
+        if (a.productYield !== undefined) {
+          if (!(a.productYield > 0) || !Number.isFinite(a.productYield)) throw new EngineInputError(`${p}.activity.productYield`, 'must be a finite positive number');
+          if (a.product === null) throw new EngineInputError(`${p}.activity.productYield`, 'a yield needs a product');
+        }
       }
     });
   });
@@ -139,8 +145,9 @@ export function linearise(mix: Mixture): { alpha: Float64Array; mu: Float64Array
         reaction[s * S + s]! += w;
         if (a.product !== null) {
           const p = idx.get(a.product)!;
-          alpha[m * S + p]! += rate;
-          reaction[p * S + s]! -= w;
+          const y = a.productYield ?? 1;
+          alpha[m * S + p]! += y * rate;
+          reaction[p * S + s]! -= y * w;
         }
       }
     }
@@ -313,7 +320,7 @@ export function chemicalResponse(model: ScaledModel, k: number): Float64Array | 
 }
 
 /**
- * The scaled Jacobian J'(k') (M×M, row-major) of model.md §3:
+ * The scaled Jacobian J'(k') (M×M, row-major) of docs/model.md §3:
  * J' = −k'² 𝔇' − P' [k'² G'(k') Q'ᵀ].
  * @throws EngineDomainError when k'² D'_c + R' is singular (no quasi-static chemical state)
  */

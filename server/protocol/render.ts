@@ -110,6 +110,7 @@ ${sh.samples.map((s) => stepsTable([...s.steps, { what: 'mix gently and start th
 <tr><td>frame interval</td><td class="num">${e(amt(sh.imaging.frameInterval))}</td></tr>
 <tr><td>duration</td><td class="num">${e(amt(sh.imaging.duration))}</td></tr>
 <tr><td>fuel lasts about</td><td class="num">${e(amt(sh.imaging.fuelLife))}</td></tr>
+<tr><td>gas passes its solubility after</td><td class="num">${sh.imaging.gasSaturation ? `${e(sh.imaging.gasSaturation.chemical)}: ${e(amt(sh.imaging.gasSaturation.time))}` : e(amt(null))}</td></tr>
 <tr><td>expected wavelength · chamber length</td><td class="num">${e(amt(sh.imaging.wavelength))} · ${e(amt(sh.imaging.chamberLength))}</td></tr>
 <tr><td>suggested field of view</td><td class="num">${e(amt(sh.imaging.fieldOfView))}</td></tr>
 </tbody></table>
@@ -155,6 +156,7 @@ export function renderMarkdown(sh: Sheet): string {
     ['frame interval', m(amt(sh.imaging.frameInterval))],
     ['duration', m(amt(sh.imaging.duration))],
     ['fuel lasts about', m(amt(sh.imaging.fuelLife))],
+    ['gas passes its solubility after', sh.imaging.gasSaturation ? `${m(sh.imaging.gasSaturation.chemical)}: ${m(amt(sh.imaging.gasSaturation.time))}` : m(amt(null))],
     ['expected wavelength · chamber', `${m(amt(sh.imaging.wavelength))} · ${m(amt(sh.imaging.chamberLength))}`],
     ['suggested field of view', m(amt(sh.imaging.fieldOfView))],
   ]), '', ...sh.imaging.notes.map((n) => `- ${m(n)}`), '');

@@ -12,7 +12,7 @@ import type { AnalysisResult } from '../engine/analyze.js';
 import { WATER_DENSITY_25C } from '../engine/constants.js';
 import { doseSeries, withDose, type CandidateResult } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
-import { quantity } from '../schema/mixture.js';
+import { idRecord, ownEntry, quantity } from '../schema/mixture.js';
 import { numberDensity, type ChemicalRecord, type SpeciesRecord } from '../schema/shelf.js';
 import { DomainError, InputError } from '../shelf/errors.js';
 import { DIMENSIONS } from '../units/index.js';
@@ -41,7 +41,7 @@ export const sheetRequestSchema = z.strictObject({
   minVolume: quantity({ length: 3 }, 'positive', 'smallest volume to pipette (default 1 µL)').optional(),
   overage: z.number().min(0).max(1).default(0.1),
   buffer: z.string().min(1).max(100).default('buffer'),
-  stocks: z.record(z.string(), stockSchema).optional(),
+  stocks: idRecord(z.string(), stockSchema).optional(),
   operator: z.string().max(200).optional(),
 });
 export type SheetRequest = z.output<typeof sheetRequestSchema>;
@@ -81,7 +81,17 @@ export interface Sheet {
   dilutions: { name: string; concentration: Amount; volume: Amount; steps: { what: string; from: string; volume: Amount }[] }[];
   masterMix: { tubes: number; perTube: Amount; total: Amount; steps: { what: string; from: string; volume: Amount }[] } | null;
   samples: { name: string; role: 'series' | 'control'; dose: Amount | null; doseFactor: number | null; tubes: number; steps: { what: string; from: string; volume: Amount }[] }[];
-  imaging: { frameInterval: Amount; duration: Amount; fuelLife: Amount | null; wavelength: Amount | null; chamberLength: Amount | null; fieldOfView: Amount | null; notes: string[] };
+  imaging: {
+    frameInterval: Amount;
+    duration: Amount;
+    fuelLife: Amount | null;
+    /** earliest time a produced gas passes its solubility at the margin dose (each turnover's productYield counted), or null */
+    gasSaturation: { chemical: string; productionRate: Amount; solubility: Amount; time: Amount } | null;
+    wavelength: Amount | null;
+    chamberLength: Amount | null;
+    fieldOfView: Amount | null;
+    notes: string[];
+  };
   warnings: { code: string; message: string }[];
   hazards: HazardEntry[];
   safety: string[];
@@ -200,7 +210,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   for (const id of spIds) {
     const rec = ctx.speciesRecord(id);
     if (!rec) throw new DomainError('missing-revision', `species "${id}" of the plan is not on the shelf`);
-    const st = speciesStock(rec, req.stocks?.[id]);
+    const st = speciesStock(rec, ownEntry(req.stocks, id));
     if (!st) throw new InputError([{ path: `stocks.${id}`, message: `no usable stock for "${id}" on the shelf: give one (e.g. { "massConcentration": "10 mg/mL" })` }]);
     components.push({ id, label: rec.name, stock: st.density, stockText: st.text, per: 'particles' });
     stocks.push({ id, name: rec.name, kind: 'species', concentration: perMl(st.density), described: st.text, source: st.source });
@@ -212,7 +222,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     if (!(ch.concentration > 0)) continue;
     const rec = ctx.chemicalRecord(ch.id);
     if (!rec) continue;
-    const st = chemicalStock(rec, req.stocks?.[ch.id]);
+    const st = chemicalStock(rec, ownEntry(req.stocks, ch.id));
     if (!st) {
       warnings.push({ code: 'no-stock', message: `${rec.name}: no stock on the shelf, so it is not pipetted (taken as already present at ${mM(ch.concentration).value} mM, e.g. dissolved from air).` });
       continue;
@@ -224,20 +234,22 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   }
 
   // Samples: the series and the controls.
-  const fuelConc = Object.fromEntries(base.chemicals.filter((c) => fuelIds.includes(c.id)).map((c) => [c.id, c.concentration]));
+  // Target concentrations keyed by id: Maps, so that an id such as "constructor" is an ordinary key.
+  const fuelConc = new Map(base.chemicals.filter((c) => fuelIds.includes(c.id)).map((c) => [c.id, c.concentration] as const));
   // base and dopant densities at dose x, exactly as the planner doses (add, or replace at fixed φ)
   const dosing = plan.request.dosing === 'replace' ? 'replace' : 'add';
-  const dosed = (x: number) => Object.fromEntries(withDose(base, dopant, x, dosing).species.map((sp) => [sp.id, sp.density]));
+  const dosed = (x: number) => new Map(withDose(base, dopant, x, dosing).species.map((sp) => [sp.id, sp.density] as const));
+  const withFuel = (m: Map<string, number>) => new Map([...m, ...fuelConc]);
   const replace = dosing === 'replace';
   const specs: SampleSpec[] = series.map((x) => ({
     name: x === 0 ? 'dose 0 (control: no dopant)' : `dose ${(x / ref).toPrecision(3)} ×`,
     role: x === 0 ? 'control' : 'series',
     dose: x,
-    conc: { ...dosed(x), ...fuelConc },
+    conc: withFuel(dosed(x)),
     usesMasterMix: !replace,
   }));
   specs.push({ name: 'control: no fuel (dopant at 1 ×)', role: 'control', dose: ref, conc: dosed(ref), usesMasterMix: !replace });
-  specs.push({ name: 'control: dopant alone (1 ×, with fuel)', role: 'control', dose: ref, conc: { [dopant.id]: ref, ...fuelConc }, usesMasterMix: false });
+  specs.push({ name: 'control: dopant alone (1 ×, with fuel)', role: 'control', dose: ref, conc: withFuel(new Map([[dopant.id, ref]])), usesMasterMix: false });
 
   const pip = planPipetting(components, specs, o, base.species.map((x) => x.id), dopant.id, fuelIds);
   const tr = (t: { what: string; from: string; volume: number }) => ({ what: t.what, from: t.from, volume: ul(t.volume) });
@@ -259,6 +271,15 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
       duration = fuelLife;
     }
   }
+  // Gas: the margin analysis' own gas check (engine/checks.ts), whose production counts each turnover's yield.
+  const firstGas = m && m.checks.gas.length > 0 ? m.checks.gas.reduce((a, b) => (b.timeToSaturation < a.timeToSaturation ? b : a)) : null;
+  if (firstGas) {
+    const name = ctx.chemicalRecord(firstGas.chemical)?.name ?? firstGas.chemical;
+    notes.push(`${name} is made at ${mM(firstGas.productionRate).value} mM/s (stoichiometric yields counted) at the ${cand.atMargin === cand.atThreshold ? 'threshold' : 'margin'} dose and passes its solubility (${mM(firstGas.solubility).value} mM) after about ${s(firstGas.timeToSaturation).value} s`);
+    if (firstGas.timeToSaturation < duration && !m!.warnings.some((w) => w.code === 'gas-exceeds-solubility' && w.chemical === firstGas.chemical)) {
+      warnings.push({ code: 'gas-during-imaging', message: `${name} passes its solubility after about ${s(firstGas.timeToSaturation).value} s, within the ${s(duration).value} s of imaging: bubbles may form; vent the chamber or image for less time.` });
+    }
+  }
   const lambda = m?.fastestMode.wavelength ?? null;
   const L = base.chamber.length;
   let fov: number | null = null;
@@ -275,10 +296,11 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     const set = ctx.hazards(id);
     const M = rec.molarMass?.si ?? null;
     const wStock = stockFractions.get(id) ?? null;
-    const wWork = M ? (fuelConc[id]! * M) / WATER_DENSITY_25C : null;
+    const cWork = fuelConc.get(id)!;
+    const wWork = M ? (cWork * M) / WATER_DENSITY_25C : null;
     const asHandled: HazardEntry['asHandled'] = [];
     if (wStock !== null) asHandled.push({ where: `stock bottle (${(wStock * 100).toPrecision(3)} % w/w)`, massFraction: wStock, classification: classify(set, wStock) });
-    if (wWork !== null) asHandled.push({ where: `working solution in the sample (${(wWork * 100).toPrecision(3)} % w/w, ${mM(fuelConc[id]!).value} mM)`, massFraction: wWork, classification: classify(set, wWork) });
+    if (wWork !== null) asHandled.push({ where: `working solution in the sample (${(wWork * 100).toPrecision(3)} % w/w, ${mM(cWork).value} mM)`, massFraction: wWork, classification: classify(set, wWork) });
     hazards.push({
       chemical: id,
       name: rec.name,
@@ -341,6 +363,9 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
       frameInterval: s(frame),
       duration: s(duration),
       fuelLife: fuelLife !== null ? s(fuelLife) : null,
+      gasSaturation: firstGas
+        ? { chemical: firstGas.chemical, productionRate: { ...mM(firstGas.productionRate), unit: 'mM/s' }, solubility: mM(firstGas.solubility), time: s(firstGas.timeToSaturation) }
+        : null,
       wavelength: lambda !== null ? mm(lambda) : null,
       chamberLength: L !== null ? mm(L) : null,
       fieldOfView: fov !== null ? mm(fov) : null,

@@ -1,5 +1,5 @@
 /**
- * The mixture file (model.md §9): a zod schema that validates the JSON, reads
+ * The mixture file (docs/model.md §9): a zod schema that validates the JSON, reads
  * every physical value through `server/units/` into SI, and converts the
  * result to the engine's `Mixture`. Errors carry field paths such as
  * `species[2].diffusivity`.
@@ -11,7 +11,8 @@
 import { z } from 'zod';
 import { DEFAULT_TEMPERATURE, WATER_DENSITY_25C } from '../engine/constants.js';
 import { sphereVolume } from '../engine/checks.js';
-import type { Activity, Chemical, Coupling, Mixture, Species } from '../engine/types.js';
+import { waterDensity } from '../engine/transport.js';
+import { EngineInputError, type Activity, type Chemical, type Coupling, type Mixture, type Species } from '../engine/types.js';
 import { DIMENSIONS, formatDimension, parseQuantity, UnitError, type Dimension, type Quantity, type Sign } from '../units/index.js';
 
 const scalarInput = z.union([z.number(), z.string()]);
@@ -50,6 +51,12 @@ const saturatingSchema = z.strictObject({
   maxRate: quantity(DIMENSIONS.amountRate, 'nonnegative', 'per-particle maximal turnover V'),
   michaelis: quantity(DIMENSIONS.concentration, 'positive', 'Michaelis constant K_m'),
   product: id.nullable().optional(),
+  productYield: z
+    .number()
+    .gt(0)
+    .max(1000)
+    .optional()
+    .describe('stoichiometric yield: product made per fuel turned over (default 1; e.g. 0.5 for catalase, 2 H2O2 → 2 H2O + O2); needs a product'),
 });
 
 const couplingSchema = z
@@ -79,7 +86,8 @@ export const chamberSchema = z.strictObject({
 
 export const conditionsSchema = z.strictObject({
   temperature: quantity(DIMENSIONS.temperature, 'positive', 'temperature (default 25 °C)').optional(),
-  solventDensity: quantity(DIMENSIONS.massDensity, 'positive', 'solvent mass density (default water, 997.05 kg/m^3)').optional(),
+  solventDensity: quantity(DIMENSIONS.massDensity, 'positive', 'solvent mass density (default water at the temperature, 997.05 kg/m^3 at 25 °C)').optional(),
+  solventViscosity: quantity(DIMENSIONS.viscosity, 'positive', 'solvent viscosity for the settling check (default water at the temperature, 0.89 mPa*s at 25 °C)').optional(),
   duration: quantity(DIMENSIONS.time, 'positive', 'planned observation time').optional(),
   fieldOfView: quantity(DIMENSIONS.length, 'positive', 'width of the imaging field').optional(),
 });
@@ -114,6 +122,9 @@ function crossCheck(
         if (!chem.has(a.product)) ctx.addIssue({ code: 'custom', message: `unknown chemical "${a.product}"`, path: ['species', i, 'couplings', j, 'activity', 'product'] });
         if (a.product === c.chemical) ctx.addIssue({ code: 'custom', message: 'the product must differ from the fuel', path: ['species', i, 'couplings', j, 'activity', 'product'] });
       }
+      if (a !== undefined && 'maxRate' in a && a.productYield !== undefined && a.product == null) {
+        ctx.addIssue({ code: 'custom', message: 'a yield needs a product (give activity.product)', path: ['species', i, 'couplings', j, 'activity', 'productYield'] });
+      }
     });
   });
   if (m.chamber.walls !== 'unbounded' && m.chamber.length === undefined) {
@@ -137,12 +148,33 @@ export const mixtureSchema = mixtureObject.superRefine((m, ctx) => crossCheck(m,
 export type MixtureInput = z.input<typeof mixtureSchema>;
 export type ParsedMixture = z.output<typeof mixtureSchema>;
 
+/**
+ * An object keyed by user ids, as z.record, but one that refuses a `__proto__`
+ * key instead of dropping it (zod strips it silently; JSON.parse keeps it as an
+ * own property). Read the result with `Object.hasOwn` or turn it into a Map:
+ * ids such as `constructor` or `toString` are ordinary keys there.
+ */
+export function idRecord<K extends z.ZodType<string, string>, V extends z.ZodType>(key: K, value: V) {
+  return z.preprocess((raw, ctx) => {
+    if (raw !== null && typeof raw === 'object' && Object.hasOwn(raw, '__proto__')) {
+      ctx.issues.push({ code: 'custom', message: 'the key "__proto__" is not allowed', input: raw, path: ['__proto__'] });
+    }
+    return raw;
+  }, z.record(key, value));
+}
+
+/** The value stored under an own key of a plain object, or undefined (never an inherited property). */
+export function ownEntry<T>(obj: Readonly<Record<string, T>> | undefined, key: string): T | undefined {
+  return obj !== undefined && Object.hasOwn(obj, key) ? obj[key] : undefined;
+}
+
 /** A candidate species (as in the mixture file; its density is ignored). */
 export const candidateSchema = speciesSchema;
 
 /** The non-zero standard uncertainties of named values, or undefined when there are none. */
 export function sdOf<K extends string>(entries: [K, { sd: number } | undefined][]): Partial<Record<K, number>> | undefined {
-  const out: Partial<Record<K, number>> = {};
+  // keys are field names chosen by the code, never user ids; null prototype all the same
+  const out = Object.create(null) as Partial<Record<K, number>>;
   let any = false;
   for (const [k, q] of entries) {
     if (q !== undefined && q.sd > 0) {
@@ -156,7 +188,7 @@ export function sdOf<K extends string>(entries: [K, { sd: number } | undefined][
 /** A coupling in SI quantities (from a mixture file or a shelf record). */
 export interface CouplingQuantities {
   chemical: string;
-  activity?: Quantity | { maxRate: Quantity; michaelis: Quantity; product?: string | null };
+  activity?: Quantity | { maxRate: Quantity; michaelis: Quantity; product?: string | null; productYield?: number };
   mobility?: Quantity;
 }
 
@@ -167,6 +199,7 @@ export function toEngineCoupling(c: CouplingQuantities): Coupling {
   const a = c.activity;
   if (a !== undefined && 'maxRate' in a) {
     activity = { kind: 'saturating', maxRate: a.maxRate.value, michaelis: a.michaelis.value, product: a.product ?? null };
+    if (a.productYield !== undefined) activity.productYield = a.productYield;
     sd = sdOf([
       ['maxRate', a.maxRate],
       ['michaelis', a.michaelis],
@@ -244,14 +277,33 @@ export function toEngineChamber(c: z.output<typeof chamberSchema>): Mixture['cha
   return { walls: c.walls, length: c.length?.value ?? null, depth: c.depth?.value ?? null };
 }
 
-/** Parsed conditions to the engine's form, with the defaults (25 °C, water). */
+/**
+ * Parsed conditions to the engine's form, with the defaults: 25 °C; water's
+ * density at the temperature (transport.ts table; 997.047 kg/m³ at exactly
+ * 25 °C, constants.ts) and, for the settling check, water's viscosity there.
+ */
 export function toEngineConditions(c: z.output<typeof conditionsSchema> | undefined): Mixture['conditions'] {
-  return {
-    temperature: c?.temperature?.value ?? DEFAULT_TEMPERATURE,
-    solventDensity: c?.solventDensity?.value ?? WATER_DENSITY_25C,
+  const temperature = c?.temperature?.value ?? DEFAULT_TEMPERATURE;
+  let solventDensity = c?.solventDensity?.value;
+  if (solventDensity === undefined) {
+    if (temperature === DEFAULT_TEMPERATURE) solventDensity = WATER_DENSITY_25C;
+    else {
+      try {
+        solventDensity = waterDensity(temperature);
+      } catch (e) {
+        if (!(e instanceof EngineInputError)) throw e;
+        throw new EngineInputError('conditions.solventDensity', `missing: water's density is tabulated from 0 to 100 °C only; give the solvent density at ${(temperature - 273.15).toFixed(1)} °C`);
+      }
+    }
+  }
+  const out: Mixture['conditions'] = {
+    temperature,
+    solventDensity,
     duration: c?.duration?.value ?? null,
     fieldOfView: c?.fieldOfView?.value ?? null,
   };
+  if (c?.solventViscosity !== undefined) out.solventViscosity = c.solventViscosity.value;
+  return out;
 }
 
 /** `["species", 2, "diffusivity"]` → `species[2].diffusivity`. */

@@ -114,11 +114,14 @@ const couplingRecordSchema = z
     chemical: keySchema,
     activity: z
       .union([
-        z.strictObject({
-          maxRate: storedQuantity(DIMENSIONS.amountRate, 'nonnegative', 'per-particle maximal turnover'),
-          michaelis: storedQuantity(DIMENSIONS.concentration, 'positive', 'Michaelis constant'),
-          product: keySchema.nullable().optional(),
-        }),
+        z
+          .strictObject({
+            maxRate: storedQuantity(DIMENSIONS.amountRate, 'nonnegative', 'per-particle maximal turnover'),
+            michaelis: storedQuantity(DIMENSIONS.concentration, 'positive', 'Michaelis constant'),
+            product: keySchema.nullable().optional(),
+            productYield: z.number().gt(0).max(1000).optional().describe('product made per fuel turned over (default 1; 0.5 for catalase)'),
+          })
+          .refine((a) => a.productYield === undefined || a.product != null, { message: 'a yield needs a product (give product)', path: ['productYield'] }),
         storedQuantity(DIMENSIONS.amountRate, 'any', 'activity (> 0 produces, < 0 consumes)'),
       ])
       .optional(),
@@ -212,7 +215,12 @@ export function engineSpecies(sp: SpeciesRecord, density: { value: number; sd: n
   const q = (x: StoredQuantity | undefined): Quantity | undefined => (x === undefined ? undefined : { value: x.si, sd: x.sd, unit: x.unit });
   const couplings: Coupling[] = sp.couplings.map((c) => {
     const a = c.activity;
-    const activity = a === undefined ? undefined : 'maxRate' in a ? { maxRate: q(a.maxRate)!, michaelis: q(a.michaelis)!, product: a.product ?? null } : q(a);
+    const activity =
+      a === undefined
+        ? undefined
+        : 'maxRate' in a
+          ? { maxRate: q(a.maxRate)!, michaelis: q(a.michaelis)!, product: a.product ?? null, ...(a.productYield !== undefined ? { productYield: a.productYield } : {}) }
+          : q(a);
     return toEngineCoupling({ chemical: c.chemical, activity, mobility: q(c.mobility) });
   });
   const out: Species = {
