@@ -158,7 +158,7 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
     if (o.tracks ?? looksLikeTracks(t)) {
       const dims = o.model === 'passive-3d' || o.model === 'active-3d' ? 3 : 2;
       const { tracks, dt } = readTracks(t, dims);
-      const m = engineErrors(() => msdFromTracks(tracks, { dt, lags: o.lags, ...(o.maxLag ? { maxLagFrames: Math.max(1, Math.round(o.maxLag.value / dt)) } : {}) }));
+      const m = engineErrors(() => msdFromTracks(tracks, { dt, lags: o.lags, minLags: (o.model.startsWith('active') ? (o.radius ? 2 : 3) : 1) + (o.offset ? 1 : 0) + 2, ...(o.maxLag ? { maxLagFrames: Math.max(1, Math.round(o.maxLag.value / dt)) } : {}) }));
       const gls = o.weighting === 'gls-covariance';
       const fit = engineErrors(() => fitMsd(m.lag, m.msd, { ...engineOptions, ...(gls ? { covariance: m.covariance } : {}) }));
       const notes = [`MSD computed from ${m.tracks} tracks (${m.positions} positions, frame interval ${dt} s) at ${m.lag.length} lags, all overlapping windows.`, ...m.notes];

@@ -21,9 +21,14 @@
  *                   max_k |J_kᵀ z| / (‖J_k‖ ‖z‖) ≤ 1e-8 over the parameters
  *                   not held at a bound (the MINPACK "gtol" criterion), or an
  *                   accepted step that changed S or p by no more than rounding,
- *                   or a fit exact to rounding
- *   no-progress     no step lowers S although the gradient test fails
- *                   (never reported as converged)
+ *                   or no step lowers S and the Gauss–Newton step predicts a
+ *                   decrease of at most 10⁻¹⁰ S (rounding in a badly
+ *                   conditioned covariance keeps the gradient test from
+ *                   reaching 10⁻⁸), or a fit exact to rounding
+ *   no-progress     no step lowers S although the gradient test fails, or
+ *                   no derivative could be taken (never reported as converged:
+ *                   a fit that accepted no step and showed no vanishing
+ *                   gradient is not an optimum)
  *   max-iterations  the iteration bound was reached first
  *   no-free-parameters  nothing to fit
  *
@@ -224,12 +229,13 @@ export function leastSquares(pr: LsqProblem): LsqResult {
     const z = whiten(raw(p));
     const g = Array.from({ length: m }, (_, k) => J.reduce((acc, row, i) => acc + row[k]! * z[i]!, 0));
     // parameters held on a bound this step: the descent direction (+g) points out of the box
-    const held = q.map((v, k) => (v <= lo[k]! && g[k]! < 0) || (v >= hi[k]! && g[k]! > 0));
+    const held = q.map((v, k) => (v <= lo[k]! && g[k]! <= 0) || (v >= hi[k]! && g[k]! >= 0));
     const act = q.map((_, k) => k).filter((k) => !held[k]);
     const zNorm = Math.sqrt(S);
     const gradientTest = act.every((k) => {
       const cn = Math.sqrt(J.reduce((a, row) => a + row[k]! ** 2, 0));
-      return cn === 0 || Math.abs(g[k]!) <= 1e-8 * cn * zNorm;
+      // a zero column (no derivative could be taken, or the parameter does nothing) proves nothing
+      return cn > 0 && Math.abs(g[k]!) <= 1e-8 * cn * zNorm;
     });
     if (S <= 1e-28 * yScale || gradientTest || act.length === 0) {
       stop = 'converged';
@@ -237,6 +243,10 @@ export function leastSquares(pr: LsqProblem): LsqResult {
     }
     const A = normalMatrix(J, act);
     const ga = act.map((k) => g[k]!);
+    // Gauss–Newton predicted decrease of S, gᵀδ with (A + 10⁻¹² diag A) δ = g: rounding level means done
+    const dGn = solve(A.map((row, a) => row.map((v, b) => (a === b ? v * (1 + 1e-12) + 1e-300 : v))), ga.map((v) => [v]));
+    const predicted = dGn ? dGn.reduce((acc, row, a) => acc + row[0]! * ga[a]!, 0) : Infinity;
+    const differentiable = act.every((k) => J.some((row) => row[k] !== 0));
     let stepped = false;
     let done = false;
     while (lambda < 1e20) {
@@ -251,7 +261,8 @@ export function leastSquares(pr: LsqProblem): LsqResult {
       const qc = clip(qn);
       const pn = full(qc);
       const Sn = valid(pn) ? cost(pn) : Infinity;
-      if (Sn <= S) {
+      // a step that does not move the parameters is no step
+      if (Sn <= S && qc.some((v, k) => v !== q[k])) {
         const small = qc.every((v, k) => Math.abs(v - q[k]!) <= 1e-12 * (Math.abs(v) + 1e-12));
         const flat = S - Sn <= 1e-15 * S;
         q = qc;
@@ -266,7 +277,8 @@ export function leastSquares(pr: LsqProblem): LsqResult {
       lambda *= 4;
     }
     if (!stepped) {
-      stop = 'no-progress';
+      // no step lowers S: converged only if none could by more than rounding
+      stop = differentiable && predicted <= 1e-10 * S + 1e-28 * yScale ? 'converged' : 'no-progress';
       break;
     }
     if (done) {

@@ -50,6 +50,8 @@ export interface TrackMsdOptions {
   maxLagFrames?: number;
   /** number of lags (default TRACKS_DEFAULT_LAGS, fewer when the data cannot support them) */
   lags?: number;
+  /** fewest lags acceptable (default 3): the model's parameters plus some */
+  minLags?: number;
 }
 
 export interface TrackMsd {
@@ -163,6 +165,10 @@ export function msdFromTracks(tracks: Track[], o: TrackMsdOptions): TrackMsd {
       );
     }
     notes.push(`${usable.length} tracks are too few to estimate the covariance between ${lags.length} lags from the tracks alone: each track was cut into blocks of ${B} frames (${units.length} blocks, largest lag ${maxK} frames); blocks of one particle are taken as independent, which holds when a block is long against the particle's correlation time`);
+  }
+  const minLags = o.minLags ?? 3;
+  if (lags.length < minLags) {
+    throw new EngineInputError('data', `${usable.length} tracks are too few to estimate the covariance of the ${minLags} lags this model needs (${lags.length} possible): give more tracks or longer tracks`);
   }
   const M = lags.length;
   const per = units.map((u) => unitSums(u, lags));
