@@ -1,5 +1,5 @@
 /**
- * Closed-form dose thresholds (model.md §6).
+ * Closed-form dose thresholds (docs/model.md §6).
  *
  * For one chemical without saturation or crowding (rank one), adding a dopant d
  * at density x changes Σ_m s_m/D_m by x α_d μ_d / D_d, so the stationary
@@ -13,7 +13,7 @@
  * x* is where det J(k₁) changes sign. It is the *first* stationary crossing
  * when every coupled species (base and dopant) has α μ of one sign: then all
  * eigenvalues are real and interlace the poles −k²D_m, so only one can cross
- * zero (model.md §3). With mixed signs a pair of real eigenvalues (or a complex
+ * zero (docs/model.md §3). With mixed signs a pair of real eigenvalues (or a complex
  * pair) can turn positive through the trace before det J changes sign, and only
  * the spectrum can tell (`firstCrossing: false`).
  */

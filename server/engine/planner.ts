@@ -1,5 +1,5 @@
 /**
- * The dose planner (model.md §6, §7): for a base mixture and a candidate
+ * The dose planner (docs/model.md §6, §7): for a base mixture and a candidate
  * dopant, the smallest dose that crosses a chosen boundary, with a reason when
  * there is none, the analysis at the threshold and above it, the dose path
  * (the state over the whole dose range), Monte Carlo uncertainty, a state map
@@ -131,7 +131,7 @@ export function doseCap(base: Mixture, d: Species, o: DoseOptions): DoseSearch['
   return { density, limitedBy };
 }
 
-/** Each branch's growth (1/s) and the state (model.md §5), from one mode scan. */
+/** Each branch's growth (1/s) and the state (docs/model.md §5), from one mode scan. */
 interface Evaluation {
   any: number;
   real: number;
@@ -238,7 +238,7 @@ function goldenHunt(at: (x: number) => Evaluation, h: (e: Evaluation) => number,
 }
 
 /**
- * Look between scan doses for crossings the samples missed (model.md §6): for
+ * Look between scan doses for crossings the samples missed (docs/model.md §6): for
  * each sampled local maximum of h among samples not past (h ≤ 0 there), and
  * each local minimum among samples past, a golden-section search over the two
  * neighbouring intervals. Returns the samples with any new ones, in dose order.
@@ -444,7 +444,7 @@ export interface DosePath {
 }
 
 /**
- * The state over the whole dose range (0, cap] (model.md §5, §6): the log scan
+ * The state over the whole dose range (0, cap] (docs/model.md §5, §6): the log scan
  * of findDose, refined between scan doses on both branches (real and complex
  * growth), and every change of state bisected to `relTol`. When the state at
  * the lowest scan dose differs from the base's, the change is bisected down to
@@ -463,6 +463,11 @@ export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
   const baseState = at(0).state;
   const n = o.scanPoints ?? 48;
   if (!(cap > 0)) return { intervals: [], baseState, firstOnset: null, search: { doses: 0, refined: 0, lowest: null, floor: null, evaluations } };
+  if (o.dosing === 'add' && !base.crowding && !signs(d, base).coupled) {
+    // An uncoupled dopant added without crowding only adds its own decoupled mode, −k² D_d < 0:
+    // the spectrum of the base is unchanged at every dose (docs/model.md §3), so no scan is needed.
+    return { intervals: [{ from: 0, to: cap, state: baseState }], baseState, firstOnset: null, search: { doses: 0, refined: 0, lowest: null, floor: null, evaluations } };
+  }
   let samples = scanDoses(cap, n).map((x) => ({ x, e: at(x) }));
   samples = refine(samples, (e) => e.real, (e) => e.real > 0, at, relTol);
   samples = refine(samples, (e) => e.complex, (e) => e.complex > 0, at, relTol);
@@ -509,7 +514,7 @@ export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
 // ---------------------------------------------------------------- uncertainty
 
 /**
- * One Monte Carlo draw of every uncertain coefficient (model.md §7): normal for
+ * One Monte Carlo draw of every uncertain coefficient (docs/model.md §7): normal for
  * signed quantities (activity, mobility), log-normal with the same mean and
  * standard deviation for positive ones (σ_ln² = ln(1 + (sd/value)²),
  * μ_ln = ln value − σ_ln²/2).
@@ -601,7 +606,7 @@ function quantile(sorted: number[], q: number): number {
 }
 
 /**
- * Monte Carlo band of the threshold dose (model.md §7): each draw perturbs the
+ * Monte Carlo band of the threshold dose (docs/model.md §7): each draw perturbs the
  * base (the same draw for every candidate, "common random numbers") and the
  * dopant, and finds its own threshold (bisection to 1e-4 relative, enough for a
  * band). A draw whose base is already past the boundary has threshold 0; one
