@@ -1,6 +1,6 @@
 /**
  * The characteristic function through the Weinstein–Aronszajn identity
- * (model.md §3): for J = −k²[diag(D) + P G Qᵀ] (no crowding),
+ * (docs/model.md §3): for J = −k²[diag(D) + P G Qᵀ] (no crowding),
  *
  *   det(λ − J) = Π_m (λ + k² D_m) · det( I_S + k² G Qᵀ (λ + k² diag(D))⁻¹ P ),
  *

@@ -7,7 +7,7 @@ import { buildModel, jacobian, type ScaledModel } from './model.js';
 import type { Mixture } from './types.js';
 
 /**
- * The particle Jacobian J(k) = −k²[𝔇 + diag(ρ⁰) μ G(k) αᵀ] of model.md §3, SI (1/s), row-major M×M.
+ * The particle Jacobian J(k) = −k²[𝔇 + diag(ρ⁰) μ G(k) αᵀ] of docs/model.md §3, SI (1/s), row-major M×M.
  * @param k wavenumber, 1/m, > 0
  */
 export function jacobianAt(mix: Mixture, k: number, model: ScaledModel = buildModel(mix)): Float64Array {

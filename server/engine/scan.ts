@@ -1,5 +1,5 @@
 /**
- * Which modes a chamber allows (model.md §4) and the search for the fastest one.
+ * Which modes a chamber allows (docs/model.md §4) and the search for the fastest one.
  *
  * In scaled units (model.ts) a sealed chamber allows k'_n = n (k_n = nπ/L), a
  * periodic one k'_n = n (k_n = 2πn/L), and an unbounded one every k' > 0.

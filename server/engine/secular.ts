@@ -1,5 +1,5 @@
 /**
- * The rank-one path (one chemical, no crowding) of model.md §3.
+ * The rank-one path (one chemical, no crowding) of docs/model.md §3.
  *
  * With s_m = ρ_m μ_m α_m and g(k) = 1/(D_c k² + κ), the Jacobian
  * J = −k² diag(D) − k² g ρμ αᵀ is diagonal plus rank one, and by the matrix

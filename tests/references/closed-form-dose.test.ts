@@ -1,9 +1,9 @@
 /**
- * The closed-form stationary dose of model.md §6 against the full spectrum.
+ * The closed-form stationary dose of docs/model.md §6 against the full spectrum.
  *
  * x* = −(D_c k₁² + κ + Σ_base s_m/D_m) · D_d/(α_d μ_d) follows from the
  * rank-one stationary criterion (Keller & Segel 1970, generalised to M species
- * by the matrix determinant lemma, references.md). The engine's mode scan
+ * by the matrix determinant lemma, docs/references.md). The engine's mode scan
  * knows nothing of it: when every species has α μ of one sign, at 0.999 x* no
  * allowed mode may have a growing real eigenvalue and at 1.001 x* one must;
  * with mixed signs x* is still where det J(k₁) changes sign.

@@ -5,9 +5,10 @@
  * viewed as an instability", J. Theor. Biol. 26, 399–415 (1970). With
  * n_t = D∇²n − χ∇·(n∇c), c_t = D_c∇²c + h n − k c the uniform state is unstable
  * at wavenumber q iff χ h n₀ > D (k + D_c q²). In brink's conventions α = h and
- * μ = −χ (references.md), so the condition reads −α μ ρ⁰ > D (κ + D_c q²), and
+ * μ = −χ (docs/references.md), so the condition reads −α μ ρ⁰ > D (κ + D_c q²), and
  * the growth rate of mode q is λ(q) = −q² D + q² (−α μ ρ⁰)/(D_c q² + κ)
- * (quasi-static chemical, the same paper's linearisation).
+ * (quasi-static chemical, the same paper's linearisation). Every threshold is
+ * checked on both sides: 0.999× the hand formula stable, 1.001× unstable.
  */
 import { describe, expect, it } from 'vitest';
 import { analyze } from '../../server/engine/analyze.js';
@@ -70,23 +71,37 @@ describe('Keller–Segel single-species threshold', () => {
     }
   });
 
-  it('below −αμρ = Dκ the unbounded sample is stable, its slowest mode the longest wave', () => {
-    const kappa = 1e-3;
-    const r = analyze(single(0.99 * threshold(0, kappa), kappa, 'unbounded', null));
-    expect(r.state).toBe('stable');
-    expect(r.growthTime).toBeNull();
-    expect(r.fastestMode.wavenumber).toBe(0);
-    expect(r.warnings.map((w) => w.code)).toContain('long-wavelength-limit');
+  it('an unbounded sample flips at −αμρ = Dκ (the q → 0 end of the band): stable, longest wave slowest at 0.999×; stationary at 1.001×', () => {
+    for (const kappa of [1e-4, 1e-3, 1e-1]) {
+      const below = analyze(single(0.999 * threshold(0, kappa), kappa, 'unbounded', null));
+      expect(below.state).toBe('stable');
+      expect(below.growthTime).toBeNull();
+      expect(below.fastestMode.wavenumber).toBe(0);
+      expect(below.warnings.map((w) => w.code)).toContain('long-wavelength-limit');
+      const above = analyze(single(1.001 * threshold(0, kappa), kappa, 'unbounded', null));
+      expect(above.state).toBe('stationary');
+      // Just past onset the band is 0 < q² < (A/D − κ)/D_c with A = −αμρ (λ(q) > 0 there, by hand from λ(q) above).
+      const A = -alpha * mu * 1.001 * threshold(0, kappa);
+      const q2max = (A / D - kappa) / Dc;
+      expect(above.fastestMode.wavenumber ** 2).toBeLessThan(q2max);
+      expect(above.growthRate).toBeGreaterThan(0);
+    }
   });
 
-  it('the criterion reported in criteria.stationary is the same inequality', () => {
+  it('the criterion reported in criteria.stationary is the same inequality, met at 1.001× and not at 0.999×', () => {
     const q = 3e3;
     const kappa = 1e-2;
-    const r = analyze(single(1.01 * threshold(q, kappa), kappa, 'sealed', Math.PI / q));
-    const c = r.criteria.stationary!;
-    expect(r.criteria.structure).toBe('rank-one');
-    expect(rel(c.threshold, -(Dc * q * q + kappa))).toBeLessThan(1e-12);
-    expect(rel(c.value, (alpha * mu * 1.01 * threshold(q, kappa)) / D)).toBeLessThan(1e-12);
-    expect(c.met).toBe(true);
+    for (const [factor, met] of [
+      [0.999, false],
+      [1.001, true],
+    ] as const) {
+      const r = analyze(single(factor * threshold(q, kappa), kappa, 'sealed', Math.PI / q));
+      const c = r.criteria.stationary!;
+      expect(r.criteria.structure).toBe('rank-one');
+      // Keller & Segel: unstable iff χ h n₀ > D(k + D_c q²), i.e. α μ ρ / D < −(D_c q² + κ) in brink's signs.
+      expect(rel(c.threshold, -(Dc * q * q + kappa))).toBeLessThan(1e-12);
+      expect(rel(c.value, (alpha * mu * factor * threshold(q, kappa)) / D)).toBeLessThan(1e-12);
+      expect(c.met).toBe(met);
+    }
   });
 });

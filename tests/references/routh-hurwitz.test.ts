@@ -5,13 +5,15 @@
  * systems text, e.g. S. H. Strogatz, *Nonlinear Dynamics and Chaos*, §5.2):
  * J is stable iff tr J < 0 and det J > 0, and its eigenvalues are complex iff
  * (tr J)² < 4 det J. For one chemical the 2×2 J(k) is written out here by hand
- * from model.md §3 — J = −k² diag(D) − k² g(k) p qᵀ, p_m = ρ_m μ_m, q_m = α_m,
+ * from docs/model.md §3 — J = −k² diag(D) − k² g(k) p qᵀ, p_m = ρ_m μ_m, q_m = α_m,
  * g = 1/(D_c k² + κ) — independently of the engine's assembly.
  */
 import { describe, expect, it } from 'vitest';
 import { analyze } from '../../server/engine/analyze.js';
+import { buildModel } from '../../server/engine/model.js';
 import { eigenvaluesAt, jacobianAt } from '../../server/engine/probe.js';
 import { Random } from '../../server/engine/random.js';
+import { modeSpectrum } from '../../server/engine/spectrum.js';
 import { chemical, constant, mixture, rel, species } from '../helpers/mixtures.js';
 
 interface Two {
@@ -78,7 +80,8 @@ describe('Routh–Hurwitz on two species', () => {
       const [a, b, c, d] = handJ(p, k);
       const tr = a + d;
       const det = a * d - b * c;
-      const ev = eigenvaluesAt(toMixture(p, 1e-3), k);
+      const mix = toMixture(p, 1e-3);
+      const ev = eigenvaluesAt(mix, k);
       const stable = ev.every((e) => e.re < 0);
       const complex = ev.some((e) => e.im !== 0);
       // Skip samples within rounding of a boundary, where either answer is right.
@@ -93,6 +96,13 @@ describe('Routh–Hurwitz on two species', () => {
       const prod = ev[0]!.re * ev[1]!.re - ev[0]!.im * ev[1]!.im;
       expect(Math.abs(sum - tr)).toBeLessThan(1e-10 * scale);
       expect(Math.abs(prod - det)).toBeLessThan(1e-9 * scale * scale);
+      // The scan's own path at this k (closed-form 2×2, or the secular root when the couplings
+      // share a sign; spectrum.ts, scaled units) against the quadratic formula on the hand J.
+      const model = buildModel(mix);
+      const s = modeSpectrum(model, k * model.lengthUnit);
+      const top = complex ? tr / 2 : (tr + Math.sqrt(tr * tr - 4 * det)) / 2;
+      expect(Math.abs(s.maxRe / model.timeUnit - top)).toBeLessThan(1e-9 * scale);
+      expect(s.imAtMax > 0).toBe(complex);
     }
     expect(complexSeen).toBeGreaterThan(10);
     expect(unstableSeen).toBeGreaterThan(10);
