@@ -1,0 +1,160 @@
+/**
+ * `brink fit msd` on simulated active Brownian motion, through the command
+ * line as a user runs it: a two-column MSD curve without standard deviations
+ * (the unweighted path), and the tracked positions themselves.
+ *
+ * Truth: the simulation's own D, v, τ; the MSD the fit must follow is
+ * MSD(t) = 4 D t + 2 v² τ² [t/τ + e^(−t/τ) − 1] (ten Hagen, van Teeffelen &
+ * Löwen, J. Phys.: Condens. Matter 23, 194119 (2011); docs/references.md),
+ * written out again below for the checks.
+ *
+ * Tolerances:
+ *  - the curve: an unweighted fit reports standard errors that ignore the
+ *    correlation between lags (see tests/engine/fit/tracks.test.ts), so the
+ *    honest error of the ordinary least-squares estimate is computed here by
+ *    the sandwich formula cov = (JᵀJ)⁻¹ Jᵀ C J (JᵀJ)⁻¹ (White 1980; any
+ *    regression text — from memory), with C the empirical covariance of the
+ *    pooled MSD between lags from the same tracks (per-track scatter / number
+ *    of tracks) and J the derivatives of the formula above, evaluated with
+ *    ml-matrix. Each parameter must lie within 4 of those plus 3 % (Euler
+ *    steps h/τ = 0.005 and the estimate of C).
+ *  - a least-squares optimum fits the data at least as well as the truth:
+ *    RSS(fit) ≤ RSS(true parameters). The defect this guards against slid to
+ *    D = 0 with an RSS 600 000 times the optimum and called it converged.
+ */
+import { mkdtempSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { Matrix, inverse } from 'ml-matrix';
+import { describe, expect, it } from 'vitest';
+import { main } from '../../server/cli.js';
+import { simulateTracks, timeAveragedMsd, tracksCsv } from '../engine/fit/simulate.js';
+
+const D = 0.2e-12;
+const v = 2e-6;
+const tau = 2;
+const dt = 0.05;
+const abp = (t: number, p: number[]) => 4 * p[0]! * t + 2 * p[1]! ** 2 * p[2]! ** 2 * (t / p[2]! + Math.exp(-t / p[2]!) - 1);
+const dir = mkdtempSync(join(tmpdir(), 'brink-msd-'));
+
+async function cli(args: string[]): Promise<{ code: number; out: any; err: string }> {
+  let out = '';
+  let err = '';
+  const code = await main(args, { out: (t) => (out += t), err: (t) => (err += t) });
+  return { code, out: code === 0 ? JSON.parse(out) : null, err };
+}
+
+/** RSS of the curve (µm, s as written) at SI parameters p. */
+function rss(lag: number[], msd: number[], p: number[]): number {
+  return lag.reduce((a, t, i) => a + (msd[i]! - abp(t, p)) ** 2, 0);
+}
+
+describe('brink fit msd --model active-2d on a two-column curve (no sd)', () => {
+  it('many tracks pooled: recovers D, v, τ within the honest (sandwich) errors, and beats the truth', async () => {
+    const nTracks = 100;
+    const sim = simulateTracks({ dims: 2, D, v, tau, dt, substeps: 5, frames: 1000, tracks: nTracks, seed: 21 });
+    const lagFrames = [...new Set(Array.from({ length: 20 }, (_, i) => Math.round(Math.pow(100, i / 19))))];
+    const maxK = lagFrames.at(-1)!;
+    const per = sim.map((rows) => timeAveragedMsd(rows, maxK));
+    const lag = lagFrames.map((k) => k * dt);
+    const msd = lagFrames.map((k) => per.reduce((a, m) => a + m[k - 1]!, 0) / nTracks); // m², equal-length tracks
+    const file = join(dir, 'pooled.csv');
+    writeFileSync(file, 'lag [s],msd [um^2]\n' + lag.map((t, i) => `${t.toPrecision(6)},${(msd[i]! * 1e12).toPrecision(8)}`).join('\n') + '\n');
+    const r = await cli(['fit', 'msd', file, '--model', 'active-2d']);
+    expect(r.code, r.err).toBe(0);
+    const f = r.out;
+    expect(f.converged).toBe(true);
+    expect(f.stop).toBe('converged');
+    expect(f.weighting).toBe('unweighted');
+    expect(f.notes.join(' ')).toMatch(/understate/);
+    const p = [f.parameters.diffusivity.value, f.parameters.speed.value, f.parameters.rotationTime.value];
+    // the optimum fits at least as well as the truth (RSS in m⁴, the data as written to the file)
+    const written = msd.map((m) => Number((m * 1e12).toPrecision(8)) * 1e-12);
+    expect(rss(lag, written, p)).toBeLessThanOrEqual(rss(lag, written, [D, v, tau]));
+    // sandwich covariance of the OLS estimate with the empirical covariance of the pooled MSD
+    const M = lag.length;
+    const mean = msd;
+    const C = new Matrix(M, M);
+    for (const m of per) for (let a = 0; a < M; a++) for (let b = 0; b < M; b++) C.set(a, b, C.get(a, b) + ((m[lagFrames[a]! - 1]! - mean[a]!) * (m[lagFrames[b]! - 1]! - mean[b]!)) / (nTracks - 1) / nTracks);
+    const J = new Matrix(lag.map((t) => p.map((_, k) => {
+      const h = 1e-6 * p[k]!;
+      const pp = [...p];
+      const pm = [...p];
+      pp[k]! += h;
+      pm[k]! -= h;
+      return (abp(t, pp) - abp(t, pm)) / (2 * h);
+    })));
+    const bread = inverse(J.transpose().mmul(J));
+    const cov = bread.mmul(J.transpose()).mmul(C).mmul(J).mmul(bread);
+    const truth = [D, v, tau];
+    ['diffusivity', 'speed', 'rotationTime'].forEach((name, k) => {
+      const sd = Math.sqrt(cov.get(k, k));
+      expect(Math.abs(p[k]! - truth[k]!), `${name}: ${p[k]} vs ${truth[k]} (honest sd ${sd})`).toBeLessThan(4 * sd + 0.03 * truth[k]!);
+      expect(sd, name).toBeLessThan(0.1 * truth[k]!); // the check is tight enough to mean something
+      expect(f.parameters[name].atBound).toBeUndefined();
+    });
+  }, 60_000);
+
+  it('one track (the case of the report): an optimum or an honest bound, never a fake one', async () => {
+    const [track] = simulateTracks({ dims: 2, D, v, tau, dt, substeps: 5, frames: 4000, tracks: 1, seed: 3 });
+    const K = 200;
+    const m = timeAveragedMsd(track!, K);
+    const lag = Array.from({ length: K }, (_, i) => (i + 1) * dt);
+    const file = join(dir, 'one-track.csv');
+    writeFileSync(file, 'lag [s],msd [um^2]\n' + lag.map((t, i) => `${t.toPrecision(6)},${(m[i]! * 1e12).toPrecision(8)}`).join('\n') + '\n');
+    const r = await cli(['fit', 'msd', file, '--model', 'active-2d']);
+    expect(r.code, r.err).toBe(0);
+    const f = r.out;
+    expect(f.stop).toBe('converged');
+    const written = m.map((x) => Number((x * 1e12).toPrecision(8)) * 1e-12);
+    const p = [f.parameters.diffusivity.value, f.parameters.speed.value, f.parameters.rotationTime.value];
+    expect(rss(lag, written, p)).toBeLessThanOrEqual(rss(lag, written, [D, v, tau]));
+    // every parameter is an estimate with a standard error, or flagged on its bound without one
+    for (const name of ['diffusivity', 'speed', 'rotationTime']) {
+      const q = f.parameters[name];
+      if (q.atBound) {
+        expect(q.sd).toBeNull();
+        expect(f.notes.join(' ')).toMatch(new RegExp(`${name} ended on its ${q.atBound} bound`));
+      } else expect(q.sd).toBeGreaterThan(0);
+    }
+    // the long-time slope is what one track does determine: D + v²τ/2 within 15 % (one 200 s track
+    // spans 100 τ: the relative scatter of a long-time slope is about √(τ/T) ≈ 10 %, from memory)
+    expect(Math.abs(f.parameters.effectiveDiffusivity.value / (D + (v * v * tau) / 2) - 1)).toBeLessThan(0.25);
+  }, 60_000);
+});
+
+describe('brink fit msd on tracked positions', () => {
+  const sim = simulateTracks({ dims: 2, D, v, tau, dt, substeps: 5, frames: 400, tracks: 60, seed: 500 });
+  const file = join(dir, 'tracks.csv');
+  writeFileSync(file, tracksCsv(sim));
+
+  it('recognised by the track column: generalised least squares, within 4 standard errors', async () => {
+    const r = await cli(['fit', 'msd', file, '--model', 'active-2d']);
+    expect(r.code, r.err).toBe(0);
+    const f = r.out;
+    expect(f.weighting).toBe('gls-covariance');
+    expect(f.covarianceSource).toMatch(/empirical covariance between lags of the per-track time-averaged MSDs \(60 tracks, 14 lags\)/); // 16 log-spaced lags up to 100 frames: 14 distinct frame counts
+    expect(f.tracks).toMatchObject({ tracks: 60, positions: 24000, frameInterval: dt, units: 'tracks', unitCount: 60 });
+    expect(f.stop).toBe('converged');
+    for (const [name, truth] of [['diffusivity', D], ['speed', v], ['rotationTime', tau]] as const) {
+      const q = f.parameters[name];
+      expect(Math.abs(q.value - truth), `${name} ${q.value} ± ${q.sd}`).toBeLessThan(4 * q.sd + 0.03 * truth);
+    }
+  }, 30_000);
+
+  it('--unweighted fits the same MSD by ordinary least squares, and says its errors are not honest', async () => {
+    const r = await cli(['fit', 'msd', file, '--model', 'active-2d', '--unweighted', '--lags', '12', '--max-lag', '4s']);
+    expect(r.code, r.err).toBe(0);
+    expect(r.out.weighting).toBe('unweighted');
+    expect(r.out.covarianceSource).toBeUndefined();
+    expect(r.out.tracks.lagFrames.at(-1)).toBe(80);
+    expect(r.out.points).toBe(r.out.tracks.lagFrames.length);
+    expect(r.out.notes.join(' ')).toMatch(/understate the uncertainty/);
+  }, 30_000);
+
+  it('a 3D model needs a z column', async () => {
+    const r = await cli(['fit', 'msd', file, '--model', 'active-3d']);
+    expect(r.code).toBe(2);
+    expect(r.err).toMatch(/a 3D model needs a fifth column z/);
+  });
+});
