@@ -1,15 +1,18 @@
 /**
- * The dose planner. The closed form of model.md §6 (itself checked against the
- * spectrum in tests/references/closed-form-dose.test.ts) is the outside
- * reference for the search; the rest are identities of the definitions:
+ * The dose planner. The outside references: the threshold against x* written
+ * out by hand from the Keller–Segel stationary condition (Keller & Segel 1970,
+ * extended to several species by the matrix determinant lemma; docs/model.md §6,
+ * docs/references.md), and the spectrum on both sides of it from an independent
+ * eigen library (ml-matrix's EigenvalueDecomposition) on the Jacobian J(k) of
+ * docs/model.md §3 built here. The rest are identities of the definitions:
  * predicates on both sides of a threshold, conserved volume fraction, seeded
  * reproducibility, agreement between the state map, the fuel sweep and direct
- * searches.
+ * searches. More references: tests/references/planner-reference.test.ts.
  */
+import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
 import { analyze } from '../../server/engine/analyze.js';
 import { sphereVolume } from '../../server/engine/checks.js';
-import { stationaryDoseClosedForm } from '../../server/engine/dose.js';
 import { findDose, fuelSweep, pastBoundary, scaleBase, screen, stateMap, thresholdBand, withDose, type DoseOptions } from '../../server/engine/planner.js';
 import type { Mixture, Species } from '../../server/engine/types.js';
 import { chemical, constant, mixture, rel, species } from '../helpers/mixtures.js';
@@ -30,19 +33,57 @@ const repeller = (): Species => species('repeller', 0.22e-12, 0, [constant('h2o2
 const inert = (): Species => species('inert', 0.24e-12, 0, []);
 const stat: DoseOptions = { boundary: 'stationary', dosing: 'add' };
 
+/**
+ * Largest real part over allowed modes of J(k)_mn = −k² D_m δ_mn − k² ρ_m μ_m α_n /(D_c k² + κ)
+ * (one chemical, constant activities; docs/model.md §3), eigenvalues from ml-matrix.
+ * Sealed: k = nπ/L; periodic: k = 2πn/L (n = 1..60); unbounded: a log grid of k.
+ */
+function maxGrowthMlMatrix(mix: Mixture): number {
+  const c = mix.chemicals[0]!;
+  const sp = mix.species;
+  const { walls, length } = mix.chamber;
+  const ks =
+    walls === 'unbounded'
+      ? Array.from({ length: 400 }, (_, i) => Math.sqrt(c.lossRate / c.diffusivity) * Math.pow(10, -6 + (9 * i) / 399))
+      : Array.from({ length: 60 }, (_, i) => ((walls === 'sealed' ? 1 : 2) * Math.PI * (i + 1)) / length!);
+  let best = -Infinity;
+  for (const k of ks) {
+    const g = 1 / (c.diffusivity * k * k + c.lossRate);
+    const J = new Matrix(sp.length, sp.length);
+    sp.forEach((a, m) =>
+      sp.forEach((b, n) => {
+        const alpha = b.couplings[0]!.activity!.kind === 'constant' ? b.couplings[0]!.activity!.rate : NaN;
+        J.set(m, n, -k * k * (m === n ? a.diffusivity : 0) - k * k * g * a.density * a.couplings[0]!.mobility * alpha);
+      }),
+    );
+    for (const re of new EigenvalueDecomposition(J).realEigenvalues) best = Math.max(best, re);
+  }
+  return best;
+}
+
 describe('dose search', () => {
-  it('the search finds the closed-form threshold to 1e-6 (sealed, periodic, unbounded with loss)', () => {
-    for (const [walls, kappa] of [['sealed', 0], ['periodic', 1e-2], ['unbounded', 1e-2]] as const) {
-      const base = { ...calm(kappa), chamber: { walls, length: walls === 'unbounded' ? null : 2e-3, depth: null } };
-      const cf = stationaryDoseClosedForm(base, tipper());
-      expect(cf.applicable && cf.firstCrossing).toBe(true);
+  it('closed form and search find the hand-computed Keller–Segel x*; ml-matrix: stable at 0.999 x*, growing at 1.001 x*', () => {
+    // x* solves D_c k₁² + κ + α_b μ_b ρ_b / D_b + x α_d μ_d / D_d = 0 (Keller–Segel with the dopant added, rank one).
+    const Dc = 1.4e-9;
+    const L = 2e-3;
+    const sumBase = (-2e-17 * 2e-11 * 1e12) / 0.22e-12; // α μ ρ / D of the calm base = −1.818e-3 1/s
+    for (const [walls, kappa, k1] of [['sealed', 0, Math.PI / L], ['periodic', 1e-2, (2 * Math.PI) / L], ['unbounded', 1e-2, 0]] as const) {
+      const base = { ...calm(kappa), chamber: { walls, length: walls === 'unbounded' ? null : L, depth: null } };
+      const xStar = ((Dc * k1 * k1 + kappa + sumBase) * 0.22e-12) / (2e-16 * 5e-11);
+      expect(xStar).toBeGreaterThan(0);
       const closed = findDose(base, tipper(), stat);
       const searched = findDose(base, tipper(), { ...stat, closedForm: false });
       expect(closed.method).toBe('closed-form');
       expect(searched.method).toBe('search');
-      expect(rel(searched.threshold!.density, (cf as { dose: number }).dose)).toBeLessThan(1e-6);
-      expect(closed.threshold!.density).toBe((cf as { dose: number }).dose);
-      expect(rel(closed.threshold!.volumeFraction, closed.threshold!.density * sphereVolume(1e-6))).toBeLessThan(1e-12);
+      expect(rel(closed.threshold!.density, xStar)).toBeLessThan(1e-12);
+      expect(rel(searched.threshold!.density, xStar)).toBeLessThan(1e-6);
+      expect(rel(closed.threshold!.volumeFraction, xStar * sphereVolume(1e-6))).toBeLessThan(1e-12);
+      // two-sided, with an independent spectrum
+      expect(maxGrowthMlMatrix(withDose(base, tipper(), 0.999 * xStar, 'add'))).toBeLessThan(0);
+      expect(maxGrowthMlMatrix(withDose(base, tipper(), 1.001 * xStar, 'add'))).toBeGreaterThan(0);
+      // and the planner's own predicate agrees on both sides
+      expect(pastBoundary(withDose(base, tipper(), 0.999 * xStar, 'add'), 'stationary')).toBe(false);
+      expect(pastBoundary(withDose(base, tipper(), 1.001 * xStar, 'add'), 'stationary')).toBe(true);
     }
   });
 
@@ -55,7 +96,7 @@ describe('dose search', () => {
 
   it('reports a window when the predicate is not monotone (an oscillatory band that turns stationary)', () => {
     // Slow self-repelling beads; a fast self-attracting swimmer first makes a complex pair grow,
-    // then, at a higher dose, the pair splits into real eigenvalues (model.md §5).
+    // then, at a higher dose, the pair splits into real eigenvalues (docs/model.md §5).
     const base = mixture([chemical('h2o2', 1.4e-9, 0, 1000)], [species('beads', 1e-12, 1e13, [constant('h2o2', -5e-15, -1e-10)], 0.22e-6)], 'sealed', 4e-4);
     const swimmer = species('swimmer', 20e-12, 0, [constant('h2o2', -3e-16, 2e-10)], 0.5e-6);
     const r = findDose(base, swimmer, { boundary: 'oscillatory', dosing: 'add' });
@@ -109,6 +150,13 @@ describe('infeasibility: every reason', () => {
     expect(reason(past, tipper(), stat)).toBe('base-already-past');
     expect(reason(calm(), repeller(), { boundary: 'restore', dosing: 'add' })).toBe('base-already-past');
   });
+  it('no-room-under-cap: a base that already fills the volume-fraction cap says so', () => {
+    // φ_base = ρ (4/3)π a³ = 1e12 · 4.19e-18 = 4.2e-6: a cap of 4e-6 leaves no room
+    expect(reason(calm(), tipper(), { ...stat, maxVolumeFraction: 4e-6 })).toBe('no-room-under-cap');
+    expect(findDose(calm(), tipper(), { ...stat, maxVolumeFraction: 4e-6 }).cap.density).toBe(0);
+    // just above it there is room, and the usual answer
+    expect(findDose(calm(), tipper(), { ...stat, maxVolumeFraction: 0.3 }).feasible).toBe(true);
+  });
   it('no-coupling', () => expect(reason(calm(), inert(), stat)).toBe('no-coupling'));
   it('wrong-sign (closed form and search)', () => {
     expect(reason(calm(), repeller(), stat)).toBe('wrong-sign');
@@ -117,11 +165,14 @@ describe('infeasibility: every reason', () => {
     expect(reason(unstable, tipper(), { boundary: 'restore', dosing: 'add' })).toBe('wrong-sign');
   });
   it('no-oscillation-possible', () => expect(reason(calm(), tipper(), { boundary: 'oscillatory', dosing: 'add' })).toBe('no-oscillation-possible'));
-  it('too-weak-before-cap', () => {
+  it('too-weak-before-cap only where the closed form proves it; the search says not-found-below-cap', () => {
     const weak = species('weak', 0.22e-12, 0, [constant('h2o2', -1e-22, 1e-13)]);
     const r = findDose(calm(), weak, stat);
     expect(r.reason).toBe('too-weak-before-cap');
     expect(findDose(calm(), tipper(), { ...stat, maxDensity: 1e6 }).reason).toBe('too-weak-before-cap');
+    const searched = findDose(calm(), weak, { ...stat, closedForm: false });
+    expect(searched.reason).toBe('not-found-below-cap');
+    expect(searched.message).toMatch(/by a search of 48 doses/);
   });
   it('crowding-wins', () => {
     // Large, dense, weakly attracting dopant: crossing needs φ ≈ 0.1, where crowding (B₂ of 2 µm spheres) stabilises.
