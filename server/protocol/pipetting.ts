@@ -31,8 +31,8 @@ export interface SampleSpec {
   role: 'series' | 'control';
   /** dopant dose (m⁻³) or null for a control without dopant */
   dose: number | null;
-  /** target concentration of each component in the tube, per m³ */
-  conc: Record<string, number>;
+  /** target concentration of each component in the tube, per m³, by component id (a Map: any id is an ordinary key) */
+  conc: ReadonlyMap<string, number>;
   /** whether the tube takes the master mix (base species) */
   usesMasterMix: boolean;
 }
@@ -108,7 +108,7 @@ export function planPipetting(components: Component[], samples: SampleSpec[], o:
   // Dilution level of a transfer: the smallest k with V·10^k ≥ min.
   const levelOf = (v: number) => (v >= o.minVolume || v === 0 ? 0 : Math.ceil(Math.log10(o.minVolume / v) - 1e-12));
   const baseMm = baseIds.map((id) => {
-    const c = mmSamples[0]?.conc[id] ?? 0;
+    const c = mmSamples[0]?.conc.get(id) ?? 0;
     const perTube = vol(id, c);
     const total = perTube * mmTubes * ov;
     const level = levelOf(total);
@@ -117,12 +117,12 @@ export function planPipetting(components: Component[], samples: SampleSpec[], o:
   });
   // Per tube: dopant and fuel.
   const perTube = samples.map((s) => {
-    const d = s.conc[dopantId] ?? 0;
+    const d = s.conc.get(dopantId) ?? 0;
     const vd = d > 0 ? vol(dopantId, d) : 0;
     const ld = levelOf(vd);
     if (vd > 0) uses.push({ component: dopantId, stockVolume: vd, tubes, level: ld });
     const fuels = fuelIds.map((f) => {
-      const c = s.conc[f] ?? 0;
+      const c = s.conc.get(f) ?? 0;
       const v = c > 0 ? vol(f, c) : 0;
       const l = levelOf(v);
       if (v > 0) uses.push({ component: f, stockVolume: v, tubes, level: l });
@@ -131,7 +131,8 @@ export function planPipetting(components: Component[], samples: SampleSpec[], o:
     const bases = s.usesMasterMix
       ? []
       : baseIds.map((id) => {
-          const v = (s.conc[id] ?? 0) > 0 ? vol(id, s.conc[id]!) : 0;
+          const cb = s.conc.get(id) ?? 0;
+          const v = cb > 0 ? vol(id, cb) : 0;
           const l = levelOf(v);
           if (v > 0) uses.push({ component: id, stockVolume: v, tubes, level: l });
           return { id, volume: v * Math.pow(10, l), level: l };

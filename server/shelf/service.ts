@@ -6,7 +6,7 @@
  */
 import { z } from 'zod';
 import type { Chemical, Mixture, Species } from '../engine/types.js';
-import { chamberSchema, conditionsSchema, issueList, quantity, toEngineChamber, toEngineConditions } from '../schema/mixture.js';
+import { chamberSchema, conditionsSchema, idRecord, issueList, quantity, toEngineChamber, toEngineConditions } from '../schema/mixture.js';
 import {
   amountSchema,
   AmountError,
@@ -214,8 +214,9 @@ export function shelfService(repo: ShelfRepository) {
         usedCandidates.push({ id: rev.id, revision: rev.revision, revisionId: rev.revisionId });
         for (const k of referencedChemicals(rev.record)) chemKeys.add(k);
       });
-      const given = request.chemicals ?? {};
-      for (const k of Object.keys(given)) {
+      // a Map: a chemical called "constructor" or "toString" is an ordinary key, never an inherited property
+      const given = new Map(Object.entries(request.chemicals ?? {}));
+      for (const k of given.keys()) {
         if (!chemKeys.has(k) && repo.get('chemical', k) === null) problems.push({ path: `chemicals.${k}`, message: `no chemical "${k}" on the shelf` });
         chemKeys.add(k);
       }
@@ -224,7 +225,7 @@ export function shelfService(repo: ShelfRepository) {
       for (const k of [...chemKeys].sort()) {
         const rev = repo.get<ChemicalRecord>('chemical', k);
         if (!rev) continue; // reported above, or a dangling reference caught at write time
-        const c = given[k];
+        const c = given.get(k);
         chemicals.push(engineChemical(rev.record, c?.value ?? 0, c?.sd ?? 0));
         usedChemicals.push({ id: rev.id, revision: rev.revision, revisionId: rev.revisionId });
         if (c === undefined) warnings.push({ code: 'no-concentration', message: `no concentration given for "${k}": taken as 0.`, chemical: k });
@@ -250,7 +251,7 @@ export type ShelfService = ReturnType<typeof shelfService>;
 /** A sample made of shelf species: amounts, chamber, chemical levels. */
 export const shelfSampleSchema = z.strictObject({
   species: z.array(amountSchema.extend({ id: keySchema })).min(1, 'a sample needs at least one species'),
-  chemicals: z.record(keySchema, quantity(DIMENSIONS.concentration, 'nonnegative', 'concentration of this chemical in the sample')).optional(),
+  chemicals: idRecord(keySchema, quantity(DIMENSIONS.concentration, 'nonnegative', 'concentration of this chemical in the sample')).optional(),
   chamber: chamberSchema,
   crowding: z.boolean().optional(),
   conditions: conditionsSchema.optional(),

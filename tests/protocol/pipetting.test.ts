@@ -21,8 +21,8 @@ function setup(dopantStock: number, doses: number[], fuelStock = 9790): { comps:
     { id: 'dop', label: 'dopant', stock: dopantStock, stockText: 'x', per: 'particles' },
     { id: 'fuel', label: 'peroxide', stock: fuelStock, stockText: '30 %', per: 'mol' },
   ];
-  const samples: SampleSpec[] = doses.map((x, i) => ({ name: `s${i}`, role: 'series', dose: x, conc: { base: 2e14, dop: x, fuel: 200 }, usesMasterMix: true }));
-  samples.push({ name: 'alone', role: 'control', dose: doses[1]!, conc: { dop: doses[1]!, fuel: 200 }, usesMasterMix: false });
+  const samples: SampleSpec[] = doses.map((x, i) => ({ name: `s${i}`, role: 'series', dose: x, conc: new Map([['base', 2e14], ['dop', x], ['fuel', 200]]), usesMasterMix: true }));
+  samples.push({ name: 'alone', role: 'control', dose: doses[1]!, conc: new Map([['dop', doses[1]!], ['fuel', 200]]), usesMasterMix: false });
   return { comps, samples };
 }
 
@@ -52,7 +52,7 @@ describe('pipetting', () => {
     const { comps, samples } = setup(4e15, [0, 5e13, 1e14, 2e14]);
     const plan = planPipetting(comps, samples, o, ['base'], 'dop', ['fuel']);
     const c = traced(plan, comps);
-    for (const s of samples) for (const [k, v] of Object.entries(s.conc)) expect(Math.abs((c[s.name]![k] ?? 0) - v) / v || 0).toBeLessThan(2e-3);
+    for (const s of samples) for (const [k, v] of s.conc) expect(Math.abs((c[s.name]![k] ?? 0) - v) / v || 0).toBeLessThan(2e-3);
     expect(Math.min(...plan.allVolumes)).toBeGreaterThanOrEqual(o.minVolume * (1 - 1e-9));
     expect(plan.dilutions).toEqual([]);
     // fuel last in every tube
@@ -66,7 +66,7 @@ describe('pipetting', () => {
     const plan = planPipetting(small.comps, small.samples, o, ['base'], 'dop', ['fuel']);
     expect(plan.dilutions.map((d) => d.name)).toEqual(['dopant 1:10']);
     const c = traced(plan, small.comps);
-    for (const s of small.samples) for (const [k, v] of Object.entries(s.conc)) expect(Math.abs((c[s.name]![k] ?? 0) - v) / v || 0).toBeLessThan(2e-3);
+    for (const s of small.samples) for (const [k, v] of s.conc) expect(Math.abs((c[s.name]![k] ?? 0) - v) / v || 0).toBeLessThan(2e-3);
     expect(Math.min(...plan.allVolumes)).toBeGreaterThanOrEqual(o.minVolume * (1 - 1e-9));
     // the largest dose still comes from the stock (40 µL), the small ones from the dilution
     const fromOf = (name: string) => plan.samples.find((s) => s.name === name)!.steps.find((x) => x.what === 'dopant')!.from;
