@@ -17,6 +17,13 @@ import { shelfSampleSchema, type ShelfService } from './service.js';
 
 const dose = (desc: string) => quantity(DIMENSIONS.numberDensity, 'positive', desc);
 
+/**
+ * The most dose searches one plan may run: candidates × (1 + Monte Carlo draws).
+ * At about 25–60 ms a search (a dose scan, its refinement and the dose path) this keeps
+ * one request to minutes; a larger one is refused with the count, never truncated.
+ */
+export const PLAN_SEARCH_LIMIT = 20_000;
+
 export const planRequestSchema = z.strictObject({
   name: z.string().min(1).max(200).optional(),
   notes: z.string().max(5000).optional(),
@@ -28,7 +35,10 @@ export const planRequestSchema = z.strictObject({
   conditions: shelfSampleSchema.shape.conditions,
   boundary: z.enum(['stationary', 'oscillatory', 'any', 'restore']),
   dosing: z.enum(['add', 'replace']).default('add'),
-  candidates: z.union([z.literal('all'), z.array(keySchema).min(1).max(50)]).default('all'),
+  candidates: z
+    .union([z.literal('all'), z.array(keySchema).min(1).max(50)])
+    .default('all')
+    .describe(`"all": every active shelf species not in the base, however many (never cut); or up to 50 ids. A plan runs at most ${PLAN_SEARCH_LIMIT} dose searches, candidates × (1 + Monte Carlo draws); above that it is refused with a 400 naming the count.`),
   maxVolumeFraction: z.number().gt(0).max(0.74).optional(),
   maxDensity: dose('largest dopant number density allowed').optional(),
   margin: z.number().min(1).max(100).default(1.25),
@@ -57,12 +67,6 @@ export type PlanRequest = z.output<typeof planRequestSchema>;
 /** The request as sent (before units were read), stored for reruns. */
 export type PlanRequestInput = z.input<typeof planRequestSchema>;
 
-/**
- * The most dose searches one plan may run: candidates × (1 + Monte Carlo draws).
- * At about 25–60 ms a search (a dose scan, its refinement and the dose path) this keeps
- * one request to minutes; a larger one is refused with the count, never truncated.
- */
-export const PLAN_SEARCH_LIMIT = 20_000;
 
 /** Refuse a plan whose work would exceed PLAN_SEARCH_LIMIT, naming the count and the limit. */
 export function checkPlanWork(candidates: number, samples: number, allOfShelf: boolean): void {

@@ -1,7 +1,8 @@
 /** Stored plans: same numbers later after the shelf changes; rerun from the current shelf; list, names, notes. */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { App } from '../../server/http/app.js';
-import { freshApp } from '../helpers/app.js';
+import { PLAN_SEARCH_LIMIT } from '../../server/shelf/plans.js';
+import { freshApp, speciesRecord } from '../helpers/app.js';
 
 let app: App;
 beforeAll(async () => {
@@ -89,5 +90,73 @@ describe('plans', () => {
     const ids = r.json().result.candidates.map((c: { species: string }) => c.species);
     expect(ids).toHaveLength(7);
     expect(ids).not.toContain('ptj-1um-b09');
+  });
+
+  it('every candidate carries its dose path, first onset and warnings; the band its zeros', async () => {
+    const r = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, stateMap: undefined } });
+    expect(r.statusCode).toBe(201);
+    const c = r.json().result.candidates;
+    for (const x of c) {
+      expect(Array.isArray(x.dosePath)).toBe(true);
+      expect(x.dosePath[0].from).toBe(0);
+      expect(x.dosePath[x.dosePath.length - 1].to).toBe(x.cap.density);
+      expect(x.firstOnset === null || typeof x.firstOnset.density === 'number').toBe(true);
+      expect(Array.isArray(x.warnings)).toBe(true);
+      expect(x.band).toMatchObject({ samples: 20, seed: 5 });
+      expect(typeof x.band.alreadyPast).toBe('number');
+      expect(Object.keys(x.band.aboveCap).sort()).toEqual(['median', 'p05', 'p95']);
+    }
+    // the feasible one: its path turns at its threshold (a stationary screen of a one-sign mixture)
+    expect(c[0].firstOnset.density).toBe(c[0].threshold.density);
+    expect(r.json().result.warnings).toEqual([]);
+  });
+
+  it('a state map asked for a plan with no feasible candidate: the plan is stored without the map, with a warning', async () => {
+    const r = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: ['catb-0.22-l04', 'silica-1um-t01'], uncertainty: undefined, probabilityAt: undefined } });
+    expect(r.statusCode).toBe(201);
+    const p = r.json();
+    expect(p.result.candidates.every((c: { feasible: boolean }) => !c.feasible)).toBe(true);
+    expect(p.result.stateMap).toBeNull();
+    expect(p.result.warnings.map((w: { code: string }) => w.code)).toEqual(['no-state-map']);
+    expect((await app.inject({ method: 'GET', url: `/api/plans/${p.id}` })).json().result.warnings[0].message).toMatch(/no candidate crosses/);
+  });
+});
+
+describe('candidates "all" on a shelf of more than 500 species', () => {
+  let big: App;
+  beforeAll(async () => {
+    big = await freshApp({ demo: true });
+    // 600 uncoupled species whose names sort before every demo species (the old cut took the first 500 by name)
+    for (let i = 0; i < 600; i++) {
+      const id = `aa-inert-${String(i).padStart(3, '0')}`;
+      const r = await big.inject({ method: 'POST', url: '/api/species', payload: { record: { ...speciesRecord(id), name: `aa inert ${i}`, couplings: [] } } });
+      if (r.statusCode !== 201) throw new Error(r.body);
+    }
+  });
+  afterAll(async () => {
+    await big.close();
+  });
+
+  it('takes every one of them (none is cut), and finds the feasible one after the first 500', async () => {
+    const r = await big.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: 'all', uncertainty: undefined, probabilityAt: undefined, stateMap: undefined } });
+    expect(r.statusCode).toBe(201);
+    const ids = r.json().result.candidates.map((c: { species: string }) => c.species);
+    expect(ids).toHaveLength(600 + 7);
+    // the feasible ones sort after the 600 by name, so a cut at 500 would have missed them
+    expect(ids.slice(0, 2).sort()).toEqual(['ptj-1um-b07', 'ptj-swim-0.5-s02']);
+    expect(r.json().result.candidates.slice(0, 2).every((c: { feasible: boolean }) => c.feasible)).toBe(true);
+    expect(ids.filter((id: string) => id.startsWith('aa-inert-'))).toHaveLength(600);
+  });
+
+  it('refuses work above the limit with a 400 that names the count and the limit', async () => {
+    const samples = Math.ceil(PLAN_SEARCH_LIMIT / 607);
+    const r = await big.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: 'all', uncertainty: { samples, seed: 1 }, probabilityAt: undefined, stateMap: undefined } });
+    expect(r.statusCode).toBe(400);
+    const [p] = r.json().problems;
+    expect(p.path).toBe('uncertainty.samples');
+    expect(p.message).toContain(`${607 * (1 + samples)} dose searches`);
+    expect(p.message).toContain('607 species');
+    expect(p.message).toContain(`the limit is ${PLAN_SEARCH_LIMIT}`);
+    expect((await big.inject({ method: 'GET', url: '/api/plans' })).json().total).toBe(1);
   });
 });
