@@ -87,6 +87,29 @@ describe('mixture file validation', () => {
   });
 });
 
+describe('conditions: the solvent', () => {
+  const doc = (conditions?: Record<string, unknown>) => ({
+    species: [{ id: 'p', diffusivity: '0.2 um^2/s', radius: '1 um', density: '1e-4 um^-3', materialDensity: '2 g/mL' }],
+    chamber: { walls: 'sealed', length: '1 mm', depth: '100 um' },
+    ...(conditions ? { conditions } : {}),
+  });
+
+  it('reads solventViscosity in any viscosity unit; without it the settling check uses water at the temperature', () => {
+    const m = parseMixture(doc({ solventViscosity: '1.5 mPa*s', solventDensity: '1.1 g/mL' }));
+    expect(m.conditions.solventViscosity).toBeCloseTo(1.5e-3, 15);
+    expect(m.conditions.solventDensity).toBeCloseTo(1100, 9);
+    expect(parseMixture(doc()).conditions.solventViscosity).toBeUndefined();
+    expect(problems(doc({ solventViscosity: '1 mM' }))[0]).toMatch(/^conditions\.solventViscosity: /);
+  });
+
+  it('water density defaults at the temperature (998.21 kg/m³ at 20 °C, CRC table, from memory) and refuses a temperature outside the table', () => {
+    expect(parseMixture(doc({ temperature: '293.15 K' })).conditions.solventDensity).toBeCloseTo(998.21, 6);
+    expect(() => parseMixture(doc({ temperature: '400 K' }))).toThrow(/conditions\.solventDensity: missing: water's density is tabulated from 0 to 100 °C/);
+    // with the density given, 400 K is accepted (the settling check then says it could not run: no viscosity)
+    expect(parseMixture(doc({ temperature: '400 K', solventDensity: '0.94 g/mL' })).conditions.temperature).toBe(400);
+  });
+});
+
 describe('JSON Schema', () => {
   it('the committed server/schema/mixture.schema.json is the generated one', () => {
     const committed = JSON.parse(readFileSync(new URL('../../server/schema/mixture.schema.json', import.meta.url), 'utf8'));
