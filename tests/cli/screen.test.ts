@@ -30,10 +30,48 @@ describe('brink screen', () => {
       expect(x.atMargin.state).toBe('stationary');
       expect(x.window).toBeNull();
     }
+    // every candidate: the dose path over (0, cap], first onset, warnings, and the whole band
+    for (const x of c) {
+      expect(x.dosePath[0].from).toBe(0);
+      expect(x.dosePath[x.dosePath.length - 1].to).toBe(x.cap.density);
+      expect('firstOnset' in x).toBe(true);
+      expect(Array.isArray(x.warnings)).toBe(true);
+      expect(x.band).toMatchObject({ samples: 100, seed: 20261201 });
+      expect(typeof x.band.alreadyPast).toBe('number');
+    }
+    for (const x of c.slice(0, 2)) {
+      expect(x.threshold.alreadyPast).toBe(0);
+      expect(x.threshold.feasibleFraction).toBe(1);
+      expect(x.threshold.aboveCap).toEqual({ median: false, p05: false, p95: false });
+    }
+    // The swimmer turns the washed base oscillatory before it clusters. Routh–Hurwitz on the 2×2 Jacobian at
+    // k₁ = π/L (docs/model.md §5), by hand from the file's values: s₁ = α₁μ₁ρ₁ with ρ₁ = φ/((4/3)π a³),
+    // trace = 0 at x_T = (s₁ + D_c k₁² (D₁ + D₂)) / |α₂ μ₂|, while det > 0 there.
+    const rho1 = 1e-3 / ((4 / 3) * Math.PI * 1e-18);
+    const s1 = -2e-16 * -30e-12 * rho1;
+    const gamma = 1.4e-9 * (Math.PI / 2e-3) ** 2;
+    const xT = (s1 + gamma * (0.22e-12 + 20e-12)) / (3e-16 * 200e-12);
+    const swim = c[0];
+    expect(swim.firstOnset.state).toBe('oscillatory');
+    expect(Math.abs(swim.firstOnset.density / xT - 1)).toBeLessThan(1e-5);
+    expect(swim.dosePath.map((iv: { state: string }) => iv.state)).toEqual(['stable', 'oscillatory', 'stationary']);
+    expect(swim.threshold.density).toBeGreaterThan(xT);
+    expect(swim.warnings.map((w: { code: string }) => w.code)).toContain('earlier-instability');
+    // the Janus batch clusters first: no earlier onset, no warning
+    expect(c[1].firstOnset).toEqual({ density: c[1].threshold.density, state: 'stationary' });
+    expect(c[1].warnings).toEqual([]);
     expect(c[2]).toMatchObject({ feasible: false, reason: 'wrong-sign', threshold: null, atMargin: null });
     expect(c[3]).toMatchObject({ feasible: false, reason: 'no-coupling' });
     // same seed, same numbers
     expect(JSON.parse((await run(['screen', file])).out)).toEqual(out);
+  }, 60_000);
+
+  it('the text format shows the dose path and the warnings', async () => {
+    const r = await run(['screen', file, '--format', 'text']);
+    expect(r.code).toBe(0);
+    expect(r.out).toMatch(/ptj-swim-0\.5-s02: .*\n\s+dose path: stable \(0, [^\]]+\], oscillatory .*first onset oscillatory at/);
+    expect(r.out).toMatch(/warning earlier-instability: the mixture already turns oscillatory/);
+    expect(r.out).toMatch(/already past in 0\.0 % of 100 draws/);
   }, 60_000);
 
   it('bad requests exit 2 naming the field', async () => {
