@@ -2,13 +2,21 @@
  * Measurements on the shelf: store raw data with its fit, and apply a fit to a
  * species as a new revision whose changed values carry provenance pointing to
  * the measurement.
+ *
+ * An applied value is written as a person would type it: in the unit the
+ * species already used for that field (else the unit of the data, else SI),
+ * rounded to the precision its standard error supports — the standard error
+ * to two significant digits and the value to the same decimal place (common
+ * practice, e.g. the GUM's guidance on reporting; from memory), or four
+ * significant digits when there is no standard error.
  */
 import type { FitResult } from '../engine/fit/models.js';
-import type { SpeciesRecord } from '../schema/shelf.js';
+import type { SpeciesRecord, StoredQuantity } from '../schema/shelf.js';
 import { toTypedRecord } from '../schema/shelf.js';
 import { DomainError, InputError } from '../shelf/errors.js';
 import { parseRecord, type ShelfService } from '../shelf/service.js';
 import type { MeasurementsRepository } from '../store/measurements.js';
+import { dimensionOfUnit, formatDimension, fromSI } from '../units/index.js';
 import { parseFitOptions, runFit, type FitMethod, type FitOptions } from './run.js';
 
 export interface ApplyRequest {
@@ -23,6 +31,46 @@ export interface ApplyRequest {
 }
 
 type Typed = Record<string, unknown> & { couplings?: Record<string, unknown>[] };
+
+/** x rounded to the decimal place 10^e, as plain text (no binary noise: 0.217, not 0.21700000000000003). */
+function roundedText(x: number, e: number): string {
+  if (x === 0) return '0';
+  const digits = Math.floor(Math.log10(Math.abs(x))) - e + 1;
+  if (digits < 1) return '0';
+  return String(Number(x.toPrecision(Math.min(digits, 17))));
+}
+
+/**
+ * A fitted value and its standard error (SI) as text in `unit`: the sd to two
+ * significant digits, the value to the same decimal place (at least two
+ * significant digits); four significant digits without an sd.
+ */
+export function formatMeasured(valueSI: number, sdSI: number | null, unit: string): { value: string; sd?: string } {
+  const v = fromSI(valueSI, unit);
+  if (sdSI === null || !(sdSI > 0)) return { value: `${String(Number(v.toPrecision(4)))} ${unit}` };
+  const s = Number(fromSI(sdSI, unit).toPrecision(2));
+  const e = Math.floor(Math.log10(s)) - 1;
+  const ev = v === 0 ? e : Math.min(e, Math.floor(Math.log10(Math.abs(v))) - 1);
+  return { value: `${roundedText(v, ev)} ${unit}`, sd: `${String(s)} ${unit}` };
+}
+
+/** The first unit of `candidates` with the dimension of `siUnit` (a stored field's own unit may be null or odd). */
+function chooseUnit(siUnit: string, candidates: (string | null | undefined)[]): string {
+  const want = formatDimension(dimensionOfUnit(siUnit));
+  for (const u of candidates) {
+    if (!u) continue;
+    try {
+      if (formatDimension(dimensionOfUnit(u)) === want) return u;
+    } catch {
+      // not a unit the reader knows: try the next
+    }
+  }
+  return siUnit;
+}
+
+function storedUnit(x: unknown): string | null {
+  return x !== null && typeof x === 'object' && 'si' in x && 'unit' in x ? ((x as StoredQuantity).unit ?? null) : null;
+}
 
 export function calibrationService(shelf: ShelfService, repo: MeasurementsRepository) {
   return {
@@ -62,14 +110,33 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
         by: m.author,
         measurement: m.id,
       };
-      const value = (name: string) => {
+      const inputUnits = ((fit as { input?: { columns?: { unit: string | null }[] } }).input?.columns ?? []).map((c) => c.unit);
+      const tracks = (fit as { tracks?: unknown }).tracks !== undefined;
+      /** the unit the data were given in, for a parameter of this method */
+      const dataUnit = (name: string): string | null => {
+        const [a, b, c] = inputUnits;
+        if (m.method === 'msd' && name.toLowerCase().includes('diffusivity')) {
+          if (tracks) return b && c ? `${c}^2/${b}` : null;
+          return a && b ? `${b}/${a}` : null;
+        }
+        if (m.method === 'kinetics' && name === 'michaelis') return a ?? null;
+        return null;
+      };
+      const value = (name: string, existing: unknown) => {
         const p = fit.parameters[name];
         if (!p) throw new DomainError('parameter-missing', `measurement ${m.id} has no fitted ${name}`);
         if (/as in the file/.test(p.unit)) {
           throw new DomainError('units-unknown', `the ${name} of measurement ${m.id} is in the file's own units (${p.unit}); refit with units in the header to put it on the shelf`);
         }
-        return { value: `${p.value} ${p.unit}`, sd: `${p.sd} ${p.unit}`, provenance };
+        if (p.atBound) {
+          throw new DomainError('at-bound', `the ${name} of measurement ${m.id} ended on its ${p.atBound} bound (${p.value} ${p.unit}): the data do not determine it, so it cannot go on the shelf`);
+        }
+        const unit = chooseUnit(p.unit, [storedUnit(existing), dataUnit(name)]);
+        const text = formatMeasured(p.value, p.sd, unit);
+        return { value: text.value, ...(text.sd ? { sd: text.sd } : {}), provenance };
       };
+      const curCouplings = (cur.record as { couplings?: { chemical: string; activity?: Record<string, unknown>; mobility?: unknown }[] }).couplings ?? [];
+      const curCoupling = (chemical: string | undefined) => curCouplings.find((x) => x.chemical === chemical);
       const coupling = (chemical: string | undefined): Record<string, unknown> => {
         if (!chemical) throw new InputError([{ path: 'chemical', message: `a ${m.method} fit sets a coupling: name its chemical` }]);
         typed.couplings = typed.couplings ?? [];
@@ -83,7 +150,7 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
       const fields: string[] = [];
       if (m.method === 'msd') {
         const which = req.use ?? 'diffusivity';
-        typed.diffusivity = value(which);
+        typed.diffusivity = value(which, (cur.record as { diffusivity?: unknown }).diffusivity);
         fields.push(`diffusivity (${which})`);
       } else if (m.method === 'kinetics') {
         const c = coupling(req.chemical);
@@ -92,11 +159,12 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
         }
         const old = c.activity as { product?: string | null } | undefined;
         const product = req.product !== undefined ? req.product : old && typeof old === 'object' && 'product' in old ? old.product ?? null : null;
-        c.activity = { maxRate: value('maxRatePerParticle'), michaelis: value('michaelis'), product };
+        const oldActivity = curCoupling(req.chemical)?.activity;
+        c.activity = { maxRate: value('maxRatePerParticle', oldActivity?.maxRate), michaelis: value('michaelis', oldActivity?.michaelis), product };
         fields.push(`couplings[${req.chemical}].activity`);
       } else {
         const c = coupling(req.chemical);
-        c.mobility = value('mobility');
+        c.mobility = value('mobility', curCoupling(req.chemical)?.mobility);
         fields.push(`couplings[${req.chemical}].mobility`);
       }
       const record = parseRecord('species', typed, ['record']);

@@ -28,6 +28,34 @@ describe('fits over HTTP', () => {
     expect((await app.inject({ method: 'GET', url: '/api/species/ptj-1um-b07/measurements' })).json().measurements).toEqual([]);
   });
 
+  it('POST /api/fits/msd with tracked positions: the MSD and its covariance, fitted by GLS', async () => {
+    // Brownian tracks, D = 0.2 um^2/s, seeded (the simulation of tests/engine/fit/simulate.ts)
+    const { simulateTracks, tracksCsv } = await import('../engine/fit/simulate.js');
+    const csv = tracksCsv(simulateTracks({ dims: 2, D: 0.2e-12, v: 0, tau: 1, dt: 0.1, frames: 200, tracks: 40, seed: 77 }));
+    const r = await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: csv, options: { model: 'passive-2d', lags: 10 } } });
+    expect(r.statusCode).toBe(200);
+    const f = r.json();
+    expect(f.weighting).toBe('gls-covariance');
+    expect(f.covarianceSource).toMatch(/per-track time-averaged MSDs \(40 tracks/);
+    expect(f.tracks).toMatchObject({ tracks: 40, positions: 8000, frameInterval: 0.1, units: 'tracks' });
+    const d = f.parameters.diffusivity;
+    expect(Math.abs(d.value - 0.2e-12)).toBeLessThan(4 * d.sd);
+    expect(d.sd).toBeLessThan(0.05 * 0.2e-12);
+    // a regular time grid is required, and the offending line named
+    const bad = csv.replace(/\n1,0\.1000000000,/, '\n1,0.1300000000,');
+    const e = await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: bad, options: { model: 'passive-2d' } } });
+    expect(e.statusCode).toBe(400);
+    expect(e.json().problems[0]).toMatchObject({ path: 'line 3, column 2 (t [s])' });
+    expect(e.json().problems[0].message).toMatch(/regular grid/);
+  });
+
+  it('a table past the row bound is refused with a clear message', async () => {
+    const rows = Array.from({ length: 500_001 }, (_, i) => `${i + 1},1`).join('\n');
+    const r = await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: `lag [s],msd [um^2]\n${rows}\n` } });
+    expect(r.statusCode).toBe(400);
+    expect(r.json().problems[0].message).toBe('at most 500000 data rows in one fit, got 500001');
+  }, 30_000);
+
   it('errors name the line: 400 with problems', async () => {
     const r = await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: 'lag [s],msd [um^2]\n1,x\n' } });
     expect(r.statusCode).toBe(400);
@@ -60,8 +88,17 @@ describe('measurements', () => {
     expect(rev.revision).toBe(cur.revision + 1);
     expect(rev.note).toBe(`applied measurement ${msdId} (msd)`);
     const fitted = (await app.inject({ method: 'GET', url: `/api/measurements/${msdId}` })).json();
-    expect(rev.record.diffusivity.si).toBe(fitted.fit.parameters.diffusivity.value);
-    expect(rev.record.diffusivity.sd).toBe(fitted.fit.parameters.diffusivity.sd);
+    // written in the species' own unit (the demo shelf has "0.22 um^2/s"), rounded by the standard error:
+    // the sd to two significant digits, the value to the same decimal place
+    const fd = fitted.fit.parameters.diffusivity;
+    const sdU = Number((fd.sd * 1e12).toPrecision(2));
+    const place = 10 ** (Math.floor(Math.log10(sdU)) - 1);
+    expect(rev.record.diffusivity.unit).toBe('um^2/s');
+    expect(rev.record.diffusivity.input).toMatch(/^\d\.\d+ um\^2\/s$/);
+    expect(rev.record.diffusivity.sdInput).toBe(`${sdU} um^2/s`);
+    expect(Math.abs(rev.record.diffusivity.si * 1e12 - fd.value * 1e12)).toBeLessThanOrEqual(place / 2 + 1e-12);
+    expect(rev.record.diffusivity.input.split(' ')[0]).toBe(String(Math.round((fd.value * 1e12) / place) * place).slice(0, rev.record.diffusivity.input.split(' ')[0].length));
+    expect(rev.record.diffusivity.sd * 1e12).toBeCloseTo(sdU, 12);
     expect(rev.record.diffusivity.provenance).toMatchObject({ source: 'measured', measurement: msdId, by: 'a student (invented)' });
     expect(rev.record.diffusivity.provenance.reference).toMatch(/b07-msd-2026-11-30\.csv/);
     // other values keep their own provenance
@@ -90,6 +127,18 @@ describe('measurements', () => {
     expect(alone.statusCode).toBe(400);
   });
 
+  it('a fitted value on its bound cannot go on the shelf (422)', async () => {
+    // an MSD that falls with the lag: with a free offset, the best D ≥ 0 is 0 (S is a parabola in D
+    // whose vertex lies at a negative slope), on its bound
+    const flat = 'lag [s],msd [um^2]\n1,0.5\n2,0.45\n3,0.41\n4,0.40\n';
+    const m = (await app.inject({ method: 'POST', url: '/api/species/silica-1um-t01/measurements', payload: { method: 'msd', data: flat, options: { offset: true } } })).json();
+    expect(m.fit.parameters.diffusivity).toMatchObject({ value: 0, sd: null, atBound: 'lower' });
+    const cur = (await app.inject({ method: 'GET', url: '/api/species/silica-1um-t01' })).json();
+    const r = await app.inject({ method: 'POST', url: `/api/measurements/${m.id}/apply`, payload: { baseRevision: cur.revision } });
+    expect(r.statusCode).toBe(422);
+    expect(r.json().code).toBe('at-bound');
+  });
+
   it('a drift fit sets the mobility of the named coupling', async () => {
     const m = (await app.inject({ method: 'POST', url: '/api/species/ptj-1um-b09/measurements', payload: { method: 'drift', data: driftCsv } })).json();
     const cur = (await app.inject({ method: 'GET', url: '/api/species/ptj-1um-b09' })).json();
@@ -99,6 +148,9 @@ describe('measurements', () => {
     const r = (await app.inject({ method: 'POST', url: `/api/measurements/${m.id}/apply`, payload: { baseRevision: cur.revision, chemical: 'h2o2' } })).json();
     const c = r.record.couplings.find((x: { chemical: string }) => x.chemical === 'h2o2');
     expect(c.mobility.si).toBeCloseTo(1.02e-10, 11);
+    // in the coupling's own unit ("-30 um^2/(s*mM)" on the demo shelf): 1.02e-10 m^5/(mol s) = 102 um^2/(s*mM)
+    expect(c.mobility.unit).toBe('um^2/(s*mM)');
+    expect(c.mobility.input).toMatch(/^10\d(\.\d+)? um\^2\/\(s\*mM\)$/);
     expect(c.mobility.provenance.measurement).toBe(m.id);
     expect(c.activity).toEqual(cur.record.couplings[0].activity);
   });
@@ -116,6 +168,7 @@ describe('measurements', () => {
     expect(r.statusCode).toBe(200);
     const a = r.json().record.couplings.find((x: { chemical: string }) => x.chemical === 'glucose').activity;
     expect(a.michaelis.si).toBeCloseTo(30, 6);
+    expect(a.michaelis.unit).toBe('mM'); // the coupling's own unit ("30 mM" on the demo shelf)
     expect(a.maxRate.si / (5e-3 / (1e-5 * 6.02214076e23))).toBeCloseTo(1, 6);
     expect(a.product).toBe('h2o2');
     expect(a.maxRate.provenance.measurement).toBe(m.id);

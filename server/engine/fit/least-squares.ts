@@ -293,6 +293,13 @@ export function leastSquares(pr: LsqProblem): LsqResult {
     if (Number.isFinite(lo[k]!) && q[k]! - lo[k]! <= tol) atBound[i] = 'lower';
     else if (Number.isFinite(hi[k]!) && hi[k]! - q[k]! <= tol) atBound[i] = 'upper';
   });
+  // a parameter on its bound is reported as the bound itself, not a rounding residue beside it
+  free.forEach((i, k) => {
+    if (atBound[i] === 'lower') q[k] = lo[k]!;
+    else if (atBound[i] === 'upper') q[k] = hi[k]!;
+  });
+  p = full(q);
+  S = cost(p);
   const estimatedK = free.map((_, k) => k).filter((k) => atBound[free[k]!] === null);
   const estimated = estimatedK.map((k) => free[k]!);
   const dof = n - estimated.length;

@@ -223,7 +223,11 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
   const c0 = o.offset ? (head?.coef[2] ?? 0) : 0;
   const s1 = tail?.coef[0] ?? msd[n - 1]! / lag[n - 1]!;
   const starts: number[][] = [];
-  const tiny = (x: number) => Math.max(x, 1e-300);
+  // floors on the starting D and v² at 10⁻³ of the data's own scale (a start of zero has no scale to step in)
+  const msdScale = Math.max(...msd.map((y) => Math.abs(y)), 1e-300);
+  const dFloor = (1e-3 * msdScale) / (2 * dimension * lag[n - 1]!);
+  const v2Floor = (1e-3 * msdScale) / lag[n - 1]! ** 2;
+  const tiny = (x: number) => Math.max(x, dFloor);
   if (!active) starts.push(withOffset([tiny(Math.max(a0, s1) / (2 * dimension)), 0], c0));
   else {
     const kappa = longSlopeCoefficient(o.model);
@@ -233,7 +237,7 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
     const span = [lag[0]! / 4, 4 * lag[n - 1]!];
     const tauSlope = v20 > 0 && s1 > a0 ? (s1 - a0) / (kappa * v20) : Math.sqrt(lag[0]! * lag[n - 1]!);
     const tau0 = tauFixed ?? Math.min(span[1]!, Math.max(span[0]!, tauSlope));
-    starts.push(withOffset([tiny(D0), Math.sqrt(tiny(v20)), tau0, 0], c0));
+    starts.push(withOffset([tiny(D0), Math.sqrt(Math.max(v20, v2Floor)), tau0, 0], c0));
     // profile in τ (or just the fixed τ): D, v² (, c) by non-negative linear least squares on whitened columns
     const grid = tauFixed !== undefined ? [tauFixed] : Array.from({ length: 25 }, (_, i) => span[0]! * Math.pow(span[1]! / span[0]!, i / 24));
     const prof = grid
@@ -245,7 +249,7 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
       .filter((r): r is NonNullable<typeof r> => r !== null);
     // local minima of the profile, best first
     const minima = prof.filter((r, i) => (i === 0 || r.cost <= prof[i - 1]!.cost) && (i === prof.length - 1 || r.cost <= prof[i + 1]!.cost)).sort((a, b) => a.cost - b.cost);
-    for (const r of minima.slice(0, 2)) starts.push(withOffset([tiny(r.coef[0]!), Math.sqrt(tiny(r.coef[1]!)), r.tau, 0], r.coef[2] ?? 0));
+    for (const r of minima.slice(0, 2)) starts.push(withOffset([tiny(r.coef[0]!), Math.sqrt(Math.max(r.coef[1]!, v2Floor)), r.tau, 0], r.coef[2] ?? 0));
   }
   const runs = starts.map((start) =>
     leastSquares({
