@@ -38,7 +38,7 @@ export interface FuelCheck {
 
 export interface GasCheck {
   chemical: string;
-  /** Net production Σ_m α_ms ρ_m, mol m⁻³ s⁻¹ */
+  /** Net production Σ_m α_ms ρ_m, mol m⁻³ s⁻¹ (a saturating turnover counts productYield × its fuel rate) */
   productionRate: number;
   /** Saturation concentration, mol m⁻³ */
   solubility: number;

@@ -233,6 +233,12 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     stockFractions.set(ch.id, st.massFraction);
   }
 
+  // A stock given for an id the plan does not pipette is not used: say so.
+  const pipetted = new Set(components.map((c) => c.id));
+  for (const k of Object.keys(req.stocks ?? {})) {
+    if (!pipetted.has(k)) warnings.push({ code: 'unused-stock', message: `the stock given for "${k}" is not used: it is not a species of the plan nor a chemical pipetted on this sheet.` });
+  }
+
   // Samples: the series and the controls.
   // Target concentrations keyed by id: Maps, so that an id such as "constructor" is an ordinary key.
   const fuelConc = new Map(base.chemicals.filter((c) => fuelIds.includes(c.id)).map((c) => [c.id, c.concentration] as const));

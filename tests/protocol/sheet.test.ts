@@ -135,6 +135,29 @@ describe('bench sheet', () => {
   });
 });
 
+describe('bench sheet stocks', () => {
+  it('a stock given for an id the sheet does not pipette is reported as unused, not silently dropped', async () => {
+    const r = await app.inject({ method: 'POST', url: `/api/plans/${planId}/sheet?format=json`, payload: { stocks: { glucose: { molarConcentration: '1 M' } } } });
+    expect(r.statusCode).toBe(200);
+    expect((r.json() as Sheet).warnings.filter((w) => w.code === 'unused-stock').map((w) => w.message)).toEqual([
+      'the stock given for "glucose" is not used: it is not a species of the plan nor a chemical pipetted on this sheet.',
+    ]);
+    expect((await sheet()).warnings.some((w) => w.code === 'unused-stock')).toBe(false);
+  });
+
+  it('the imaging plan gives the first gas to pass its solubility at the margin dose, from the analysis there', async () => {
+    const s = await sheet();
+    // the demo Pt Janus beads make O₂ (constant activities): the sheet restates the margin analysis' gas check
+    const g = s.imaging.gasSaturation!;
+    expect(g.chemical).toBe('o2');
+    expect(g.productionRate.unit).toBe('mM/s');
+    expect(g.solubility).toEqual({ value: 1.3, unit: 'mM' });
+    // (1.3 − 0) mM / production: the time follows from the two numbers shown, to their 4 and 3 figures
+    expect(Math.abs(g.time.value - 1.3 / g.productionRate.value) / g.time.value).toBeLessThan(2e-3);
+    expect(s.imaging.notes.some((n) => /passes its solubility \(1\.3 mM\)/.test(n))).toBe(true);
+  });
+});
+
 describe('hazard editor', () => {
   it('reads and versions hazard data, refusing a stale write', async () => {
     const cur = (await app.inject({ method: 'GET', url: '/api/chemicals/h2o2/hazards' })).json();
