@@ -261,7 +261,10 @@ function refine(samples: Sample[], h: (e: Evaluation) => number, isPast: (e: Eva
     const sv = sign * v;
     const sl = left ? sign * h(left.e) : -Infinity;
     const sr = sign * h(right.e);
-    if (!(sv >= sl && sv >= sr) || (sv === sl && sv === sr)) continue;
+    if (!(sv >= sl && sv >= sr)) continue;
+    // a plateau (flat to rounding, e.g. a branch the dopant does not touch) is not a maximum
+    const noise = 1e-9 * Math.abs(v);
+    if (sv - sl <= noise && sv - sr <= noise) continue;
     const hit = (e: Evaluation) => isPast(e) !== p;
     const r = goldenHunt(at, h, sign, left ? left.x : s.x, right.x, hit, relTol);
     if (r) found.push(r);
