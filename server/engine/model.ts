@@ -103,6 +103,8 @@ export function validateMixture(mix: Mixture): void {
       }
     });
   });
+  const eta = mix.conditions.solventViscosity;
+  if (eta !== undefined && eta !== null && !(eta > 0 && Number.isFinite(eta))) throw new EngineInputError('conditions.solventViscosity', 'must be a finite positive number');
   const ch = mix.chamber;
   if (ch.walls !== 'unbounded' && !(ch.length !== null && ch.length > 0)) {
     throw new EngineInputError('chamber.length', `required (positive) for ${ch.walls} walls`);

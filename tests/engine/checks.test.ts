@@ -57,6 +57,9 @@ describe('sedimentation', () => {
     const r = practicalChecks(hot, null, null);
     expect(r.checks.sedimentation).toEqual([]);
     expect(r.warnings.find((w) => w.code === 'sedimentation-not-checked')).toMatchObject({ species: ['si'] });
+    const bad = mixture([], [species('si', 0.245e-12, 1e14, [])], 'sealed');
+    bad.conditions.solventViscosity = -1e-3;
+    expect(() => analyze(bad)).toThrow(/conditions\.solventViscosity: must be a finite positive number/);
   });
 });
 
