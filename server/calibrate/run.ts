@@ -160,7 +160,7 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
       const { tracks, dt } = readTracks(t, dims);
       const m = engineErrors(() => msdFromTracks(tracks, { dt, lags: o.lags, minLags: (o.model.startsWith('active') ? (o.radius ? 2 : 3) : 1) + (o.offset ? 1 : 0) + 2, ...(o.maxLag ? { maxLagFrames: Math.max(1, Math.round(o.maxLag.value / dt)) } : {}) }));
       const gls = o.weighting === 'gls-covariance';
-      const fit = engineErrors(() => fitMsd(m.lag, m.msd, { ...engineOptions, ...(gls ? { covariance: m.covariance } : {}) }));
+      const fit = engineErrors(() => fitMsd(m.lag, m.msd, { ...engineOptions, ...(gls ? { covariance: m.covariance, covarianceSamples: m.unitCount } : {}) }));
       const notes = [`MSD computed from ${m.tracks} tracks (${m.positions} positions, frame interval ${dt} s) at ${m.lag.length} lags, all overlapping windows.`, ...m.notes];
       if (dims === 2 && t.columns.length >= 5) notes.push('a z column is present but the model is two-dimensional: x and y only were used');
       if (!gls) notes.push('unweighted on purpose (options.weighting): the lags are correlated, so these standard errors understate the uncertainty.');

@@ -116,6 +116,11 @@ export interface MsdOptions {
   sd?: number[];
   /** covariance of the MSD values between lags (m⁴): generalised least squares, taken as absolute */
   covariance?: number[][];
+  /**
+   * number of independent samples (tracks, blocks) the covariance was estimated from: the parameters'
+   * covariance then carries the Dodelson–Schneider factor for a noisy covariance (see fitMsd)
+   */
+  covarianceSamples?: number;
 }
 
 /** Active part of the MSD for speed v and rotation time τ (file header). */
@@ -265,6 +270,20 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
   );
   const best = runs.reduce((a, b) => (b.weightedRss < a.weightedRss ? b : a));
   const r = best;
+  if (o.covariance && o.covarianceSamples !== undefined) {
+    // A covariance estimated from U samples is noisy, and the estimate that uses its inverse scatters
+    // more than (Jᵀ C⁻¹ J)⁻¹ says: by the factor 1 + B (M − p), B = (U − M − 2)/((U − M − 1)(U − M − 4)),
+    // for M data points and p parameters (Dodelson & Schneider 2013, from memory; docs/references.md).
+    const U = o.covarianceSamples;
+    const p = r.estimated.length;
+    if (U - n - 4 > 0) {
+      const B = (U - n - 2) / ((U - n - 1) * (U - n - 4));
+      const factor = 1 + B * (n - p);
+      r.covariance = r.covariance.map((row) => row.map((c) => c * factor));
+      r.estimated.forEach((i) => (r.standardErrors[i] = r.standardErrors[i] === null ? null : r.standardErrors[i]! * Math.sqrt(factor)));
+      notes.push(`standard errors include the factor √${factor.toPrecision(4)} for a covariance estimated from ${U} samples (Dodelson & Schneider 2013).`);
+    } else notes.push(`the covariance comes from only ${U} samples for ${n} points: the standard errors are too small by an unknown factor.`);
+  }
   if (runs.length > 1) {
     const agree = runs.filter((x) => Math.abs(x.weightedRss - best.weightedRss) <= 1e-6 * Math.max(best.weightedRss, 1e-300)).length;
     notes.push(`best of ${runs.length} starts (slope estimates and a profile in the rotation time); ${agree} reached the same minimum.`);

@@ -18,7 +18,9 @@
  * An inverse of an estimated covariance is biased high; the fit uses
  * C × (U − 1)/(U − M − 2) (Hartlap, Simon & Schneider 2007, from memory; see
  * docs/references.md), which needs U ≥ M + 3 and is asked here to keep the
- * factor ≥ 1/2: U ≥ 2M + 4.
+ * factor ≥ 1/2: U ≥ 2M + 4. The fit then widens the parameters' standard
+ * errors by the Dodelson–Schneider factor for a noisy covariance (fitMsd's
+ * `covarianceSamples`).
  *
  * Units: the tracks, when there are enough of them; otherwise every track is
  * cut into blocks of B ≥ 4 × the largest lag frames (windows never cross a
@@ -199,7 +201,7 @@ export function msdFromTracks(tracks: Track[], o: TrackMsdOptions): TrackMsd {
     tracks: usable.length,
     positions,
     hartlapFactor: hartlap,
-    covarianceSource: `empirical covariance between lags of the per-${kind === 'tracks' ? 'track' : 'block'} time-averaged MSDs (${U} ${kind}, ${M} lags), divided by the Hartlap factor ${hartlap.toPrecision(3)}`,
+    covarianceSource: `empirical covariance between lags of the per-${kind === 'tracks' ? 'track' : 'block'} time-averaged MSDs (${U} ${kind}, ${M} lags), divided by the Hartlap factor ${hartlap.toPrecision(3)}; parameter errors widened for the covariance's own noise (Dodelson & Schneider)`,
     notes,
   };
 }
