@@ -9,7 +9,14 @@
  *   POST /api/measurements/:id/apply            write a new species revision from the fit
  *
  * `data` is CSV text (a header row with units in brackets) or a JSON table
- * `{ "lag [s]": [...], "msd [um^2]": [...] }`.
+ * `{ "lag [s]": [...], "msd [um^2]": [...] }`. For msd it may instead hold
+ * tracked positions (`track, t [s], x [um], y [um]`, optional `z [um]`; a
+ * first column named track, or `options.tracks: true`): the MSD and its
+ * covariance between lags come from the tracks and the fit is generalised
+ * least squares (`weighting: "gls-covariance"`, `covarianceSource`, `tracks`);
+ * `options.maxLag`, `options.lags`, `options.weighting: "unweighted"` tune it.
+ * Every fit says how it stopped (`stop`, `converged`) and flags a parameter on
+ * a bound (`atBound`, `sd: null`); at most 500 000 data rows.
  */
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
