@@ -667,7 +667,14 @@ export interface ScreenOptions extends DoseOptions {
   uncertainty?: UncertaintyOptions;
 }
 
-export interface CandidateResult extends DoseSearch {
+/** A candidate's threshold as screened: the dose search's, with whether any dose crosses and the band's numbers beside it. */
+export type ScreenedThreshold = NonNullable<DoseSearch['threshold']> & {
+  anyDose: boolean;
+} & Partial<Pick<ThresholdBand, 'median' | 'p05' | 'p95' | 'aboveCap' | 'feasibleFraction' | 'alreadyPast'>>;
+
+export interface CandidateResult extends Omit<DoseSearch, 'threshold'> {
+  /** As DoseSearch, plus `anyDose` and, with uncertainty, the band's median, p05, p95, aboveCap, feasibleFraction, alreadyPast */
+  threshold: ScreenedThreshold | null;
   rank: number;
   /** Analysis at the threshold dose (the critical mode: wavelength, composition) */
   atThreshold: AnalysisResult | null;
@@ -738,7 +745,14 @@ export function screen(base: Mixture, candidates: Species[], o: ScreenOptions): 
       warnings.push({ code: 'already-past-in-draws', message: `in ${(100 * band.alreadyPast).toFixed(1)} % of the Monte Carlo draws the base alone is already past the boundary (threshold 0).` });
     if (band && r.feasible && (band.aboveCap.median || band.aboveCap.p95))
       warnings.push({ code: 'band-above-cap', message: `the ${band.aboveCap.median ? 'median' : '95 % point'} of the threshold lies above the dose cap: only ${(100 * band.feasibleFraction).toFixed(1)} % of the draws cross at or below it.` });
-    return { ...r, rank: 0, atThreshold, atMargin, band, firstOnset: path.firstOnset, dosePath: path.intervals, pathSearch: path.search, warnings };
+    const threshold: ScreenedThreshold | null = r.threshold
+      ? {
+          ...r.threshold,
+          anyDose: r.anyDose,
+          ...(band ? { median: band.median, p05: band.p05, p95: band.p95, aboveCap: band.aboveCap, feasibleFraction: band.feasibleFraction, alreadyPast: band.alreadyPast } : {}),
+        }
+      : null;
+    return { ...r, threshold, rank: 0, atThreshold, atMargin, band, firstOnset: path.firstOnset, dosePath: path.intervals, pathSearch: path.search, warnings };
   });
   // by the median dose (zeros included) when there is a band, else the threshold; a median above the cap ranks last of the feasible
   const key = (r: CandidateResult) => (!r.feasible ? Infinity : r.band ? (r.band.median ?? Infinity) : r.threshold!.density);

@@ -59,16 +59,7 @@ export function screenOutput(results: CandidateResult[]) {
       feasible: c.feasible,
       reason: c.reason,
       message: c.message,
-      threshold: c.threshold
-        ? {
-            density: c.threshold.density,
-            volumeFraction: c.threshold.volumeFraction,
-            anyDose: c.anyDose,
-            ...(c.band
-              ? { median: c.band.median, p05: c.band.p05, p95: c.band.p95, aboveCap: c.band.aboveCap, feasibleFraction: c.band.feasibleFraction, alreadyPast: c.band.alreadyPast }
-              : {}),
-          }
-        : null,
+      threshold: c.threshold,
       window: c.window,
       method: c.method,
       cap: c.cap,

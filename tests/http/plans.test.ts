@@ -106,6 +106,8 @@ describe('plans', () => {
       expect(typeof x.band.alreadyPast).toBe('number');
       expect(Object.keys(x.band.aboveCap).sort()).toEqual(['median', 'p05', 'p95']);
     }
+    // the same threshold shape as brink screen: the band's numbers beside the dose
+    expect(c[0].threshold).toMatchObject({ anyDose: false, alreadyPast: c[0].band.alreadyPast, feasibleFraction: c[0].band.feasibleFraction, median: c[0].band.median, aboveCap: c[0].band.aboveCap });
     // the feasible one: its path turns at its threshold (a stationary screen of a one-sign mixture)
     expect(c[0].firstOnset.density).toBe(c[0].threshold.density);
     expect(r.json().result.warnings).toEqual([]);
