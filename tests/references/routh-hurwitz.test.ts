@@ -149,6 +149,21 @@ describe('Routh–Hurwitz on two species', () => {
     expect(rel(r.fastestMode.oscillationPeriod!, (2 * Math.PI) / Math.sqrt(det))).toBeLessThan(2e-3);
     expect(r.criteria.oscillatory!.met).toBe(true);
     expect(r.criteria.stationary!.met).toBe(false);
+    // The composition is the eigenvector of the hand J(k₁) for λ = growth + iω (the member with Im λ > 0):
+    // (J − λ)v = 0 checked row by row in complex arithmetic.
+    const lr = r.growthRate;
+    const li = (2 * Math.PI) / r.fastestMode.oscillationPeriod!;
+    const v = r.composition.map((c) => [c.magnitude * Math.cos(c.phase), c.magnitude * Math.sin(c.phase)] as const);
+    expect(r.composition.some((c) => Math.abs(Math.sin(c.phase)) > 1e-3)).toBe(true); // a travelling mode: the species are out of phase
+    const rows = [
+      [pa, pb],
+      [pc, pd],
+    ];
+    for (let m = 0; m < 2; m++) {
+      const re = rows[m]![0]! * v[0]![0] + rows[m]![1]! * v[1]![0] - (lr * v[m]![0] - li * v[m]![1]);
+      const im = rows[m]![0]! * v[0]![1] + rows[m]![1]! * v[1]![1] - (lr * v[m]![1] + li * v[m]![0]);
+      expect(Math.hypot(re, im)).toBeLessThan(1e-9 * (Math.abs(pa) + Math.abs(pb) + Math.abs(pc) + Math.abs(pd)));
+    }
   });
 
   it('a real eigenvalue crosses zero where det J(k₁) = 0 with tr J(k₁) < 0: stationary onset', () => {

@@ -58,7 +58,7 @@ describe('saturating couplings vs a hand-built J(k)', () => {
     }
   });
 
-  it('the growth rate and state of analyze match ml-matrix on the hand J over every mode (brute force) on 60 seeded random mixtures', () => {
+  it('the growth rate, state and mode composition of analyze match ml-matrix on the hand J over every mode (brute force) on 60 seeded random mixtures', () => {
     const rng = new Random(8081);
     const seen = { stable: 0, stationary: 0, oscillatory: 0 };
     for (let t = 0; t < 60; t++) {
@@ -80,6 +80,23 @@ describe('saturating couplings vs a hand-built J(k)', () => {
       const state = best.re < 0 ? 'stable' : best.im > 1e-7 * best.scale ? 'oscillatory' : 'stationary';
       expect(r.state).toBe(state);
       seen[state]++;
+      // The composition is an eigenvector of the hand J at the fastest mode, for λ = growth + iω
+      // (ω = 2π/period, the member of the pair with Im λ > 0), its largest component 1.
+      const J = handJacobian(mix, r.fastestMode.wavenumber);
+      const w = r.fastestMode.oscillationPeriod === null ? 0 : (2 * Math.PI) / r.fastestMode.oscillationPeriod;
+      const v = r.composition.map((c) => [c.magnitude * Math.cos(c.phase), c.magnitude * Math.sin(c.phase)] as const);
+      expect(Math.max(...r.composition.map((c) => c.magnitude))).toBeCloseTo(1, 12);
+      let res = 0;
+      J.forEach((row, m) => {
+        let re = -(r.growthRate * v[m]![0] - w * v[m]![1]);
+        let im = -(r.growthRate * v[m]![1] + w * v[m]![0]);
+        row.forEach((x, n) => {
+          re += x * v[n]![0];
+          im += x * v[n]![1];
+        });
+        res = Math.max(res, Math.hypot(re, im));
+      });
+      expect(res).toBeLessThan(1e-9 * rowNorm(J));
     }
     expect(seen.stable).toBeGreaterThan(5);
     expect(seen.stationary + seen.oscillatory).toBeGreaterThan(5);
