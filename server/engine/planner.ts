@@ -253,20 +253,21 @@ function refine(samples: Sample[], h: (e: Evaluation) => number, isPast: (e: Eva
     const p = isPast(s.e);
     const left = samples[i - 1];
     const right = samples[i + 1];
-    if (!right) continue; // at the cap: the extremum is the cap itself
-    if ((left && isPast(left.e) !== p) || isPast(right.e) !== p) continue; // a crossing the samples already show
+    // interior samples only: at the cap the extremum is the cap itself; below the lowest scan dose nothing is searched
+    if (!left || !right) continue;
+    if (isPast(left.e) !== p || isPast(right.e) !== p) continue; // a crossing the samples already show
     const v = h(s.e);
     if (!Number.isFinite(v)) continue; // the branch is absent here
     const sign: 1 | -1 = p ? -1 : 1;
     const sv = sign * v;
-    const sl = left ? sign * h(left.e) : -Infinity;
+    const sl = sign * h(left.e);
     const sr = sign * h(right.e);
     if (!(sv >= sl && sv >= sr)) continue;
     // a plateau (flat to rounding, e.g. a branch the dopant does not touch) is not a maximum
     const noise = 1e-9 * Math.abs(v);
     if (sv - sl <= noise && sv - sr <= noise) continue;
     const hit = (e: Evaluation) => isPast(e) !== p;
-    const r = goldenHunt(at, h, sign, left ? left.x : s.x, right.x, hit, relTol);
+    const r = goldenHunt(at, h, sign, left.x, right.x, hit, relTol);
     if (r) found.push(r);
   }
   if (found.length === 0) return samples;
