@@ -37,11 +37,22 @@ const dt = 0.05;
 const abp = (t: number, p: number[]) => 4 * p[0]! * t + 2 * p[1]! ** 2 * p[2]! ** 2 * (t / p[2]! + Math.exp(-t / p[2]!) - 1);
 const dir = mkdtempSync(join(tmpdir(), 'brink-msd-'));
 
-async function cli(args: string[]): Promise<{ code: number; out: any; err: string }> {
+interface FitJson {
+  converged: boolean;
+  stop: string;
+  weighting: string;
+  notes: string[];
+  points: number;
+  covarianceSource?: string;
+  tracks: { lagFrames: number[] } & Record<string, unknown>;
+  parameters: Record<'diffusivity' | 'speed' | 'rotationTime' | 'effectiveDiffusivity', { value: number; sd: number | null; atBound?: string }>;
+}
+
+async function cli(args: string[]): Promise<{ code: number; out: FitJson; err: string }> {
   let out = '';
   let err = '';
   const code = await main(args, { out: (t) => (out += t), err: (t) => (err += t) });
-  return { code, out: code === 0 ? JSON.parse(out) : null, err };
+  return { code, out: (code === 0 ? JSON.parse(out) : null) as FitJson, err };
 }
 
 /** RSS of the curve (µm, s as written) at SI parameters p. */
@@ -87,7 +98,7 @@ describe('brink fit msd --model active-2d on a two-column curve (no sd)', () => 
     const bread = inverse(J.transpose().mmul(J));
     const cov = bread.mmul(J.transpose()).mmul(C).mmul(J).mmul(bread);
     const truth = [D, v, tau];
-    ['diffusivity', 'speed', 'rotationTime'].forEach((name, k) => {
+    (['diffusivity', 'speed', 'rotationTime'] as const).forEach((name, k) => {
       const sd = Math.sqrt(cov.get(k, k));
       expect(Math.abs(p[k]! - truth[k]!), `${name}: ${p[k]} vs ${truth[k]} (honest sd ${sd})`).toBeLessThan(4 * sd + 0.03 * truth[k]!);
       expect(sd, name).toBeLessThan(0.1 * truth[k]!); // the check is tight enough to mean something
@@ -110,7 +121,7 @@ describe('brink fit msd --model active-2d on a two-column curve (no sd)', () => 
     const p = [f.parameters.diffusivity.value, f.parameters.speed.value, f.parameters.rotationTime.value];
     expect(rss(lag, written, p)).toBeLessThanOrEqual(rss(lag, written, [D, v, tau]));
     // every parameter is an estimate with a standard error, or flagged on its bound without one
-    for (const name of ['diffusivity', 'speed', 'rotationTime']) {
+    for (const name of ['diffusivity', 'speed', 'rotationTime'] as const) {
       const q = f.parameters[name];
       if (q.atBound) {
         expect(q.sd).toBeNull();
@@ -138,7 +149,7 @@ describe('brink fit msd on tracked positions', () => {
     expect(f.stop).toBe('converged');
     for (const [name, truth] of [['diffusivity', D], ['speed', v], ['rotationTime', tau]] as const) {
       const q = f.parameters[name];
-      expect(Math.abs(q.value - truth), `${name} ${q.value} ± ${q.sd}`).toBeLessThan(4 * q.sd + 0.03 * truth);
+      expect(Math.abs(q.value - truth), `${name} ${q.value} ± ${q.sd}`).toBeLessThan(4 * q.sd! + 0.03 * truth);
     }
   }, 30_000);
 

@@ -25,9 +25,9 @@ describe('Puromycin (Bates & Watts 1988)', () => {
     expect(f.stop).toBe('converged');
     expect(f.weighting).toBe('unweighted');
     expect(sig4(f.parameters.maxRate!.value)).toBe(212.7);
-    expect(sig4(f.parameters.maxRate!.sd)).toBe(6.947);
+    expect(sig4(f.parameters.maxRate!.sd!)).toBe(6.947);
     expect(sig4(f.parameters.michaelis!.value)).toBe(0.06412);
-    expect(Number(f.parameters.michaelis!.sd.toPrecision(3))).toBe(0.00828); // published to three figures
+    expect(Number(f.parameters.michaelis!.sd!.toPrecision(3))).toBe(0.00828); // published to three figures
     expect(sig4(f.residualStandardError)).toBe(10.93);
     expect(f.dof).toBe(10);
     expect(sig4(f.rss)).toBe(1195);
