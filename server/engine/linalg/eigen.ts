@@ -12,7 +12,10 @@
  *    does (tried with ml-matrix 6.15: a 3×3 matrix with one NaN runs until
  *    killed). So a matrix with a non-finite entry is answered
  *    `converged: false` with NaN values without calling it. Non-convergence is
- *    a flag, never a throw.
+ *    a flag, never a throw. (What this cannot catch: a finite matrix on which
+ *    the library's shifted QR cycles without deflating would hang as well. None
+ *    is known for the engine's scaled Jacobians; the identity tests run over a
+ *    thousand seeded random and Jacobian-shaped matrices.)
  *  - **No overflow.** The matrix is divided by a power of two near its largest
  *    entry before the call and the eigenvalues multiplied back (exact in
  *    floating point), so entries near the ends of the double range are safe.
