@@ -128,9 +128,10 @@ describe('brink fit msd --model active-2d on a two-column curve (no sd)', () => 
         expect(f.notes.join(' ')).toMatch(new RegExp(`${name} ended on its ${q.atBound} bound`));
       } else expect(q.sd).toBeGreaterThan(0);
     }
-    // the long-time slope is what one track does determine: D + v²τ/2 within 15 % (one 200 s track
-    // spans 100 τ: the relative scatter of a long-time slope is about √(τ/T) ≈ 10 %, from memory)
-    expect(Math.abs(f.parameters.effectiveDiffusivity.value / (D + (v * v * tau) / 2) - 1)).toBeLessThan(0.25);
+    // No check of the values against the truth here: over 40 seeds of this one-track design the
+    // long-time diffusivity D + v²τ/2 scatters by 23 % (sd, measured), and D is often not resolved
+    // at all (it ends on its bound, honestly flagged, as for this seed). The many-track test above
+    // checks the values.
   }, 60_000);
 });
 
