@@ -1,7 +1,7 @@
 /** Calibration over HTTP: compute-only fits, stored measurements, and applying a fit with provenance. */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { App } from '../../server/http/app.js';
-import { freshApp } from '../helpers/app.js';
+import { freshApp, speciesRecord } from '../helpers/app.js';
 
 let app: App;
 beforeAll(async () => {
@@ -125,6 +125,20 @@ describe('measurements', () => {
     expect(p.speed.value).toBeCloseTo(1e-6, 7);
     const alone = await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data, options: { model: 'active-2d', rotationFromSpeciesRadius: true } } });
     expect(alone.statusCode).toBe(400);
+  });
+
+  it('a species whose value was a bare SI number gets the unit of the data', async () => {
+    const made = await app.inject({ method: 'POST', url: '/api/species', payload: { record: { ...speciesRecord('bare-si-bead'), diffusivity: 2.2e-13, couplings: [] } } });
+    expect(made.statusCode).toBe(201);
+    // lag in ms and MSD in nm^2: the data's unit for a diffusivity is nm^2/ms (1 nm^2/ms = 1e-15 m^2/s)
+    const data = 'lag [ms],msd [nm^2]\n100,90000\n200,176000\n500,441000\n1000,880000\n2000,1770000\n';
+    const m = (await app.inject({ method: 'POST', url: '/api/species/bare-si-bead/measurements', payload: { method: 'msd', data } })).json();
+    const r = await app.inject({ method: 'POST', url: `/api/measurements/${m.id}/apply`, payload: { baseRevision: 1 } });
+    expect(r.statusCode).toBe(200);
+    const d = r.json().record.diffusivity;
+    expect(d.unit).toBe('nm^2/ms');
+    expect(d.input).toMatch(/^2\d\d(\.\d+)? nm\^2\/ms$/); // ≈ 0.22 um^2/s = 220 nm^2/ms
+    expect(d.si / m.fit.parameters.diffusivity.value).toBeCloseTo(1, 2);
   });
 
   it('a fitted value on its bound cannot go on the shelf (422)', async () => {
