@@ -1,7 +1,7 @@
 /**
  * Stored plans:
  *
- *   POST  /api/plans              run and store a screening request
+ *   POST  /api/plans              run and store a screening request (at most PLAN_SEARCH_LIMIT dose searches)
  *   GET   /api/plans              list (newest first)
  *   GET   /api/plans/:id          the stored request, inputs, revisions and results
  *   PATCH /api/plans/:id          rename / annotate { name?, notes? }
@@ -10,7 +10,7 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { planRequestSchema } from '../../shelf/plans.js';
+import { PLAN_SEARCH_LIMIT, planRequestSchema } from '../../shelf/plans.js';
 
 const params = z.object({ id: z.coerce.number().int().min(1) });
 
@@ -18,7 +18,12 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
   const app = base.withTypeProvider<ZodTypeProvider>();
   const tags = ['planner'];
   app.post('/api/plans', {
-    schema: { tags, summary: 'Screen candidate dopants against a base mixture from the shelf, and store the plan', body: planRequestSchema },
+    schema: {
+      tags,
+      summary: 'Screen candidate dopants against a base mixture from the shelf, and store the plan',
+      description: `Every candidate gets its threshold (with the Monte Carlo band's alreadyPast, feasibleFraction and quantiles over all draws), dosePath, firstOnset and warnings. candidates "all" takes every active species not in the base; a plan may run at most ${PLAN_SEARCH_LIMIT} dose searches (candidates × (1 + draws)) and is refused with a 400 above that.`,
+      body: planRequestSchema,
+    },
     // keep the request as sent (units as typed) for reruns; validation then reads the units
     preValidation: (req, _reply, done) => {
       (req as unknown as { sent: unknown }).sent = JSON.parse(JSON.stringify(req.body ?? null));
