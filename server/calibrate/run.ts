@@ -35,9 +35,9 @@ export const fitOptionsSchemas = {
     /** tracks: the largest lag (default a quarter of the median track duration) */
     maxLag: quantity(DIMENSIONS.time, 'positive', 'largest lag time for an MSD from tracks').optional(),
     /** tracks: number of log-spaced lags */
-    lags: z.number().int().min(2).max(TRACKS_MAX_LAGS).default(TRACKS_DEFAULT_LAGS),
+    lags: z.number().int().min(2).max(TRACKS_MAX_LAGS).optional().describe(`number of log-spaced lags (default ${TRACKS_DEFAULT_LAGS})`),
     /** tracks: generalised least squares with the MSD's covariance (default), or equal weights (for comparison only) */
-    weighting: z.enum(['gls-covariance', 'unweighted']).default('gls-covariance'),
+    weighting: z.enum(['gls-covariance', 'unweighted']).optional(),
   }),
   kinetics: z.strictObject({
     particleDensity: quantity(DIMENSIONS.numberDensity, 'positive', 'number density of particles in the assay').optional(),
@@ -158,8 +158,8 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
     if (o.tracks ?? looksLikeTracks(t)) {
       const dims = o.model === 'passive-3d' || o.model === 'active-3d' ? 3 : 2;
       const { tracks, dt } = readTracks(t, dims);
-      const m = engineErrors(() => msdFromTracks(tracks, { dt, lags: o.lags, minLags: (o.model.startsWith('active') ? (o.radius ? 2 : 3) : 1) + (o.offset ? 1 : 0) + 2, ...(o.maxLag ? { maxLagFrames: Math.max(1, Math.round(o.maxLag.value / dt)) } : {}) }));
-      const gls = o.weighting === 'gls-covariance';
+      const m = engineErrors(() => msdFromTracks(tracks, { dt, ...(o.lags !== undefined ? { lags: o.lags } : {}), minLags: (o.model.startsWith('active') ? (o.radius ? 2 : 3) : 1) + (o.offset ? 1 : 0) + 2, ...(o.maxLag ? { maxLagFrames: Math.max(1, Math.round(o.maxLag.value / dt)) } : {}) }));
+      const gls = (o.weighting ?? 'gls-covariance') === 'gls-covariance';
       const fit = engineErrors(() => fitMsd(m.lag, m.msd, { ...engineOptions, ...(gls ? { covariance: m.covariance, covarianceSamples: m.unitCount } : {}) }));
       const notes = [`MSD computed from ${m.tracks} tracks (${m.positions} positions, frame interval ${dt} s) at ${m.lag.length} lags, all overlapping windows.`, ...m.notes];
       if (dims === 2 && t.columns.length >= 5) notes.push('a z column is present but the model is two-dimensional: x and y only were used');
@@ -203,6 +203,8 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
     });
     if (problems.length > 0) throw new InputError(problems);
     const fit = engineErrors(() => fitMsd(lag, msd, { ...engineOptions, ...(sd ? { sd } : {}) }));
+    const tracksOnly = (['maxLag', 'lags', 'weighting'] as const).filter((k) => o[k] !== undefined);
+    if (tracksOnly.length > 0) fit.notes.push(`options ${tracksOnly.join(', ')} apply to tracked positions only; this is an MSD curve, so they were not used.`);
     fit.notes.push(
       `${sd ? 'weighted by 1/sd² lag by lag' : 'unweighted'}: an MSD curve carries no covariance between its lags, and those of overlapping windows are strongly correlated, so the standard errors may understate the uncertainty; fit the tracked positions (track, t, x, y) for honest ones.`,
     );

@@ -55,6 +55,17 @@ describe('columns in SI', () => {
     expect(f.parameters.diffusivity!.value).toBeGreaterThan(0.19e-12);
     expect(f.parameters.diffusivity!.value).toBeLessThan(0.22e-12);
   });
+  it('options meant for tracks are reported as unused on an MSD curve', () => {
+    const f = runFit('msd', good, parseFitOptions('msd', { maxLag: '2 s', lags: 8 }));
+    expect(f.notes.join(' ')).toMatch(/options maxLag, lags apply to tracked positions only/);
+    expect(runFit('msd', good, parseFitOptions('msd', {})).notes.join(' ')).not.toMatch(/tracked positions only/);
+  });
+  it('tracked positions: errors name the line (duplicate times, a track id column read as a number)', () => {
+    const dup = 'track,t [s],x [um],y [um]\n1,0,0,0\n1,0.1,0.1,0\n1,0.1,0.2,0\n';
+    expect(problems('msd', dup)[0]).toEqual({ path: 'line 4, column 2 (t [s])', message: 'track 1 has two positions at the same time' });
+    expect(problems('msd', 'track,t [s],x [um],y [um]\nA,0,0,0\n')[0]).toEqual({ path: 'line 2, column 1 (track)', message: 'not a number: "A"' });
+    expect(problems('msd', 'track,t [s],x [um],y\n1,0,0,0\n1,1,1,1\n')[0]!.message).toMatch(/give the unit of the y in brackets/);
+  });
   it('a JSON table gives the same fit as the CSV', () => {
     const json = { 'lag [s]': [0.1, 0.2, 0.5, 1, 2], 'msd [um^2]': [0.09, 0.17, 0.41, 0.83, 1.61] };
     const a = runFit('msd', good, parseFitOptions('msd', {}));
