@@ -268,7 +268,9 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
       valid: (p) => !active || p[2]! > 0,
     }),
   );
-  const best = runs.reduce((a, b) => (b.weightedRss < a.weightedRss ? b : a));
+  const lowest = runs.reduce((a, b) => (b.weightedRss < a.weightedRss ? b : a));
+  // the lowest residuals win; at the same residuals (to 10⁻⁹), a run that showed convergence
+  const best = lowest.converged ? lowest : (runs.find((x) => x.converged && x.weightedRss <= lowest.weightedRss * (1 + 1e-9)) ?? lowest);
   const r = best;
   if (o.covariance && o.covarianceSamples !== undefined) {
     // A covariance estimated from U samples is noisy, and the estimate that uses its inverse scatters
