@@ -386,8 +386,12 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
   const samples = refine(grid, (e) => measure(e, o.boundary), (e) => past(e, o.boundary), at, relTol);
   const k = samples.findIndex((s) => past(s.e, o.boundary));
   if (k < 0) {
-    if ((o.boundary === 'stationary' || o.boundary === 'any') && !sg.neg) return infeasible(d, cap, 'wrong-sign', o, evaluations);
-    if (o.boundary === 'restore' && !sg.pos) return infeasible(d, cap, 'wrong-sign', o, evaluations);
+    // The sign argument is a proof only for rank one and `add` (one chemical, no crowding or saturation:
+    // adding s_d = α_d μ_d x of one sign moves det J and trace J one way, docs/model.md §3; `replace` also
+    // scales the base down); otherwise say what the search found.
+    const rankOne = o.dosing === 'add' && buildModel(withDose(base, d, 1, 'add')).rankOne;
+    if (rankOne && (o.boundary === 'stationary' || o.boundary === 'any') && !sg.neg) return infeasible(d, cap, 'wrong-sign', o, evaluations);
+    if (rankOne && o.boundary === 'restore' && !sg.pos) return infeasible(d, cap, 'wrong-sign', o, evaluations);
     if (base.crowding) {
       const free = findDose({ ...base, crowding: false }, d, { ...o, scanPoints: Math.min(n, 24) });
       evaluations += free.evaluations;

@@ -164,6 +164,18 @@ describe('infeasibility: every reason', () => {
     const unstable = withDose(calm(), tipper(), 1e15, 'add');
     expect(reason(unstable, tipper(), { boundary: 'restore', dosing: 'add' })).toBe('wrong-sign');
   });
+  it('wrong-sign only where the sign argument is a proof (rank one, add); cross-coupled dopants get what the search found', () => {
+    // Two chemicals: the dopant makes o2 (which the base flees) and climbs or flees h2o2 (which the base eats).
+    // Its α μ on each chemical is zero, so no sign rule applies; the mirror image with μ < 0 does cross.
+    const base = mixture([chemical('h2o2', 1.4e-9, 0, 200), chemical('o2', 2e-9, 0, 0.2)], [species('calm', 0.22e-12, 1e12, [constant('h2o2', -2e-17, 2e-11), constant('o2', 0, 1e-11)])], 'sealed', 2e-3);
+    const flees = species('flees', 0.22e-12, 0, [constant('h2o2', 0, 5e-11), constant('o2', 1e-17, 0)]);
+    const climbs = species('climbs', 0.22e-12, 0, [constant('h2o2', 0, -5e-11), constant('o2', 1e-17, 0)]);
+    expect(reason(base, flees, stat)).toBe('not-found-below-cap');
+    const r = findDose(base, climbs, stat);
+    expect(r.feasible).toBe(true);
+    expect(pastBoundary(withDose(base, climbs, 0.999 * r.threshold!.density, 'add'), 'stationary')).toBe(false);
+    expect(pastBoundary(withDose(base, climbs, 1.001 * r.threshold!.density, 'add'), 'stationary')).toBe(true);
+  });
   it('no-oscillation-possible', () => expect(reason(calm(), tipper(), { boundary: 'oscillatory', dosing: 'add' })).toBe('no-oscillation-possible'));
   it('too-weak-before-cap only where the closed form proves it; the search says not-found-below-cap', () => {
     const weak = species('weak', 0.22e-12, 0, [constant('h2o2', -1e-22, 1e-13)]);
