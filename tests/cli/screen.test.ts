@@ -74,6 +74,19 @@ describe('brink screen', () => {
     expect(r.out).toMatch(/already past in 0\.0 % of 100 draws/);
   }, 60_000);
 
+  it('finds the narrow oscillatory window of seeds/screens/narrow-window.json between two scan doses', async () => {
+    const r = await run(['screen', new URL('../../seeds/screens/narrow-window.json', import.meta.url).pathname]);
+    expect(r.code).toBe(0);
+    const [c] = JSON.parse(r.out).candidates;
+    // Routh–Hurwitz at k₁ = π/L by hand (docs/model.md §5): trace J = 0 at x_T = (s₁ + D_c k₁² (D₁ + D₂)) / |α₂ μ₂|,
+    // s₁ = α₁ μ₁ ρ₁ = (−5e-15)(−1e-10)(3.2e11); the window's far end is where trace² = 4 det (tests/references/planner-reference.test.ts)
+    const xT = (-5e-15 * -1e-10 * 3.2e11 + 1.4e-9 * (Math.PI / 4e-4) ** 2 * (1e-12 + 2.9e-12)) / (6e-18 * 1e-10);
+    expect(c.feasible).toBe(true);
+    expect(Math.abs(c.threshold.density / xT - 1)).toBeLessThan(1e-5);
+    expect(c.window.upTo / c.threshold.density).toBeLessThan(1.554); // narrower than one scan step
+    expect(c.dosePath.map((iv: { state: string }) => iv.state)).toEqual(['stable', 'oscillatory', 'stationary']);
+  }, 60_000);
+
   it('bad requests exit 2 naming the field', async () => {
     const doc = JSON.parse(readFileSync(file, 'utf8'));
     doc.candidates[0].couplings[0].chemical = 'nope';
