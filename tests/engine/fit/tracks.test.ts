@@ -119,6 +119,14 @@ describe('MSD of tracks and its covariance', () => {
     expect(() => msdFromTracks(asTracks(simulateTracks({ dims: 2, D, v: 0, tau: 1, dt: 0.1, frames: 30, tracks: 3, seed: 9 })), { dt: 0.1, lags: 8 })).toThrow(/too few to estimate the covariance/);
   });
 
+  it('tracks are the units from 2M + 4 of them: 20 tracks for 8 lags, and 19 are cut into blocks', () => {
+    const sim = asTracks(simulateTracks({ dims: 2, D, v: 0, tau: 1, dt: 0.1, frames: 200, tracks: 20, seed: 12 }));
+    const at = msdFromTracks(sim, { dt: 0.1, lags: 8 });
+    expect(at.lagFrames).toEqual([1, 2, 3, 5, 9, 16, 29, 50]); // round(50^(i/7)), i = 0…7 (50^(6/7) = 28.6)
+    expect(at.units).toBe('tracks');
+    expect(msdFromTracks(sim.slice(0, 19), { dt: 0.1, lags: 8 }).units).toBe('blocks');
+  });
+
   it('gaps: a window needs both of its frames', () => {
     // one track, frames 0,1,2,4 (3 missing): at lag 1 the pairs (0,1), (1,2); lag 2: (0,2), (2,4); by hand
     const t: Track = { id: 'a', frame: [0, 1, 2, 4], coords: [[0, 1, 3, 4], [0, 0, 0, 0]] };
