@@ -157,10 +157,17 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
         if (!fit.parameters.maxRatePerParticle) {
           throw new DomainError('needs-particle-density', `measurement ${m.id} has no per-particle turnover: refit with the particle density or enzyme concentration of the assay`);
         }
-        const old = c.activity as { product?: string | null } | undefined;
+        const old = c.activity as { product?: string | null; productYield?: number } | undefined;
         const product = req.product !== undefined ? req.product : old && typeof old === 'object' && 'product' in old ? old.product ?? null : null;
+        // The fit measures turnover and Michaelis constant only: a stored stoichiometric yield is kept (when the product is).
+        const productYield = old && typeof old === 'object' && typeof old.productYield === 'number' && product !== null ? old.productYield : undefined;
         const oldActivity = curCoupling(req.chemical)?.activity;
-        c.activity = { maxRate: value('maxRatePerParticle', oldActivity?.maxRate), michaelis: value('michaelis', oldActivity?.michaelis), product };
+        c.activity = {
+          maxRate: value('maxRatePerParticle', oldActivity?.maxRate),
+          michaelis: value('michaelis', oldActivity?.michaelis),
+          product,
+          ...(productYield !== undefined ? { productYield } : {}),
+        };
         fields.push(`couplings[${req.chemical}].activity`);
       } else {
         const c = coupling(req.chemical);

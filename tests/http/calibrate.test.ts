@@ -187,4 +187,18 @@ describe('measurements', () => {
     expect(a.product).toBe('h2o2');
     expect(a.maxRate.provenance.measurement).toBe(m.id);
   });
+
+  it('a kinetics fit keeps the coupling\'s stoichiometric yield (catalase makes half an O2 per H2O2, 2 H2O2 -> 2 H2O + O2)', async () => {
+    const cur = (await app.inject({ method: 'GET', url: '/api/species/catalase-e3' })).json();
+    expect(cur.record.couplings[0].activity.productYield).toBe(0.5);
+    const cs = [5, 10, 20, 40, 80, 160, 320];
+    const data = 'h2o2 [mM],rate [uM/s]\n' + cs.map((c) => `${c},${(2 * c) / (80 + c)}`).join('\n');
+    const m = (await app.inject({ method: 'POST', url: '/api/species/catalase-e3/measurements', payload: { method: 'kinetics', data, options: { enzymeConcentration: '1 nM' } } })).json();
+    const r = await app.inject({ method: 'POST', url: `/api/measurements/${m.id}/apply`, payload: { baseRevision: cur.revision, chemical: 'h2o2' } });
+    expect(r.statusCode).toBe(200);
+    const a = r.json().record.couplings[0].activity;
+    expect(a.product).toBe('o2');
+    expect(a.productYield).toBe(0.5);
+    expect(a.michaelis.si).toBeCloseTo(80, 6);
+  });
 });
