@@ -72,7 +72,8 @@ export interface Sheet {
   shelfRevisions: { role: string; id: string; revision: number; revisionId: number }[];
   prediction: {
     threshold: Amount & { volumeFraction: number };
-    band: { p05: Amount | null; median: Amount | null; p95: Amount | null; samples: number; seed: number } | null;
+    /** Quantiles over every draw (a draw already past counts as dose 0); null = that quantile lies above the dose cap */
+    band: { p05: Amount | null; median: Amount | null; p95: Amount | null; samples: number; seed: number; alreadyPast: number | null; feasibleFraction: number | null } | null;
     referenceDose: Amount;
     atMargin: { state: string; growthTime: Amount | null; wavelength: Amount | null; oscillationPeriod: Amount | null; gathers: string[]; pushedOut: string[] } | null;
   };
@@ -293,6 +294,9 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     fov = L !== null ? Math.min(2 * lambda, L) : 2 * lambda;
     notes.push(L !== null && 2 * lambda >= L ? 'the pattern fills the chamber: image the whole chamber (tile if needed)' : 'a field of view of two wavelengths shows the pattern');
   } else notes.push('the least stable mode is the longest wave: image the whole chamber');
+  // The planner's own warnings on this candidate come first (an earlier instability than the chosen
+  // boundary, draws already past, a band above the cap); plans stored before they existed carry none.
+  for (const w of cand.warnings ?? []) warnings.unshift({ code: w.code, message: w.message });
   if (m) for (const w of m.warnings) warnings.push({ code: w.code, message: w.message });
 
   // Hazards as handled: the stock bottle and the working solution.
@@ -332,7 +336,16 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   const prediction: Sheet['prediction'] = {
     threshold: { ...perMl(cand.threshold.density), volumeFraction: cand.threshold.volumeFraction },
     band: cand.band
-      ? { p05: cand.band.p05 !== null ? perMl(cand.band.p05) : null, median: cand.band.median !== null ? perMl(cand.band.median) : null, p95: cand.band.p95 !== null ? perMl(cand.band.p95) : null, samples: cand.band.samples, seed: cand.band.seed }
+      ? {
+          p05: cand.band.p05 !== null ? perMl(cand.band.p05) : null,
+          median: cand.band.median !== null ? perMl(cand.band.median) : null,
+          p95: cand.band.p95 !== null ? perMl(cand.band.p95) : null,
+          samples: cand.band.samples,
+          seed: cand.band.seed,
+          // plans stored before the band counted already-past draws carry no such field
+          alreadyPast: cand.band.alreadyPast ?? null,
+          feasibleFraction: cand.band.feasibleFraction ?? null,
+        }
       : null,
     referenceDose: perMl(ref),
     atMargin: m

@@ -198,3 +198,22 @@ describe('brink sheet', () => {
     expect(err).toMatch(/no plan 999/);
   });
 });
+
+describe('the planner\'s warnings reach the sheet', () => {
+  it('an earlier instability than the chosen boundary, and a band quantile above the cap, are said in every rendering', async () => {
+    const req = { ...planRequest, candidates: ['ptj-swim-0.5-s02', 'catalase-e3'], uncertainty: { samples: 20, seed: 5 } };
+    const id = (await app.inject({ method: 'POST', url: '/api/plans', payload: req })).json().id;
+    const get = async (candidate: string, format: string) => (await app.inject({ method: 'GET', url: `/api/plans/${id}/sheet?format=${format}&candidate=${candidate}` })).body;
+    // the swimmer turns oscillatory below its stationary threshold (checked by hand in tests/cli/screen.test.ts)
+    const swim = JSON.parse(await get('ptj-swim-0.5-s02', 'json')) as Sheet;
+    const w = swim.warnings.find((x) => x.code === 'earlier-instability');
+    expect(w?.message).toMatch(/oscillatory/);
+    expect(swim.warnings[0]!.code).toBe('earlier-instability');
+    for (const format of ['html', 'md']) expect(await get('ptj-swim-0.5-s02', format)).toContain('oscillatory from');
+    // catalase's 95 % point lies above the dose cap: printed as such, not as a dash
+    const cat = JSON.parse(await get('catalase-e3', 'json')) as Sheet;
+    expect(cat.prediction.band!.p95).toBeNull();
+    expect(cat.prediction.band!.alreadyPast).toBe(0);
+    for (const format of ['html', 'md']) expect(await get('catalase-e3', format)).toContain('above the dose cap');
+  });
+});

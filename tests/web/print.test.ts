@@ -87,7 +87,10 @@ describe('the Planner and Calibrate pages', () => {
     await page.waitForSelector('#results:not([hidden]) tbody tr');
     const rows = await page.$$eval('#results tbody tr', (trs) => trs.map((tr) => Array.from(tr.querySelectorAll('td')).map((td) => td.textContent ?? '')));
     expect(rows.length).toBe(7);
-    expect(rows.find((r) => r[1] === 'silica-1um-t01')![5]).toMatch(/^no-coupling/);
+    // columns: rank, candidate, threshold, band, dose path, at 1.25 ×, why not / sheet, warnings
+    expect(rows.find((r) => r[1] === 'silica-1um-t01')![6]).toMatch(/^no-coupling/);
+    // the first-ranked candidate is stable at small doses and its path names the state past its first boundary
+    expect(rows[0]![4]).toMatch(/^stable → (stationary|oscillatory) from \d/);
     const href = await page.getAttribute('#results tbody tr:first-child a', 'href');
     expect(href).toMatch(/^\/api\/plans\/\d+\/sheet\?format=html&candidate=/);
     const sheet = await page.request.get(`${base}${href}`);
