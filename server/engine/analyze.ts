@@ -1,5 +1,5 @@
 /**
- * Linear stability of a mixture (model.md §5): the state, the fastest mode,
+ * Linear stability of a mixture (docs/model.md §5): the state, the fastest mode,
  * its composition, the long-wavelength criteria as numbers, and the practical
  * checks of §8. Input and output are SI.
  */
@@ -167,7 +167,7 @@ function criteria(mix: Mixture, model: ScaledModel): Criteria {
 /**
  * Linear stability of the well-mixed state of a mixture.
  *
- * Builds J(k) = −k²[𝔇 + diag(ρ⁰) μ G(k) αᵀ] (model.md §3), scans the modes the
+ * Builds J(k) = −k²[𝔇 + diag(ρ⁰) μ G(k) αᵀ] (docs/model.md §3), scans the modes the
  * chamber allows up to a rigorous bound (scan.ts), and reports λ_max, the state
  * (`stable` if λ_max < 0 at every allowed mode; otherwise `stationary` or
  * `oscillatory` after the type of the fastest-growing eigenvalue), the fastest

@@ -2,7 +2,7 @@
  * Hazard banding of hydrogen peroxide at and around each band edge.
  *
  * Source: Regulation (EC) No 1272/2008, Annex VI, index 008-003-00-9 — specific
- * concentration limits as listed in references.md (H271 ≥ 70 %; H272 50–70 %;
+ * concentration limits as listed in docs/references.md (H271 ≥ 70 %; H272 50–70 %;
  * H314 1A ≥ 70 %, 1B 50–70 %; H315 35–50 %; H318 8–50 %; H319 5–8 %; H335 ≥ 35 %;
  * the first four bands confirmed, the rest recalled). Pictogram codes per the UN
  * GHS (GHS03 oxidiser, GHS05 corrosion, GHS07 exclamation mark) and the rule that

@@ -3,7 +3,7 @@
  * practice, no source); intermediate dilutions exactly when a volume would fall
  * below the minimum, never leaving one below it; impossible plans fail with what
  * would fix them. And the molarity of 30 % w/w hydrogen peroxide from its
- * density and molar mass (references.md: 1.11 g/mL at 20 °C from memory,
+ * density and molar mass (docs/references.md: 1.11 g/mL at 20 °C from memory,
  * M = 34.0147 g/mol from standard atomic weights → ≈ 9.79 mol/L).
  */
 import { describe, expect, it } from 'vitest';

@@ -1,7 +1,7 @@
 /**
  * Stokes–Einstein and Stokes–Einstein–Debye.
  *
- * Sources (references.md): D = k_B T/(6π η a) (A. Einstein, Ann. Phys. 17, 549
+ * Sources (docs/references.md): D = k_B T/(6π η a) (A. Einstein, Ann. Phys. 17, 549
  * (1905)); D_r = k_B T/(8π η a³) (P. Debye, *Polar Molecules*, 1929); water
  * viscosity 1.0016 mPa·s at 20 °C and 0.8900 mPa·s at 25 °C (IAPWS 2008 as
  * tabulated in the CRC Handbook — from memory). Check values derived there:
@@ -15,7 +15,7 @@ import { freshApp } from '../helpers/app.js';
 const sig4 = (x: number) => Number(x.toPrecision(4));
 
 describe('Stokes–Einstein(–Debye) in water', () => {
-  it('water viscosity at the tabulated temperatures (from memory, references.md)', () => {
+  it('water viscosity at the tabulated temperatures (from memory, docs/references.md)', () => {
     expect(waterViscosity(293.15)).toBeCloseTo(1.0016e-3, 9);
     expect(waterViscosity(298.15)).toBeCloseTo(0.89e-3, 9);
     // between nodes: monotone and between its neighbours
