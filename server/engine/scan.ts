@@ -304,7 +304,11 @@ export function scanModes(model: ScaledModel, walls: Walls, options: ScanOptions
         if (settled) break;
       }
     }
-    const limitValue = !model.reactionSingular || Math.abs(tiny.maxRe) <= 1e-11 * tiny.scale ? 0 : tiny.maxRe;
+    // One rounding rule for every branch: a value within rounding of 0 at the long-wave end is 0
+    // (otherwise the real branch could report a growth of 1e-16 while the overall growth is 0,
+    // and the stationary predicate would fire below the true onset).
+    const atLimit = (v: number) => (!model.reactionSingular || Math.abs(v) <= 1e-11 * tiny.scale ? (v > -Infinity ? 0 : v) : v);
+    const limitValue = atLimit(tiny.maxRe);
     const fRef = limitValue;
     kHi = Math.sqrt(cutoff(bound, fRef, model));
     kLo = Math.min(kLo, kHi * 1e-4);
@@ -316,7 +320,7 @@ export function scanModes(model: ScaledModel, walls: Walls, options: ScanOptions
     // the curve falls away from it.
     if (best.spec.k < (ks[1] ?? Infinity) || best.spec.maxRe <= limitValue) {
       longWaveLimit = true;
-      const limitSpec: ModeSpectrum = { ...tiny, k: 0, maxRe: limitValue, imAtMax: 0, maxReal: Math.max(tiny.maxReal, limitValue) };
+      const limitSpec: ModeSpectrum = { ...tiny, k: 0, maxRe: limitValue, imAtMax: 0, maxReal: Math.max(atLimit(tiny.maxReal), limitValue), maxComplex: atLimit(tiny.maxComplex) };
       t.best.maxRe = { spec: limitSpec, index: null };
       if (!(t.best.maxReal !== null && t.best.maxReal.spec.maxReal > limitValue)) t.best.maxReal = { spec: limitSpec, index: null };
     }

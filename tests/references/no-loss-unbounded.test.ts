@@ -23,6 +23,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { analyze } from '../../server/engine/analyze.js';
+import { findDose, screen } from '../../server/engine/planner.js';
 import { chemical, constant, mixture, rel, species } from '../helpers/mixtures.js';
 
 const Dc = 1.4e-9; // m²/s
@@ -81,5 +82,24 @@ describe('no-loss unbounded chamber, a self-attracting dopant on a self-repellin
       expect(rel(above.growthRate, expected)).toBeLessThan(1e-6);
       expect(above.fastestMode.wavenumber).toBe(0);
     }
+  });
+
+  // The planner on the same case: the stationary and `any` boundaries, the first onset and the analysis at
+  // the threshold must all agree with the hand x* (the search, not the closed form: two signs of α μ).
+  // Before the long-wave limit applied its rounding rule to every branch, the stationary search stopped
+  // 0.1 % low on a real branch of 1e-16 s⁻¹ (rounding) while the overall growth was 0.
+  it('the planner finds x* for the stationary and any boundaries, and the first onset there', () => {
+    const b = mixture([chemical('c', Dc, 0)], [species('base', base.D, base.rho, [constant('c', base.alpha, base.mu)])], 'unbounded', null);
+    const d = species('dopant', dop.D, 0, [constant('c', dop.alpha, dop.mu)]);
+    for (const boundary of ['stationary', 'any'] as const) {
+      const r = findDose(b, d, { boundary, dosing: 'add', closedForm: false });
+      expect(r.feasible).toBe(true);
+      expect(rel(r.threshold!.density, xStar)).toBeLessThan(2e-6);
+    }
+    const [c] = screen(b, [d], { boundary: 'stationary', dosing: 'add' });
+    expect(rel(c!.firstOnset!.density, xStar)).toBeLessThan(2e-6);
+    expect(c!.firstOnset!.state).toBe('stationary');
+    expect(c!.warnings.map((w) => w.code)).not.toContain('earlier-instability');
+    expect(c!.atThreshold!.state).not.toBe('stable');
   });
 });
