@@ -32,26 +32,44 @@ export interface ApplyRequest {
 
 type Typed = Record<string, unknown> & { couplings?: Record<string, unknown>[] };
 
-/** x rounded to the decimal place 10^e, as plain text (no binary noise: 0.217, not 0.21700000000000003). */
-function roundedText(x: number, e: number): string {
-  if (x === 0) return '0';
-  const digits = Math.floor(Math.log10(Math.abs(x))) - e + 1;
+/**
+ * x rounded to the decimal place 10^e as plain text that keeps its significant trailing zeros
+ * (−2.00e-16, 0.010, 41.30) and that the unit parser reads back: fixed notation for
+ * 10⁻⁵ ≤ |x| < 10⁶ with e ≤ 0, exponential notation otherwise (x.toExponential keeps the zeros;
+ * fixed notation of a value rounded to tens or more would show insignificant zeros as digits).
+ */
+export function roundedText(x: number, e: number): string {
+  const mag = x === 0 ? e : Math.floor(Math.log10(Math.abs(x)));
+  const digits = mag - e + 1;
   if (digits < 1) return '0';
-  return String(Number(x.toPrecision(Math.min(digits, 17))));
+  if (e <= 0 && -e <= 20 && (x === 0 || (Math.abs(x) >= 1e-5 && Math.abs(x) < 1e6))) {
+    const t = x.toFixed(-e);
+    // rounding may carry into a new leading digit (9.96 → 10.0): toFixed already gives the right place
+    return t;
+  }
+  // exponential: the digit count from the place, after rounding (9.96e-16 to place 1e-17 → 9.96e-16; 9.996e-16 → 1.000e-15)
+  let t = x.toExponential(Math.min(Math.max(digits - 1, 0), 100));
+  const carried = Math.floor(Math.log10(Math.abs(Number(t)))) > mag;
+  if (carried) t = Number(t).toExponential(Math.max(digits - 1, 0));
+  return t.replace('e+', 'e');
 }
 
 /**
  * A fitted value and its standard error (SI) as text in `unit`: the sd to two
  * significant digits, the value to the same decimal place (at least two
- * significant digits); four significant digits without an sd.
+ * significant digits); four significant digits without an sd. Trailing zeros
+ * that are significant are kept (−2.00e-16 ± 4.0e-18, 0.010).
  */
 export function formatMeasured(valueSI: number, sdSI: number | null, unit: string): { value: string; sd?: string } {
   const v = fromSI(valueSI, unit);
-  if (sdSI === null || !(sdSI > 0)) return { value: `${String(Number(v.toPrecision(4)))} ${unit}` };
+  if (sdSI === null || !(sdSI > 0)) {
+    const e = v === 0 ? -3 : Math.floor(Math.log10(Math.abs(Number(v.toPrecision(4))))) - 3;
+    return { value: `${roundedText(v, e)} ${unit}` };
+  }
   const s = Number(fromSI(sdSI, unit).toPrecision(2));
   const e = Math.floor(Math.log10(s)) - 1;
   const ev = v === 0 ? e : Math.min(e, Math.floor(Math.log10(Math.abs(v))) - 1);
-  return { value: `${roundedText(v, ev)} ${unit}`, sd: `${String(s)} ${unit}` };
+  return { value: `${roundedText(v, ev)} ${unit}`, sd: `${roundedText(s, e)} ${unit}` };
 }
 
 /** The first unit of `candidates` with the dimension of `siUnit` (a stored field's own unit may be null or odd). */
