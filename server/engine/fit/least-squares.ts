@@ -19,12 +19,18 @@
  * Stopping (the result says which, `stop`):
  *   converged       stationarity was shown: the scale-free gradient test
  *                   max_k |J_kᵀ z| / (‖J_k‖ ‖z‖) ≤ 1e-8 over the parameters
- *                   not held at a bound (the MINPACK "gtol" criterion), or an
- *                   accepted step that changed S or p by no more than rounding,
- *                   or no step lowers S and the Gauss–Newton step predicts a
+ *                   not held at a bound (the MINPACK "gtol" criterion), or
+ *                   no step lowers S (or the last step was too small to
+ *                   matter) and the Gauss–Newton step predicts a
  *                   decrease of at most 10⁻¹⁰ S (rounding in a badly
  *                   conditioned covariance keeps the gradient test from
  *                   reaching 10⁻⁸), or a fit exact to rounding
+ *   small-step      an accepted step changed p by ≤ 10⁻¹² (relative) or S by
+ *                   ≤ 10⁻¹⁵ S, and at the new point neither the gradient test
+ *                   nor the rounding-level predicted decrease holds (a step
+ *                   that small ends the fit but proves no optimum: never
+ *                   reported as converged; when either test holds there, the
+ *                   stop is converged)
  *   no-progress     no step lowers S although the gradient test fails, or
  *                   no derivative could be taken (never reported as converged:
  *                   a fit that accepted no step and showed no vanishing
@@ -51,7 +57,7 @@ export const LSQ_MAX_COVARIANCE_POINTS = 500;
 export const LSQ_DEFAULT_ITERATIONS = 200;
 export const LSQ_MAX_ITERATIONS = 5000;
 
-export type LsqStop = 'converged' | 'no-progress' | 'max-iterations' | 'no-free-parameters';
+export type LsqStop = 'converged' | 'small-step' | 'no-progress' | 'max-iterations' | 'no-free-parameters';
 export type LsqWeighting = 'gls-covariance' | 'weighted' | 'unweighted';
 
 export interface LsqProblem {
@@ -224,6 +230,8 @@ export function leastSquares(pr: LsqProblem): LsqResult {
   let stop: LsqStop = m === 0 ? 'no-free-parameters' : 'max-iterations';
   let it = 0;
   let accepted = 0;
+  // the last accepted step moved p or S by no more than rounding: stop at the next gradient test either way
+  let tinyStep = false;
   for (; it < maxIt && m > 0; it++) {
     const J = jacobian(q);
     const z = whiten(raw(p));
@@ -247,8 +255,14 @@ export function leastSquares(pr: LsqProblem): LsqResult {
     const dGn = solve(A.map((row, a) => row.map((v, b) => (a === b ? v * (1 + 1e-12) + 1e-300 : v))), ga.map((v) => [v]));
     const predicted = dGn ? dGn.reduce((acc, row, a) => acc + row[0]! * ga[a]!, 0) : Infinity;
     const differentiable = act.every((k) => J.some((row) => row[k] !== 0));
+    const roundingLevel = differentiable && predicted <= 1e-10 * S + 1e-28 * yScale;
+    if (tinyStep) {
+      // the last step was too small to matter: an optimum only if the gradient test (above) or the
+      // rounding-level predicted decrease shows it; otherwise stop and say so
+      stop = roundingLevel ? 'converged' : 'small-step';
+      break;
+    }
     let stepped = false;
-    let done = false;
     while (lambda < 1e20) {
       const Al = A.map((row, a) => row.map((v, b) => (a === b ? v * (1 + lambda) + 1e-300 : v)));
       const d = solve(Al, ga.map((v) => [v]))?.map((row) => row[0]!);
@@ -271,19 +285,14 @@ export function leastSquares(pr: LsqProblem): LsqResult {
         lambda = Math.max(lambda / 3, 1e-12);
         accepted++;
         stepped = true;
-        done = small || flat;
+        tinyStep = small || flat;
         break;
       }
       lambda *= 4;
     }
     if (!stepped) {
       // no step lowers S: converged only if none could by more than rounding
-      stop = differentiable && predicted <= 1e-10 * S + 1e-28 * yScale ? 'converged' : 'no-progress';
-      break;
-    }
-    if (done) {
-      stop = 'converged';
-      it++;
+      stop = roundingLevel ? 'converged' : 'no-progress';
       break;
     }
   }

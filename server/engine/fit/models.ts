@@ -58,7 +58,7 @@ export interface FitResult {
   weighting: LsqWeighting;
   /** true only when the optimiser showed stationarity (see `stop`) */
   converged: boolean;
-  /** what ended the fit: converged, no-progress (no step lowered the residuals), max-iterations */
+  /** what ended the fit: converged, small-step (a step too small to matter, stationarity not shown), no-progress (no step lowered the residuals), max-iterations */
   stop: LsqStop;
   iterations: number;
   notes: string[];

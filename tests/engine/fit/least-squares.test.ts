@@ -37,6 +37,47 @@ describe('stop reasons', () => {
     expect(full.parameters[0]).toBeCloseTo(0.7, 8);
   });
 
+  it('a step too small to matter ends the fit as small-step, not converged, when the gradient test fails', () => {
+    // y ≈ −0.01 t fitted by t (p − 1)²: the model cannot go negative, so the best is p = 1, where the
+    // derivative 2 t (p − 1) vanishes. Levenberg–Marquardt then creeps toward 1 by ever smaller steps,
+    // and with one parameter the scale-free gradient test |Jᵀz|/(‖J‖‖z‖) is |cos| of J and z, which is 1
+    // while J ≠ 0 and "a zero column proves nothing" once J = 0 (by hand): stationarity is never shown.
+    const x = [1, 2, 3, 4];
+    const y = [-0.009, -0.022, -0.0295, -0.039];
+    const r = leastSquares({ model: (t, p) => t * (p[0]! - 1) ** 2, x, y, start: [3] });
+    expect(r.acceptedSteps).toBeGreaterThan(0);
+    expect(r.stop).toBe('small-step');
+    expect(r.converged).toBe(false);
+    expect(Math.abs(r.parameters[0]! - 1)).toBeLessThan(1e-6);
+  });
+
+  it('a fit reported converged passes the gradient test at its result, with derivatives taken by hand', () => {
+    // y = b e^(−k t) with relative noise 10⁻⁶ from a start close to the optimum: the last accepted steps
+    // change S by rounding only (the small-step route), and converged must then still mean stationarity:
+    // the Gauss–Newton decrease still available, gᵀ(JᵀJ)⁻¹g with g = Jᵀr, is at rounding level
+    // (≤ 10⁻¹⁰ S, the file's rule, here with a 10× margin for the central differences the fit uses).
+    // Analytic derivatives (by hand): ∂f/∂k = −t b e^(−k t), ∂f/∂b = e^(−k t); the 2 × 2 solve by Cramer's rule.
+    const x = [0, 0.5, 1, 1.5, 2, 3, 4, 5];
+    let seed = 1;
+    const rnd = () => (seed = (seed * 16807) % 2147483647) / 2147483647 - 0.5;
+    let tiny = 0;
+    for (let k = 0; k < 20; k++) {
+      const y = x.map((t) => Math.exp(-0.7 * t) * (1 + 1e-6 * rnd()));
+      const r = leastSquares({ model: (t, p) => p[1]! * Math.exp(-p[0]! * t), x, y, start: [0.7 * (1 + 3e-6 * rnd()), 1] });
+      expect(r.stop).toBe('converged');
+      const [kk, b] = r.parameters as [number, number];
+      const res = x.map((t, i) => y[i]! - b * Math.exp(-kk * t));
+      const [c1, c2] = [x.map((t) => -t * b * Math.exp(-kk * t)), x.map((t) => Math.exp(-kk * t))];
+      const dot = (u: number[], v: number[]) => u.reduce((a, e, i) => a + e * v[i]!, 0);
+      const [a11, a12, a22, g1, g2] = [dot(c1, c1), dot(c1, c2), dot(c2, c2), dot(c1, res), dot(c2, res)];
+      const det = a11 * a22 - a12 * a12;
+      const predicted = (a22 * g1 * g1 - 2 * a12 * g1 * g2 + a11 * g2 * g2) / det;
+      expect(predicted).toBeLessThan(1e-9 * dot(res, res));
+      if (r.acceptedSteps > 0) tiny++;
+    }
+    expect(tiny).toBeGreaterThan(10);
+  });
+
   it('refuses more points than its bound, and an absurd iteration bound', () => {
     const n = LSQ_MAX_POINTS + 1;
     const x = Array.from({ length: n }, (_, i) => i);
