@@ -200,6 +200,9 @@ async function cmdSeed(args: string[], io: Io): Promise<number> {
   return 0;
 }
 
+/** How `brink screen` names the side of the boundary a window holds (its window.stateAbove says what follows). */
+const PAST_WORD = { stationary: 'stationary', oscillatory: 'oscillatory', any: 'unstable', restore: 'stable' } as const;
+
 function cmdScreen(args: string[], io: Io): number {
   const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { format: { type: 'string', default: 'json' } } });
   if (positionals.length !== 1) throw new UsageError('usage: brink screen <request.json> [--format json|text]');
@@ -226,9 +229,12 @@ function cmdScreen(args: string[], io: Io): number {
           ? ` [median ${q(c.band.median)}, 5–95 %: ${q(c.band.p05)} – ${q(c.band.p95)}; crosses by the cap in ${(100 * c.band.feasibleFraction).toFixed(1)} %, already past in ${(100 * c.band.alreadyPast).toFixed(1)} % of ${c.band.samples} draws]`
           : '';
         const at = c.atMargin ? `; at ${req.margin}× : ${c.atMargin.state}, growth ${c.atMargin.growthTime === null ? '—' : duration(c.atMargin.growthTime)}` : '';
-        lines.push(`${String(c.rank).padStart(2)}. ${c.species}: ${t.anyDose ? 'any dose (0⁺)' : `${g(t.density)} m^-3 (φ ${g(t.volumeFraction)})`}${band}${c.window ? `, comes back above ${g(c.window.upTo)} m^-3` : ''}${at}`);
+        lines.push(`${String(c.rank).padStart(2)}. ${c.species}: ${t.anyDose ? 'any dose (0⁺)' : `${g(t.density)} m^-3 (φ ${g(t.volumeFraction)})`}${band}${c.window ? `, ${PAST_WORD[req.boundary]} up to ${g(c.window.upTo)} m^-3, ${c.window.stateAbove} above` : ''}${at}`);
       }
-      if (c.dosePath.length > 0) lines.push(`    dose path: ${c.dosePath.map((iv) => `${iv.state} (${g(iv.from)}, ${g(iv.to)}]`).join(', ')}${c.firstOnset ? `; first onset ${c.firstOnset.state} at ${g(c.firstOnset.density)} m^-3` : ''}`);
+      // one precision for the whole path, enough that every interval's two ends read differently (a stretch just below the cap, say)
+      let p = 3;
+      while (p < 12 && c.dosePath.some((iv) => g(iv.from, p) === g(iv.to, p))) p++;
+      if (c.dosePath.length > 0) lines.push(`    dose path: ${c.dosePath.map((iv) => `${iv.state} (${g(iv.from, p)}, ${g(iv.to, p)}]`).join(', ')}${c.firstOnset ? `; first onset ${c.firstOnset.state} at ${g(c.firstOnset.density)} m^-3` : ''}`);
       for (const w of c.warnings) lines.push(`    warning ${w.code}: ${w.message}`);
     }
     io.out(lines.join('\n') + '\n');

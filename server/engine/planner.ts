@@ -42,6 +42,8 @@ export type ReasonCode =
   | 'base-already-past'
   | 'no-room-under-cap'
   | 'no-coupling'
+  | 'substrate-absent'
+  | 'no-feedback'
   | 'wrong-sign'
   | 'no-oscillation-possible'
   | 'crowding-wins'
@@ -76,8 +78,11 @@ export interface DoseSearch {
    * unbounded chamber without chemical loss, where λ(k → 0⁺) = −α μ x / D_c > 0 for every x > 0.
    */
   anyDose: boolean;
-  /** Dose at which the mixture comes back to its old side of the boundary, if below the cap */
-  window: { upTo: number } | null;
+  /**
+   * Dose at which the mixture comes back to its old side of the boundary, if below the cap, and the
+   * state just above it (e.g. an oscillatory window that turns stationary, still unstable).
+   */
+  window: { upTo: number; stateAbove: State } | null;
   method: 'closed-form' | 'search' | null;
   /** The dose cap used, m⁻³, and why */
   cap: { density: number; limitedBy: 'volume-fraction' | 'max-density' | 'replaced-everything' };
@@ -292,13 +297,73 @@ function signs(d: Species, base: Mixture): { pos: boolean; neg: boolean; coupled
   return { pos: pos || saturating, neg: neg || saturating, coupled };
 }
 
-const fmt = (x: number) => x.toPrecision(3);
+/** A dose as a bench reader reads it: particles per mL (m⁻³ × 10⁻⁶). The numbers of the API stay SI. */
+export const perMl = (x: number) => `${(x * 1e-6).toPrecision(3)} per mL`;
+
+/**
+ * Whether the dopant can feed back on the mixture at all (docs/model.md §2–§3), and which of its
+ * substrates are absent. Its column of J(k) is −k² [D_d e_d + diag(ρ) μ G α_dᵀ] and its density
+ * enters G only through the slopes w_d = ρ_d V K/(K + c_f)² of its saturating couplings. So when
+ * (1) what it makes or consumes at the base levels (α_d at c⁰, which is 0 for a saturating
+ * coupling whose fuel is at 0: A(0) = V·0/(K + 0) = 0) reaches, through R, no chemical that any
+ * species responds to, and (2) no fuel of its saturating couplings is reached by any source (so
+ * δc_f = 0 and the slope w_d multiplies nothing), then, added without crowding, J is block
+ * triangular: the base's eigenvalues at every dose plus the dopant's own −k² D_d < 0. No dose
+ * can move any boundary. A dopant that only follows the others' gradients (mobility) is coupled
+ * (it is in its own row of J) but feeds nothing back.
+ */
+export function feedback(d: Species, base: Mixture): { feedsBack: boolean; absent: string[]; allActivityAbsent: boolean } {
+  const mix = { ...base, species: [...base.species, { ...d, density: 1 }] };
+  const { alpha, mu, reaction } = linearise(mix);
+  const S = base.chemicals.length;
+  const M = mix.species.length;
+  const dIdx = M - 1;
+  const reach = (seeds: number[]): Set<number> => {
+    const seen = new Set(seeds);
+    const stack = [...seeds];
+    while (stack.length > 0) {
+      const t = stack.pop()!;
+      for (let s = 0; s < S; s++) if (s !== t && reaction[s * S + t] !== 0 && !seen.has(s)) {
+        seen.add(s);
+        stack.push(s);
+      }
+    }
+    return seen;
+  };
+  const sourcesOf = (ms: number[]) => {
+    const out: number[] = [];
+    for (let t = 0; t < S; t++) if (ms.some((m) => alpha[m * S + t] !== 0)) out.push(t);
+    return out;
+  };
+  const responds = (s: number) => Array.from({ length: M }, (_, m) => mu[m * S + s] !== 0).some(Boolean);
+  const fromDopant = reach(sourcesOf([dIdx]));
+  const fromAll = reach(sourcesOf(Array.from({ length: M }, (_, m) => m)));
+  const idx = new Map(base.chemicals.map((c, i) => [c.id, i] as const));
+  const fuels = d.couplings.filter((c) => c.activity?.kind === 'saturating').map((c) => idx.get(c.chemical)!);
+  const feedsBack = [...fromDopant].some(responds) || fuels.some((f) => fromAll.has(f));
+  const withActivity = d.couplings.filter((c) => c.activity !== null);
+  const isAbsent = (c: Species['couplings'][number]) => c.activity?.kind === 'saturating' && base.chemicals[idx.get(c.chemical)!]!.concentration === 0;
+  const absent = [...new Set(withActivity.filter(isAbsent).map((c) => c.chemical))];
+  return { feedsBack, absent, allActivityAbsent: withActivity.length > 0 && withActivity.every(isAbsent) };
+}
+
+const listed = (ids: string[]) => (ids.length === 1 ? ids[0]! : `${ids.slice(0, -1).join(', ')} and ${ids[ids.length - 1]}`);
+
+function substrateAbsentMessage(absent: string[]): string {
+  return (
+    `its substrate ${listed(absent)} is absent from the mixture (concentration 0): it turns nothing over, so it makes and consumes nothing here. ` +
+    'Added without crowding it can at most follow the others\' gradients, which leaves every growth rate of the base unchanged (docs/model.md §3): no dose can move the boundary. Add the substrate to the mixture to screen it.'
+  );
+}
 
 const MESSAGES: Record<ReasonCode, (b: Boundary) => string> = {
   'base-already-past': (b) =>
     b === 'restore' ? 'the base mixture is already stable: there is nothing to restore.' : `the base mixture is already past the ${b} boundary without any dopant.`,
   'no-room-under-cap': () => 'the base alone already fills the volume-fraction cap: there is no room to add any dopant (raise maxVolumeFraction or dilute the base).',
-  'no-coupling': () => 'this species neither makes, consumes nor responds to any chemical in the mixture: it cannot move the boundary.',
+  'no-coupling': () => 'this species neither makes, consumes nor responds to any chemical in the mixture: added without crowding, it cannot move the boundary.',
+  'substrate-absent': () => substrateAbsentMessage([]),
+  'no-feedback': () =>
+    'nothing this species makes or consumes here reaches a chemical that any species responds to: it can at most follow the others\' gradients, and added without crowding it leaves every growth rate of the base unchanged (docs/model.md §3): no dose can move the boundary.',
   'wrong-sign': (b) =>
     b === 'restore'
       ? 'this species is self-attracting (activity × mobility < 0 on every chemical it couples to): adding it cannot calm the mixture.'
@@ -348,7 +413,16 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
     return infeasible(d, cap, 'not-found-below-cap', o, evaluations, 'the dose cap is zero: no dose can be searched.');
   }
   const sg = signs(d, base);
-  if (!sg.coupled) return infeasible(d, cap, 'no-coupling', o, evaluations);
+  // Proofs that the dose changes nothing hold only when it is added without crowding: `replace` dilutes
+  // the base and crowding couples every species through excluded volume, so the search decides there.
+  if (o.dosing === 'add' && !base.crowding) {
+    if (!sg.coupled) return infeasible(d, cap, 'no-coupling', o, evaluations);
+    const fb = feedback(d, base);
+    if (!fb.feedsBack) {
+      if (fb.allActivityAbsent) return infeasible(d, cap, 'substrate-absent', o, evaluations, substrateAbsentMessage(fb.absent));
+      return infeasible(d, cap, 'no-feedback', o, evaluations);
+    }
+  }
 
   if (o.boundary === 'stationary' && o.dosing === 'add' && o.closedForm !== false) {
     const cf = stationaryDoseClosedForm(base, d);
@@ -390,8 +464,8 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
     // adding s_d = α_d μ_d x of one sign moves det J and trace J one way, docs/model.md §3; `replace` also
     // scales the base down); otherwise say what the search found.
     const rankOne = o.dosing === 'add' && buildModel(withDose(base, d, 1, 'add')).rankOne;
-    if (rankOne && (o.boundary === 'stationary' || o.boundary === 'any') && !sg.neg) return infeasible(d, cap, 'wrong-sign', o, evaluations);
-    if (rankOne && o.boundary === 'restore' && !sg.pos) return infeasible(d, cap, 'wrong-sign', o, evaluations);
+    if (rankOne && (o.boundary === 'stationary' || o.boundary === 'any') && !sg.neg && sg.pos) return infeasible(d, cap, 'wrong-sign', o, evaluations);
+    if (rankOne && o.boundary === 'restore' && !sg.pos && sg.neg) return infeasible(d, cap, 'wrong-sign', o, evaluations);
     if (base.crowding) {
       const free = findDose({ ...base, crowding: false }, d, { ...o, scanPoints: Math.min(n, 24) });
       evaluations += free.evaluations;
@@ -408,7 +482,9 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
   let window: DoseSearch['window'] = null;
   for (let j = k + 1; j < samples.length; j++) {
     if (!past(samples[j]!.e, o.boundary)) {
-      window = { upTo: bisect((x) => !pred(x), samples[j - 1]!.x, samples[j]!.x, relTol) };
+      const upTo = bisect((x) => !pred(x), samples[j - 1]!.x, samples[j]!.x, relTol);
+      // bisect returns the upper end of its bracket: a dose already back on the old side
+      window = { upTo, stateAbove: at(upTo).state };
       break;
     }
   }
@@ -419,15 +495,16 @@ const ANY_DOSE_CLOSED =
   'any dose crosses (threshold 0⁺): the base sits exactly on the stationary boundary (D_c k₁² + κ + Σ α μ ρ/D = 0, as in an unbounded chamber without chemical loss) and this species is self-attracting, so λ(k → 0⁺) = −α μ x / D_c > 0 for every dose x > 0.';
 
 function anyDoseSearched(floor: number): string {
-  return `any dose crosses (threshold 0⁺): the boundary is past at every scan dose and still at ${fmt(floor)} m⁻³ (10⁻³⁰ of the cap).`;
+  return `any dose crosses (threshold 0⁺): the boundary is past at every scan dose and still at ${perMl(floor)} (10⁻³⁰ of the cap).`;
 }
 
 function notFoundMessage(b: Boundary, n: number, extra: number, lowest: number, cap: number): string {
   const branch = b === 'stationary' ? 'real-eigenvalue' : b === 'oscillatory' ? 'complex-pair' : 'overall';
   return (
-    `the ${b} boundary was not found below the cap (${fmt(cap)} m⁻³) by a search of ${n} doses log-spaced from ${fmt(lowest)} m⁻³` +
-    `${extra > 0 ? ` and ${extra} more` : ''}, with every local extremum of the ${branch} growth between them refined; ` +
-    'this does not prove that no narrower window exists.'
+    `the ${b} boundary was not found below the cap (${perMl(cap)}) by a search of ${n} doses log-spaced from ${perMl(lowest)}` +
+    `${extra > 0 ? ` and ${extra} more` : ''}, with each local extremum of the ${branch} growth between them refined where that branch exists at the scan dose; ` +
+    'a branch absent at the scan doses around a gap (e.g. a complex pair that forms and vanishes again between two of them) is not searched there, ' +
+    'so this does not prove that no narrower window exists.'
   );
 }
 
@@ -471,9 +548,10 @@ export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
   const baseState = at(0).state;
   const n = o.scanPoints ?? 48;
   if (!(cap > 0)) return { intervals: [], baseState, firstOnset: null, search: { doses: 0, refined: 0, lowest: null, floor: null, evaluations } };
-  if (o.dosing === 'add' && !base.crowding && !signs(d, base).coupled) {
-    // An uncoupled dopant added without crowding only adds its own decoupled mode, −k² D_d < 0:
-    // the spectrum of the base is unchanged at every dose (docs/model.md §3), so no scan is needed.
+  if (o.dosing === 'add' && !base.crowding && (!signs(d, base).coupled || !feedback(d, base).feedsBack)) {
+    // An uncoupled dopant, or one that feeds nothing back (its substrate absent, say), added without
+    // crowding only adds its own decoupled mode, −k² D_d < 0: the spectrum of the base is unchanged
+    // at every dose (docs/model.md §3, `feedback`), so no scan is needed.
     return { intervals: [{ from: 0, to: cap, state: baseState }], baseState, firstOnset: null, search: { doses: 0, refined: 0, lowest: null, floor: null, evaluations } };
   }
   let samples = scanDoses(cap, n).map((x) => ({ x, e: at(x) }));
@@ -510,13 +588,36 @@ export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
     const cur = intervals[intervals.length - 1]!.state;
     if (b.e.state !== cur) resolve(a.x, cur, b.x, b.e.state, 0);
   }
-  const onset = baseState === 'stable' ? intervals.find((iv) => iv.state !== 'stable') : undefined;
+  const path = tidyPath(intervals);
+  const onset = baseState === 'stable' ? path.find((iv) => iv.state !== 'stable') : undefined;
   return {
-    intervals,
+    intervals: path,
     baseState,
     firstOnset: onset ? { density: onset.from, state: onset.state } : null,
     search: { doses: n, refined: samples.length - n, lowest: samples[0]!.x, floor, evaluations },
   };
+}
+
+/**
+ * Every interval non-empty (from < to) and neighbours of different states: an empty interval
+ * (a change bisected onto the end of its bracket, e.g. a state that holds only at the cap itself,
+ * where `replace` has replaced the whole base) is dropped, and equal neighbours are merged.
+ * The path still runs from 0 to the cap without gaps.
+ */
+export function tidyPath(raw: DoseInterval[]): DoseInterval[] {
+  const out: DoseInterval[] = [];
+  for (const iv of raw) {
+    if (!(iv.to > iv.from)) continue;
+    const last = out[out.length - 1];
+    if (last && last.state === iv.state) last.to = iv.to;
+    else if (last) out.push({ ...iv, from: last.to });
+    else out.push({ ...iv });
+  }
+  if (out.length > 0 && raw.length > 0) {
+    out[0]!.from = raw[0]!.from;
+    out[out.length - 1]!.to = raw[raw.length - 1]!.to;
+  }
+  return out;
 }
 
 // ---------------------------------------------------------------- uncertainty
@@ -732,18 +833,29 @@ export function screen(base: Mixture, candidates: Species[], o: ScreenOptions): 
       if (r.feasible && r.threshold!.density > on.density * tol) {
         warnings.push({
           code: 'earlier-instability',
-          message: `the mixture already turns ${on.state} from ${fmt(on.density)} m⁻³, below this ${o.boundary} threshold of ${fmt(r.threshold!.density)} m⁻³.`,
+          message: `the mixture already turns ${on.state} from ${perMl(on.density)}, below this ${o.boundary} threshold of ${perMl(r.threshold!.density)}.`,
           onset: on.density,
           state: on.state,
         });
       } else if (!r.feasible && r.reason !== 'base-already-past') {
         warnings.push({
           code: 'earlier-instability',
-          message: `no ${o.boundary} crossing below the cap, but the mixture turns ${on.state} from ${fmt(on.density)} m⁻³.`,
+          message: `no ${o.boundary} crossing below the cap, but the mixture turns ${on.state} from ${perMl(on.density)}.`,
           onset: on.density,
           state: on.state,
         });
       }
+    }
+    const fb = feedback(d, base);
+    if (fb.absent.length > 0 && r.reason !== 'substrate-absent')
+      warnings.push({
+        code: 'substrate-absent',
+        message: `its substrate ${listed(fb.absent)} is absent from the mixture (concentration 0): ${fb.allActivityAbsent ? 'it turns nothing over' : 'those couplings turn nothing over'}.`,
+        chemicals: fb.absent,
+      });
+    if (!fb.feedsBack && (o.dosing === 'replace' || base.crowding)) {
+      const how = [o.dosing === 'replace' ? 'diluting the base it replaces' : null, base.crowding ? 'crowding (excluded volume)' : null].filter(Boolean).join(' and ');
+      warnings.push({ code: 'no-feedback', message: `this species feeds nothing back on the chemicals: whatever this answer shows comes only from ${how}.` });
     }
     const band = o.uncertainty && o.uncertainty.samples > 0 ? thresholdBand(base, d, o, o.uncertainty) : null;
     if (band && band.alreadyPast > 0)

@@ -83,7 +83,7 @@ export function checkPlanWork(candidates: number, samples: number, allOfShelf: b
 
 export interface PlanResult {
   candidates: CandidateResult[];
-  /** What happened other than what was asked (e.g. a state map that could not be drawn) */
+  /** What happened other than what was asked: the shelf's input warnings (e.g. `no-concentration`) first, then the plan's own (e.g. a state map that could not be drawn) */
   warnings: Warning[];
   /** the state map of one candidate, with the bench sheet's default dose series at base factor 1 */
   stateMap: (ReturnType<typeof stateMap> & { candidate: string; doseSeries: number[] }) | null;
@@ -161,7 +161,10 @@ export function planService(shelf: ShelfService, plans: PlansRepository) {
     } else ids = req.candidates;
     checkPlanWork(ids.length, req.uncertainty?.samples ?? 0, req.candidates === 'all');
     const built = shelf.buildMixture({ species: req.base, chemicals: req.chemicals, chamber: req.chamber, crowding: req.crowding, conditions: req.conditions }, ids);
-    const result = runPlan(built.mixture, built.candidates, req);
+    const run = runPlan(built.mixture, built.candidates, req);
+    // what the shelf had to assume (a chemical with no concentration taken as 0, a retired species)
+    // belongs to the answer: the plan's warnings carry it, first, so pages and sheets show it
+    const result: PlanResult = { ...run, warnings: [...built.warnings, ...run.warnings] };
     const revisions = [
       ...built.revisions.species.map((r) => ({ revisionId: r.revisionId, role: 'base' as const })),
       ...built.revisions.candidates.map((r) => ({ revisionId: r.revisionId, role: 'candidate' as const })),
