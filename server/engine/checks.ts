@@ -3,7 +3,9 @@
  * stability result. All numbers SI. Each check returns its numbers whether or
  * not it warns; warnings carry the same numbers.
  *
- * - fuel: lifetime c⁰/|Σ_m α_ms ρ_m| of each consumed chemical;
+ * - fuel: lifetime c⁰/|Σ_m α_ms ρ_m| of each consumed chemical; a consumed chemical at
+ *   c⁰ = 0 is an absent fuel (lifetime 0, `absent`, always warned);
+ * - no-concentration: a chemical whose input gave no concentration (taken as 0);
  * - gas: time until a produced chemical with a solubility passes it,
  *   (c_sat − c⁰)/Σ_m α_ms ρ_m; a saturating turnover makes its product at
  *   `productYield` × the fuel turnover (model.ts), e.g. 0.5 O₂ per H₂O₂ for catalase;
@@ -11,7 +13,9 @@
  *   viscosity, else water at the sample temperature), the time H/v to cross the
  *   depth, and the sedimentation length ℓ = D/v with the species' (effective)
  *   diffusivity (Palacci et al., PRL 105, 088304 (2010) for active colloids;
- *   for a passive particle ℓ = k_B T/(Δρ V g)); warns when ℓ < H;
+ *   for a passive particle ℓ = k_B T/(Δρ V g)); warns when ℓ < H; says so when
+ *   a species has no material density or the chamber no depth (missing data is
+ *   never "no problem");
  * - pattern fit and crowding: wavelength against chamber, field and particle size;
  *   volume fraction against the dilute model.
  *
@@ -32,8 +36,10 @@ export interface FuelCheck {
   chemical: string;
   /** Net consumption |Σ_m α_ms ρ_m|, mol m⁻³ s⁻¹ */
   consumptionRate: number;
-  /** c⁰ / |Σ_m α_ms ρ_m|, s */
+  /** c⁰ / |Σ_m α_ms ρ_m|, s (0 when the fuel is absent) */
   lifetime: number;
+  /** c⁰ = 0 although particles consume it: the fuel is absent, used up at once */
+  absent: boolean;
 }
 
 export interface GasCheck {
@@ -68,6 +74,8 @@ export interface SedimentationCheck {
   sedimentationLength: number;
   /** Passive gravitational height k_B T/(|Δρ| V g), m (independent of η and of activity) */
   gravitationalHeight: number;
+  /** What could not be judged and why (no chamber depth), or null */
+  note: string | null;
 }
 
 export interface PracticalChecks {
@@ -115,9 +123,31 @@ export function practicalChecks(
     mix.species.forEach((sp, m) => {
       net += alpha[m * S + s]! * sp.density;
     });
-    if (net < 0 && c.concentration > 0) {
+    // Consumed by structure, not by the linearised rate: a saturating turnover of an absent fuel is 0.
+    const consumers = mix.species.filter(
+      (sp) => sp.density > 0 && sp.couplings.some((cp) => cp.chemical === c.id && ((cp.activity?.kind === 'constant' && cp.activity.rate < 0) || (cp.activity?.kind === 'saturating' && cp.activity.maxRate > 0))),
+    );
+    if (c.concentrationMissing) {
+      const consumed = consumers.length > 0 && net <= 0;
+      warnings.push({
+        code: 'no-concentration',
+        message: `no concentration given for "${c.id}": taken as 0.${consumed ? ` ${consumers.map((sp) => sp.id).join(', ')} consume${consumers.length === 1 ? 's' : ''} it, so the fuel is absent; give its concentration.` : ''}`,
+        chemical: c.id,
+      });
+    }
+    if (c.concentration === 0 && net <= 0 && consumers.length > 0) {
+      fuel.push({ chemical: c.id, consumptionRate: net === 0 ? 0 : -net, lifetime: 0, absent: true });
+      warnings.push({
+        code: 'fuel-runs-out',
+        message: `${c.id} is absent (concentration 0) although ${consumers.map((sp) => sp.id).join(', ')} consume${consumers.length === 1 ? 's' : ''} it: it is used up at once, so the activity this analysis assumes cannot run; give its concentration.`,
+        chemical: c.id,
+        lifetime: 0,
+        growthTime,
+        duration,
+      });
+    } else if (net < 0 && c.concentration > 0) {
       const lifetime = c.concentration / -net;
-      fuel.push({ chemical: c.id, consumptionRate: -net, lifetime });
+      fuel.push({ chemical: c.id, consumptionRate: -net, lifetime, absent: false });
       const short = growthTime !== null && lifetime < FUEL_GROWTH_TIMES * growthTime;
       const beforeEnd = duration !== null && lifetime < duration;
       if (short || beforeEnd) {
@@ -168,9 +198,14 @@ export function practicalChecks(
   }
   const viscositySource = given !== null ? 'given' : 'water-at-temperature';
   const unchecked: string[] = [];
+  const noMaterialDensity: string[] = [];
+  const noDepth: string[] = [];
   for (const sp of mix.species) {
     volumeFraction += sp.density * sphereVolume(sp.radius);
-    if (sp.materialDensity === null) continue;
+    if (sp.materialDensity === null) {
+      noMaterialDensity.push(sp.id);
+      continue;
+    }
     const dRho = sp.materialDensity - mix.conditions.solventDensity;
     if (dRho === 0) continue;
     if (eta === null) {
@@ -182,6 +217,7 @@ export function practicalChecks(
     const ell = sp.diffusivity / speed;
     const direction = dRho > 0 ? 'settles' : 'rises';
     const timeToCrossDepth = depth !== null ? depth / speed : null;
+    if (depth === null) noDepth.push(sp.id);
     sedimentation.push({
       species: sp.id,
       direction,
@@ -192,6 +228,7 @@ export function practicalChecks(
       timeToCrossDepth,
       sedimentationLength: ell,
       gravitationalHeight: h,
+      note: depth === null ? 'no chamber depth given: the time to cross it and whether the particles settle out of the bulk (ℓ < H) were not judged' : null,
     });
     if (depth !== null && ell < depth) {
       warnings.push({
@@ -211,6 +248,22 @@ export function practicalChecks(
       code: 'sedimentation-not-checked',
       message: `settling of ${unchecked.join(', ')} was not checked: ${etaProblem}; give conditions.solventViscosity.`,
       species: unchecked,
+      missing: 'solventViscosity',
+    });
+  }
+  if (noMaterialDensity.length > 0) {
+    warnings.push({
+      code: 'sedimentation-not-checked',
+      message: `settling of ${noMaterialDensity.join(', ')} was not checked: no materialDensity (the mass density of the particle material) is given; give it (a dissolved molecule that cannot settle needs none).`,
+      species: noMaterialDensity,
+      missing: 'materialDensity',
+    });
+  }
+  if (noDepth.length > 0) {
+    warnings.push({
+      code: 'no-chamber-depth',
+      message: `no chamber depth is given: whether ${noDepth.join(', ')} settle${noDepth.length === 1 ? 's' : ''} out of the bulk was not judged (time to cross the depth and layer thickness against it); give chamber.depth.`,
+      species: noDepth,
     });
   }
 

@@ -9,8 +9,10 @@ export const STANDARD_GRAVITY = 9.80665;
 /** Default temperature, K (25 °C). */
 export const DEFAULT_TEMPERATURE = 298.15;
 /**
- * Density of water at 25 °C, kg m⁻³: 997.047, the IAPWS-95 value as tabulated
- * in the CRC Handbook of Chemistry and Physics (recalled from memory; see
- * docs/references.md). `waterDensity(T)` in transport.ts gives other temperatures.
+ * Density of air-free water at 25 °C and 0.101325 MPa, kg m⁻³: 997.047, the
+ * IAPWS-95 value as tabulated in the CRC Handbook of Chemistry and Physics
+ * (recalled from memory; see docs/references.md). It is also the 25 °C node of
+ * the water density table (`WATER_DENSITY_TABLE` in transport.ts), so the
+ * default solvent density at 25 °C and this constant are one value.
  */
 export const WATER_DENSITY_25C = 997.047;

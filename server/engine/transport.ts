@@ -12,15 +12,17 @@
  *
  * Water density ρ_w(T) is interpolated linearly in the CRC Handbook table of the
  * density of air-free water at 0.101325 MPa (ITS-90), 0–100 °C in 5 K steps —
- * **values recalled from memory**, e.g. 998.21 kg m⁻³ at 20 °C and 997.05 at
- * 25 °C (IAPWS-95 gives 997.047 at 25 °C). tests/references/sedimentation.test.ts
- * checks the table against Kell's 1975 polynomial (an independent recollection).
+ * **values recalled from memory**, e.g. 998.21 kg m⁻³ at 20 °C; the 25 °C node is
+ * WATER_DENSITY_25C = 997.047 (IAPWS-95 via the CRC Handbook, constants.ts), one
+ * value for the table and the constant. A temperature within 1e-9 K of a node
+ * gets the node's value exactly. tests/references/sedimentation.test.ts checks
+ * the table against Kell's 1975 polynomial (an independent recollection).
  *
  *   Stokes settling (Stokes 1851):  v = (2/9) (ρ_p − ρ_w) g a² / η
  *     (the terminal speed of a sphere at low Reynolds number: drag 6π η a v
  *      balances the buoyant weight (ρ_p − ρ_w) (4/3)π a³ g)
  */
-import { BOLTZMANN, STANDARD_GRAVITY } from './constants.js';
+import { BOLTZMANN, STANDARD_GRAVITY, WATER_DENSITY_25C } from './constants.js';
 import { EngineInputError } from './types.js';
 
 /** [°C, mPa·s] — IAPWS 2008 via the CRC Handbook, recalled from memory. */
@@ -44,9 +46,9 @@ export function waterViscosity(T: number): number {
   return Math.exp(Math.log(e0) + f * (Math.log(e1) - Math.log(e0))) * 1e-3;
 }
 
-/** [°C, kg m⁻³] — CRC Handbook density of water (ITS-90), recalled from memory. */
+/** [°C, kg m⁻³] — CRC Handbook density of water (ITS-90), recalled from memory; 25 °C is WATER_DENSITY_25C (IAPWS-95). */
 export const WATER_DENSITY_TABLE: readonly (readonly [number, number])[] = [
-  [0, 999.84], [5, 999.97], [10, 999.7], [15, 999.1], [20, 998.21], [25, 997.05], [30, 995.65],
+  [0, 999.84], [5, 999.97], [10, 999.7], [15, 999.1], [20, 998.21], [25, WATER_DENSITY_25C], [30, 995.65],
   [35, 994.03], [40, 992.22], [45, 990.21], [50, 988.04], [55, 985.69], [60, 983.2], [65, 980.55],
   [70, 977.76], [75, 974.84], [80, 971.79], [85, 968.61], [90, 965.31], [95, 961.89], [100, 958.35],
 ];
@@ -64,12 +66,14 @@ function bracket(tab: readonly (readonly [number, number])[], c: number, what: s
 /**
  * Density of liquid water, kg m⁻³, at temperature T (K), 273.15–373.15 K
  * (linear between the 5 K nodes of the table; the curvature of ρ_w(T) adds at most about 0.03 kg m⁻³ mid-interval).
- * @example waterDensity(298.15) // 997.05
+ * @example waterDensity(298.15) // 997.047 (the table's 25 °C node)
  */
 export function waterDensity(T: number): number {
   const c = T - 273.15;
   const tab = WATER_DENSITY_TABLE;
   const i = bracket(tab, c, 'water density');
+  // at a node (298.15 − 273.15 is not exactly 25 in binary), the node's own value
+  for (const [cn, rn] of [tab[i]!, tab[i + 1]!]) if (Math.abs(c - cn) < 1e-9) return rn;
   const [c0, r0] = tab[i]!;
   const [c1, r1] = tab[i + 1]!;
   return r0 + ((c - c0) / (c1 - c0)) * (r1 - r0);

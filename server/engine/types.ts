@@ -22,6 +22,8 @@ export interface Chemical {
   lossRate: number;
   /** c_s⁰, uniform starting concentration, mol m⁻³, ≥ 0 */
   concentration: number;
+  /** true when the input gave no concentration and 0 was used (the checks warn `no-concentration`, docs/model.md §8) */
+  concentrationMissing?: boolean;
   /** Saturation concentration when the chemical is a gas (O₂ …), mol m⁻³; null when not a gas. */
   solubility: number | null;
   sd?: Uncertainties<'diffusivity' | 'lossRate' | 'concentration' | 'solubility'>;

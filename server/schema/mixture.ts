@@ -9,7 +9,7 @@
  * committed copy in step).
  */
 import { z } from 'zod';
-import { DEFAULT_TEMPERATURE, WATER_DENSITY_25C } from '../engine/constants.js';
+import { DEFAULT_TEMPERATURE } from '../engine/constants.js';
 import { sphereVolume } from '../engine/checks.js';
 import { waterDensity } from '../engine/transport.js';
 import { EngineInputError, type Activity, type Chemical, type Coupling, type Mixture, type Species } from '../engine/types.js';
@@ -43,7 +43,11 @@ const chemicalSchema = z.strictObject({
   name: z.string().optional(),
   diffusivity: quantity(DIMENSIONS.diffusivity, 'positive', 'diffusivity D_s'),
   lossRate: quantity(DIMENSIONS.rate, 'nonnegative', 'first-order bulk loss rate κ_s').optional(),
-  concentration: quantity(DIMENSIONS.concentration, 'nonnegative', 'uniform concentration c_s').optional(),
+  concentration: quantity(
+    DIMENSIONS.concentration,
+    'nonnegative',
+    'uniform starting concentration c_s; optional: absent means 0 (none at the start, right for a product), with a no-concentration warning; a consumed chemical at 0 is an absent fuel (fuel check lifetime 0, fuel-runs-out)',
+  ).optional(),
   solubility: quantity(DIMENSIONS.concentration, 'positive', 'saturation concentration when the chemical is a gas').optional(),
 });
 
@@ -86,7 +90,7 @@ export const chamberSchema = z.strictObject({
 
 export const conditionsSchema = z.strictObject({
   temperature: quantity(DIMENSIONS.temperature, 'positive', 'temperature (default 25 °C)').optional(),
-  solventDensity: quantity(DIMENSIONS.massDensity, 'positive', 'solvent mass density (default water at the temperature, 997.05 kg/m^3 at 25 °C)').optional(),
+  solventDensity: quantity(DIMENSIONS.massDensity, 'positive', 'solvent mass density (default water at the temperature, 997.047 kg/m^3 at 25 °C)').optional(),
   solventViscosity: quantity(DIMENSIONS.viscosity, 'positive', 'solvent viscosity for the settling check (default water at the temperature, 0.89 mPa*s at 25 °C)').optional(),
   duration: quantity(DIMENSIONS.time, 'positive', 'planned observation time').optional(),
   fieldOfView: quantity(DIMENSIONS.length, 'positive', 'width of the imaging field').optional(),
@@ -254,6 +258,8 @@ export function toEngineMixture(m: ParsedMixture): Mixture {
       concentration: c.concentration?.value ?? 0,
       solubility: c.solubility?.value ?? null,
     };
+    // absent: 0 is used and the checks say so (engine/checks.ts, docs/model.md §8)
+    if (c.concentration === undefined) out.concentrationMissing = true;
     const sd = sdOf([
       ['diffusivity', c.diffusivity],
       ['lossRate', c.lossRate],
@@ -279,21 +285,19 @@ export function toEngineChamber(c: z.output<typeof chamberSchema>): Mixture['cha
 
 /**
  * Parsed conditions to the engine's form, with the defaults: 25 °C; water's
- * density at the temperature (transport.ts table; 997.047 kg/m³ at exactly
- * 25 °C, constants.ts) and, for the settling check, water's viscosity there.
+ * density at the temperature (transport.ts table, whose 25 °C node is
+ * WATER_DENSITY_25C = 997.047 kg/m³, constants.ts) and, for the settling check,
+ * water's viscosity there.
  */
 export function toEngineConditions(c: z.output<typeof conditionsSchema> | undefined): Mixture['conditions'] {
   const temperature = c?.temperature?.value ?? DEFAULT_TEMPERATURE;
   let solventDensity = c?.solventDensity?.value;
   if (solventDensity === undefined) {
-    if (temperature === DEFAULT_TEMPERATURE) solventDensity = WATER_DENSITY_25C;
-    else {
-      try {
-        solventDensity = waterDensity(temperature);
-      } catch (e) {
-        if (!(e instanceof EngineInputError)) throw e;
-        throw new EngineInputError('conditions.solventDensity', `missing: water's density is tabulated from 0 to 100 °C only; give the solvent density at ${(temperature - 273.15).toFixed(1)} °C`);
-      }
+    try {
+      solventDensity = waterDensity(temperature);
+    } catch (e) {
+      if (!(e instanceof EngineInputError)) throw e;
+      throw new EngineInputError('conditions.solventDensity', `missing: water's density is tabulated from 0 to 100 °C only; give the solvent density at ${(temperature - 273.15).toFixed(1)} °C`);
     }
   }
   const out: Mixture['conditions'] = {

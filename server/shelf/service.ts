@@ -226,9 +226,12 @@ export function shelfService(repo: ShelfRepository) {
         const rev = repo.get<ChemicalRecord>('chemical', k);
         if (!rev) continue; // reported above, or a dangling reference caught at write time
         const c = given.get(k);
-        chemicals.push(engineChemical(rev.record, c?.value ?? 0, c?.sd ?? 0));
+        const ch = engineChemical(rev.record, c?.value ?? 0, c?.sd ?? 0);
+        // no concentration given: 0 is used and the engine's checks say so (`no-concentration`,
+        // engine/checks.ts), in every analysis of this sample, plans and sheets included
+        if (c === undefined) ch.concentrationMissing = true;
+        chemicals.push(ch);
         usedChemicals.push({ id: rev.id, revision: rev.revision, revisionId: rev.revisionId });
-        if (c === undefined) warnings.push({ code: 'no-concentration', message: `no concentration given for "${k}": taken as 0.`, chemical: k });
       }
       if (problems.length > 0) throw new InputError(problems);
       const mixture: Mixture = {

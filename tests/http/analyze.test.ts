@@ -33,8 +33,8 @@ describe('POST /api/analyze', () => {
     expect(r.body.fastestMode).toMatchObject({ index: 1 });
     expect(r.body.revisions.species).toEqual([{ id: 'ptj-1um-b07', revision: 1, revisionId: expect.any(Number) }]);
     expect(r.body.revisions.chemicals.map((c: { id: string }) => c.id)).toEqual(['h2o2', 'o2']);
-    // o2 was not given: taken as 0, said so
-    expect(r.body.warnings.map((w: { code: string }) => w.code)).toContain('no-concentration');
+    // o2 was not given: taken as 0, said so once (by the engine, not again by the shelf)
+    expect(r.body.warnings.filter((w: { code: string }) => w.code === 'no-concentration').map((w: { chemical: string }) => w.chemical)).toEqual(['o2']);
     // the same numbers as the engine on the mixture it reports
     expect(r.body.growthRate).toBe(analyze(r.body.mixture).growthRate);
   });
@@ -88,5 +88,23 @@ describe('POST /api/analyze', () => {
     });
     expect(r.statusCode).toBe(200);
     expect(r.json().state).toBe('stable');
+  });
+});
+
+describe('POST /api/analyze/mixture: a fuel with no concentration', () => {
+  it('warns no-concentration and fuel-runs-out, and the fuel check says the fuel is absent', async () => {
+    const doc = {
+      chemicals: [{ id: 'h2o2', diffusivity: '1.4e-9 m^2/s' }],
+      species: [{ id: 'pt', diffusivity: '0.22 um^2/s', radius: '1 um', volumeFraction: '0.1 percent', couplings: [{ chemical: 'h2o2', activity: '-2e-16 mol/s', mobility: '50 um^2/(s*mM)' }] }],
+      chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' },
+    };
+    const r = await app.inject({ method: 'POST', url: '/api/analyze/mixture', payload: doc });
+    expect(r.statusCode).toBe(200);
+    const codes = r.json().warnings.map((w: { code: string }) => w.code);
+    expect(codes).toContain('no-concentration');
+    expect(codes).toContain('fuel-runs-out');
+    expect(r.json().checks.fuel).toEqual([{ chemical: 'h2o2', consumptionRate: expect.any(Number), lifetime: 0, absent: true }]);
+    // |α| ρ by hand: 2e-16 mol/s × 0.001/((4/3)π (1e-6 m)³) = 2e-16 × 2.3873e14 = 4.7746e-2 mol m⁻³ s⁻¹
+    expect(r.json().checks.fuel[0].consumptionRate).toBeCloseTo(4.7746e-2, 5);
   });
 });

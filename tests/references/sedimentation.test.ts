@@ -23,7 +23,7 @@
 import { describe, expect, it } from 'vitest';
 import { practicalChecks } from '../../server/engine/checks.js';
 import { WATER_DENSITY_25C } from '../../server/engine/constants.js';
-import { stokesEinstein, stokesEinsteinDebye, stokesSettlingSpeed, waterDensity } from '../../server/engine/transport.js';
+import { stokesEinstein, stokesEinsteinDebye, stokesSettlingSpeed, WATER_DENSITY_TABLE, waterDensity } from '../../server/engine/transport.js';
 import type { Mixture } from '../../server/engine/types.js';
 import { parseMixture } from '../../server/schema/mixture.js';
 import { mixture, rel, species } from '../helpers/mixtures.js';
@@ -126,6 +126,24 @@ describe('the warning threshold ℓ < depth, both sides', () => {
 describe('water density', () => {
   it('the constant is the IAPWS-95 value at 25 °C (997.047 kg/m³, from memory)', () => {
     expect(WATER_DENSITY_25C).toBe(997.047);
+  });
+
+  it('one value at 25 °C: the table node, waterDensity(298.15) and the mixture default are the constant', () => {
+    // IAPWS-95 via the CRC Handbook (from memory): 997.047 kg/m³ at 25 °C, 0.101325 MPa
+    expect(WATER_DENSITY_TABLE.find(([c]) => c === 25)![1]).toBe(997.047);
+    expect(waterDensity(298.15)).toBe(997.047);
+    const sample = (conditions?: object) => ({
+      species: [{ id: 'p', diffusivity: '1 um^2/s', radius: '1 um', density: '1e-4 um^-3' }],
+      chamber: { walls: 'sealed', length: '1 mm' },
+      ...(conditions ? { conditions } : {}),
+    });
+    expect(parseMixture(sample()).conditions.solventDensity).toBe(997.047);
+    expect(parseMixture(sample({ temperature: '25 degC' })).conditions.solventDensity).toBe(997.047);
+    // both sides of the node stay on the table's line: within 2.4e-4 kg/m³ per mK of slope (998.21 − 997.047)/5 K
+    expect(Math.abs(waterDensity(298.15 - 1e-3) - 997.047)).toBeLessThan(3e-4);
+    expect(Math.abs(waterDensity(298.15 + 1e-3) - 997.047)).toBeLessThan(3e-4);
+    expect(waterDensity(298.15 - 1e-3)).toBeGreaterThan(997.047);
+    expect(waterDensity(298.15 + 1e-3)).toBeLessThan(997.047);
   });
 
   it('the CRC table agrees with Kell (1975) within 0.02 kg/m³ at its nodes and 0.05 between them', () => {
