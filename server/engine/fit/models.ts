@@ -126,8 +126,12 @@ export interface MsdOptions {
 /** Active part of the MSD for speed v and rotation time τ (file header). */
 function activePart(model: MsdModel, t: number, v: number, tau: number): number {
   const u = t / tau;
-  // series for small u avoids cancellation in e^(−u) − 1 + u
-  const em1 = (k: number) => (k * u < 1e-4 ? (k * u) ** 2 / 2 - (k * u) ** 3 / 6 : Math.expm1(-k * u) + k * u);
+  // series for small u avoids cancellation in e^(−u) − 1 + u; through the fourth power the
+  // truncation is (ku)³/60 of the value, below 2·10⁻¹⁴ at the switch ku = 10⁻⁴
+  const em1 = (k: number) => {
+    const w = k * u;
+    return w < 1e-4 ? w * w * (0.5 - w / 6 + (w * w) / 24) : Math.expm1(-w) + w;
+  };
   if (model === 'active-2d') return 2 * v * v * tau * tau * em1(1);
   if (model === 'active-3d') return ((v * v * tau * tau) / 2) * em1(2);
   return ((v * v * tau * tau) / 3) * em1(2);
@@ -142,6 +146,25 @@ function activePart(model: MsdModel, t: number, v: number, tau: number): number 
  */
 function longSlopeCoefficient(model: MsdModel): number {
   return model === 'active-2d' ? 2 : model === 'active-3d' ? 1 : 2 / 3;
+}
+
+/**
+ * The MSD of a model at lag t (s) for diffusivity D (m²/s), speed v (m/s), rotation time τ (s) and
+ * offset c (m²): the forms of the file header, as the fit evaluates them.
+ */
+export function msdCurve(model: MsdModel, t: number, D: number, v = 0, tau = 1, c = 0): number {
+  const dimension = model === 'passive-3d' || model === 'active-3d' ? 3 : 2;
+  return 2 * dimension * D * t + (model.startsWith('active') ? activePart(model, t, v, tau) : 0) + c;
+}
+
+/**
+ * Long-time (effective) diffusivity in the observed dimensions: D + v²τ/2 in 2D, D + v²τ/6 in 3D
+ * and in a focal plane (longSlopeCoefficient); D for a passive model.
+ */
+export function effectiveDiffusivity(model: MsdModel, D: number, v = 0, tau = 1): number {
+  if (!model.startsWith('active')) return D;
+  const dimension = model === 'active-3d' ? 3 : 2;
+  return D + (longSlopeCoefficient(model) / (2 * dimension)) * v * v * tau;
 }
 
 /**
@@ -204,7 +227,7 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
   const weights = o.sd ? o.sd.map((s) => 1 / (s * s)) : undefined;
   const { whiten } = whitener(n, o.covariance ? undefined : weights, o.covariance);
   const wy = whiten(msd);
-  const model = (t: number, p: number[]) => (active ? 2 * dimension * p[0]! * t + activePart(o.model, t, p[1]!, p[2]!) + p[3]! : 2 * dimension * p[0]! * t + p[1]!);
+  const model = (t: number, p: number[]) => (active ? msdCurve(o.model, t, p[0]!, p[1]!, p[2]!, p[3]!) : msdCurve(o.model, t, p[0]!, 0, 1, p[1]!));
   const offsetIndex = active ? 3 : 1;
   const fixed: number[] = [];
   if (!o.offset) fixed.push(offsetIndex);
@@ -316,7 +339,7 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
     const grad = [1, 2 * c * v * tau, c * v * v]; // ∂/∂(D, v, τ)
     let varE = 0;
     r.estimated.forEach((i, a) => r.estimated.forEach((j, b) => (i <= 2 && j <= 2 ? (varE += grad[i]! * grad[j]! * r.covariance[a]![b]!) : 0)));
-    res.parameters.effectiveDiffusivity = { value: D + c * v * v * tau, sd: Number.isFinite(varE) ? Math.sqrt(Math.max(varE, 0)) : null, unit: 'm^2/s' };
+    res.parameters.effectiveDiffusivity = { value: effectiveDiffusivity(o.model, D, v, tau), sd: Number.isFinite(varE) ? Math.sqrt(Math.max(varE, 0)) : null, unit: 'm^2/s' };
     res.notes.push(`effectiveDiffusivity = D + v²τ/${1 / c} is the long-time diffusivity of the active particle, the one a continuum model of an active species uses.`);
   }
   return res;

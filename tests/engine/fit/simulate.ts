@@ -31,33 +31,49 @@ export function simulateMsd(s: Sim, lags: number[]): { lag: number[]; msd: numbe
   const sums = lags.map(() => 0);
   const sq = lags.map(() => 0);
   const obsDims = s.project ? 2 : s.dims;
+  const kt = Math.sqrt(2 * s.D * s.dt);
+  const kr = Math.sqrt((2 * s.dt) / s.tau);
+  const vdt = s.v * s.dt;
+  const noisy = (a: number) => a + (s.noise ? s.noise * rng.normal() : 0);
+  // scalar state (no arrays in the inner loop); the same draws in the same order as the vector form
   for (const [i, maxK] of lags.entries()) for (let p = 0; p < s.particles; p++) {
-    const x = [0, 0, 0];
+    let x0 = 0;
+    let x1 = 0;
+    let x2 = 0;
     let theta = 2 * Math.PI * rng.uniform();
-    let u = s.dims === 3 ? randomUnit(rng) : [Math.cos(theta), Math.sin(theta), 0];
-    const noisy = (a: number) => a + (s.noise ? s.noise * rng.normal() : 0);
-    const x0 = [noisy(0), noisy(0), noisy(0)];
-    const kt = Math.sqrt(2 * s.D * s.dt);
-    const kr = Math.sqrt((2 * s.dt) / s.tau);
+    let u0: number;
+    let u1: number;
+    let u2: number;
+    if (s.dims === 3) [u0, u1, u2] = randomUnit(rng) as [number, number, number];
+    else [u0, u1, u2] = [Math.cos(theta), Math.sin(theta), 0];
+    const s0 = [noisy(0), noisy(0), noisy(0)];
     for (let k = 1; k <= maxK; k++) {
-      for (let d = 0; d < s.dims; d++) x[d] = x[d]! + s.v * u[d]! * s.dt + kt * rng.normal();
+      x0 += vdt * u0 + kt * rng.normal();
+      x1 += vdt * u1 + kt * rng.normal();
+      if (s.dims === 3) x2 += vdt * u2 + kt * rng.normal();
       if (s.dims === 2) {
         theta += kr * rng.normal();
-        u = [Math.cos(theta), Math.sin(theta), 0];
+        u0 = Math.cos(theta);
+        u1 = Math.sin(theta);
       } else {
-        const xi = [rng.normal(), rng.normal(), rng.normal()];
-        const dot = xi[0]! * u[0]! + xi[1]! * u[1]! + xi[2]! * u[2]!;
-        const nu = u.map((c, i) => c + kr * (xi[i]! - dot * c));
-        const norm = Math.hypot(nu[0]!, nu[1]!, nu[2]!);
-        u = nu.map((c) => c / norm);
-      }
-      if (k === maxK) {
-        let r2 = 0;
-        for (let d = 0; d < obsDims; d++) r2 += (noisy(x[d]!) - x0[d]!) ** 2;
-        sums[i]! += r2;
-        sq[i]! += r2 * r2;
+        const a0 = rng.normal();
+        const a1 = rng.normal();
+        const a2 = rng.normal();
+        const dot = a0 * u0 + a1 * u1 + a2 * u2;
+        const n0 = u0 + kr * (a0 - dot * u0);
+        const n1 = u1 + kr * (a1 - dot * u1);
+        const n2 = u2 + kr * (a2 - dot * u2);
+        const norm = Math.sqrt(n0 * n0 + n1 * n1 + n2 * n2);
+        u0 = n0 / norm;
+        u1 = n1 / norm;
+        u2 = n2 / norm;
       }
     }
+    const xs = [x0, x1, x2];
+    let r2 = 0;
+    for (let d = 0; d < obsDims; d++) r2 += (noisy(xs[d]!) - s0[d]!) ** 2;
+    sums[i]! += r2;
+    sq[i]! += r2 * r2;
   }
   const n = s.particles;
   const msd = sums.map((v) => v / n);
