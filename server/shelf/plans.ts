@@ -83,7 +83,7 @@ export function checkPlanWork(candidates: number, samples: number, allOfShelf: b
 
 export interface PlanResult {
   candidates: CandidateResult[];
-  /** What happened other than what was asked: the shelf's input warnings (e.g. `no-concentration`) first, then the plan's own (e.g. a state map that could not be drawn) */
+  /** What happened other than what was asked: the shelf's input warnings, `no-concentration` for every chemical taken as 0, then the plan's own (e.g. a state map that could not be drawn) */
   warnings: Warning[];
   /** the state map of one candidate, with the bench sheet's default dose series at base factor 1 */
   stateMap: (ReturnType<typeof stateMap> & { candidate: string; doseSeries: number[] }) | null;
@@ -103,7 +103,18 @@ export function runPlan(base: Mixture, candidates: Species[], req: PlanRequest):
     ...(req.uncertainty ? { uncertainty: { ...req.uncertainty, doses: (req.probabilityAt ?? []).map((q) => q.value) } } : {}),
   };
   const ranked = screen(base, candidates, o);
-  const warnings: Warning[] = [];
+  // A chemical the request gave no level for is taken as 0 (the shelf marks it, docs/model.md §8): that is the plan's
+  // answer too, so say it here, where pages and sheets read the plan's warnings, and name who needs it.
+  const warnings: Warning[] = base.chemicals
+    .filter((c) => c.concentrationMissing)
+    .map((c) => {
+      const users = [...base.species, ...candidates].filter((sp) => sp.couplings.some((cp) => cp.chemical === c.id && cp.activity?.kind === 'saturating')).map((sp) => sp.id);
+      return {
+        code: 'no-concentration',
+        message: `no concentration given for "${c.id}": taken as 0.${users.length > 0 ? ` It is the substrate of ${users.join(', ')}, which then turn${users.length === 1 ? 's' : ''} nothing over.` : ''}`,
+        chemical: c.id,
+      };
+    });
   let map: PlanResult['stateMap'] = null;
   const m = req.stateMap;
   const chosen = m ? (m.candidate ?? ranked.find((c) => c.feasible)?.species) : undefined;
@@ -162,8 +173,7 @@ export function planService(shelf: ShelfService, plans: PlansRepository) {
     checkPlanWork(ids.length, req.uncertainty?.samples ?? 0, req.candidates === 'all');
     const built = shelf.buildMixture({ species: req.base, chemicals: req.chemicals, chamber: req.chamber, crowding: req.crowding, conditions: req.conditions }, ids);
     const run = runPlan(built.mixture, built.candidates, req);
-    // what the shelf had to assume (a chemical with no concentration taken as 0, a retired species)
-    // belongs to the answer: the plan's warnings carry it, first, so pages and sheets show it
+    // what the shelf had to note (a retired species) belongs to the answer: the plan's warnings carry it, first
     const result: PlanResult = { ...run, warnings: [...built.warnings, ...run.warnings] };
     const revisions = [
       ...built.revisions.species.map((r) => ({ revisionId: r.revisionId, role: 'base' as const })),

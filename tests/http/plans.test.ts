@@ -92,6 +92,28 @@ describe('plans', () => {
     expect(ids).not.toContain('ptj-1um-b09');
   });
 
+  it('a plan with h2o2 only: the "taken as 0" warnings are the plan\'s, and glucose oxidase says its substrate is absent', async () => {
+    const r = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: 'all', uncertainty: undefined, probabilityAt: undefined, stateMap: undefined } });
+    expect(r.statusCode).toBe(201);
+    const p = r.json();
+    // glucose (the oxidases' substrate) and o2 (the Pt colloids' product) were not given
+    expect(p.result.warnings.filter((w: { code: string }) => w.code === 'no-concentration').map((w: { chemical: string }) => w.chemical)).toEqual(['glucose', 'o2']);
+    expect(p.result.warnings[0].message).toMatch(/^no concentration given for "glucose": taken as 0\. It is the substrate of (gox-e1, goxb-2um-k11|goxb-2um-k11, gox-e1), which then turn nothing over\.$/);
+    expect(p.result.warnings[1].message).toBe('no concentration given for "o2": taken as 0.');
+    // A(0) = V·0/(K + 0) = 0: with glucose at 0 both oxidases turn nothing over (tests/references/planner-feedback.test.ts checks the spectrum)
+    for (const id of ['gox-e1', 'goxb-2um-k11']) {
+      const c = p.result.candidates.find((x: { species: string }) => x.species === id);
+      expect(c).toMatchObject({ feasible: false, reason: 'substrate-absent' });
+      expect(c.message).toMatch(/^its substrate glucose is absent from the mixture \(concentration 0\): it turns nothing over/);
+      expect(c.message).not.toMatch(/narrower window/);
+    }
+    // candidate messages give doses per mL (the page's unit); the numbers stay SI
+    const swim = p.result.candidates.find((x: { species: string }) => x.species === 'ptj-swim-0.5-s02');
+    const early = swim.warnings.find((w: { code: string }) => w.code === 'earlier-instability');
+    expect(early.message).toContain(`from ${(early.onset * 1e-6).toPrecision(3)} per mL`);
+    expect(early.message).not.toMatch(/m⁻³/);
+  });
+
   it('every candidate carries its dose path, first onset and warnings; the band its zeros', async () => {
     const r = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, stateMap: undefined } });
     expect(r.statusCode).toBe(201);
@@ -100,6 +122,10 @@ describe('plans', () => {
       expect(Array.isArray(x.dosePath)).toBe(true);
       expect(x.dosePath[0].from).toBe(0);
       expect(x.dosePath[x.dosePath.length - 1].to).toBe(x.cap.density);
+      x.dosePath.forEach((iv: { from: number; to: number; state: string }, i: number) => {
+        expect(iv.from).toBeLessThan(iv.to);
+        if (i > 0) expect(iv.state).not.toBe(x.dosePath[i - 1].state);
+      });
       expect(x.firstOnset === null || typeof x.firstOnset.density === 'number').toBe(true);
       expect(Array.isArray(x.warnings)).toBe(true);
       expect(x.band).toMatchObject({ samples: 20, seed: 5 });
@@ -110,7 +136,8 @@ describe('plans', () => {
     expect(c[0].threshold).toMatchObject({ anyDose: false, alreadyPast: c[0].band.alreadyPast, feasibleFraction: c[0].band.feasibleFraction, median: c[0].band.median, aboveCap: c[0].band.aboveCap });
     // the feasible one: its path turns at its threshold (a stationary screen of a one-sign mixture)
     expect(c[0].firstOnset.density).toBe(c[0].threshold.density);
-    expect(r.json().result.warnings).toEqual([]);
+    // only the shelf's note that o2 (made by the Pt colloids) was not given: nothing else went other than asked
+    expect(r.json().result.warnings.map((w: { code: string; chemical?: string }) => `${w.code} ${w.chemical}`)).toEqual(['no-concentration o2']);
   });
 
   it('a state map asked for a plan with no feasible candidate: the plan is stored without the map, with a warning', async () => {
@@ -119,8 +146,8 @@ describe('plans', () => {
     const p = r.json();
     expect(p.result.candidates.every((c: { feasible: boolean }) => !c.feasible)).toBe(true);
     expect(p.result.stateMap).toBeNull();
-    expect(p.result.warnings.map((w: { code: string }) => w.code)).toEqual(['no-state-map']);
-    expect((await app.inject({ method: 'GET', url: `/api/plans/${p.id}` })).json().result.warnings[0].message).toMatch(/no candidate crosses/);
+    expect(p.result.warnings.map((w: { code: string }) => w.code)).toEqual(['no-concentration', 'no-state-map']);
+    expect((await app.inject({ method: 'GET', url: `/api/plans/${p.id}` })).json().result.warnings[1].message).toMatch(/no candidate crosses/);
   });
 });
 
