@@ -85,6 +85,32 @@ describe('brink screen', () => {
     expect(Math.abs(c.threshold.density / xT - 1)).toBeLessThan(1e-5);
     expect(c.window.upTo / c.threshold.density).toBeLessThan(1.554); // narrower than one scan step
     expect(c.dosePath.map((iv: { state: string }) => iv.state)).toEqual(['stable', 'oscillatory', 'stationary']);
+    // Above the far end trace² > 4 det with trace > 0 (Routh–Hurwitz): two real roots, the larger positive, so the
+    // mixture turns stationary (still unstable), not stable; ml-matrix agrees in tests/references/planner-reference.test.ts
+    expect(c.window.stateAbove).toBe('stationary');
+    const text = (await run(['screen', new URL('../../seeds/screens/narrow-window.json', import.meta.url).pathname, '--format', 'text'])).out;
+    expect(text).toMatch(/swimmer: 8\.28e\+14 m\^-3 \(φ [^)]+\), oscillatory up to 1\.08e\+15 m\^-3, stationary above;/);
+    expect(text).not.toMatch(/comes back/);
+  }, 60_000);
+
+  it('text: every dose-path interval reads with two different ends, even a stretch just below the cap', async () => {
+    // One self-attracting Janus species past its boundary, diluted by an inert tracer in replace mode: by Keller–Segel
+    // it is stable once f ρ |α μ|/D < D_c k₁², f* = D_c k₁² D/(ρ|αμ|) ≈ 2.7e-4, i.e. only in the last 0.03 % before the cap.
+    const doc = JSON.parse(readFileSync(file, 'utf8'));
+    doc.base.species[0].couplings[0].mobility = '50 um^2/(s*mM)';
+    doc.candidates = doc.candidates.filter((c: { id: string }) => c.id === 'silica-1um-t01');
+    doc.boundary = 'restore';
+    doc.dosing = 'replace';
+    delete doc.uncertainty;
+    const p = join(mkdtempSync(join(tmpdir(), 'brink-screen-')), 'r.json');
+    writeFileSync(p, JSON.stringify(doc));
+    const r = await run(['screen', p, '--format', 'text']);
+    expect(r.code).toBe(0);
+    const path = /dose path: (.*)/.exec(r.out)![1]!;
+    const ends = [...path.matchAll(/\((\S+), (\S+)\]/g)].map((m) => [m[1], m[2]]);
+    expect(ends.length).toBe(2);
+    for (const [a, b] of ends) expect(a).not.toBe(b);
+    expect(path).toMatch(/^stationary \(0, \S+\], stable \(/);
   }, 60_000);
 
   it('bad requests exit 2 naming the field', async () => {

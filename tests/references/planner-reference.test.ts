@@ -227,6 +227,9 @@ describe('dose path and first onset: an oscillatory onset below the stationary o
     expect(c!.firstOnset!.state).toBe('oscillatory');
     const w = c!.warnings.find((x) => x.code === 'earlier-instability');
     expect(w?.message).toMatch(/oscillatory/);
+    // in the bench reader's unit: x_T (by hand) × 1e-6 per mL; the warning's number stays SI
+    expect(w?.message).toContain(`from ${(xT * 1e-6).toPrecision(3)} per mL`);
+    expect(rel(w!.onset as number, xT)).toBeLessThan(1e-5);
     // an `any` screen has its threshold at the first onset: no such warning
     const [a] = screen(windowBase(), [swimmer()], { ...o, boundary: 'any' });
     expect(rel(a!.threshold!.density, xT)).toBeLessThan(1e-5);
@@ -274,6 +277,12 @@ describe('an oscillatory window wholly between two scan doses', () => {
     // and the hand values
     expect(rel(r.threshold!.density, xT)).toBeLessThan(1e-5);
     expect(rel(r.window!.upTo, xS)).toBeLessThan(1e-5);
+    // what follows the window: stationary (unstable), not stable, both from ml-matrix just above x_S and by hand
+    // (trace > 0 and trace² > 4 det at the first mode: two real roots, the larger positive)
+    expect(r.window!.stateAbove).toBe('stationary');
+    expect(stateByMlMatrix(1.001 * xS).state).toBe('stationary');
+    expect(trace(1, 1.001 * xS)).toBeGreaterThan(0);
+    expect(disc(1, 1.001 * xS)).toBeGreaterThan(0);
   });
 
   it('a search that finds nothing says so, without claiming "too weak"', () => {

@@ -89,6 +89,16 @@ describe('the Planner and Calibrate pages', () => {
     expect(rows.length).toBe(7);
     // columns: rank, candidate, threshold, band, dose path, at 1.25 ×, why not / sheet, warnings
     expect(rows.find((r) => r[1] === 'silica-1um-t01')![6]).toMatch(/^no-coupling/);
+    // only h2o2 is given: the oxidases' glucose is taken as 0, the plan says so in the status line, and they say why they cannot work
+    expect(await page.textContent('#status')).toMatch(/plan \d+ stored — no concentration given for "glucose": taken as 0\./);
+    for (const id of ['gox-e1', 'goxb-2um-k11']) expect(rows.find((r) => r[1] === id)![6]).toMatch(/^substrate-absent: its substrate glucose is absent/);
+    // warnings give doses in the table's unit (per mL), never m⁻³
+    const warned = rows.map((r) => r[7]!).filter((w) => /from \d/.test(w));
+    expect(warned.length).toBeGreaterThan(0);
+    for (const w of warned) {
+      expect(w).toMatch(/per mL/);
+      expect(w).not.toMatch(/m⁻³/);
+    }
     // the first-ranked candidate is stable at small doses and its path names the state past its first boundary
     expect(rows[0]![4]).toMatch(/^stable → (stationary|oscillatory) from \d/);
     const href = await page.getAttribute('#results tbody tr:first-child a', 'href');
