@@ -29,6 +29,7 @@ import { hazardsRepository } from './store/hazards.js';
 import { plansRepository } from './store/plans.js';
 import { shelfRepository, NotFoundError } from './store/shelf.js';
 import { sheetService } from './protocol/service.js';
+import { splitDoses } from './protocol/sheet.js';
 import { DomainError } from './shelf/errors.js';
 
 export interface Io {
@@ -55,6 +56,7 @@ usage:
       kinetics: --particles DENSITY | --enzyme CONCENTRATION   (per-particle maximal turnover)
   brink sheet <plan-id> [--db PATH] [--candidate ID] [--format html|md|json] [--paper A4|Letter] [--out FILE]
               [--sample-volume 100uL] [--replicates 3] [--min-volume 1uL] [--overage 0.1] [--buffer NAME] [--options FILE]
+              [--doses "0,1e6 1/mL,1e7 1/mL"] (the dopant doses themselves; needed when any dose crosses)
                                                      the bench sheet of a stored plan
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
   brink seed [--reset] [--yes] [--db PATH]             load the demo shelf; --reset empties the database first
@@ -299,6 +301,7 @@ function cmdSheet(args: string[], io: Io): number {
       overage: { type: 'string' },
       buffer: { type: 'string' },
       options: { type: 'string' },
+      doses: { type: 'string' },
     },
   });
   const id = Number(positionals[0]);
@@ -314,6 +317,7 @@ function cmdSheet(args: string[], io: Io): number {
   if (values.replicates) opts.replicates = Number(values.replicates);
   if (values.overage) opts.overage = Number(values.overage);
   if (values.buffer) opts.buffer = values.buffer;
+  if (values.doses !== undefined) opts.doses = splitDoses(values.doses);
   const db = openDatabase(values.db);
   try {
     const sheets = sheetService(plansRepository(db), shelfRepository(db), hazardsRepository(db));

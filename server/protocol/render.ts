@@ -92,9 +92,10 @@ ${h.disposal ? `<p><strong>Disposal:</strong> ${e(h.disposal)}</p>` : ''}
 
 <h2>Prediction</h2>
 <table><thead><tr><th>quantity</th><th class="num">value</th></tr></thead><tbody>
-<tr><td>threshold dose of ${e(sh.candidate.id)}</td><td class="num">${e(amt(p.threshold))} (volume fraction ${e(p.threshold.volumeFraction.toPrecision(3))})</td></tr>
+<tr><td>threshold dose of ${e(sh.candidate.id)}</td><td class="num">${p.threshold.anyDose ? 'any dose above 0 (threshold 0⁺)' : `${e(amt(p.threshold))} (volume fraction ${e(p.threshold.volumeFraction.toPrecision(3))})`}</td></tr>
 ${p.band ? `<tr><td>uncertainty band (${e(p.band.samples)} Monte Carlo draws, seed ${e(p.band.seed)}${e(bandExtra(p.band))}): 5 % · median · 95 %</td><td class="num">${e(q(p.band.p05))} · ${e(q(p.band.median))} · ${e(q(p.band.p95))}</td></tr>` : ''}
 <tr><td>reference dose (1 ×)</td><td class="num">${e(amt(p.referenceDose))}</td></tr>
+${p.series ? `<tr><td>dose series</td><td>${e(p.series.note)}</td></tr>` : ''}
 ${p.atMargin ? `<tr><td>above the threshold: state, growth time, wavelength${p.atMargin.oscillationPeriod ? ', period' : ''}</td><td class="num">${e(p.atMargin.state)}, ${e(amt(p.atMargin.growthTime))}, ${e(amt(p.atMargin.wavelength))}${p.atMargin.oscillationPeriod ? `, ${e(amt(p.atMargin.oscillationPeriod))}` : ''}</td></tr>
 <tr><td>gather together · pushed out</td><td class="num">${e(p.atMargin.gathers.join(', ') || '—')} · ${e(p.atMargin.pushedOut.join(', ') || '—')}</td></tr>` : ''}
 </tbody></table>
@@ -144,9 +145,10 @@ export function renderMarkdown(sh: Sheet): string {
   const out: string[] = [];
   out.push(`# ${m(sh.title)}`, '', `brink ${m(sh.software.version)} · plan ${sh.plan.id} (${m(sh.plan.boundary)}, ${m(sh.plan.dosing)}) · candidate ${m(sh.candidate.name)} (${m(sh.candidate.id)}) · printed ${m(sh.printedAt)}`, '', 'Operator: ______________________  Date: ______________', '');
   out.push('## Prediction', '', table(['quantity', 'value'], [
-    [`threshold dose of ${m(sh.candidate.id)}`, `${m(amt(p.threshold))} (volume fraction ${p.threshold.volumeFraction.toPrecision(3)})`],
+    [`threshold dose of ${m(sh.candidate.id)}`, p.threshold.anyDose ? 'any dose above 0 (threshold 0⁺)' : `${m(amt(p.threshold))} (volume fraction ${p.threshold.volumeFraction.toPrecision(3)})`],
     ...(p.band ? [[`band (${p.band.samples} draws, seed ${p.band.seed}${bandExtra(p.band)}): 5 % · median · 95 %`, `${m(q(p.band.p05))} · ${m(q(p.band.median))} · ${m(q(p.band.p95))}`]] : []),
     ['reference dose (1 ×)', m(amt(p.referenceDose))],
+    ...(p.series ? [['dose series', m(p.series.note)]] : []),
     ...(p.atMargin ? [['above the threshold: state, growth time, wavelength', `${m(p.atMargin.state)}, ${m(amt(p.atMargin.growthTime))}, ${m(amt(p.atMargin.wavelength))}`]] : []),
   ]), '');
   out.push('## Stocks', '', table(['substance', 'stock', 'concentration', 'from'], sh.stocks.map((s) => [m(s.name), m(s.described), m(amt(s.concentration)), s.source])), '');

@@ -20,6 +20,12 @@ import { VERSION } from '../version.js';
 import { classify, type Classification, type HazardSet } from './hazards.js';
 import { planPipetting, type Component, type SampleSpec } from './pipetting.js';
 
+/** "0, 1e6 1/mL,1e7 1/mL" → ["0", "1e6 1/mL", "1e7 1/mL"], for the CLI flag and the query parameter (read and bounded by the schema). */
+export const splitDoses = (text: string): string[] => text.split(',').map((x) => x.trim()).filter((x) => x !== '');
+
+/** The most doses one sheet takes (explicit doses or dose factors). */
+export const MAX_DOSES = 24;
+
 const stockSchema = z.strictObject({
   density: quantity(DIMENSIONS.numberDensity, 'positive', 'particles per volume').optional(),
   volumeFraction: quantity(DIMENSIONS.dimensionless, 'positive', 'volume fraction').optional(),
@@ -38,6 +44,8 @@ export const sheetRequestSchema = z.strictObject({
   replicates: z.number().int().min(1).max(24).default(3),
   /** doses as multiples of the reference (median, or threshold) dose; default 0, 0.5, 0.8, 1, 1.25, 1.6, 2 and the 5 % and 95 % doses */
   doseFactors: z.array(z.number().min(0).max(1000)).min(1).max(24).optional(),
+  /** the dopant doses themselves (number densities, e.g. "1e6 1/mL"; include 0 for the no-dopant control); instead of doseFactors; needed when any dose crosses */
+  doses: z.array(quantity(DIMENSIONS.numberDensity, 'nonnegative', 'a dopant dose (number density)')).min(1).max(MAX_DOSES).optional(),
   minVolume: quantity({ length: 3 }, 'positive', 'smallest volume to pipette (default 1 µL)').optional(),
   overage: z.number().min(0).max(1).default(0.1),
   buffer: z.string().min(1).max(100).default('buffer'),
@@ -71,10 +79,15 @@ export interface Sheet {
   candidate: { id: string; name: string };
   shelfRevisions: { role: string; id: string; revision: number; revisionId: number }[];
   prediction: {
-    threshold: Amount & { volumeFraction: number };
+    /** anyDose: every dose above 0 crosses (threshold 0⁺) */
+    threshold: Amount & { volumeFraction: number; anyDose: boolean };
     /** Quantiles over every draw (a draw already past counts as dose 0); null = that quantile lies above the dose cap */
     band: { p05: Amount | null; median: Amount | null; p95: Amount | null; samples: number; seed: number; alreadyPast: number | null; feasibleFraction: number | null } | null;
     referenceDose: Amount;
+    /** What the 1 × dose is: the band's median, the threshold, or (explicit doses, any dose crosses) the largest dose given */
+    referenceFrom: 'median' | 'threshold' | 'largest-dose';
+    /** How the series was made: dose factors × the reference (default or given), or the doses given */
+    series: { from: 'default-factors' | 'dose-factors' | 'doses'; note: string };
     atMargin: { state: string; growthTime: Amount | null; wavelength: Amount | null; oscillationPeriod: Amount | null; gathers: string[]; pushedOut: string[] } | null;
   };
   options: { sampleVolume: Amount; replicates: number; minVolume: Amount; overage: number; buffer: string };
@@ -182,6 +195,58 @@ export function speciesStock(sp: SpeciesRecord, o: z.output<typeof stockSchema> 
   }
 }
 
+const per = (x: number) => `${x === 0 ? 0 : (x * 1e-6).toPrecision(3)} particles/mL`;
+
+/**
+ * The dose series of a sheet and its 1 × reference. Dose factors scale the
+ * planner's reference (doseSeries: the band's median, else the threshold); the
+ * `doses` option gives the doses themselves. A candidate that crosses at any
+ * dose (threshold 0⁺) has no reference to scale by, so it needs `doses`; its
+ * 1 × (the controls' dose) is then the largest dose given.
+ */
+export function chooseSeries(cand: CandidateResult, req: SheetRequest) {
+  const seriesWarnings: Sheet['warnings'] = [];
+  if (req.doses && req.doseFactors) throw new InputError([{ path: 'doses', message: 'give doses or doseFactors, not both' }]);
+  const median = cand.band?.median ?? null;
+  const scalable = (median !== null && median > 0) || cand.threshold!.density > 0;
+  if (!req.doses && !scalable) {
+    const path = cand.dosePath?.length ? `; dose path: ${cand.dosePath.map((iv) => `${iv.state} over (${per(iv.from)}, ${per(iv.to)}]`).join(', ')}` : '';
+    throw new InputError([
+      {
+        path: 'doses',
+        message: `required for "${cand.species}": any dose above 0 crosses the boundary (threshold 0⁺), so there is no reference dose to scale dose factors by${path}. Give the doses to make, e.g. { "doses": ["0", "1e6 1/mL", "1e7 1/mL"] } (brink sheet --doses "0,1e6 1/mL,1e7 1/mL").`,
+      },
+    ]);
+  }
+  if (!req.doses) {
+    const { reference, doses } = doseSeries(cand, req.doseFactors);
+    const from = req.doseFactors ? 'dose-factors' : 'default-factors';
+    const referenceFrom: 'median' | 'threshold' = median !== null && median > 0 ? 'median' : 'threshold';
+    const note = `${req.doseFactors ? 'the dose factors given' : 'the default factors 0, 0.5, 0.8, 1, 1.25, 1.6, 2'} × the ${referenceFrom === 'median' ? 'median threshold of the Monte Carlo band' : 'threshold'} (${per(reference)})${!req.doseFactors && cand.band ? ", plus the band's 5 % and 95 % doses" : ''}`;
+    return { ref: reference, series: doses, referenceFrom, seriesInfo: { from, note } as Sheet['prediction']['series'], seriesWarnings };
+  }
+  const series = [...new Set(req.doses.map((d) => Number(d.value.toPrecision(6))))].sort((a, b) => a - b);
+  const top = series[series.length - 1]!;
+  let ref: number;
+  let referenceFrom: 'median' | 'threshold' | 'largest-dose';
+  if (scalable) {
+    ref = doseSeries(cand, [1]).reference;
+    referenceFrom = median !== null && median > 0 ? 'median' : 'threshold';
+  } else {
+    if (!(top > 0)) throw new InputError([{ path: 'doses', message: 'give at least one dose above 0: any dose crosses, and the controls are made at the largest dose given' }]);
+    ref = top;
+    referenceFrom = 'largest-dose';
+  }
+  const cap = cand.cap?.density;
+  if (cap !== undefined) {
+    for (const x of series.filter((d) => d > cap * (1 + 1e-9))) {
+      seriesWarnings.push({ code: 'dose-above-cap', message: `the dose ${per(x)} is above the plan's dose cap (${per(cap)}, limited by ${cand.cap.limitedBy}): the plan did not search there, so the prediction does not cover it.` });
+    }
+  }
+  const note = `the doses given; 1 × (the dose of the no-fuel and dopant-alone controls) is ${referenceFrom === 'largest-dose' ? 'the largest of them, since any dose crosses and there is no threshold to scale by' : `the ${referenceFrom === 'median' ? 'median threshold of the Monte Carlo band' : 'threshold'}`} (${per(ref)})`;
+  return { ref, series, referenceFrom, seriesInfo: { from: 'doses', note } as Sheet['prediction']['series'], seriesWarnings };
+}
+
 /** Build the sheet model. @throws InputError, DomainError (what is impossible and what would fix it) */
 export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   const { plan } = ctx;
@@ -201,8 +266,8 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     buffer: req.buffer,
   };
 
-  // Reference dose and the series (engine/planner.ts: factors × median, plus the band's ends).
-  const { reference: ref, doses: series } = doseSeries(cand, req.doseFactors);
+  // Reference dose and the series (engine/planner.ts: factors × median, plus the band's ends), or the doses given.
+  const { ref, series, referenceFrom, seriesInfo, seriesWarnings } = chooseSeries(cand, req);
 
   // Stocks.
   const stocks: Sheet['stocks'] = [];
@@ -217,7 +282,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     stocks.push({ id, name: rec.name, kind: 'species', concentration: perMl(st.density), described: st.text, source: st.source });
   }
   const fuelIds: string[] = [];
-  const warnings: Sheet['warnings'] = [];
+  const warnings: Sheet['warnings'] = [...seriesWarnings];
   const stockFractions = new Map<string, number | null>();
   for (const ch of base.chemicals) {
     if (!(ch.concentration > 0)) continue;
@@ -268,6 +333,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   let frame = 10;
   let duration = 3600;
   let fuelLife: number | null = null;
+  if (!m) notes.push(`no analysis at a margin dose (${cand.anyDose ? 'any dose crosses, so there is none' : 'none in this plan'}): the frame interval (${frame} s) and duration (${duration} s) are defaults, not predictions; set them from a trial run`);
   if (m && tau) {
     frame = niceFloor(tau / 10);
     duration = 5 * tau;
@@ -334,7 +400,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   ];
 
   const prediction: Sheet['prediction'] = {
-    threshold: { ...perMl(cand.threshold.density), volumeFraction: cand.threshold.volumeFraction },
+    threshold: { ...perMl(cand.threshold.density), volumeFraction: cand.threshold.volumeFraction, anyDose: cand.anyDose === true },
     band: cand.band
       ? {
           p05: cand.band.p05 !== null ? perMl(cand.band.p05) : null,
@@ -348,6 +414,8 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
         }
       : null,
     referenceDose: perMl(ref),
+    referenceFrom,
+    series: seriesInfo,
     atMargin: m
       ? {
           state: m.state,

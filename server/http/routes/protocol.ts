@@ -1,8 +1,9 @@
 /**
  * Bench sheets and hazard data:
  *
- *   GET  /api/plans/:id/sheet?candidate=&format=html|md|json&paper=A4|Letter&sampleVolume=&replicates=&minVolume=&overage=&buffer=
- *   POST /api/plans/:id/sheet?format=…&paper=…      the same with all options (stocks, dose factors) in the body
+ *   GET  /api/plans/:id/sheet?candidate=&format=html|md|json&paper=A4|Letter&sampleVolume=&replicates=&minVolume=&overage=&buffer=&doses=
+ *        (doses: comma-separated dopant doses, e.g. doses=0,1e6 1/mL,1e7 1/mL)
+ *   POST /api/plans/:id/sheet?format=…&paper=…      the same with all options (stocks, dose factors, doses) in the body
  *   GET  /api/chemicals/:id/hazards                  current hazard data and their versions
  *   PUT  /api/chemicals/:id/hazards                  a new version { baseVersion, hazards, author?, note? }
  */
@@ -10,6 +11,7 @@ import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { hazardSetSchema } from '../../protocol/hazards.js';
+import { splitDoses } from '../../protocol/sheet.js';
 import { keySchema } from '../../schema/shelf.js';
 
 const params = z.object({ id: z.coerce.number().int().min(1) });
@@ -30,17 +32,19 @@ export const protocolRoutes: FastifyPluginAsync = async (base) => {
         minVolume: z.string().optional(),
         overage: z.coerce.number().optional(),
         buffer: z.string().optional(),
+        doses: z.string().max(2000).optional().describe('comma-separated dopant doses, e.g. "0,1e6 1/mL,1e7 1/mL" (at most 24); needed when any dose crosses'),
       }),
     },
     handler: async (req, reply) => {
-      const { format: f, paper, ...opts } = req.query;
-      const clean = Object.fromEntries(Object.entries(opts).filter(([, v]) => v !== undefined));
+      const { format: f, paper, doses, ...opts } = req.query;
+      const clean: Record<string, unknown> = Object.fromEntries(Object.entries(opts).filter(([, v]) => v !== undefined));
+      if (doses !== undefined) clean.doses = splitDoses(doses);
       const sheet = app.sheets.build(req.params.id, clean);
       return reply.type(TYPES[f]).send(app.sheets.render(sheet, f, paper));
     },
   });
   app.post('/api/plans/:id/sheet', {
-    schema: { tags: ['bench sheet'], summary: 'The bench sheet with every option (stocks, dose factors …) in the body', params, querystring: format, body: z.unknown() },
+    schema: { tags: ['bench sheet'], summary: 'The bench sheet with every option (stocks, dose factors, doses …) in the body', params, querystring: format, body: z.unknown() },
     handler: async (req, reply) => {
       const sheet = app.sheets.build(req.params.id, req.body ?? {});
       return reply.type(TYPES[req.query.format]).send(app.sheets.render(sheet, req.query.format, req.query.paper));
