@@ -49,7 +49,9 @@ export function parseScreenRequest(doc: unknown): { req: ScreenRequest; base: Mi
  * numbers beside the threshold: `alreadyPast` (fraction of draws whose base is
  * already past: threshold 0), `feasibleFraction` (crossed at or below the cap,
  * zeros included), `median`/`p05`/`p95` over every draw (null above the cap,
- * with `aboveCap` saying which).
+ * with `aboveCap` saying which). `window` is null or `{ upTo, stateAbove }`: past the
+ * boundary up to `upTo`, and the state just above it (an oscillatory window can turn
+ * stationary: still unstable). The dose path's intervals are non-empty and alternate.
  */
 export function screenOutput(results: CandidateResult[]) {
   return {

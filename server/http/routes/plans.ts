@@ -21,7 +21,7 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
     schema: {
       tags,
       summary: 'Screen candidate dopants against a base mixture from the shelf, and store the plan',
-      description: `Every candidate gets its threshold (with the Monte Carlo band's alreadyPast, feasibleFraction and quantiles over all draws), dosePath, firstOnset and warnings. candidates "all" takes every active species not in the base; a plan may run at most ${PLAN_SEARCH_LIMIT} dose searches (candidates × (1 + draws)) and is refused with a 400 above that.`,
+      description: `Every candidate gets its threshold (with the Monte Carlo band's alreadyPast, feasibleFraction and quantiles over all draws), dosePath, firstOnset and warnings (messages give doses per mL; the numbers stay SI); result.warnings carries a no-concentration warning for every chemical given no level (taken as 0). candidates "all" takes every active species not in the base; a plan may run at most ${PLAN_SEARCH_LIMIT} dose searches (candidates × (1 + draws)) and is refused with a 400 above that.`,
       body: planRequestSchema,
     },
     // keep the request as sent (units as typed) for reruns; validation then reads the units
