@@ -63,7 +63,7 @@ ${h.incompatibilities ? `<p><strong>Incompatible with:</strong> ${e(h.incompatib
 ${h.handling ? `<p><strong>Handling:</strong> ${e(h.handling)}</p>` : ''}
 ${h.storage ? `<p><strong>Storage:</strong> ${e(h.storage)}</p>` : ''}
 ${h.disposal ? `<p><strong>Disposal:</strong> ${e(h.disposal)}</p>` : ''}
-<p class="muted">${e(h.verify)}${h.source ? ` Source: ${e(h.source)}` : ''}</p></section>`,
+<p class="muted">${e(h.verify)}${h.source ? ` Source of these data, as stored on the shelf: ${e(h.source)}` : ''}</p></section>`,
     )
     .join('');
   const p = sh.prediction;
@@ -177,7 +177,7 @@ export function renderMarkdown(sh: Sheet): string {
       out.push(`- ${m(a.where)}: ${c.statements.length ? `${c.signal ? `**${c.signal}** · ` : ''}${c.statements.map((s) => `${s.code} ${m(s.text)}`).join('; ')}${c.pictograms.length ? ` · ${c.pictograms.join(', ')}` : ''}` : 'no hazard statement applies at this concentration under the shelf’s bands'}`);
     }
     for (const [k, v] of [['Incompatible with', h.incompatibilities], ['Handling', h.handling], ['Storage', h.storage], ['Disposal', h.disposal]] as const) if (v) out.push(`- ${k}: ${m(v)}`);
-    out.push(`- ${m(h.verify)}${h.source ? ` Source: ${m(h.source)}` : ''}`, '');
+    out.push(`- ${m(h.verify)}${h.source ? ` Source of these data, as stored on the shelf: ${m(h.source)}` : ''}`, '');
   }
   out.push(...sh.safety.map((x) => `- ${m(x)}`), '');
   out.push('## Traceability', '', table(['role', 'shelf item', 'revision', 'revision id'], sh.shelfRevisions.map((r) => [r.role, m(r.id), String(r.revision), String(r.revisionId)])), '');

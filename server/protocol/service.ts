@@ -39,7 +39,7 @@ export function sheetService(plans: PlansRepository, shelf: ShelfRepository, haz
           chemicalRecord: (k) => chemicals.get(k) ?? null,
           hazards: (k) => {
             const h = hazards.current<HazardSet>(k);
-            return h ? hazardSetSchema.parse(h.body) : null;
+            return h ? { set: hazardSetSchema.parse(h.body), version: h.version, createdAt: h.createdAt, author: h.author } : null;
           },
           printedAt,
         },

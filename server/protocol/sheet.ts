@@ -64,6 +64,10 @@ export interface HazardEntry {
   name: string;
   asHandled: { where: string; massFraction: number; classification: Classification }[];
   source: string | null;
+  /** The shelf's record of these hazard data: its version, when and by whom it was entered (null: no hazard data) */
+  version: number | null;
+  recordedAt: string | null;
+  recordedBy: string | null;
   incompatibilities: string | null;
   storage: string | null;
   disposal: string | null;
@@ -116,7 +120,8 @@ export interface SheetContext {
   revisions: { role: string; id: string; revision: number; revisionId: number }[];
   speciesRecord: (id: string) => SpeciesRecord | null;
   chemicalRecord: (id: string) => ChemicalRecord | null;
-  hazards: (id: string) => HazardSet | null;
+  /** The current hazard data of a chemical as stored on the shelf, with its version */
+  hazards: (id: string) => { set: HazardSet; version: number; createdAt: string; author: string } | null;
   printedAt: string;
 }
 
@@ -369,7 +374,8 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   const hazards: HazardEntry[] = [];
   for (const id of fuelIds) {
     const rec = ctx.chemicalRecord(id)!;
-    const set = ctx.hazards(id);
+    const stored = ctx.hazards(id);
+    const set = stored?.set ?? null;
     const M = rec.molarMass?.si ?? null;
     const wStock = stockFractions.get(id) ?? null;
     const cWork = fuelConc.get(id)!;
@@ -382,11 +388,16 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
       name: rec.name,
       asHandled,
       source: set?.source ?? null,
+      version: stored?.version ?? null,
+      recordedAt: stored?.createdAt ?? null,
+      recordedBy: stored?.author ?? null,
       incompatibilities: set?.incompatibilities ?? null,
       storage: set?.storage ?? null,
       disposal: set?.disposal ?? null,
       handling: set?.handling ?? null,
-      verify: set ? "Hazard data are the shelf's: verify them against your supplier's safety data sheet." : 'No hazard data on the shelf for this chemical: read the supplier’s safety data sheet before handling it.',
+      verify: stored
+        ? `Hazard data: version ${stored.version} of the shelf's record for ${rec.name} (entered ${stored.createdAt.slice(0, 10)} by ${stored.author}). Check them against your supplier's safety data sheet for the product you use; where they differ, the safety data sheet takes precedence.`
+        : "No hazard data on the shelf for this chemical: read your supplier's safety data sheet before handling it; it takes precedence over this sheet.",
     });
   }
   const catalytic = [...base.species, dopant].some((x) => x.couplings.some((c) => (c.activity?.kind === 'constant' && c.activity.rate < 0) || c.activity?.kind === 'saturating'));

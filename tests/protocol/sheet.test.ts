@@ -65,6 +65,12 @@ describe('bench sheet', () => {
     expect(h.asHandled[1]!.where).toMatch(/^working solution/);
     expect(h.asHandled[1]!.classification.statements).toEqual([]);
     expect(h.verify).toMatch(/supplier's safety data sheet/);
+    // the hazard block speaks to the bench: the data's own version and source as stored, the SDS first
+    expect(h).toMatchObject({ version: 1, recordedBy: 'demo seed' });
+    expect(h.verify).toMatch(/^Hazard data: version 1 of the shelf's record for hydrogen peroxide \(entered \d{4}-\d\d-\d\d by demo seed\)/);
+    expect(h.verify).toMatch(/where they differ, the safety data sheet takes precedence/);
+    expect(h.source).toMatch(/^Regulation \(EC\) No 1272\/2008 \(CLP\), Annex VI/);
+    for (const text of [h.verify, h.source!]) expect(text).not.toMatch(/project's references|first four bands|recalled/);
     expect(s.safety.join(' ')).toMatch(/eye protection and gloves/);
     expect(s.safety.join(' ')).toMatch(/never seal/);
     expect(s.safety.join(' ')).toMatch(/Local regulations, your institution’s safety rules and the supplier’s safety data sheet take precedence/);
@@ -101,6 +107,12 @@ describe('bench sheet', () => {
     const md = (await app.inject({ method: 'GET', url: `/api/plans/${planId}/sheet?format=md` })).body;
     expect(md).toContain('## Hazards and safe handling');
     expect(md).toContain('| [ ] |');
+    // nothing an operator at the bench cannot consult; the version of the hazard data and the SDS instead
+    for (const text of [html, md]) {
+      expect(text).not.toMatch(/project(&#39;|'|’)s references|first four bands/);
+      expect(text).toMatch(/version 1 of the shelf(&#39;|'|’)s record for hydrogen peroxide/);
+      expect(text).toMatch(/Source of these data, as stored on the shelf/);
+    }
   });
 
   it('user text is escaped in HTML and Markdown', async () => {
