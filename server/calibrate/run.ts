@@ -7,7 +7,11 @@
  * first column named `track` (or `track id`, `particle`) selects the tracks,
  * as does `options.tracks: true`. From tracks the MSD and its covariance
  * between lags come from engine/fit/tracks.ts and the fit is generalised least
- * squares (`weighting: 'gls-covariance'`).
+ * squares (`weighting: 'gls-covariance'`). A curve without sd is weighted by the
+ * model of its variance, ∝ MSD(t)² t (`weighting: 'relative-variance-model'`,
+ * engine/fit/models.ts), unless `options.weighting: 'unweighted'` asks for
+ * equal weights. `standardErrorsHonest` says whether the standard errors
+ * account for the correlation between lags (only GLS from tracks does).
  */
 import { z } from 'zod';
 import { AVOGADRO } from '../engine/constants.js';
@@ -36,8 +40,11 @@ export const fitOptionsSchemas = {
     maxLag: quantity(DIMENSIONS.time, 'positive', 'largest lag time for an MSD from tracks').optional(),
     /** tracks: number of log-spaced lags */
     lags: z.number().int().min(2).max(TRACKS_MAX_LAGS).optional().describe(`number of log-spaced lags (default ${TRACKS_DEFAULT_LAGS})`),
-    /** tracks: generalised least squares with the MSD's covariance (default), or equal weights (for comparison only) */
-    weighting: z.enum(['gls-covariance', 'unweighted']).optional(),
+    /**
+     * tracks: generalised least squares with the MSD's covariance (default); a curve without sd: the
+     * variance model MSD² t (default); either: equal weights ('unweighted', for comparison)
+     */
+    weighting: z.enum(['gls-covariance', 'relative-variance-model', 'unweighted']).optional(),
   }),
   kinetics: z.strictObject({
     particleDensity: quantity(DIMENSIONS.numberDensity, 'positive', 'number density of particles in the assay').optional(),
@@ -90,7 +97,16 @@ export interface TracksSummary {
   covarianceSource: string;
 }
 
-type RunResult = FitResult & { input: { columns: { header: string; unit: string | null }[]; rows: number }; covarianceSource?: string; tracks?: TracksSummary };
+type RunResult = FitResult & {
+  input: { columns: { header: string; unit: string | null }[]; rows: number };
+  covarianceSource?: string;
+  tracks?: TracksSummary;
+  /**
+   * msd: false when the standard errors ignore the correlation between lags (a curve, or tracks fitted
+   * unweighted) and so understate the uncertainty; true for GLS with the covariance from tracks
+   */
+  standardErrorsHonest?: boolean;
+};
 
 /** Group position rows by track, on a regular frame grid; problems name the line. */
 function readTracks(t: Table, dims: 2 | 3): { tracks: Track[]; dt: number } {
@@ -156,6 +172,9 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
       ...(o.temperature ? { temperature: o.temperature.value } : {}),
     };
     if (o.tracks ?? looksLikeTracks(t)) {
+      if (o.weighting === 'relative-variance-model') {
+        throw new InputError([{ path: 'options.weighting', message: "relative-variance-model is for an MSD curve without sd; tracked positions are fitted with their covariance ('gls-covariance') or 'unweighted'" }]);
+      }
       const dims = o.model === 'passive-3d' || o.model === 'active-3d' ? 3 : 2;
       const { tracks, dt } = readTracks(t, dims);
       const m = engineErrors(() => msdFromTracks(tracks, { dt, ...(o.lags !== undefined ? { lags: o.lags } : {}), minLags: (o.model.startsWith('active') ? (o.radius ? 2 : 3) : 1) + (o.offset ? 1 : 0) + 2, ...(o.maxLag ? { maxLagFrames: Math.max(1, Math.round(o.maxLag.value / dt)) } : {}) }));
@@ -170,6 +189,7 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
         notes: [...notes, ...fit.notes],
         input,
         ...(gls ? { covarianceSource: m.covarianceSource } : {}),
+        standardErrorsHonest: gls,
         tracks: {
           tracks: m.tracks,
           positions: m.positions,
@@ -202,13 +222,19 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
       if (!(s > 0)) problems.push({ path: where(t, i, 2), message: 'standard deviations must be positive' });
     });
     if (problems.length > 0) throw new InputError(problems);
-    const fit = engineErrors(() => fitMsd(lag, msd, { ...engineOptions, ...(sd ? { sd } : {}) }));
-    const tracksOnly = (['maxLag', 'lags', 'weighting'] as const).filter((k) => o[k] !== undefined);
+    if (o.weighting === 'gls-covariance') {
+      throw new InputError([{ path: 'options.weighting', message: "gls-covariance needs tracked positions (track, t, x, y); an MSD curve is weighted by its sd column, by the variance model (default) or 'unweighted'" }]);
+    }
+    const unweighted = o.weighting === 'unweighted';
+    const useSd = sd !== undefined && !unweighted;
+    const fit = engineErrors(() => fitMsd(lag, msd, { ...engineOptions, ...(useSd ? { sd } : {}), ...(!useSd && !unweighted ? { varianceModel: true } : {}) }));
+    const tracksOnly = (['maxLag', 'lags'] as const).filter((k) => o[k] !== undefined);
     if (tracksOnly.length > 0) fit.notes.push(`options ${tracksOnly.join(', ')} apply to tracked positions only; this is an MSD curve, so they were not used.`);
+    if (sd && unweighted) fit.notes.push('the sd column was not used: equal weights were asked for (options.weighting unweighted).');
     fit.notes.push(
-      `${sd ? 'weighted by 1/sd² lag by lag' : 'unweighted'}: an MSD curve carries no covariance between its lags, and those of overlapping windows are strongly correlated, so the standard errors may understate the uncertainty; fit the tracked positions (track, t, x, y) for honest ones.`,
+      `${useSd ? 'weighted by 1/sd² lag by lag' : unweighted ? 'unweighted on purpose (options.weighting)' : 'weighted by the variance model'}: an MSD curve carries no covariance between its lags, and those of overlapping windows are strongly correlated, so the standard errors understate the uncertainty (standardErrorsHonest: false; on a simulated single track with 400 consecutive lags, by a factor of 10 to 50); fit the tracked positions (track, t, x, y) for honest ones.`,
     );
-    return { ...fit, input };
+    return { ...fit, input, standardErrorsHonest: false };
   }
   if (method === 'kinetics') {
     const o = options as FitOptions['kinetics'];

@@ -60,6 +60,21 @@ describe('columns in SI', () => {
     expect(f.notes.join(' ')).toMatch(/options maxLag, lags apply to tracked positions only/);
     expect(runFit('msd', good, parseFitOptions('msd', {})).notes.join(' ')).not.toMatch(/tracked positions only/);
   });
+  it('weighting of a curve: the variance model by default, equal weights on request, the sd column when given; GLS refused', () => {
+    const vm = runFit('msd', good, parseFitOptions('msd', {}));
+    expect(vm.weighting).toBe('relative-variance-model');
+    expect(vm.standardErrorsHonest).toBe(false);
+    const ols = runFit('msd', good, parseFitOptions('msd', { weighting: 'unweighted' }));
+    expect(ols.weighting).toBe('unweighted');
+    expect(ols.notes.join(' ')).toMatch(/unweighted on purpose/);
+    const withSd = good.replace('msd [um^2]', 'msd [um^2],sd [um^2]').replace(/\n(\d[^\n]*)/g, '\n$1,0.01');
+    expect(runFit('msd', withSd, parseFitOptions('msd', {})).weighting).toBe('weighted');
+    const sdIgnored = runFit('msd', withSd, parseFitOptions('msd', { weighting: 'unweighted' }));
+    expect(sdIgnored.weighting).toBe('unweighted');
+    expect(sdIgnored.notes.join(' ')).toMatch(/sd column was not used/);
+    expect(problems('msd', good, { weighting: 'gls-covariance' })[0]!.path).toBe('options.weighting');
+    expect(problems('msd', 'track,t [s],x [um],y [um]\n1,0,0,0\n1,0.1,0.1,0\n', { weighting: 'relative-variance-model' })[0]!.path).toBe('options.weighting');
+  });
   it('tracked positions: errors name the line (duplicate times, a track id column read as a number)', () => {
     const dup = 'track,t [s],x [um],y [um]\n1,0,0,0\n1,0.1,0.1,0\n1,0.1,0.2,0\n';
     expect(problems('msd', dup)[0]).toEqual({ path: 'line 4, column 2 (t [s])', message: 'track 1 has two positions at the same time' });

@@ -54,8 +54,11 @@ export interface FitResult {
   x: number[];
   residuals: number[];
   fitted: number[];
-  /** how the points were weighted: a full covariance (generalised least squares), 1/sd², or equally */
-  weighting: LsqWeighting;
+  /**
+   * how the points were weighted: a full covariance (generalised least squares), 1/sd², equally, or
+   * (an MSD curve without sd) by the model of its variance, ∝ MSD(t)² t (see fitMsd)
+   */
+  weighting: LsqWeighting | 'relative-variance-model';
   /** true only when the optimiser showed stationarity (see `stop`) */
   converged: boolean;
   /** what ended the fit: converged, small-step (a step too small to matter, stationarity not shown), no-progress (no step lowered the residuals), max-iterations */
@@ -121,7 +124,16 @@ export interface MsdOptions {
    * covariance then carries the Dodelson–Schneider factor for a noisy covariance (see fitMsd)
    */
   covarianceSamples?: number;
+  /**
+   * a curve without sd or covariance: weight each lag by the model of the variance of a time-averaged
+   * MSD, var ∝ MSD(t)² · t (over a track of fixed length; Qian, Sheetz & Elson 1991 for diffusion),
+   * iteratively reweighted from the fitted curve (see fitMsd). Default false (equal weights).
+   */
+  varianceModel?: boolean;
 }
+
+/** Reweighting rounds of the variance model (the parameters settle in two or three). */
+const VARIANCE_MODEL_ROUNDS = 6;
 
 /** Active part of the MSD for speed v and rotation time τ (file header). */
 function activePart(model: MsdModel, t: number, v: number, tau: number): number {
@@ -213,6 +225,7 @@ function smallNnls(cols: number[][], y: number[], nonneg: boolean[]): { coef: nu
  */
 export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
   if (!MSD_MODELS.includes(o.model)) throw new EngineInputError('model', `expected one of ${MSD_MODELS.join(', ')}, got "${o.model}"`);
+  if (o.varianceModel && !o.sd && !o.covariance) return fitMsdVarianceModel(lag, msd, o);
   const active = o.model.startsWith('active');
   const dimension = o.model === 'passive-3d' || o.model === 'active-3d' ? 3 : 2;
   const nPar = (active ? (o.radius !== undefined ? 2 : 3) : 1) + (o.offset ? 1 : 0);
@@ -343,6 +356,39 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
     res.notes.push(`effectiveDiffusivity = D + v²τ/${1 / c} is the long-time diffusivity of the active particle, the one a continuum model of an active species uses.`);
   }
   return res;
+}
+
+/**
+ * An MSD curve without sd, weighted by the model of its variance: the time-averaged MSD of a track of
+ * duration T at lag t has a variance ≈ MSD(t)² · (a t/T) with a of order one (Qian, Sheetz & Elson 1991
+ * for diffusion; used for active tracks too — common practice, no source), so with equal weights the
+ * few noisy long lags dominate and the short lags, which fix D and v, are not fitted. Relative weights
+ * 1/(MSD(t)² t) (T and a cancel: the scale comes from the residuals): first from the data (floored at
+ * 10⁻³ of the largest value), then from the fitted curve, until the parameters settle to 10⁻⁶ (at most
+ * VARIANCE_MODEL_ROUNDS rounds).
+ */
+function fitMsdVarianceModel(lag: number[], msd: number[], o: MsdOptions): FitResult {
+  const { varianceModel: _vm, ...plain } = o;
+  const top = Math.max(...msd.map((y) => Math.abs(y)));
+  const sdOf = (curve: number[]) => curve.map((m, i) => Math.max(Math.abs(m), 1e-3 * top, 1e-300) * Math.sqrt(lag[i]! / lag[lag.length - 1]!));
+  let f = fitMsd(lag, msd, { ...plain, sd: sdOf(msd) });
+  let rounds = 1;
+  for (; rounds < VARIANCE_MODEL_ROUNDS; rounds++) {
+    const next = fitMsd(lag, msd, { ...plain, sd: sdOf(f.fitted) });
+    const moved = Object.keys(next.parameters).some((k) => {
+      const a = next.parameters[k]!.value;
+      const b = f.parameters[k]?.value ?? Number.NaN;
+      return !(Math.abs(a - b) <= 1e-6 * Math.max(Math.abs(a), Math.abs(b), 1e-300));
+    });
+    f = next;
+    if (!moved) break;
+  }
+  f.weighting = 'relative-variance-model';
+  f.notes.push(
+    `weighted by the model of the variance of a time-averaged MSD, ∝ MSD(t)² · t (Qian, Sheetz & Elson 1991), from the fitted curve after ${rounds} round${rounds === 1 ? '' : 's'} of reweighting: equal weights would let the few noisy long lags set the fit.`,
+  );
+  if (rounds === VARIANCE_MODEL_ROUNDS) f.notes.push(`the reweighting had not settled after ${rounds} rounds: the weights come from the last fitted curve.`);
+  return f;
 }
 
 export interface KineticsOptions {

@@ -100,6 +100,14 @@ describe('MSD forms against the velocity-autocorrelation integral (noise-free)',
       expect(rel(f.parameters.speed!.value, v)).toBeLessThan(1e-6);
       expect(rel(f.parameters.rotationTime!.value, tau)).toBeLessThan(1e-6);
       expect(rel(f.parameters.effectiveDiffusivity!.value, referenceEffective(model, D, v, tau))).toBeLessThan(1e-6);
+      // the variance-model weighting (1/(MSD² t), reweighted from the fitted curve) reaches the same point
+      const g = fitMsd(t, y, { model, varianceModel: true });
+      expect(g.weighting).toBe('relative-variance-model');
+      expect(g.converged).toBe(true);
+      expect(rel(g.parameters.speed!.value, v)).toBeLessThan(1e-6);
+      expect(rel(g.parameters.rotationTime!.value, tau)).toBeLessThan(1e-6);
+      // an sd column wins over the variance model
+      expect(fitMsd(t, y, { model, varianceModel: true, sd: y.map((m) => 1e-3 * m) }).weighting).toBe('weighted');
     });
   }
 });
