@@ -231,7 +231,7 @@ function cmdScreen(args: string[], io: Io): number {
           ? ` [median ${q(c.band.median)}, 5–95 %: ${q(c.band.p05)} – ${q(c.band.p95)}; crosses by the cap in ${(100 * c.band.feasibleFraction).toFixed(1)} %, already past in ${(100 * c.band.alreadyPast).toFixed(1)} % of ${c.band.samples} draws]`
           : '';
         const at = c.atMargin ? `; at ${req.margin}× : ${c.atMargin.state}, growth ${c.atMargin.growthTime === null ? '—' : duration(c.atMargin.growthTime)}` : '';
-        lines.push(`${String(c.rank).padStart(2)}. ${c.species}: ${t.anyDose ? 'any dose (0⁺)' : `${g(t.density)} m^-3 (φ ${g(t.volumeFraction)})`}${band}${c.window ? `, ${PAST_WORD[req.boundary]} up to ${g(c.window.upTo)} m^-3, ${c.window.stateAbove} above` : ''}${at}`);
+        lines.push(`${String(c.rank).padStart(2)}. ${c.species}: ${t.anyDose ? 'any dose (0⁺)' : `${g(t.density)} m^-3 (${g(t.density * 1e-6)} per mL, φ ${g(t.volumeFraction)})`}${band}${c.window ? `, ${PAST_WORD[req.boundary]} up to ${g(c.window.upTo)} m^-3, ${c.window.stateAbove} above` : ''}${at}`);
       }
       // one precision for the whole path, enough that every interval's two ends read differently (a stretch just below the cap, say)
       let p = 3;

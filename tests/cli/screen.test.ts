@@ -89,7 +89,7 @@ describe('brink screen', () => {
     // mixture turns stationary (still unstable), not stable; ml-matrix agrees in tests/references/planner-reference.test.ts
     expect(c.window.stateAbove).toBe('stationary');
     const text = (await run(['screen', new URL('../../seeds/screens/narrow-window.json', import.meta.url).pathname, '--format', 'text'])).out;
-    expect(text).toMatch(/swimmer: 8\.28e\+14 m\^-3 \(φ [^)]+\), oscillatory up to 1\.08e\+15 m\^-3, stationary above;/);
+    expect(text).toMatch(/swimmer: 8\.28e\+14 m\^-3 \(8\.28e\+8 per mL, φ [^)]+\), oscillatory up to 1\.08e\+15 m\^-3, stationary above;/);
     expect(text).not.toMatch(/comes back/);
   }, 60_000);
 
