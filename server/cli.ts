@@ -125,9 +125,9 @@ export function formatText(r: AnalysisResult): string {
   if (c.stationary) lines.push(`stationary:   Σ αμρ/D = ${g(c.stationary.value)} 1/s vs threshold ${g(c.stationary.threshold)} 1/s → ${c.stationary.met ? 'met' : 'not met'}`);
   if (c.oscillatory) lines.push(`oscillatory:  Σ αμρ = ${g(c.oscillatory.value)} m^2/s^2 vs threshold ${g(c.oscillatory.threshold)} m^2/s^2 → ${c.oscillatory.met ? 'met' : 'not met'}${c.oscillatory.sufficientOnly ? ' (sufficient only)' : ''}`);
   if (!c.stationary && c.determinant) lines.push(`determinant:  ${g(c.determinant.value)} (< 0 means a real eigenvalue has crossed at k1) → ${c.determinant.met ? 'met' : 'not met'}`);
-  for (const f of r.checks.fuel) lines.push(`fuel life:    ${f.chemical} lasts about ${duration(f.lifetime)}`);
+  for (const f of r.checks.fuel) lines.push(f.absent ? `fuel life:    ${f.chemical} is absent (concentration 0): used up at once` : `fuel life:    ${f.chemical} lasts about ${duration(f.lifetime)}`);
   for (const s of r.checks.sedimentation) {
-    const cross = s.timeToCrossDepth !== null ? `, crosses the depth in ${duration(s.timeToCrossDepth)}` : '';
+    const cross = s.timeToCrossDepth !== null ? `, crosses the depth in ${duration(s.timeToCrossDepth)}` : ` (${s.note ?? 'no chamber depth'})`;
     lines.push(`gravity:      ${s.species} ${s.direction} at ${g(s.speed * 1e6)} µm/s (Stokes drag)${cross}, sedimentation length ${length(s.sedimentationLength)}`);
   }
   if (r.warnings.length > 0) {

@@ -342,7 +342,9 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   if (m && tau) {
     frame = niceFloor(tau / 10);
     duration = 5 * tau;
-    fuelLife = m.checks.fuel.length > 0 ? Math.min(...m.checks.fuel.map((f) => f.lifetime)) : null;
+    // an absent fuel (lifetime 0) is not a time to image for: the analysis' own warnings say it is missing
+    const present = m.checks.fuel.filter((f) => !f.absent);
+    fuelLife = present.length > 0 ? Math.min(...present.map((f) => f.lifetime)) : null;
     notes.push(`frame interval at most a tenth of the ${m.growthTime ? 'growth' : 'decay'} time (${s(tau).value} s at the ${cand.atMargin === cand.atThreshold ? 'threshold' : 'margin'} dose)`);
     if (fuelLife !== null && fuelLife < duration) {
       warnings.push({ code: 'imaging-capped-by-fuel', message: `five growth times (${s(duration).value} s) outlast the fuel (about ${s(fuelLife).value} s): the imaging stops when the fuel runs out; refuel or use more fuel if the pattern needs longer.` });
