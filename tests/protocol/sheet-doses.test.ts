@@ -57,7 +57,7 @@ afterAll(async () => {
 });
 
 const get = (id: number, q = '') => app.inject({ method: 'GET', url: `/api/plans/${id}/sheet?format=json${q}` });
-const post = (id: number, body: unknown) => app.inject({ method: 'POST', url: `/api/plans/${id}/sheet?format=json`, payload: body });
+const post = (id: number, body: Record<string, unknown>) => app.inject({ method: 'POST', url: `/api/plans/${id}/sheet?format=json`, payload: body });
 
 describe('an any-dose candidate', () => {
   it('without doses: 400 on the path doses, naming the option and the dose path', async () => {
