@@ -232,7 +232,7 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
     if (tracksOnly.length > 0) fit.notes.push(`options ${tracksOnly.join(', ')} apply to tracked positions only; this is an MSD curve, so they were not used.`);
     if (sd && unweighted) fit.notes.push('the sd column was not used: equal weights were asked for (options.weighting unweighted).');
     fit.notes.push(
-      `${useSd ? 'weighted by 1/sd² lag by lag' : unweighted ? 'unweighted on purpose (options.weighting)' : 'weighted by the variance model'}: an MSD curve carries no covariance between its lags, and those of overlapping windows are strongly correlated, so the standard errors understate the uncertainty (standardErrorsHonest: false; on a simulated single track with 400 consecutive lags, by a factor of 10 to 50); fit the tracked positions (track, t, x, y) for honest ones.`,
+      `${useSd ? 'weighted by 1/sd² lag by lag' : unweighted ? 'unweighted on purpose (options.weighting)' : 'weighted by the variance model'}: an MSD curve carries no covariance between its lags, and those of overlapping windows are strongly correlated, so the standard errors understate the uncertainty (standardErrorsHonest: false; on a simulated single track with 400 consecutive lags, by a factor of 7 to 30); fit the tracked positions (track, t, x, y) for honest ones.`,
     );
     return { ...fit, input, standardErrorsHonest: false };
   }

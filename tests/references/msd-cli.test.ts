@@ -122,7 +122,7 @@ describe('brink fit msd --model active-2d on a two-column curve (no sd)', () => 
     // estimates over seeds 1–8 (measured): D 3.3 %, v 1.7 %, τ 6.5 %, D_eff 4.6 %; the bounds below are
     // about three of those (common practice, no source). With equal weights the same curves gave τ from
     // 0.66 to 1.8 times the truth and D on its bound in half of them, and the reported standard errors
-    // of either weighting are 10–30 times smaller than the spread, which the output says
+    // of either weighting are 7–30 times smaller than the spread, which the output says
     // (standardErrorsHonest: false).
     const K = 400;
     const lag = Array.from({ length: K }, (_, i) => (i + 1) * dt);
