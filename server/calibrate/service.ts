@@ -121,9 +121,16 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
       const cur = shelf.repo.mustGet<SpeciesRecord>('species', m.species);
       const typed = toTypedRecord(cur.record) as Typed;
       const author = req.author ?? 'anonymous';
+      // An MSD curve fit's standard errors understate the uncertainty (no covariance between lags,
+      // run.ts): the value may go on the shelf, but its provenance and the revision's note say so,
+      // since the shelf's sd feeds the planner's Monte Carlo.
+      const sdCaveat =
+        (fit as { standardErrorsHonest?: boolean }).standardErrorsHonest === false
+          ? '; its sd is the standard error of a curve fit without the covariance between lags and understates the uncertainty (fit tracked positions for an honest one)'
+          : '';
       const provenance = {
         source: 'measured' as const,
-        reference: `measurement ${m.id}: ${m.method} fit (${fit.model}) of ${m.fileName ?? 'pasted data'}`,
+        reference: `measurement ${m.id}: ${m.method} fit (${fit.model}) of ${m.fileName ?? 'pasted data'}${sdCaveat}`,
         date: m.createdAt.slice(0, 10),
         by: m.author,
         measurement: m.id,
@@ -193,7 +200,7 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
         fields.push(`couplings[${req.chemical}].mobility`);
       }
       const record = parseRecord('species', typed, ['record']);
-      const rev = shelf.edit('species', m.species, req.baseRevision, record, { author, note: `applied measurement ${m.id} (${m.method})` });
+      const rev = shelf.edit('species', m.species, req.baseRevision, record, { author, note: `applied measurement ${m.id} (${m.method})${sdCaveat}` });
       repo.recordApplication(m.id, rev.revisionId, fields);
       return rev;
     },

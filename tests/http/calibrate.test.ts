@@ -86,7 +86,9 @@ describe('measurements', () => {
     expect(r.statusCode).toBe(200);
     const rev = r.json();
     expect(rev.revision).toBe(cur.revision + 1);
-    expect(rev.note).toBe(`applied measurement ${msdId} (msd)`);
+    // a curve fit's standard error understates the uncertainty (no covariance between lags): the note and the
+    // provenance say so, since the shelf's sd feeds the planner's Monte Carlo
+    expect(rev.note).toMatch(new RegExp(`^applied measurement ${msdId} \\(msd\\); its sd .* understates the uncertainty`));
     const fitted = (await app.inject({ method: 'GET', url: `/api/measurements/${msdId}` })).json();
     // written in the species' own unit (the demo shelf has "0.22 um^2/s"), rounded by the standard error:
     // the sd to two significant digits, the value to the same decimal place
@@ -100,7 +102,7 @@ describe('measurements', () => {
     expect(Number(rev.record.diffusivity.input.split(' ')[0])).toBeCloseTo(Math.round((fd.value * 1e12) / place) * place, 12);
     expect(rev.record.diffusivity.sd * 1e12).toBeCloseTo(sdU, 12);
     expect(rev.record.diffusivity.provenance).toMatchObject({ source: 'measured', measurement: msdId, by: 'a student (invented)' });
-    expect(rev.record.diffusivity.provenance.reference).toMatch(/b07-msd-2026-11-30\.csv/);
+    expect(rev.record.diffusivity.provenance.reference).toMatch(/b07-msd-2026-11-30\.csv.*understates the uncertainty/);
     // other values keep their own provenance
     expect(rev.record.radius).toEqual(cur.record.radius);
     // the history shows it, and the measurement points to the revision
