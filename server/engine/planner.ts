@@ -821,7 +821,7 @@ export function screen(base: Mixture, candidates: Species[], o: ScreenOptions): 
       const x = r.threshold!.density;
       atThreshold = analyze(withDose(base, d, x, o.dosing));
       if (r.anyDose) {
-        warnings.push({ code: 'any-dose', message: 'any dose above zero crosses the boundary (threshold 0⁺): there is no margin dose; choose the doses to make from the dose path.' });
+        warnings.push({ code: 'any-dose', message: 'any dose above zero crosses the boundary (threshold 0⁺): there is no margin dose; choose the doses to make from the dose path and give them to the bench sheet (its doses option, brink sheet --doses).' });
       } else {
         const xm = Math.min(x * margin, r.window ? Math.sqrt(x * r.window.upTo) : Infinity, r.cap.density);
         atMargin = analyze(withDose(base, d, xm, o.dosing));

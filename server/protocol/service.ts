@@ -33,7 +33,7 @@ export function sheetService(plans: PlansRepository, shelf: ShelfRepository, haz
       }
       return buildSheet(
         {
-          plan: { ...(plan as object), request: { boundary: (plan.request as { boundary: string }).boundary, dosing: (plan.request as { dosing?: string }).dosing ?? 'add' } } as unknown as { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string }; result: { candidates: CandidateResult[] }; inputs: { base: Mixture; candidates: Species[] } },
+          plan: { ...(plan as object), request: { boundary: (plan.request as { boundary: string }).boundary, dosing: (plan.request as { dosing?: string }).dosing ?? 'add' } } as unknown as { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string }; result: { candidates: CandidateResult[]; warnings?: { code: string; message: string }[] }; inputs: { base: Mixture; candidates: Species[] } },
           revisions: revs.map(({ r, rev }) => ({ role: r.role, id: rev.id, revision: rev.revision, revisionId: rev.revisionId })),
           speciesRecord: (k) => species.get(k) ?? null,
           chemicalRecord: (k) => chemicals.get(k) ?? null,

@@ -116,7 +116,7 @@ export interface Sheet {
 }
 
 export interface SheetContext {
-  plan: { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string }; result: { candidates: CandidateResult[] }; inputs: { base: Mixture; candidates: Species[] } };
+  plan: { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string }; result: { candidates: CandidateResult[]; warnings?: { code: string; message: string }[] }; inputs: { base: Mixture; candidates: Species[] } };
   revisions: { role: string; id: string; revision: number; revisionId: number }[];
   speciesRecord: (id: string) => SpeciesRecord | null;
   chemicalRecord: (id: string) => ChemicalRecord | null;
@@ -370,7 +370,18 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   // The planner's own warnings on this candidate come first (an earlier instability than the chosen
   // boundary, draws already past, a band above the cap); plans stored before they existed carry none.
   for (const w of cand.warnings ?? []) warnings.unshift({ code: w.code, message: w.message });
+  // Then the plan's own (a chemical taken as 0, a retired species); the state map's are not the bench's.
+  for (const w of plan.result.warnings ?? []) if (w.code !== 'no-state-map') warnings.push({ code: w.code, message: w.message });
   if (m) for (const w of m.warnings) warnings.push({ code: w.code, message: w.message });
+  // one line per distinct warning (the plan and the analysis can say the same thing)
+  const seenWarning = new Set<string>();
+  const distinct = warnings.filter((w) => {
+    const key = `${w.code}\u0000${w.message}`;
+    if (seenWarning.has(key)) return false;
+    seenWarning.add(key);
+    return true;
+  });
+  warnings.splice(0, warnings.length, ...distinct);
 
   // Hazards as handled: the stock bottle and the working solution.
   const hazards: HazardEntry[] = [];
