@@ -18,16 +18,10 @@ import { buildApp, type App } from '../../server/http/app.js';
 import type { Sheet } from '../../server/protocol/sheet.js';
 import { seedDemoShelf } from '../../server/shelf/seed.js';
 import { openDatabase } from '../../server/store/db.js';
+import { planRequest as sharedPlan } from '../helpers/plans.js';
 
 // the plan of tests/protocol/sheet.test.ts (washed B09 base, B07 has a stationary threshold), without the band
-const planRequest = {
-  name: 'washed B09: what makes it cluster?',
-  base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }],
-  chemicals: { h2o2: '200 mM' },
-  chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' },
-  boundary: 'stationary',
-  candidates: ['ptj-1um-b07', 'catb-0.22-l04'],
-};
+const planRequest = { ...sharedPlan, uncertainty: undefined };
 
 const anyDosePlan = {
   name: 'silica base, B07 in an unbounded chamber',

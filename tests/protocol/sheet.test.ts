@@ -10,16 +10,8 @@ import type { Sheet } from '../../server/protocol/sheet.js';
 import { seedDemoShelf } from '../../server/shelf/seed.js';
 import { openDatabase } from '../../server/store/db.js';
 import { freshApp } from '../helpers/app.js';
+import { planRequest } from '../helpers/plans.js';
 
-export const planRequest = {
-  name: 'washed B09: what makes it cluster?',
-  base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }],
-  chemicals: { h2o2: '200 mM' },
-  chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' },
-  boundary: 'stationary',
-  candidates: ['ptj-1um-b07', 'catb-0.22-l04'],
-  uncertainty: { samples: 40, seed: 5 },
-};
 
 let app: App;
 let planId = 0;
