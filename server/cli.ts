@@ -19,7 +19,7 @@ import { parseArgs } from 'node:util';
 import { analyze, type AnalysisResult } from './engine/analyze.js';
 import { EngineDomainError, EngineInputError } from './engine/types.js';
 import { MixtureFileError, parseMixture } from './schema/mixture.js';
-import { parseScreenRequest, screenOutput } from './schema/screen.js';
+import { parseScreenRequest, screenOutput, screenWarnings } from './schema/screen.js';
 import { screen } from './engine/planner.js';
 import { FIT_METHODS, parseFitOptions, runFit, type FitMethod } from './calibrate/run.js';
 import { InputError } from './shelf/errors.js';
@@ -218,10 +218,15 @@ function cmdScreen(args: string[], io: Io): number {
     ...(req.maxVolumeFraction !== undefined ? { maxVolumeFraction: req.maxVolumeFraction } : {}),
     ...(req.uncertainty ? { uncertainty: req.uncertainty } : {}),
   });
-  const out = screenOutput(results);
+  const out = screenOutput(results, screenWarnings(base, candidates));
   if (values.format === 'json') io.out(JSON.stringify(out, null, 2) + '\n');
   else {
     const lines = [`boundary: ${req.boundary} (${req.dosing}), candidates ranked by the smallest dose`];
+    // what the input lacks and what the base itself warns of, first; then each candidate's own and, once, what its
+    // sample at the margin dose warns of beyond these (a missing level is said once, per chemical)
+    const said = (w: { code: string; message: string; chemical?: unknown }) => (w.code === 'no-concentration' ? `no-concentration:${String(w.chemical)}` : `${w.code}:${w.message}`);
+    const top = new Set(out.warnings.map(said));
+    for (const w of out.warnings) lines.push(`warning ${w.code}: ${w.message}`);
     for (const c of out.candidates) {
       if (!c.feasible) lines.push(`${String(c.rank).padStart(2)}. ${c.species}: cannot (${c.reason}) — ${c.message}`);
       else {
@@ -238,6 +243,12 @@ function cmdScreen(args: string[], io: Io): number {
       while (p < 12 && c.dosePath.some((iv) => g(iv.from, p) === g(iv.to, p))) p++;
       if (c.dosePath.length > 0) lines.push(`    dose path: ${c.dosePath.map((iv) => `${iv.state} (${g(iv.from, p)}, ${g(iv.to, p)}]`).join(', ')}${c.firstOnset ? `; first onset ${c.firstOnset.state} at ${g(c.firstOnset.density)} m^-3` : ''}`);
       for (const w of c.warnings) lines.push(`    warning ${w.code}: ${w.message}`);
+      const seen = new Set(top);
+      for (const w of c.atMargin?.warnings ?? []) {
+        if (seen.has(said(w))) continue;
+        seen.add(said(w));
+        lines.push(`    at ${req.margin}× the threshold, warning ${w.code}: ${w.message}`);
+      }
     }
     io.out(lines.join('\n') + '\n');
   }

@@ -312,3 +312,22 @@ export function practicalChecks(
   }
   return { checks: { fuel, gas, sedimentation, volumeFraction }, warnings };
 }
+
+/**
+ * The input's missing levels, once per chemical: every chemical flagged `concentrationMissing` (taken as 0,
+ * docs/model.md §8) is a `no-concentration` warning naming the species, of the base and of the candidates,
+ * whose saturating turnover it feeds (they then turn nothing over). A stored plan's `result.warnings` and
+ * `brink screen`'s top-level `warnings` both say it with this.
+ */
+export function missingConcentrationWarnings(base: Mixture, candidates: readonly Mixture['species'][number][] = []): Warning[] {
+  return base.chemicals
+    .filter((c) => c.concentrationMissing)
+    .map((c) => {
+      const users = [...base.species, ...candidates].filter((sp) => sp.couplings.some((cp) => cp.chemical === c.id && cp.activity?.kind === 'saturating')).map((sp) => sp.id);
+      return {
+        code: 'no-concentration',
+        message: `no concentration given for "${c.id}": taken as 0.${users.length > 0 ? ` It is the substrate of ${users.join(', ')}, which then turn${users.length === 1 ? 's' : ''} nothing over.` : ''}`,
+        chemical: c.id,
+      };
+    });
+}

@@ -3,6 +3,8 @@
  * the mixture file (their density is ignored), a boundary and a dosing mode.
  */
 import { z } from 'zod';
+import { analyze } from '../engine/analyze.js';
+import { missingConcentrationWarnings, type Warning } from '../engine/checks.js';
 import type { CandidateResult } from '../engine/planner.js';
 import { DIMENSIONS } from '../units/index.js';
 import { candidateSchema, mixtureSchema, quantity, toEngineMixture, toEngineSpecies, issueList } from './mixture.js';
@@ -52,9 +54,23 @@ export function parseScreenRequest(doc: unknown): { req: ScreenRequest; base: Mi
  * with `aboveCap` saying which). `window` is null or `{ upTo, stateAbove }`: past the
  * boundary up to `upTo`, and the state just above it (an oscillatory window can turn
  * stationary: still unstable). The dose path's intervals are non-empty and alternate.
+ *
+ * The top-level `warnings` say what the input lacks and what the base mixture itself
+ * warns of, before any dopant: a `no-concentration` for every chemical taken as 0
+ * (naming whose substrate it is, as a stored plan's `result.warnings` does), then the
+ * base's own analysis warnings (`analyze(base)`: e.g. `fuel-runs-out` for an absent
+ * fuel, `sedimentation-not-checked`, `no-chamber-depth`, `sedimentation`). A
+ * candidate's `warnings` are about that candidate; `atThreshold`/`atMargin` carry the
+ * analysis warnings of the doped sample.
  */
-export function screenOutput(results: CandidateResult[]) {
+export function screenWarnings(base: Mixture, candidates: Species[]): Warning[] {
+  // the base analysis's own no-concentration says the same as the one that also names the candidates: keep one
+  return [...missingConcentrationWarnings(base, candidates), ...analyze(base).warnings.filter((w) => w.code !== 'no-concentration')];
+}
+
+export function screenOutput(results: CandidateResult[], warnings: Warning[]) {
   return {
+    warnings,
     candidates: results.map((c) => ({
       species: c.species,
       rank: c.rank,

@@ -4,7 +4,7 @@
  * numbers can be read back unchanged after the shelf moves on.
  */
 import { z } from 'zod';
-import type { Warning } from '../engine/checks.js';
+import { missingConcentrationWarnings, type Warning } from '../engine/checks.js';
 import { doseSeries, screen, stateMap, fuelSweep, type CandidateResult, type ScreenOptions } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
 import { issueList, quantity } from '../schema/mixture.js';
@@ -105,16 +105,7 @@ export function runPlan(base: Mixture, candidates: Species[], req: PlanRequest):
   const ranked = screen(base, candidates, o);
   // A chemical the request gave no level for is taken as 0 (the shelf marks it, docs/model.md §8): that is the plan's
   // answer too, so say it here, where pages and sheets read the plan's warnings, and name who needs it.
-  const warnings: Warning[] = base.chemicals
-    .filter((c) => c.concentrationMissing)
-    .map((c) => {
-      const users = [...base.species, ...candidates].filter((sp) => sp.couplings.some((cp) => cp.chemical === c.id && cp.activity?.kind === 'saturating')).map((sp) => sp.id);
-      return {
-        code: 'no-concentration',
-        message: `no concentration given for "${c.id}": taken as 0.${users.length > 0 ? ` It is the substrate of ${users.join(', ')}, which then turn${users.length === 1 ? 's' : ''} nothing over.` : ''}`,
-        chemical: c.id,
-      };
-    });
+  const warnings: Warning[] = missingConcentrationWarnings(base, candidates);
   let map: PlanResult['stateMap'] = null;
   const m = req.stateMap;
   const chosen = m ? (m.candidate ?? ranked.find((c) => c.feasible)?.species) : undefined;

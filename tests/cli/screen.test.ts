@@ -113,6 +113,62 @@ describe('brink screen', () => {
     expect(path).toMatch(/^stationary \(0, \S+\], stable \(/);
   }, 60_000);
 
+  it('says what the input lacks: top-level warnings in JSON and text, and the sample at the margin dose', async () => {
+    // The example with its fuel level, every material density and the chamber depth removed. The missing-data rules
+    // (docs/model.md §8): a chemical without a level is taken as 0; a consumed fuel at 0 is absent; settling needs a
+    // material density, and its comparison a chamber depth. Without uncertainty, so the test is quick.
+    const doc = JSON.parse(readFileSync(file, 'utf8'));
+    delete doc.base.chemicals[0].concentration;
+    delete doc.base.chamber.depth;
+    for (const sp of [...doc.base.species, ...doc.candidates]) delete sp.materialDensity;
+    delete doc.uncertainty;
+    const p = join(mkdtempSync(join(tmpdir(), 'brink-screen-')), 'r.json');
+    writeFileSync(p, JSON.stringify(doc));
+    const r = await run(['screen', p]);
+    expect(r.code).toBe(0);
+    const out = JSON.parse(r.out);
+    const codes = out.warnings.map((w: { code: string }) => w.code);
+    expect(codes).toEqual(['no-concentration', 'fuel-runs-out', 'sedimentation-not-checked']);
+    expect(out.warnings[0]).toMatchObject({ chemical: 'h2o2' });
+    expect(out.warnings[0].message).toMatch(/no concentration given for "h2o2": taken as 0/);
+    // the base's Janus batch consumes h2o2 (activity −2e-16 mol/s < 0): an absent fuel, lifetime 0
+    expect(out.warnings[1]).toMatchObject({ chemical: 'h2o2', lifetime: 0 });
+    expect(out.warnings[1].message).toMatch(/ptj-1um-b09 consumes it/);
+    expect(out.warnings[2]).toMatchObject({ species: ['ptj-1um-b09'], missing: 'materialDensity' });
+    // said once for the screen, whether or not a candidate is feasible (two here are not)
+    expect(out.candidates.filter((c: { feasible: boolean }) => !c.feasible).length).toBe(2);
+    const text = (await run(['screen', p, '--format', 'text'])).out;
+    const head = text.split(/\n\s*1\. /)[0]!;
+    expect(head).toMatch(/\nwarning no-concentration: no concentration given for "h2o2": taken as 0\./);
+    expect(head).toMatch(/\nwarning fuel-runs-out: h2o2 is absent/);
+    expect(head).toMatch(/\nwarning sedimentation-not-checked: settling of ptj-1um-b09 was not checked/);
+    // the doped sample at the margin dose names the candidate too; the missing level is not said again
+    expect(text).toMatch(/ptj-1um-b07: [^\n]*\n(?:\s+[^\n]*\n)*?\s+at 1\.25× the threshold, warning sedimentation-not-checked: settling of ptj-1um-b09, ptj-1um-b07 was not checked/);
+    expect(text.match(/no-concentration/g)!.length).toBe(1);
+
+    // depth alone missing, densities given: settling is computed but cannot be compared with a depth
+    const doc2 = JSON.parse(readFileSync(file, 'utf8'));
+    delete doc2.base.chamber.depth;
+    delete doc2.uncertainty;
+    writeFileSync(p, JSON.stringify(doc2));
+    const codes2 = JSON.parse((await run(['screen', p])).out).warnings.map((w: { code: string }) => w.code);
+    expect(codes2).toContain('no-chamber-depth');
+    expect(codes2).not.toContain('no-concentration');
+  }, 60_000);
+
+  it('a complete screen file raises none of the missing-data warnings', async () => {
+    const out = JSON.parse((await run(['screen', file])).out);
+    expect(Array.isArray(out.warnings)).toBe(true);
+    const missing = ['no-concentration', 'fuel-runs-out', 'sedimentation-not-checked', 'no-chamber-depth'];
+    for (const w of out.warnings) expect(missing).not.toContain(w.code);
+    // its base is complete, so settling is checked: 1 µm, 2 g/mL in water at 25 °C settles (Stokes drag, docs/references.md)
+    expect(out.warnings.map((w: { code: string }) => w.code)).toEqual(['sedimentation']);
+    const text = (await run(['screen', file, '--format', 'text'])).out;
+    for (const code of ['no-concentration', 'sedimentation-not-checked', 'no-chamber-depth']) expect(text).not.toMatch(new RegExp(`warning ${code}:`));
+    // at 1.25× the threshold a fuel can run short (a genuine finding, printed under the candidate), never at the top
+    expect(text.split(/\n\s*1\. /)[0]).not.toMatch(/fuel-runs-out/);
+  }, 60_000);
+
   it('bad requests exit 2 naming the field', async () => {
     const doc = JSON.parse(readFileSync(file, 'utf8'));
     doc.candidates[0].couplings[0].chemical = 'nope';
