@@ -9,6 +9,9 @@
  * - gas: time until a produced chemical with a solubility passes it,
  *   (c_sat − c⁰)/Σ_m α_ms ρ_m; a saturating turnover makes its product at
  *   `productYield` × the fuel turnover (model.ts), e.g. 0.5 O₂ per H₂O₂ for catalase;
+ *   a saturating turnover of an absent fuel makes nothing (rate 0 at c = 0), and a constant
+ *   activity of a species whose fuel is absent runs only while that fuel lasts, so its share
+ *   is left out of the expected production (`fuelAbsent`, `gas-needs-absent-fuel`);
  * - sedimentation: Stokes settling speed v = (2/9) Δρ g a²/η (η: the given solvent
  *   viscosity, else water at the sample temperature), the time H/v to cross the
  *   depth, and the sedimentation length ℓ = D/v with the species' (effective)
@@ -48,8 +51,20 @@ export interface GasCheck {
   productionRate: number;
   /** Saturation concentration, mol m⁻³ */
   solubility: number;
-  /** Time until the concentration passes the solubility, s (0 when already past it) */
+  /** Time until the concentration passes the solubility at productionRate, s (0 when already past it) */
   timeToSaturation: number;
+  /**
+   * Some of the production comes from a constant activity of a species whose fuel is absent
+   * (a chemical it consumes at concentration 0, see FuelCheck.absent). A constant activity has no
+   * fuel dependence in the model, but it runs only while its fuel lasts: that part is not expected.
+   */
+  fuelAbsent: boolean;
+  /** The absent fuels of those producers (empty unless fuelAbsent) */
+  absentFuels: string[];
+  /** Production from the producers whose fuel is present, mol m⁻³ s⁻¹ (= productionRate unless fuelAbsent) */
+  expectedProductionRate: number;
+  /** Time to pass the solubility at expectedProductionRate, s; null when none of the gas is expected */
+  expectedTimeToSaturation: number | null;
 }
 
 export interface SedimentationCheck {
@@ -118,6 +133,13 @@ export function practicalChecks(
   const fuel: FuelCheck[] = [];
   const gas: GasCheck[] = [];
   const duration = mix.conditions.duration;
+  // Absent fuels (docs/model.md §8): a chemical at c⁰ = 0 that particles consume (by structure) and nothing makes.
+  const netOf = (s: number) => mix.species.reduce((acc, sp, m) => acc + alpha[m * S + s]! * sp.density, 0);
+  const consumes = (sp: Mixture['species'][number], id: string) =>
+    sp.couplings.some((cp) => cp.chemical === id && ((cp.activity?.kind === 'constant' && cp.activity.rate < 0) || (cp.activity?.kind === 'saturating' && cp.activity.maxRate > 0)));
+  const absentFuels = new Set(mix.chemicals.filter((c, s) => c.concentration === 0 && netOf(s) <= 0 && mix.species.some((sp) => sp.density > 0 && consumes(sp, c.id))).map((c) => c.id));
+  // The absent fuels a species consumes by a constant activity (its constant production cannot run without them).
+  const starvedBy = (sp: Mixture['species'][number]) => [...new Set(sp.couplings.filter((cp) => absentFuels.has(cp.chemical) && cp.activity?.kind === 'constant' && cp.activity.rate < 0).map((cp) => cp.chemical))];
   mix.chemicals.forEach((c, s) => {
     let net = 0;
     mix.species.forEach((sp, m) => {
@@ -166,15 +188,42 @@ export function practicalChecks(
     }
     if (c.solubility !== null && net > 0) {
       const timeToSaturation = Math.max(0, (c.solubility - c.concentration) / net);
-      gas.push({ chemical: c.id, productionRate: net, solubility: c.solubility, timeToSaturation });
+      // Split the production: producers starved of a fuel they consume by a constant activity make none of it.
+      let expected = 0;
+      const starvedProducers: string[] = [];
+      const fuels = new Set<string>();
+      mix.species.forEach((sp, m) => {
+        const part = alpha[m * S + s]! * sp.density;
+        const by = starvedBy(sp);
+        if (by.length > 0 && part > 0) {
+          starvedProducers.push(sp.id);
+          by.forEach((f) => fuels.add(f));
+        } else expected += part;
+      });
+      const fuelAbsent = starvedProducers.length > 0;
+      const expectedTime = expected > 0 ? Math.max(0, (c.solubility - c.concentration) / expected) : null;
+      gas.push({ chemical: c.id, productionRate: net, solubility: c.solubility, timeToSaturation, fuelAbsent, absentFuels: [...fuels], expectedProductionRate: fuelAbsent ? Math.max(0, expected) : net, expectedTimeToSaturation: fuelAbsent ? expectedTime : timeToSaturation });
       const horizon = Math.max(duration ?? DEFAULT_HORIZON, growthTime !== null ? FUEL_GROWTH_TIMES * growthTime : 0);
-      if (timeToSaturation < horizon) {
+      if (fuelAbsent) {
+        const f = [...fuels].join(', ');
+        warnings.push({
+          code: 'gas-needs-absent-fuel',
+          message: `${c.id} is made by ${starvedProducers.join(', ')} only while ${fuels.size === 1 ? 'its fuel lasts' : 'their fuels last'}: ${f} ${fuels.size === 1 ? 'is' : 'are'} absent, so ${expectedTime === null ? `no ${c.id} is expected` : `only the rest of the production is expected (${c.id} passes its solubility after about ${seconds(expectedTime)} from the other producers)`}; with ${f} given, the constant activity would pass the solubility after about ${seconds(timeToSaturation)}.`,
+          chemical: c.id,
+          absentFuels: [...fuels],
+          producers: starvedProducers,
+          timeToSaturation,
+          expectedTimeToSaturation: expectedTime,
+        });
+      }
+      const tExpected = fuelAbsent ? expectedTime : timeToSaturation;
+      if (tExpected !== null && tExpected < horizon) {
         const sealed = mix.chamber.walls === 'sealed' ? ' In a sealed chamber the gas also builds pressure.' : '';
         warnings.push({
           code: 'gas-exceeds-solubility',
-          message: `${c.id} passes its solubility (${fmt(c.solubility)} mol/m^3) after about ${seconds(timeToSaturation)}, within the ${seconds(horizon)} horizon: bubbles will spoil imaging.${sealed}`,
+          message: `${c.id} passes its solubility (${fmt(c.solubility)} mol/m^3) after about ${seconds(tExpected)}, within the ${seconds(horizon)} horizon: bubbles will spoil imaging.${sealed}`,
           chemical: c.id,
-          timeToSaturation,
+          timeToSaturation: tExpected,
           horizon,
         });
       }

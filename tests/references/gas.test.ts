@@ -147,3 +147,57 @@ describe('the demo shelf catalase (1 nM, 200 mM peroxide) through the service', 
     expect(full.imaging.gasSaturation!.time.value).toBeLessThan(half.imaging.gasSaturation!.time.value);
   });
 });
+
+describe('a constant activity whose fuel is absent (docs/model.md §8)', () => {
+  // Two constant producers of O₂: "pt" consumes h2o2 (given at 0: absent) at 2e-18 mol/s and makes O₂ at
+  // 1e-18 mol/s (one O₂ per two H₂O₂, reaction stoichiometry); "fed" consumes glucose (present, 50 mM)
+  // and makes O₂ at 1e-19 mol/s. Densities 1e16 and 1e17 m⁻³.
+  // By hand: pt's O₂ 1e-18·1e16 = 0.01 mol m⁻³ s⁻¹; fed's 1e-19·1e17 = 0.01; total 0.02.
+  // Model time (1.3 − 0.26)/0.02 = 52 s; expected (pt starved) (1.3 − 0.26)/0.01 = 104 s.
+  const pt = species('pt', 1e-12, 1e16, [
+    { chemical: 'h2o2', activity: { kind: 'constant', rate: -2e-18 }, mobility: 0 },
+    { chemical: 'o2', activity: { kind: 'constant', rate: 1e-18 }, mobility: 0 },
+  ]);
+  const fed = species('fed', 1e-12, 1e17, [
+    { chemical: 'glucose', activity: { kind: 'constant', rate: -1e-19 }, mobility: 0 },
+    { chemical: 'o2', activity: { kind: 'constant', rate: 1e-19 }, mobility: 0 },
+  ]);
+  const chems = (h2o2: number) => [chemical('h2o2', 1.4e-9, 0, h2o2), chemical('glucose', 6e-10, 0, 50), { ...chemical('o2', 2e-9, 0, 0.26), solubility: O2_SOLUBILITY }];
+
+  it('alone, it makes no gas: fuelAbsent, no expected time, no bubbles warning', () => {
+    const { checks, warnings } = practicalChecks(mixture(chems(0), [pt], 'sealed'), null, null);
+    const g = checks.gas.find((x) => x.chemical === 'o2')!;
+    // the model's constant activity still says 0.01 mol m⁻³ s⁻¹ and (1.3 − 0.26)/0.01 = 104 s
+    expect(g.productionRate).toBeCloseTo(0.01, 12);
+    expect(g.timeToSaturation).toBeCloseTo(104, 9);
+    expect(g).toMatchObject({ fuelAbsent: true, absentFuels: ['h2o2'], expectedProductionRate: 0, expectedTimeToSaturation: null });
+    const codes = warnings.map((w) => w.code);
+    expect(codes).toContain('fuel-runs-out');
+    expect(codes).toContain('gas-needs-absent-fuel');
+    expect(codes).not.toContain('gas-exceeds-solubility');
+    expect(warnings.find((w) => w.code === 'gas-needs-absent-fuel')!.message).toMatch(/only while its fuel lasts: h2o2 is absent, so no o2 is expected/);
+  });
+
+  it('with the fuel given, the same species passes the solubility after 104 s and is warned as before', () => {
+    const { checks, warnings } = practicalChecks(mixture(chems(100), [pt], 'sealed'), null, null);
+    const g = checks.gas.find((x) => x.chemical === 'o2')!;
+    expect(g).toMatchObject({ fuelAbsent: false, absentFuels: [] });
+    expect(g.expectedTimeToSaturation!).toBeCloseTo(104, 9);
+    expect(warnings.map((w) => w.code)).toContain('gas-exceeds-solubility');
+    expect(warnings.map((w) => w.code)).not.toContain('gas-needs-absent-fuel');
+  });
+
+  it('beside a fed producer, only the fed share is expected: 0.01 of 0.02 mol m⁻³ s⁻¹, 104 s instead of 52 s', () => {
+    const { checks, warnings } = practicalChecks(mixture(chems(0), [pt, fed], 'sealed'), null, null);
+    const g = checks.gas.find((x) => x.chemical === 'o2')!;
+    expect(g.productionRate).toBeCloseTo(0.02, 12);
+    expect(g.timeToSaturation).toBeCloseTo(52, 9);
+    expect(g.fuelAbsent).toBe(true);
+    expect(g.expectedProductionRate).toBeCloseTo(0.01, 12);
+    expect(g.expectedTimeToSaturation!).toBeCloseTo(104, 9);
+    // 104 s is within the 1 h horizon: the bubbles warning gives the expected time (104/60 = 1.73 min), not 52 s
+    const w = warnings.find((x) => x.code === 'gas-exceeds-solubility')!;
+    expect(w.timeToSaturation).toBeCloseTo(104, 9);
+    expect(w.message).toMatch(/after about 1\.73 min/);
+  });
+});
