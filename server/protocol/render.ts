@@ -29,6 +29,9 @@ export function formatNumber(v: number): string {
   return `${Number(m)} × 10${String(Number(e)).split('').map((c) => SUP[c] ?? c).join('')}`;
 }
 
+/** What a concentration of a chemical without hazard data on the shelf says: not classified, never "no hazard". */
+export const NOT_CLASSIFIED = 'no hazard data on the shelf: not classified — check the supplier’s safety data sheet';
+
 const amt = (a: Amount | null | undefined) => (a ? `${formatNumber(a.value)} ${a.unit}` : '—');
 /** A band quantile: null means it lies above the dose cap (engine/planner.ts), not that it is unknown. */
 const q = (a: Amount | null | undefined) => (a ? amt(a) : 'above the dose cap');
@@ -51,7 +54,7 @@ export function renderHtml(sh: Sheet, paper: 'A4' | 'Letter' = 'A4'): string {
 ${h.asHandled
   .map(
     (a) => `<div class="handled"><h4>${e(a.where)}</h4>
-${a.classification.statements.length === 0 ? '<p>No hazard statement applies at this concentration under the shelf’s bands; handle with the general cautions below.</p>' : ''}
+${a.classified === false ? `<p class="unclassified"><strong>${e(NOT_CLASSIFIED)}</strong></p>` : a.classification.statements.length === 0 ? '<p>No hazard statement applies at this concentration under the shelf’s bands; handle with the general cautions below.</p>' : ''}
 ${a.classification.signal ? `<p class="signal">Signal word: <strong>${e(a.classification.signal)}</strong></p>` : ''}
 ${a.classification.pictograms.length ? `<p>Pictograms: ${a.classification.pictograms.map((p) => `${e(p)} (${e(PICTOGRAMS[p] ?? '')})`).join(', ')}</p>` : ''}
 ${a.classification.statements.length ? `<ul>${a.classification.statements.map((s) => `<li><strong>${e(s.code)}</strong> ${e(s.text)} <span class="muted">(${e(s.hazardClass)})</span></li>`).join('')}</ul>` : ''}
@@ -174,6 +177,10 @@ export function renderMarkdown(sh: Sheet): string {
     out.push(`### ${m(h.name)}`, '');
     for (const a of h.asHandled) {
       const c = a.classification;
+      if (a.classified === false) {
+        out.push(`- ${m(a.where)}: **${m(NOT_CLASSIFIED)}**`);
+        continue;
+      }
       out.push(`- ${m(a.where)}: ${c.statements.length ? `${c.signal ? `**${c.signal}** · ` : ''}${c.statements.map((s) => `${s.code} ${m(s.text)}`).join('; ')}${c.pictograms.length ? ` · ${c.pictograms.join(', ')}` : ''}` : 'no hazard statement applies at this concentration under the shelf’s bands'}`);
     }
     for (const [k, v] of [['Incompatible with', h.incompatibilities], ['Handling', h.handling], ['Storage', h.storage], ['Disposal', h.disposal]] as const) if (v) out.push(`- ${k}: ${m(v)}`);

@@ -62,7 +62,13 @@ export interface Amount {
 export interface HazardEntry {
   chemical: string;
   name: string;
-  asHandled: { where: string; massFraction: number; classification: Classification }[];
+  /**
+   * classified false: the shelf holds no hazard data for this chemical, so nothing was classified (an empty
+   * classification then means "not known", never "no hazard"; docs/model.md §11)
+   */
+  asHandled: { where: string; massFraction: number; classified: boolean; classification: Classification }[];
+  /** false when the shelf holds no hazard data for the chemical (see asHandled) */
+  classified: boolean;
   source: string | null;
   /** The shelf's record of these hazard data: its version, when and by whom it was entered (null: no hazard data) */
   version: number | null;
@@ -103,7 +109,7 @@ export interface Sheet {
     frameInterval: Amount;
     duration: Amount;
     fuelLife: Amount | null;
-    /** earliest time a produced gas passes its solubility at the margin dose (each turnover's productYield counted), or null */
+    /** earliest time a produced gas passes its solubility at the margin dose (each turnover's productYield counted; a constant producer whose fuel is absent makes none), or null */
     gasSaturation: { chemical: string; productionRate: Amount; solubility: Amount; time: Amount } | null;
     wavelength: Amount | null;
     chamberLength: Amount | null;
@@ -202,6 +208,15 @@ export function speciesStock(sp: SpeciesRecord, o: z.output<typeof stockSchema> 
 
 const per = (x: number) => `${x === 0 ? 0 : (x * 1e-6).toPrecision(3)} particles/mL`;
 
+/** One `dose-above-cap` warning for each dose of the series above the plan's dose cap (a relative 1e-9 for rounding). */
+export function aboveCap(cand: CandidateResult, series: number[]): Sheet['warnings'] {
+  const cap = cand.cap?.density;
+  if (cap === undefined) return [];
+  return series
+    .filter((d) => d > cap * (1 + 1e-9))
+    .map((x) => ({ code: 'dose-above-cap', message: `the dose ${per(x)} is above the plan's dose cap (${per(cap)}, limited by ${cand.cap.limitedBy}): the plan did not search there, so the prediction does not cover it.` }));
+}
+
 /**
  * The dose series of a sheet and its 1 × reference. Dose factors scale the
  * planner's reference (doseSeries: the band's median, else the threshold); the
@@ -228,6 +243,8 @@ export function chooseSeries(cand: CandidateResult, req: SheetRequest) {
     const from = req.doseFactors ? 'dose-factors' : 'default-factors';
     const referenceFrom: 'median' | 'threshold' = median !== null && median > 0 ? 'median' : 'threshold';
     const note = `${req.doseFactors ? 'the dose factors given' : 'the default factors 0, 0.5, 0.8, 1, 1.25, 1.6, 2'} × the ${referenceFrom === 'median' ? 'median threshold of the Monte Carlo band' : 'threshold'} (${per(reference)})${!req.doseFactors && cand.band ? ", plus the band's 5 % and 95 % doses" : ''}`;
+    // factors × the reference (2 × the median, or the 95 % dose) can pass the cap as much as doses given can
+    seriesWarnings.push(...aboveCap(cand, doses));
     return { ref: reference, series: doses, referenceFrom, seriesInfo: { from, note } as Sheet['prediction']['series'], seriesWarnings };
   }
   const series = [...new Set(req.doses.map((d) => Number(d.value.toPrecision(6))))].sort((a, b) => a - b);
@@ -242,14 +259,45 @@ export function chooseSeries(cand: CandidateResult, req: SheetRequest) {
     ref = top;
     referenceFrom = 'largest-dose';
   }
-  const cap = cand.cap?.density;
-  if (cap !== undefined) {
-    for (const x of series.filter((d) => d > cap * (1 + 1e-9))) {
-      seriesWarnings.push({ code: 'dose-above-cap', message: `the dose ${per(x)} is above the plan's dose cap (${per(cap)}, limited by ${cand.cap.limitedBy}): the plan did not search there, so the prediction does not cover it.` });
-    }
-  }
+  seriesWarnings.push(...aboveCap(cand, series));
   const note = `the doses given; 1 × (the dose of the no-fuel and dopant-alone controls) is ${referenceFrom === 'largest-dose' ? 'the largest of them, since any dose crosses and there is no threshold to scale by' : `the ${referenceFrom === 'median' ? 'median threshold of the Monte Carlo band' : 'threshold'}`} (${per(ref)})`;
   return { ref, series, referenceFrom, seriesInfo: { from: 'doses', note } as Sheet['prediction']['series'], seriesWarnings };
+}
+
+/** A warning as the engine, the planner and the plan give it: a code, a message and perhaps what it is about. */
+type SubjectWarning = { code: string; message: string; chemical?: unknown; species?: unknown };
+
+const subjectIds = (x: unknown): string[] | null => (typeof x === 'string' ? [x] : Array.isArray(x) && x.every((v) => typeof v === 'string') ? (x as string[]) : null);
+
+/** Merge two wordings of one warning: the longer, plus what the shorter says after their common opening sentence(s). */
+export function mergeMessages(a: string, b: string): string {
+  if (a === b || a.includes(b)) return a;
+  if (b.includes(a)) return b;
+  const [long, short] = a.length >= b.length ? [a, b] : [b, a];
+  let n = 0;
+  while (n < short.length && short[n] === long[n]) n++;
+  const cut = short.lastIndexOf('. ', n - 1);
+  const tail = short.slice(cut >= 0 ? cut + 2 : 0).trim();
+  return tail === '' || long.includes(tail) ? long : `${long} ${tail}`;
+}
+
+/**
+ * The sheet's warnings: those about a chemical or species this sheet's mixture does not use are left out, and
+ * one line remains per (code, chemical or species the warning is about), the wordings merged; a warning about
+ * no particular chemical or species is one line per distinct message.
+ */
+export function sheetWarnings(ws: SubjectWarning[], species: Set<string>, chemicals: Set<string>): Sheet['warnings'] {
+  const out = new Map<string, { code: string; message: string }>();
+  for (const w of ws) {
+    const chem = subjectIds(w.chemical);
+    const sps = subjectIds(w.species);
+    if (chem && !chem.some((c) => chemicals.has(c))) continue;
+    if (sps && !sps.some((x) => species.has(x))) continue;
+    const key = chem || sps ? `${w.code}\u0000c:${(chem ?? []).join(',')}\u0000s:${[...(sps ?? [])].sort().join(',')}` : `${w.code}\u0000m:${w.message}`;
+    const prev = out.get(key);
+    out.set(key, prev ? { code: w.code, message: mergeMessages(prev.message, w.message) } : { code: w.code, message: w.message });
+  }
+  return [...out.values()];
 }
 
 /** Build the sheet model. @throws InputError, DomainError (what is impossible and what would fix it) */
@@ -352,12 +400,25 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     }
   }
   // Gas: the margin analysis' own gas check (engine/checks.ts), whose production counts each turnover's yield.
-  const firstGas = m && m.checks.gas.length > 0 ? m.checks.gas.reduce((a, b) => (b.timeToSaturation < a.timeToSaturation ? b : a)) : null;
+  // Only the gas that is expected counts: a constant producer whose fuel is absent makes none (fuelAbsent, checks.ts);
+  // analyses stored before that split carry no expected figures, and then the model's are used.
+  const gasChecks = (m?.checks.gas ?? []).map((g) => ({
+    ...g,
+    rate: g.expectedProductionRate ?? g.productionRate,
+    time: g.expectedTimeToSaturation === undefined ? g.timeToSaturation : g.expectedTimeToSaturation,
+  }));
+  const expectedGas = gasChecks.filter((g): g is typeof g & { time: number } => g.time !== null);
+  const firstGas = expectedGas.length > 0 ? expectedGas.reduce((a, b) => (b.time < a.time ? b : a)) : null;
+  const atWhich = cand.atMargin === cand.atThreshold ? 'threshold' : 'margin';
+  for (const g of gasChecks.filter((x) => x.fuelAbsent)) {
+    const name = ctx.chemicalRecord(g.chemical)?.name ?? g.chemical;
+    notes.push(`${name} would be made at ${mM(g.productionRate).value} mM/s by constant activities at the ${atWhich} dose, but only while their fuel lasts: ${(g.absentFuels ?? []).join(', ')} ${(g.absentFuels ?? []).length === 1 ? 'is' : 'are'} absent, so ${g.time === null ? `no ${name} is expected` : `only ${mM(g.rate).value} mM/s is expected`}`);
+  }
   if (firstGas) {
     const name = ctx.chemicalRecord(firstGas.chemical)?.name ?? firstGas.chemical;
-    notes.push(`${name} is made at ${mM(firstGas.productionRate).value} mM/s (stoichiometric yields counted) at the ${cand.atMargin === cand.atThreshold ? 'threshold' : 'margin'} dose and passes its solubility (${mM(firstGas.solubility).value} mM) after about ${s(firstGas.timeToSaturation).value} s`);
-    if (firstGas.timeToSaturation < duration && !m!.warnings.some((w) => w.code === 'gas-exceeds-solubility' && w.chemical === firstGas.chemical)) {
-      warnings.push({ code: 'gas-during-imaging', message: `${name} passes its solubility after about ${s(firstGas.timeToSaturation).value} s, within the ${s(duration).value} s of imaging: bubbles may form; vent the chamber or image for less time.` });
+    notes.push(`${name} is made at ${mM(firstGas.rate).value} mM/s (stoichiometric yields counted) at the ${atWhich} dose and passes its solubility (${mM(firstGas.solubility).value} mM) after about ${s(firstGas.time).value} s`);
+    if (firstGas.time < duration && !m!.warnings.some((w) => w.code === 'gas-exceeds-solubility' && w.chemical === firstGas.chemical)) {
+      warnings.push({ code: 'gas-during-imaging', message: `${name} passes its solubility after about ${s(firstGas.time).value} s, within the ${s(duration).value} s of imaging: bubbles may form; vent the chamber or image for less time.` });
     }
   }
   const lambda = m?.fastestMode.wavelength ?? null;
@@ -369,19 +430,15 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   } else notes.push('the least stable mode is the longest wave: image the whole chamber');
   // The planner's own warnings on this candidate come first (an earlier instability than the chosen
   // boundary, draws already past, a band above the cap); plans stored before they existed carry none.
-  for (const w of cand.warnings ?? []) warnings.unshift({ code: w.code, message: w.message });
+  const gathered: SubjectWarning[] = [...(cand.warnings ?? []), ...warnings];
   // Then the plan's own (a chemical taken as 0, a retired species); the state map's are not the bench's.
-  for (const w of plan.result.warnings ?? []) if (w.code !== 'no-state-map') warnings.push({ code: w.code, message: w.message });
-  if (m) for (const w of m.warnings) warnings.push({ code: w.code, message: w.message });
-  // one line per distinct warning (the plan and the analysis can say the same thing)
-  const seenWarning = new Set<string>();
-  const distinct = warnings.filter((w) => {
-    const key = `${w.code}\u0000${w.message}`;
-    if (seenWarning.has(key)) return false;
-    seenWarning.add(key);
-    return true;
-  });
-  warnings.splice(0, warnings.length, ...distinct);
+  for (const w of plan.result.warnings ?? []) if (w.code !== 'no-state-map') gathered.push(w);
+  if (m) gathered.push(...m.warnings);
+  // Only what this sheet's mixture uses (another candidate's substrate is not this bench's concern), one line per
+  // code and subject: the plan and the analysis word the same warning differently, so their messages are merged.
+  const sheetSpecies = new Set(spIds);
+  const sheetChemicals = new Set([...base.species, dopant].flatMap((sp) => sp.couplings.flatMap((c) => [c.chemical, ...(c.activity?.kind === 'saturating' && c.activity.product !== null ? [c.activity.product] : [])])));
+  warnings.splice(0, warnings.length, ...sheetWarnings(gathered, sheetSpecies, sheetChemicals));
 
   // Hazards as handled: the stock bottle and the working solution.
   const hazards: HazardEntry[] = [];
@@ -394,12 +451,14 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     const cWork = fuelConc.get(id)!;
     const wWork = M ? (cWork * M) / WATER_DENSITY_25C : null;
     const asHandled: HazardEntry['asHandled'] = [];
-    if (wStock !== null) asHandled.push({ where: `stock bottle (${(wStock * 100).toPrecision(3)} % w/w)`, massFraction: wStock, classification: classify(set, wStock) });
-    if (wWork !== null) asHandled.push({ where: `working solution in the sample (${(wWork * 100).toPrecision(3)} % w/w, ${mM(cWork).value} mM)`, massFraction: wWork, classification: classify(set, wWork) });
+    const classified = set !== null;
+    if (wStock !== null) asHandled.push({ where: `stock bottle (${(wStock * 100).toPrecision(3)} % w/w)`, massFraction: wStock, classified, classification: classify(set, wStock) });
+    if (wWork !== null) asHandled.push({ where: `working solution in the sample (${(wWork * 100).toPrecision(3)} % w/w, ${mM(cWork).value} mM)`, massFraction: wWork, classified, classification: classify(set, wWork) });
     hazards.push({
       chemical: id,
       name: rec.name,
       asHandled,
+      classified,
       source: set?.source ?? null,
       version: stored?.version ?? null,
       recordedAt: stored?.createdAt ?? null,
@@ -475,7 +534,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
       duration: s(duration),
       fuelLife: fuelLife !== null ? s(fuelLife) : null,
       gasSaturation: firstGas
-        ? { chemical: firstGas.chemical, productionRate: { ...mM(firstGas.productionRate), unit: 'mM/s' }, solubility: mM(firstGas.solubility), time: s(firstGas.timeToSaturation) }
+        ? { chemical: firstGas.chemical, productionRate: { ...mM(firstGas.rate), unit: 'mM/s' }, solubility: mM(firstGas.solubility), time: s(firstGas.time) }
         : null,
       wavelength: lambda !== null ? mm(lambda) : null,
       chamberLength: L !== null ? mm(L) : null,
