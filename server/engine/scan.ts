@@ -23,9 +23,119 @@
  * relative bracket of 1e-10 (the fastest wavenumber to better than 1e-6), and
  * for discrete chambers the integer modes on both sides are evaluated.
  */
+import { solveInPlace } from './linalg/dense.js';
+import { eigenvalues } from './linalg/eigen.js';
 import type { ScaledModel } from './model.js';
-import { modeSpectrum, type ModeSpectrum } from './spectrum.js';
+import { modeSpectrum, REAL_TOLERANCE, type ModeSpectrum } from './spectrum.js';
 import type { Walls } from './types.js';
+
+/**
+ * Growth below this fraction of a spectrum's rounding scale is not resolved by
+ * double-precision eigenvalues (their error is a few ε·‖J'‖, ε ≈ 2.2e-16): such
+ * a value is reported as 0 (neutral), never as growth, so that rounding cannot
+ * fire a boundary.
+ */
+export const GROWTH_RESOLUTION = 1e-12;
+
+function resolved(v: number, scale: number): number {
+  return Number.isFinite(v) && Math.abs(v) <= GROWTH_RESOLUTION * scale ? 0 : v;
+}
+
+/** The spectrum summary with every branch value within rounding of 0 set to 0. */
+function resolvedSpectrum(s: ModeSpectrum): ModeSpectrum {
+  return { ...s, maxRe: resolved(s.maxRe, s.scale), maxReal: resolved(s.maxReal, s.scale), maxComplex: resolved(s.maxComplex, s.scale) };
+}
+
+/**
+ * The long-wave limit J'(0⁺) of an unbounded chamber whose reaction matrix R' is
+ * singular (a chemical without loss), computed from an S×S matrix rather than
+ * from J' at a tiny k' (docs/model.md §4).
+ *
+ * With X(k') = k'²G'(k')Q'ᵀ, J'(k') = −k'²𝔇' − P'X → −P' N Q'ᵀ as k' → 0, where
+ * N = lim k'²(k'²D'_c + R')⁻¹ (finite; zero on the directions R' damps). The
+ * non-zero eigenvalues of the M×M matrix −P' N Q'ᵀ are those of the S×S matrix
+ * K = −N (Q'ᵀP') (eig(AB) and eig(BA) share their non-zero values); the other
+ * M − (their number) eigenvalues are exactly 0 in the limit. The rounding scale
+ * of K is that of the sums that form it, Σ_m |Q'_ms||P'_mt| · max|N| — not the
+ * largest entry of J', which a cross term can make far larger than K — so a
+ * near-cancellation between species (a dose at a threshold) is resolved to the
+ * precision of the sums. N is evaluated at k'² = 1e-12/max|R'| (relative error
+ * of the limit about 1e-12).
+ */
+function longWaveLimitSpectrum(model: ScaledModel): ModeSpectrum {
+  const { M, S } = model;
+  let rMax = 0;
+  for (let i = 0; i < S * S; i++) rMax = Math.max(rMax, Math.abs(model.reaction[i]!));
+  const k2 = rMax > 0 ? 1e-12 / rMax : 1;
+  const A = new Float64Array(S * S);
+  for (let a = 0; a < S; a++) {
+    for (let b = 0; b < S; b++) A[a * S + b] = model.reaction[a * S + b]! / k2;
+    A[a * S + a]! += model.chemDiffusivity[a]!;
+  }
+  const N = new Float64Array(S * S);
+  for (let a = 0; a < S; a++) N[a * S + a] = 1;
+  const failed: ModeSpectrum = { k: 0, maxRe: Number.NaN, imAtMax: 0, maxReal: Number.NaN, maxComplex: -Infinity, imComplex: 0, converged: false, scale: 0 };
+  if (!solveInPlace(A, S, N, S)) return failed;
+  // QP = Q'ᵀP' (S×S) and its scale Σ_m |Q'_ms||P'_mt|
+  const QP = new Float64Array(S * S);
+  let sumScale = 0;
+  for (let a = 0; a < S; a++) {
+    for (let b = 0; b < S; b++) {
+      let acc = 0;
+      let abs = 0;
+      for (let m = 0; m < M; m++) {
+        const term = model.Q[m * S + a]! * model.P[m * S + b]!;
+        acc += term;
+        abs += Math.abs(term);
+      }
+      QP[a * S + b] = acc;
+      sumScale = Math.max(sumScale, abs);
+    }
+  }
+  let nMax = 0;
+  for (let i = 0; i < S * S; i++) nMax = Math.max(nMax, Math.abs(N[i]!));
+  const K = new Float64Array(S * S);
+  for (let a = 0; a < S; a++) {
+    for (let b = 0; b < S; b++) {
+      let acc = 0;
+      for (let c = 0; c < S; c++) acc += N[a * S + c]! * QP[c * S + b]!;
+      K[a * S + b] = -acc;
+    }
+  }
+  const scale = S * sumScale * nMax;
+  const spec = S === 1 ? { re: Float64Array.of(K[0]!), im: Float64Array.of(0), converged: Number.isFinite(K[0]!) } : eigenvalues(K, S);
+  if (!spec.converged) return { ...failed, scale };
+  let maxRe = -Infinity;
+  let imAtMax = 0;
+  let maxReal = -Infinity;
+  let maxComplex = -Infinity;
+  let imComplex = 0;
+  let nonZero = 0;
+  for (let i = 0; i < S; i++) {
+    const re = resolved(spec.re[i]!, scale);
+    const im = Math.abs(spec.im[i]!) <= REAL_TOLERANCE * Math.max(scale, Number.MIN_VALUE) ? 0 : Math.abs(spec.im[i]!);
+    if (re === 0 && im === 0) continue; // a zero of K is a zero of the limit too
+    nonZero++;
+    if (re > maxRe) {
+      maxRe = re;
+      imAtMax = im;
+    }
+    if (im === 0) maxReal = Math.max(maxReal, re);
+    else if (re > maxComplex) {
+      maxComplex = re;
+      imComplex = im;
+    }
+  }
+  if (M > nonZero) {
+    // the remaining eigenvalues of the limit are exactly 0 (real)
+    if (0 > maxRe) {
+      maxRe = 0;
+      imAtMax = 0;
+    }
+    maxReal = Math.max(maxReal, 0);
+  }
+  return { k: 0, maxRe, imAtMax, maxReal, maxComplex, imComplex, converged: true, scale };
+}
 
 export interface ScanOptions {
   /** Discrete modes evaluated one by one before switching to the grid (default 200). */
@@ -162,7 +272,7 @@ class Tracker {
     const s = modeSpectrum(this.model, k);
     this.evaluations++;
     if (!s.converged) this.unconverged++;
-    return s;
+    return resolvedSpectrum(s);
   }
 
   /** Offer an allowed mode (for discrete chambers k must be an integer). */
@@ -292,37 +402,38 @@ export function scanModes(model: ScaledModel, walls: Walls, options: ScanOptions
       const r = model.reaction[s * model.S + s]!;
       if (r > 0) kLo = Math.min(kLo, 1e-4 * Math.sqrt(r / model.chemDiffusivity[s]!));
     }
-    // J'(k') = J'(0+) + O(k'²): step k' down by factors of 100 until the value settles
-    // at the rounding level of J'; a limit within rounding of 0 is 0 (the null space
-    // of a singular R' or of the coupling gives eigenvalues → 0).
-    let tiny = t.eval(kLo * 1e-2);
-    if (model.reactionSingular) {
-      for (let j = 2; j <= 12; j++) {
-        const next = t.eval(kLo * 10 ** (-2 * j));
-        const settled = Math.abs(next.maxRe - tiny.maxRe) <= 1e-12 * next.scale;
-        tiny = next;
-        if (settled) break;
-      }
-    }
-    // One rounding rule for every branch: a value within rounding of 0 at the long-wave end is 0
-    // (otherwise the real branch could report a growth of 1e-16 while the overall growth is 0,
-    // and the stationary predicate would fire below the true onset).
-    const atLimit = (v: number) => (!model.reactionSingular || Math.abs(v) <= 1e-11 * tiny.scale ? (v > -Infinity ? 0 : v) : v);
-    const limitValue = atLimit(tiny.maxRe);
+    // The k' → 0 limit: 0 when R' is invertible (J' = O(k'²)); otherwise the S×S
+    // reduction of longWaveLimitSpectrum, resolved against the scale of its own sums.
+    const limit: ModeSpectrum = model.reactionSingular
+      ? longWaveLimitSpectrum(model)
+      : { k: 0, maxRe: 0, imAtMax: 0, maxReal: 0, maxComplex: -Infinity, imComplex: 0, converged: true, scale: 0 };
+    if (!limit.converged) t.unconverged++;
+    const limitValue = Number.isFinite(limit.maxRe) ? limit.maxRe : 0;
     const fRef = limitValue;
     kHi = Math.sqrt(cutoff(bound, fRef, model));
+    // a bound of 0 (nothing couples: no mode can beat the limit) still scans a little way in k' > 0
+    if (!(kHi > 0)) kHi = 1;
     kLo = Math.min(kLo, kHi * 1e-4);
     const ks = logGrid(kLo, kHi, perDecade);
     const offerK = (k: number) => t.offer(t.eval(k));
     gridSearch(ks, offerK);
     const best = t.best.maxRe!;
     // Supremum at the long-wave end: the maximum sits on the first grid point and
-    // the curve falls away from it.
+    // the curve falls away from it, or no finite k' does better than the limit.
     if (best.spec.k < (ks[1] ?? Infinity) || best.spec.maxRe <= limitValue) {
       longWaveLimit = true;
-      const limitSpec: ModeSpectrum = { ...tiny, k: 0, maxRe: limitValue, imAtMax: 0, maxReal: Math.max(atLimit(tiny.maxReal), limitValue), maxComplex: atLimit(tiny.maxComplex) };
+      const limitSpec: ModeSpectrum = { ...limit, maxRe: limitValue };
       t.best.maxRe = { spec: limitSpec, index: null };
-      if (!(t.best.maxReal !== null && t.best.maxReal.spec.maxReal > limitValue)) t.best.maxReal = { spec: limitSpec, index: null };
+      if (!(t.best.maxReal !== null && t.best.maxReal.spec.maxReal > limit.maxReal) && limit.maxReal > -Infinity) t.best.maxReal = { spec: limitSpec, index: null };
+      if (!(t.best.maxComplex !== null && t.best.maxComplex.spec.maxComplex > limit.maxComplex) && limit.maxComplex > -Infinity) t.best.maxComplex = { spec: limitSpec, index: null };
+      // the overall growth is never below a branch's (one answer, not two)
+      for (const b of ['maxReal', 'maxComplex'] as const) {
+        const x = t.best[b];
+        if (x !== null && x.spec[b] > t.best.maxRe.spec.maxRe) {
+          t.best.maxRe = { spec: { ...x.spec, maxRe: x.spec[b], imAtMax: b === 'maxReal' ? 0 : x.spec.imComplex }, index: x.index };
+          longWaveLimit = x.spec.k === 0;
+        }
+      }
     }
   }
 

@@ -23,7 +23,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { analyze } from '../../server/engine/analyze.js';
-import { findDose, screen } from '../../server/engine/planner.js';
+import { dosePath, findDose, growth, screen, withDose } from '../../server/engine/planner.js';
 import { chemical, constant, mixture, rel, species } from '../helpers/mixtures.js';
 
 const Dc = 1.4e-9; // m²/s
@@ -101,5 +101,58 @@ describe('no-loss unbounded chamber, a self-attracting dopant on a self-repellin
     expect(c!.firstOnset!.state).toBe('stationary');
     expect(c!.warnings.map((w) => w.code)).not.toContain('earlier-instability');
     expect(c!.atThreshold!.state).not.toBe('stable');
+  });
+});
+
+describe('no-loss unbounded chamber with a second chemical: the long-wave limit is resolved on its own scale', () => {
+  // With S chemicals, J(0⁺) = −diag(ρ) μ N αᵀ (N = diag(1/D_c) on the chemicals without loss, 0 on the
+  // damped ones): its non-zero eigenvalues are those of the S×S matrix −N αᵀ diag(ρ) μ (docs/model.md §4).
+  // Here only chemical c has no loss and only A makes it, so the one non-zero eigenvalue is
+  // λ(0⁺) = −α_A μ_A ρ_A / D_c whatever the bystander B does: B responds to c strongly (a large cross term
+  // ρ_B μ_B α_A in J) but makes nothing. An earlier rule judged "within rounding of 0" against the largest
+  // entry of J and called these growths 0 (stable).
+  const Dc = 1.4e-9;
+  const D = 0.4e-12;
+  const alphaA = 3e-17;
+  const muA = -2e-11;
+  for (const [rhoA, rhoB, muB] of [
+    [1e12, 1e18, -2e-11],
+    [1e10, 1e18, -2e-11],
+    [1e9, 1e19, -2e-9],
+    [1e8, 1e19, -2e-9],
+  ] as const) {
+    it(`ρ_A = ${rhoA}, ρ_B = ${rhoB}, μ_B = ${muB}: growth −α_A μ_A ρ_A / D_c`, () => {
+      const mix = mixture(
+        [chemical('c', Dc, 0), chemical('d', Dc, 1)],
+        [species('A', D, rhoA, [constant('c', alphaA, muA)]), species('B', D, rhoB, [constant('c', 0, muB), constant('d', 0, 1e-11)])],
+        'unbounded',
+        null,
+      );
+      const r = analyze(mix);
+      const hand = -(alphaA * muA * rhoA) / Dc;
+      expect(hand).toBeGreaterThan(0);
+      expect(r.state).toBe('stationary');
+      expect(rel(r.growthRate, hand)).toBeLessThan(1e-9);
+    });
+  }
+
+  it('a self-attracting dopant on a responding tracer, with a second chemical: any dose, and the path agrees', () => {
+    // tracer: responds to c, makes nothing; dopant: makes c (α > 0) and climbs it (μ < 0), also makes o2.
+    // λ(0⁺) = −α_d μ_d x / D_c > 0 for every x > 0 (the tracer adds nothing to the S×S matrix).
+    const chems = [chemical('c', Dc, 0), chemical('o2', 2e-9, 0)];
+    const base = mixture(chems, [species('tracer', 0.2e-12, 1e14, [constant('c', 0, -2e-11), constant('o2', 0, 1e-11)])], 'unbounded', null);
+    const dop = species('A', 0.4e-12, 0, [constant('c', 3e-17, -2e-11), constant('o2', 1e-17, 0)]);
+    const o = { boundary: 'stationary' as const, dosing: 'add' as const };
+    const r = findDose(base, dop, o);
+    expect(r.anyDose).toBe(true);
+    const p = dosePath(base, dop, o);
+    expect(p.firstOnset).toEqual({ density: 0, state: 'stationary' });
+    expect(p.intervals.map((i) => i.state)).toEqual(['stationary']);
+    for (const x of [1, 1e3, 1e9]) {
+      const g = growth(withDose(base, dop, x, 'add'));
+      expect(rel(g.real, (-3e-17 * -2e-11 * x) / Dc)).toBeLessThan(1e-9);
+      // one answer: the overall growth is never below a branch's
+      expect(g.any).toBeGreaterThanOrEqual(g.real);
+    }
   });
 });
