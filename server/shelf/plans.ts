@@ -4,10 +4,11 @@
  * numbers can be read back unchanged after the shelf moves on.
  */
 import { z } from 'zod';
-import { missingConcentrationWarnings, type Warning } from '../engine/checks.js';
+import type { Warning } from '../engine/checks.js';
 import { doseSeries, screen, stateMap, fuelSweep, type CandidateResult, type ScreenOptions } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
 import { issueList, quantity } from '../schema/mixture.js';
+import { screenWarnings } from '../schema/screen.js';
 import { keySchema } from '../schema/shelf.js';
 import type { PlansRepository } from '../store/plans.js';
 import { DIMENSIONS } from '../units/index.js';
@@ -83,7 +84,7 @@ export function checkPlanWork(candidates: number, samples: number, allOfShelf: b
 
 export interface PlanResult {
   candidates: CandidateResult[];
-  /** What happened other than what was asked: the shelf's input warnings, `no-concentration` for every chemical taken as 0, then the plan's own (e.g. a state map that could not be drawn) */
+  /** What happened other than what was asked: the shelf's input warnings, `no-concentration` for every chemical taken as 0, the base mixture's own analysis warnings (as a screen's), then the plan's own (e.g. a state map that could not be drawn) */
   warnings: Warning[];
   /** the state map of one candidate, with the bench sheet's default dose series at base factor 1 */
   stateMap: (ReturnType<typeof stateMap> & { candidate: string; doseSeries: number[] }) | null;
@@ -105,7 +106,8 @@ export function runPlan(base: Mixture, candidates: Species[], req: PlanRequest):
   const ranked = screen(base, candidates, o);
   // A chemical the request gave no level for is taken as 0 (the shelf marks it, docs/model.md §8): that is the plan's
   // answer too, so say it here, where pages and sheets read the plan's warnings, and name who needs it.
-  const warnings: Warning[] = missingConcentrationWarnings(base, candidates);
+  // Then what the base mixture's own analysis says (an absent fuel, settling, a missing datum), as a screen does.
+  const warnings: Warning[] = screenWarnings(base, candidates);
   let map: PlanResult['stateMap'] = null;
   const m = req.stateMap;
   const chosen = m ? (m.candidate ?? ranked.find((c) => c.feasible)?.species) : undefined;
