@@ -138,8 +138,10 @@ export function practicalChecks(
   const consumes = (sp: Mixture['species'][number], id: string) =>
     sp.couplings.some((cp) => cp.chemical === id && ((cp.activity?.kind === 'constant' && cp.activity.rate < 0) || (cp.activity?.kind === 'saturating' && cp.activity.maxRate > 0)));
   const absentFuels = new Set(mix.chemicals.filter((c, s) => c.concentration === 0 && netOf(s) <= 0 && mix.species.some((sp) => sp.density > 0 && consumes(sp, c.id))).map((c) => c.id));
-  // The absent fuels a species consumes by a constant activity (its constant production cannot run without them).
-  const starvedBy = (sp: Mixture['species'][number]) => [...new Set(sp.couplings.filter((cp) => absentFuels.has(cp.chemical) && cp.activity?.kind === 'constant' && cp.activity.rate < 0).map((cp) => cp.chemical))];
+  // The absent fuels a species consumes, by a constant or a saturating activity: its constant production of
+  // another chemical (a gas) cannot run without them (a saturating turnover of an absent fuel is 0 already).
+  const starvedBy = (sp: Mixture['species'][number]) =>
+    [...new Set(sp.couplings.filter((cp) => absentFuels.has(cp.chemical) && consumes({ ...sp, couplings: [cp] }, cp.chemical)).map((cp) => cp.chemical))];
   mix.chemicals.forEach((c, s) => {
     let net = 0;
     mix.species.forEach((sp, m) => {
@@ -188,7 +190,7 @@ export function practicalChecks(
     }
     if (c.solubility !== null && net > 0) {
       const timeToSaturation = Math.max(0, (c.solubility - c.concentration) / net);
-      // Split the production: producers starved of a fuel they consume by a constant activity make none of it.
+      // Split the production: producers starved of a fuel they consume (constant or saturating) make none of it.
       let expected = 0;
       const starvedProducers: string[] = [];
       const fuels = new Set<string>();

@@ -201,3 +201,22 @@ describe('a constant activity whose fuel is absent (docs/model.md §8)', () => {
     expect(w.message).toMatch(/after about 1\.73 min/);
   });
 });
+
+describe('a saturating consumer of an absent fuel that makes its gas by a constant activity', () => {
+  // "beads" turn h2o2 over with saturating kinetics (V = 2e-18 mol/s, K = 80 mM; h2o2 given at 0, so their
+  // turnover V c/(K + c) is 0) and make O₂ by a constant 1e-18 mol/s at 1e16 m⁻³: the model's constant term
+  // says 1e-18 · 1e16 = 0.01 mol m⁻³ s⁻¹ and (1.3 − 0.26)/0.01 = 104 s, but it cannot run without the fuel.
+  const beads = species('beads', 1e-12, 1e16, [
+    { chemical: 'h2o2', activity: { kind: 'saturating', maxRate: 2e-18, michaelis: 80, product: null, productYield: 1 }, mobility: 0 },
+    { chemical: 'o2', activity: { kind: 'constant', rate: 1e-18 }, mobility: 0 },
+  ] as Coupling[]);
+  const chems = [chemical('h2o2', 1.4e-9, 0, 0), { ...chemical('o2', 2e-9, 0, 0.26), solubility: O2_SOLUBILITY }];
+  it('no gas is expected, and no bubbles warning is given', () => {
+    const { checks, warnings } = practicalChecks(mixture(chems, [beads], 'sealed'), null, null);
+    const g = checks.gas.find((x) => x.chemical === 'o2')!;
+    expect(g.productionRate).toBeCloseTo(0.01, 12);
+    expect(g).toMatchObject({ fuelAbsent: true, absentFuels: ['h2o2'], expectedProductionRate: 0, expectedTimeToSaturation: null });
+    expect(warnings.map((w) => w.code)).not.toContain('gas-exceeds-solubility');
+    expect(warnings.map((w) => w.code)).toContain('gas-needs-absent-fuel');
+  });
+});
