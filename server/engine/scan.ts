@@ -26,7 +26,7 @@
 import { solveInPlace } from './linalg/dense.js';
 import { eigenvalues } from './linalg/eigen.js';
 import type { ScaledModel } from './model.js';
-import { modeSpectrum, REAL_TOLERANCE, type ModeSpectrum } from './spectrum.js';
+import { modeSpectrum, REAL_TOLERANCE, summariseValues, type ModeSpectrum } from './spectrum.js';
 import type { Walls } from './types.js';
 
 /**
@@ -105,36 +105,21 @@ function longWaveLimitSpectrum(model: ScaledModel): ModeSpectrum {
   const scale = S * sumScale * nMax;
   const spec = S === 1 ? { re: Float64Array.of(K[0]!), im: Float64Array.of(0), converged: Number.isFinite(K[0]!) } : eigenvalues(K, S);
   if (!spec.converged) return { ...failed, scale };
-  let maxRe = -Infinity;
-  let imAtMax = 0;
-  let maxReal = -Infinity;
-  let maxComplex = -Infinity;
-  let imComplex = 0;
-  let nonZero = 0;
+  // the limit's eigenvalues: those of K not within rounding of 0, and exact zeros for the rest of the M
+  const tolIm = REAL_TOLERANCE * Math.max(scale, Number.MIN_VALUE);
+  const re: number[] = [];
+  const im: number[] = [];
   for (let i = 0; i < S; i++) {
-    const re = resolved(spec.re[i]!, scale);
-    const im = Math.abs(spec.im[i]!) <= REAL_TOLERANCE * Math.max(scale, Number.MIN_VALUE) ? 0 : Math.abs(spec.im[i]!);
-    if (re === 0 && im === 0) continue; // a zero of K is a zero of the limit too
-    nonZero++;
-    if (re > maxRe) {
-      maxRe = re;
-      imAtMax = im;
-    }
-    if (im === 0) maxReal = Math.max(maxReal, re);
-    else if (re > maxComplex) {
-      maxComplex = re;
-      imComplex = im;
-    }
+    const r = resolved(spec.re[i]!, scale);
+    if (r === 0 && Math.abs(spec.im[i]!) <= tolIm) continue; // a zero of K is a zero of the limit too
+    re.push(r);
+    im.push(spec.im[i]!);
   }
-  if (M > nonZero) {
-    // the remaining eigenvalues of the limit are exactly 0 (real)
-    if (0 > maxRe) {
-      maxRe = 0;
-      imAtMax = 0;
-    }
-    maxReal = Math.max(maxReal, 0);
+  for (let i = re.length; i < M; i++) {
+    re.push(0);
+    im.push(0);
   }
-  return { k: 0, maxRe, imAtMax, maxReal, maxComplex, imComplex, converged: true, scale };
+  return summariseValues(0, re, im, true, scale);
 }
 
 export interface ScanOptions {

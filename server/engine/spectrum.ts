@@ -102,31 +102,38 @@ export function eigenvalues2x2(J: Float64Array): { re: Float64Array; im: Float64
 
 function summarise(k: number, J: Float64Array, M: number): ModeSpectrum {
   const spec = M === 2 ? eigenvalues2x2(J) : eigenvalues(J, M);
-  const scale = matrixScale(J);
+  return summariseValues(k, spec.re, spec.im, spec.converged, matrixScale(J));
+}
+
+/**
+ * The branch summary of a list of eigenvalues at k' with rounding scale `scale`:
+ * |Im λ| within REAL_TOLERANCE · scale counts as real; NaN values are skipped.
+ */
+export function summariseValues(k: number, re: ArrayLike<number>, imag: ArrayLike<number>, converged: boolean, scale: number): ModeSpectrum {
   const tol = REAL_TOLERANCE * Math.max(scale, Number.MIN_VALUE);
   let maxRe = -Infinity;
   let imAtMax = 0;
   let maxReal = -Infinity;
   let maxComplex = -Infinity;
   let imComplex = 0;
-  for (let i = 0; i < M; i++) {
-    const re = spec.re[i]!;
-    const im = Math.abs(spec.im[i]!);
-    if (Number.isNaN(re)) continue;
-    if (re > maxRe) {
-      maxRe = re;
+  for (let i = 0; i < re.length; i++) {
+    const r = re[i]!;
+    const im = Math.abs(imag[i]!);
+    if (Number.isNaN(r)) continue;
+    if (r > maxRe) {
+      maxRe = r;
       imAtMax = im > tol ? im : 0;
     }
     if (im > tol) {
-      if (re > maxComplex) {
-        maxComplex = re;
+      if (r > maxComplex) {
+        maxComplex = r;
         imComplex = im;
       }
-    } else if (re > maxReal) {
-      maxReal = re;
+    } else if (r > maxReal) {
+      maxReal = r;
     }
   }
-  return { k, maxRe, imAtMax, maxReal, maxComplex, imComplex, converged: spec.converged, scale };
+  return { k, maxRe, imAtMax, maxReal, maxComplex, imComplex, converged, scale };
 }
 
 /**
