@@ -135,22 +135,19 @@ export function practicalChecks(
   const duration = mix.conditions.duration;
   // Absent fuels (docs/model.md §8): a chemical at c⁰ = 0 that particles consume (by structure) and nothing makes.
   const netOf = (s: number) => mix.species.reduce((acc, sp, m) => acc + alpha[m * S + s]! * sp.density, 0);
-  const consumes = (sp: Mixture['species'][number], id: string) =>
-    sp.couplings.some((cp) => cp.chemical === id && ((cp.activity?.kind === 'constant' && cp.activity.rate < 0) || (cp.activity?.kind === 'saturating' && cp.activity.maxRate > 0)));
+  // A coupling that turns its chemical over (consumes it by structure): a constant uptake or a saturating turnover.
+  const consuming = (cp: Mixture['species'][number]['couplings'][number]) =>
+    (cp.activity?.kind === 'constant' && cp.activity.rate < 0) || (cp.activity?.kind === 'saturating' && cp.activity.maxRate > 0);
+  const consumes = (sp: Mixture['species'][number], id: string) => sp.couplings.some((cp) => cp.chemical === id && consuming(cp));
   const absentFuels = new Set(mix.chemicals.filter((c, s) => c.concentration === 0 && netOf(s) <= 0 && mix.species.some((sp) => sp.density > 0 && consumes(sp, c.id))).map((c) => c.id));
   // The absent fuels a species consumes, by a constant or a saturating activity: its constant production of
   // another chemical (a gas) cannot run without them (a saturating turnover of an absent fuel is 0 already).
   const starvedBy = (sp: Mixture['species'][number]) =>
-    [...new Set(sp.couplings.filter((cp) => absentFuels.has(cp.chemical) && consumes({ ...sp, couplings: [cp] }, cp.chemical)).map((cp) => cp.chemical))];
+    [...new Set(sp.couplings.filter((cp) => absentFuels.has(cp.chemical) && consuming(cp)).map((cp) => cp.chemical))];
   mix.chemicals.forEach((c, s) => {
-    let net = 0;
-    mix.species.forEach((sp, m) => {
-      net += alpha[m * S + s]! * sp.density;
-    });
+    const net = netOf(s);
     // Consumed by structure, not by the linearised rate: a saturating turnover of an absent fuel is 0.
-    const consumers = mix.species.filter(
-      (sp) => sp.density > 0 && sp.couplings.some((cp) => cp.chemical === c.id && ((cp.activity?.kind === 'constant' && cp.activity.rate < 0) || (cp.activity?.kind === 'saturating' && cp.activity.maxRate > 0))),
-    );
+    const consumers = mix.species.filter((sp) => sp.density > 0 && consumes(sp, c.id));
     if (c.concentrationMissing) {
       const consumed = consumers.length > 0 && net <= 0;
       warnings.push({
