@@ -15,7 +15,7 @@
  */
 import { z } from 'zod';
 import { AVOGADRO } from '../engine/constants.js';
-import { fitDrift, fitKinetics, fitMsd, MSD_MODELS, type FitResult, type MsdModel } from '../engine/fit/models.js';
+import { fitDrift, fitKinetics, fitMsd, MSD_MODELS, msdDimension, msdParameterCount, type FitResult, type MsdModel } from '../engine/fit/models.js';
 import { msdFromTracks, TRACKS_DEFAULT_LAGS, TRACKS_MAX_LAGS, TRACKS_MAX_ROWS, type Track } from '../engine/fit/tracks.js';
 import { EngineInputError } from '../engine/types.js';
 import { quantity, issueList } from '../schema/mixture.js';
@@ -175,9 +175,9 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
       if (o.weighting === 'relative-variance-model') {
         throw new InputError([{ path: 'options.weighting', message: "relative-variance-model is for an MSD curve without sd; tracked positions are fitted with their covariance ('gls-covariance') or 'unweighted'" }]);
       }
-      const dims = o.model === 'passive-3d' || o.model === 'active-3d' ? 3 : 2;
+      const dims = msdDimension(o.model);
       const { tracks, dt } = readTracks(t, dims);
-      const m = engineErrors(() => msdFromTracks(tracks, { dt, ...(o.lags !== undefined ? { lags: o.lags } : {}), minLags: (o.model.startsWith('active') ? (o.radius ? 2 : 3) : 1) + (o.offset ? 1 : 0) + 2, ...(o.maxLag ? { maxLagFrames: Math.max(1, Math.round(o.maxLag.value / dt)) } : {}) }));
+      const m = engineErrors(() => msdFromTracks(tracks, { dt, ...(o.lags !== undefined ? { lags: o.lags } : {}), minLags: msdParameterCount(o.model, Boolean(o.radius), Boolean(o.offset)) + 2, ...(o.maxLag ? { maxLagFrames: Math.max(1, Math.round(o.maxLag.value / dt)) } : {}) }));
       const gls = (o.weighting ?? 'gls-covariance') === 'gls-covariance';
       const fit = engineErrors(() => fitMsd(m.lag, m.msd, { ...engineOptions, ...(gls ? { covariance: m.covariance, covarianceSamples: m.unitCount } : {}) }));
       const notes = [`MSD computed from ${m.tracks} tracks (${m.positions} positions, frame interval ${dt} s) at ${m.lag.length} lags, all overlapping windows.`, ...m.notes];

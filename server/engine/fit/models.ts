@@ -160,13 +160,22 @@ function longSlopeCoefficient(model: MsdModel): number {
   return model === 'active-2d' ? 2 : model === 'active-3d' ? 1 : 2 / 3;
 }
 
+/** Number of observed dimensions of an MSD model: 3 for passive-3d and active-3d, else 2 (a focal plane is 2). */
+export function msdDimension(model: MsdModel): 2 | 3 {
+  return model === 'passive-3d' || model === 'active-3d' ? 3 : 2;
+}
+
+/** Number of fitted parameters of an MSD model: D (+ v, τ when active; τ not when fixed by a radius) (+ the offset). */
+export function msdParameterCount(model: MsdModel, rotationFixed: boolean, offset: boolean): number {
+  return (model.startsWith('active') ? (rotationFixed ? 2 : 3) : 1) + (offset ? 1 : 0);
+}
+
 /**
  * The MSD of a model at lag t (s) for diffusivity D (m²/s), speed v (m/s), rotation time τ (s) and
  * offset c (m²): the forms of the file header, as the fit evaluates them.
  */
 export function msdCurve(model: MsdModel, t: number, D: number, v = 0, tau = 1, c = 0): number {
-  const dimension = model === 'passive-3d' || model === 'active-3d' ? 3 : 2;
-  return 2 * dimension * D * t + (model.startsWith('active') ? activePart(model, t, v, tau) : 0) + c;
+  return 2 * msdDimension(model) * D * t + (model.startsWith('active') ? activePart(model, t, v, tau) : 0) + c;
 }
 
 /**
@@ -175,8 +184,7 @@ export function msdCurve(model: MsdModel, t: number, D: number, v = 0, tau = 1, 
  */
 export function effectiveDiffusivity(model: MsdModel, D: number, v = 0, tau = 1): number {
   if (!model.startsWith('active')) return D;
-  const dimension = model === 'active-3d' ? 3 : 2;
-  return D + (longSlopeCoefficient(model) / (2 * dimension)) * v * v * tau;
+  return D + (longSlopeCoefficient(model) / (2 * msdDimension(model))) * v * v * tau;
 }
 
 /**
@@ -227,8 +235,8 @@ export function fitMsd(lag: number[], msd: number[], o: MsdOptions): FitResult {
   if (!MSD_MODELS.includes(o.model)) throw new EngineInputError('model', `expected one of ${MSD_MODELS.join(', ')}, got "${o.model}"`);
   if (o.varianceModel && !o.sd && !o.covariance) return fitMsdVarianceModel(lag, msd, o);
   const active = o.model.startsWith('active');
-  const dimension = o.model === 'passive-3d' || o.model === 'active-3d' ? 3 : 2;
-  const nPar = (active ? (o.radius !== undefined ? 2 : 3) : 1) + (o.offset ? 1 : 0);
+  const dimension = msdDimension(o.model);
+  const nPar = msdParameterCount(o.model, o.radius !== undefined, o.offset === true);
   need(lag.length, nPar + 1, o.model);
   const n = lag.length;
   const notes: string[] = [];
