@@ -43,15 +43,12 @@ export function roundedText(x: number, e: number): string {
   const digits = mag - e + 1;
   if (digits < 1) return '0';
   if (e <= 0 && -e <= 20 && (x === 0 || (Math.abs(x) >= 1e-5 && Math.abs(x) < 1e6))) {
-    const t = x.toFixed(-e);
     // rounding may carry into a new leading digit (9.96 → 10.0): toFixed already gives the right place
-    return t;
+    return x.toFixed(-e);
   }
-  // exponential: the digit count from the place, after rounding (9.96e-16 to place 1e-17 → 9.96e-16; 9.996e-16 → 1.000e-15)
-  let t = x.toExponential(Math.min(Math.max(digits - 1, 0), 100));
-  const carried = Math.floor(Math.log10(Math.abs(Number(t)))) > mag;
-  if (carried) t = Number(t).toExponential(Math.max(digits - 1, 0));
-  return t.replace('e+', 'e');
+  // exponential: the digit count from the place before rounding, so a carry keeps the place
+  // (9.96e-16 to place 1e-17 → 9.96e-16; 9.996e-16 to place 1e-17 → 1.00e-15)
+  return x.toExponential(Math.min(digits - 1, 100)).replace('e+', 'e');
 }
 
 /**

@@ -204,17 +204,20 @@ export function leastSquares(pr: LsqProblem): LsqResult {
   // J_ik = ∂(L⁻¹f)_i/∂q_k, central differences, one-sided where a neighbour leaves the box or the domain
   const jacobian = (q: number[]) => {
     const cols: number[][] = [];
-    const f0 = pr.x.map((x) => pr.model(x, full(q)));
+    const p0 = full(q);
+    const f0 = pr.x.map((x) => pr.model(x, p0));
     for (let k = 0; k < m; k++) {
       const h = 1e-6 * Math.max(Math.abs(q[k]!), 1e-3);
       const qp = [...q];
       const qm = [...q];
       qp[k]! += h;
       qm[k]! -= h;
-      const okP = inBox(qp) && valid(full(qp));
-      const okM = inBox(qm) && valid(full(qm));
-      const fp = okP ? pr.x.map((x) => pr.model(x, full(qp))) : f0;
-      const fm = okM ? pr.x.map((x) => pr.model(x, full(qm))) : f0;
+      const pp = full(qp);
+      const pm = full(qm);
+      const okP = inBox(qp) && valid(pp);
+      const okM = inBox(qm) && valid(pm);
+      const fp = okP ? pr.x.map((x) => pr.model(x, pp)) : f0;
+      const fm = okM ? pr.x.map((x) => pr.model(x, pm)) : f0;
       const span = (okP ? h : 0) + (okM ? h : 0);
       const d = span > 0 ? fp.map((v, i) => (v - fm[i]!) / span) : f0.map(() => 0);
       cols.push(whiten(d));
@@ -301,9 +304,7 @@ export function leastSquares(pr: LsqProblem): LsqResult {
     const tol = 1e-12 * Math.max(1, Math.abs(q[k]!));
     if (Number.isFinite(lo[k]!) && q[k]! - lo[k]! <= tol) atBound[i] = 'lower';
     else if (Number.isFinite(hi[k]!) && hi[k]! - q[k]! <= tol) atBound[i] = 'upper';
-  });
-  // a parameter on its bound is reported as the bound itself, not a rounding residue beside it
-  free.forEach((i, k) => {
+    // a parameter on its bound is reported as the bound itself, not a rounding residue beside it
     if (atBound[i] === 'lower') q[k] = lo[k]!;
     else if (atBound[i] === 'upper') q[k] = hi[k]!;
   });
