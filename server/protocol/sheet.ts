@@ -10,7 +10,7 @@
 import { z } from 'zod';
 import type { AnalysisResult } from '../engine/analyze.js';
 import { WATER_DENSITY_25C } from '../engine/constants.js';
-import { doseSeries, withDose, type CandidateResult } from '../engine/planner.js';
+import { DEFAULT_DOSE_FACTORS, doseSeries, withDose, type CandidateResult } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
 import { idRecord, ownEntry, quantity } from '../schema/mixture.js';
 import { numberDensity, type ChemicalRecord, type SpeciesRecord } from '../schema/shelf.js';
@@ -228,7 +228,10 @@ export function chooseSeries(cand: CandidateResult, req: SheetRequest) {
   const seriesWarnings: Sheet['warnings'] = [];
   if (req.doses && req.doseFactors) throw new InputError([{ path: 'doses', message: 'give doses or doseFactors, not both' }]);
   const median = cand.band?.median ?? null;
-  const scalable = (median !== null && median > 0) || cand.threshold!.density > 0;
+  // what dose factors scale (doseSeries): the band's median when above zero, else the threshold
+  const scaledFrom: 'median' | 'threshold' = median !== null && median > 0 ? 'median' : 'threshold';
+  const scalable = scaledFrom === 'median' || cand.threshold!.density > 0;
+  const scaledName = scaledFrom === 'median' ? 'median threshold of the Monte Carlo band' : 'threshold';
   if (!req.doses && !scalable) {
     const path = cand.dosePath?.length ? `; dose path: ${cand.dosePath.map((iv) => `${iv.state} over (${per(iv.from)}, ${per(iv.to)}]`).join(', ')}` : '';
     throw new InputError([
@@ -241,11 +244,10 @@ export function chooseSeries(cand: CandidateResult, req: SheetRequest) {
   if (!req.doses) {
     const { reference, doses } = doseSeries(cand, req.doseFactors);
     const from = req.doseFactors ? 'dose-factors' : 'default-factors';
-    const referenceFrom: 'median' | 'threshold' = median !== null && median > 0 ? 'median' : 'threshold';
-    const note = `${req.doseFactors ? 'the dose factors given' : 'the default factors 0, 0.5, 0.8, 1, 1.25, 1.6, 2'} × the ${referenceFrom === 'median' ? 'median threshold of the Monte Carlo band' : 'threshold'} (${per(reference)})${!req.doseFactors && cand.band ? ", plus the band's 5 % and 95 % doses" : ''}`;
+    const note = `${req.doseFactors ? 'the dose factors given' : `the default factors ${DEFAULT_DOSE_FACTORS.join(', ')}`} × the ${scaledName} (${per(reference)})${!req.doseFactors && cand.band ? ", plus the band's 5 % and 95 % doses" : ''}`;
     // factors × the reference (2 × the median, or the 95 % dose) can pass the cap as much as doses given can
     seriesWarnings.push(...aboveCap(cand, doses));
-    return { ref: reference, series: doses, referenceFrom, seriesInfo: { from, note } as Sheet['prediction']['series'], seriesWarnings };
+    return { ref: reference, series: doses, referenceFrom: scaledFrom, seriesInfo: { from, note } as Sheet['prediction']['series'], seriesWarnings };
   }
   const series = [...new Set(req.doses.map((d) => Number(d.value.toPrecision(6))))].sort((a, b) => a - b);
   const top = series[series.length - 1]!;
@@ -253,14 +255,14 @@ export function chooseSeries(cand: CandidateResult, req: SheetRequest) {
   let referenceFrom: 'median' | 'threshold' | 'largest-dose';
   if (scalable) {
     ref = doseSeries(cand, [1]).reference;
-    referenceFrom = median !== null && median > 0 ? 'median' : 'threshold';
+    referenceFrom = scaledFrom;
   } else {
     if (!(top > 0)) throw new InputError([{ path: 'doses', message: 'give at least one dose above 0: any dose crosses, and the controls are made at the largest dose given' }]);
     ref = top;
     referenceFrom = 'largest-dose';
   }
   seriesWarnings.push(...aboveCap(cand, series));
-  const note = `the doses given; 1 × (the dose of the no-fuel and dopant-alone controls) is ${referenceFrom === 'largest-dose' ? 'the largest of them, since any dose crosses and there is no threshold to scale by' : `the ${referenceFrom === 'median' ? 'median threshold of the Monte Carlo band' : 'threshold'}`} (${per(ref)})`;
+  const note = `the doses given; 1 × (the dose of the no-fuel and dopant-alone controls) is ${referenceFrom === 'largest-dose' ? 'the largest of them, since any dose crosses and there is no threshold to scale by' : `the ${scaledName}`} (${per(ref)})`;
   return { ref, series, referenceFrom, seriesInfo: { from: 'doses', note } as Sheet['prediction']['series'], seriesWarnings };
 }
 
@@ -386,6 +388,8 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   let frame = 10;
   let duration = 3600;
   let fuelLife: number | null = null;
+  // the dose the imaging numbers are read at (the margin dose is the threshold itself when the planner made it so)
+  const atWhich = cand.atMargin === cand.atThreshold ? 'threshold' : 'margin';
   if (!m) notes.push(`no analysis at a margin dose (${cand.anyDose ? 'any dose crosses, so there is none' : 'none in this plan'}): the frame interval (${frame} s) and duration (${duration} s) are defaults, not predictions; set them from a trial run`);
   if (m && tau) {
     frame = niceFloor(tau / 10);
@@ -393,7 +397,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     // an absent fuel (lifetime 0) is not a time to image for: the analysis' own warnings say it is missing
     const present = m.checks.fuel.filter((f) => !f.absent);
     fuelLife = present.length > 0 ? Math.min(...present.map((f) => f.lifetime)) : null;
-    notes.push(`frame interval at most a tenth of the ${m.growthTime ? 'growth' : 'decay'} time (${s(tau).value} s at the ${cand.atMargin === cand.atThreshold ? 'threshold' : 'margin'} dose)`);
+    notes.push(`frame interval at most a tenth of the ${m.growthTime ? 'growth' : 'decay'} time (${s(tau).value} s at the ${atWhich} dose)`);
     if (fuelLife !== null && fuelLife < duration) {
       warnings.push({ code: 'imaging-capped-by-fuel', message: `five growth times (${s(duration).value} s) outlast the fuel (about ${s(fuelLife).value} s): the imaging stops when the fuel runs out; refuel or use more fuel if the pattern needs longer.` });
       duration = fuelLife;
@@ -409,7 +413,6 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   }));
   const expectedGas = gasChecks.filter((g): g is typeof g & { time: number } => g.time !== null);
   const firstGas = expectedGas.length > 0 ? expectedGas.reduce((a, b) => (b.time < a.time ? b : a)) : null;
-  const atWhich = cand.atMargin === cand.atThreshold ? 'threshold' : 'margin';
   for (const g of gasChecks.filter((x) => x.fuelAbsent)) {
     const name = ctx.chemicalRecord(g.chemical)?.name ?? g.chemical;
     notes.push(`${name} would be made at ${mM(g.productionRate).value} mM/s by constant activities at the ${atWhich} dose, but only while their fuel lasts: ${(g.absentFuels ?? []).join(', ')} ${(g.absentFuels ?? []).length === 1 ? 'is' : 'are'} absent, so ${g.time === null ? `no ${name} is expected` : `only ${mM(g.rate).value} mM/s is expected`}`);
