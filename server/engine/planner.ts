@@ -28,7 +28,7 @@
  * doses", never "too weak": only the closed form proves that.
  */
 import { analyze, type AnalysisResult, type State } from './analyze.js';
-import { sphereVolume, type Warning } from './checks.js';
+import { missingConcentrationWarnings, sphereVolume, type Warning } from './checks.js';
 import { stationaryDoseClosedForm } from './dose.js';
 import { buildModel, linearise } from './model.js';
 import { Random } from './random.js';
@@ -1025,4 +1025,16 @@ export function fuelSweep(base: Mixture, candidates: Species[], o: FuelSweepOpti
       }),
     };
   });
+}
+
+// ---------------------------------------------------------------- warnings of a screen or plan
+
+/**
+ * What a screen or plan must say before any dopant: a `no-concentration` for every
+ * chemical taken as 0 (naming whose substrate it is), then the base mixture's own
+ * analysis warnings (an absent fuel, settling, a missing datum).
+ */
+export function screenWarnings(base: Mixture, candidates: Species[]): Warning[] {
+  // the base analysis's own no-concentration says the same as the one that also names the candidates: keep one
+  return [...missingConcentrationWarnings(base, candidates), ...analyze(base).warnings.filter((w) => w.code !== 'no-concentration')];
 }

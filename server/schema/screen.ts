@@ -3,8 +3,7 @@
  * the mixture file (their density is ignored), a boundary and a dosing mode.
  */
 import { z } from 'zod';
-import { analyze } from '../engine/analyze.js';
-import { missingConcentrationWarnings, type Warning } from '../engine/checks.js';
+import type { Warning } from '../engine/checks.js';
 import type { CandidateResult } from '../engine/planner.js';
 import { DIMENSIONS } from '../units/index.js';
 import { candidateSchema, mixtureSchema, quantity, toEngineMixture, toEngineSpecies, issueList } from './mixture.js';
@@ -61,12 +60,8 @@ export function parseScreenRequest(doc: unknown): { req: ScreenRequest; base: Mi
  * base's own analysis warnings (`analyze(base)`: e.g. `fuel-runs-out` for an absent
  * fuel, `sedimentation-not-checked`, `no-chamber-depth`, `sedimentation`). A
  * candidate's `warnings` are about that candidate; `atThreshold`/`atMargin` carry the
- * analysis warnings of the doped sample.
+ * analysis warnings of the doped sample. They come from `screenWarnings` (engine/planner.ts).
  */
-export function screenWarnings(base: Mixture, candidates: Species[]): Warning[] {
-  // the base analysis's own no-concentration says the same as the one that also names the candidates: keep one
-  return [...missingConcentrationWarnings(base, candidates), ...analyze(base).warnings.filter((w) => w.code !== 'no-concentration')];
-}
 
 export function screenOutput(results: CandidateResult[], warnings: Warning[]) {
   return {

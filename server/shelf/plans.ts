@@ -5,10 +5,9 @@
  */
 import { z } from 'zod';
 import type { Warning } from '../engine/checks.js';
-import { doseSeries, screen, stateMap, fuelSweep, type CandidateResult, type ScreenOptions } from '../engine/planner.js';
+import { doseSeries, screen, screenWarnings, stateMap, fuelSweep, type CandidateResult, type ScreenOptions } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
 import { issueList, quantity } from '../schema/mixture.js';
-import { screenWarnings } from '../schema/screen.js';
 import { keySchema } from '../schema/shelf.js';
 import type { PlansRepository } from '../store/plans.js';
 import { DIMENSIONS } from '../units/index.js';
