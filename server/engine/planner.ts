@@ -771,6 +771,11 @@ export interface ScreenOptions extends DoseOptions {
   /** Dose factor above the threshold for the second analysis (default 1.25) */
   margin?: number;
   uncertainty?: UncertaintyOptions;
+  /**
+   * Called as the screen advances: the fraction of its work done (0–1) and what it is doing (e.g. "candidate 3 of 50: ptj-1um-b07").
+   * It may throw to stop the screen (a cancelled job); the error propagates.
+   */
+  progress?: (fraction: number, stage: string) => void;
 }
 
 /** A candidate's threshold as screened: the dose search's, with whether any dose crosses and the band's numbers beside it. */
@@ -811,7 +816,8 @@ export function screen(base: Mixture, candidates: Species[], o: ScreenOptions): 
     if (seen.has(c.id)) throw new EngineInputError('candidates', `candidate "${c.id}" is listed twice`);
     seen.add(c.id);
   }
-  const results = candidates.map((d): CandidateResult => {
+  const results = candidates.map((d, index): CandidateResult => {
+    o.progress?.(index / candidates.length, `candidate ${index + 1} of ${candidates.length}: ${d.id}`);
     const r = findDose(base, d, o);
     const path = dosePath(base, d, o);
     const warnings: Warning[] = [];
@@ -871,6 +877,7 @@ export function screen(base: Mixture, candidates: Species[], o: ScreenOptions): 
       : null;
     return { ...r, threshold, rank: 0, atThreshold, atMargin, band, firstOnset: path.firstOnset, dosePath: path.intervals, pathSearch: path.search, warnings };
   });
+  o.progress?.(1, 'ranking the candidates');
   // by the median dose (zeros included) when there is a band, else the threshold; a median above the cap ranks last of the feasible
   const key = (r: CandidateResult) => (!r.feasible ? Infinity : r.band ? (r.band.median ?? Infinity) : r.threshold!.density);
   const order = [...results].sort((a, b) => key(a) - key(b) || (a.feasible === b.feasible ? a.species.localeCompare(b.species) : a.feasible ? -1 : 1));

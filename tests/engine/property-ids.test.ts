@@ -19,6 +19,7 @@ import { DEMO_SHELF } from '../../server/shelf/seed.js';
 import { shelfSampleSchema } from '../../server/shelf/service.js';
 import { freshApp } from '../helpers/app.js';
 import { chemical, constant, mixture, species } from '../helpers/mixtures.js';
+import { postPlan } from '../helpers/plans.js';
 
 /** Replace every id by its ordinary name: exact string values, object keys and words inside text. */
 function rename(x: unknown, names: Record<string, string>): unknown {
@@ -106,11 +107,7 @@ describe('the shelf and the bench sheet', () => {
     // and the other way round: only the oxygen given, the peroxide (here `constructor`) is missing
     const other = { ...sample, chemicals: { [names.o2]: '0.26 mM' } };
     const missingFuel = (await app.inject({ method: 'POST', url: '/api/analyze', payload: other })).json();
-    const plan = await app.inject({
-      method: 'POST',
-      url: '/api/plans',
-      payload: { name: 'ids', base: sample.species, chemicals: sample.chemicals, chamber: sample.chamber, boundary: 'stationary', candidates: [names['ptj-1um-b07']] },
-    });
+    const plan = await postPlan(app, { name: 'ids', base: sample.species, chemicals: sample.chemicals, chamber: sample.chamber, boundary: 'stationary', candidates: [names['ptj-1um-b07']] });
     expect(plan.statusCode).toBe(201);
     const id = plan.json().id;
     // a stock given for the fuel only: the species' stocks must still come from the shelf

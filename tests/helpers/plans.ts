@@ -10,3 +10,39 @@ export const planRequest = {
   candidates: ['ptj-1um-b07', 'catb-0.22-l04'],
   uncertainty: { samples: 40, seed: 5 },
 };
+
+/** What postPlan answers: the shape of an inject response, for the stored plan (201) or the error the plan ended with. */
+export interface PlanAnswer {
+  statusCode: number;
+  headers: Record<string, unknown>;
+  body: string;
+  json: () => any; // eslint-disable-line @typescript-eslint/no-explicit-any
+}
+
+const ENDED = new Set(['done', 'failed', 'cancelled', 'timed-out']);
+
+/**
+ * POST a plan request and wait for it: a 202 job is polled at GET /api/jobs/:id until it ends; a finished job
+ * answers as the stored plan with 201 (as a synchronous create would), a failed one with the error it carries.
+ * Anything else (a 400 refused before a job starts, a 201) is passed through as it came.
+ */
+export async function postPlan(
+  app: { inject: (o: { method: 'GET' | 'POST'; url: string; payload?: unknown }) => Promise<{ statusCode: number; headers: Record<string, unknown>; body: string; json: () => any }> }, // eslint-disable-line @typescript-eslint/no-explicit-any
+  payload: unknown,
+  url = '/api/plans',
+): Promise<PlanAnswer> {
+  const r = await app.inject({ method: 'POST', url, payload });
+  if (r.statusCode !== 202) return r;
+  let job = r.json();
+  for (let i = 0; !ENDED.has(job.state); i++) {
+    if (i > 6000) throw new Error(`job ${job.id} did not end within 2 minutes`);
+    await new Promise((res) => setTimeout(res, 20));
+    job = (await app.inject({ method: 'GET', url: `/api/jobs/${job.id}` })).json();
+  }
+  if (job.state === 'done') {
+    const plan = await app.inject({ method: 'GET', url: `/api/plans/${job.result.planId}` });
+    return { statusCode: plan.statusCode === 200 ? 201 : plan.statusCode, headers: plan.headers, body: plan.body, json: () => plan.json() };
+  }
+  const err = job.error ?? { statusCode: 500, error: job.state, message: `job ${job.state}` };
+  return { statusCode: err.statusCode ?? 500, headers: {}, body: JSON.stringify(err), json: () => err };
+}

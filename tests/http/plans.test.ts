@@ -3,6 +3,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { App } from '../../server/http/app.js';
 import { PLAN_SEARCH_LIMIT } from '../../server/shelf/plans.js';
 import { freshApp, speciesRecord } from '../helpers/app.js';
+import { postPlan } from '../helpers/plans.js';
 
 let app: App;
 beforeAll(async () => {
@@ -29,7 +30,7 @@ describe('plans', () => {
   let stored: { result: { candidates: { species: string; threshold: { density: number } | null; band: unknown }[] } };
 
   it('POST /api/plans runs the screen and stores request, revisions and results', async () => {
-    const r = await app.inject({ method: 'POST', url: '/api/plans', payload: request });
+    const r = await postPlan(app, request);
     expect(r.statusCode).toBe(201);
     const p = r.json();
     id = p.id;
@@ -74,18 +75,18 @@ describe('plans', () => {
   });
 
   it('errors: bad boundary, unknown candidate, unknown plan, candidate in the base', async () => {
-    const bad = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, boundary: 'sideways' } });
+    const bad = await postPlan(app, { ...request, boundary: 'sideways' });
     expect(bad.statusCode).toBe(400);
     expect(bad.json().problems[0].path).toBe('boundary');
-    const ghost = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: ['ghost'] } });
+    const ghost = await postPlan(app, { ...request, candidates: ['ghost'] });
     expect(ghost.json().problems).toEqual([{ path: 'candidates[0]', message: 'no species "ghost" on the shelf' }]);
-    const dup = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: ['ptj-1um-b09'] } });
+    const dup = await postPlan(app, { ...request, candidates: ['ptj-1um-b09'] });
     expect(dup.json().problems[0].message).toMatch(/already in the base/);
     expect((await app.inject({ method: 'GET', url: '/api/plans/999' })).statusCode).toBe(404);
   });
 
   it('candidates "all" takes every active species not in the base', async () => {
-    const r = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: 'all', uncertainty: undefined, probabilityAt: undefined, stateMap: undefined } });
+    const r = await postPlan(app, { ...request, candidates: 'all', uncertainty: undefined, probabilityAt: undefined, stateMap: undefined });
     expect(r.statusCode).toBe(201);
     const ids = r.json().result.candidates.map((c: { species: string }) => c.species);
     expect(ids).toHaveLength(7);
@@ -93,7 +94,7 @@ describe('plans', () => {
   });
 
   it('a plan with h2o2 only: the "taken as 0" warnings are the plan\'s, and glucose oxidase says its substrate is absent', async () => {
-    const r = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: 'all', uncertainty: undefined, probabilityAt: undefined, stateMap: undefined } });
+    const r = await postPlan(app, { ...request, candidates: 'all', uncertainty: undefined, probabilityAt: undefined, stateMap: undefined });
     expect(r.statusCode).toBe(201);
     const p = r.json();
     // glucose (the oxidases' substrate) and o2 (the Pt colloids' product) were not given
@@ -115,7 +116,7 @@ describe('plans', () => {
   });
 
   it('every candidate carries its dose path, first onset and warnings; the band its zeros', async () => {
-    const r = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, stateMap: undefined } });
+    const r = await postPlan(app, { ...request, stateMap: undefined });
     expect(r.statusCode).toBe(201);
     const c = r.json().result.candidates;
     for (const x of c) {
@@ -142,7 +143,7 @@ describe('plans', () => {
   });
 
   it('a state map asked for a plan with no feasible candidate: the plan is stored without the map, with a warning', async () => {
-    const r = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: ['catb-0.22-l04', 'silica-1um-t01'], uncertainty: undefined, probabilityAt: undefined } });
+    const r = await postPlan(app, { ...request, candidates: ['catb-0.22-l04', 'silica-1um-t01'], uncertainty: undefined, probabilityAt: undefined });
     expect(r.statusCode).toBe(201);
     const p = r.json();
     expect(p.result.candidates.every((c: { feasible: boolean }) => !c.feasible)).toBe(true);
@@ -168,7 +169,7 @@ describe('candidates "all" on a shelf of more than 500 species', () => {
   });
 
   it('takes every one of them (none is cut), and finds the feasible one after the first 500', async () => {
-    const r = await big.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: 'all', uncertainty: undefined, probabilityAt: undefined, stateMap: undefined } });
+    const r = await postPlan(big, { ...request, candidates: 'all', uncertainty: undefined, probabilityAt: undefined, stateMap: undefined });
     expect(r.statusCode).toBe(201);
     const ids = r.json().result.candidates.map((c: { species: string }) => c.species);
     expect(ids).toHaveLength(600 + 7);
@@ -180,7 +181,7 @@ describe('candidates "all" on a shelf of more than 500 species', () => {
 
   it('refuses work above the limit with a 400 that names the count and the limit', async () => {
     const samples = Math.ceil(PLAN_SEARCH_LIMIT / 607);
-    const r = await big.inject({ method: 'POST', url: '/api/plans', payload: { ...request, candidates: 'all', uncertainty: { samples, seed: 1 }, probabilityAt: undefined, stateMap: undefined } });
+    const r = await postPlan(big, { ...request, candidates: 'all', uncertainty: { samples, seed: 1 }, probabilityAt: undefined, stateMap: undefined });
     expect(r.statusCode).toBe(400);
     const [p] = r.json().problems;
     expect(p.path).toBe('uncertainty.samples');

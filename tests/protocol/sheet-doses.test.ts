@@ -18,7 +18,7 @@ import { buildApp, type App } from '../../server/http/app.js';
 import type { Sheet } from '../../server/protocol/sheet.js';
 import { seedDemoShelf } from '../../server/shelf/seed.js';
 import { openDatabase } from '../../server/store/db.js';
-import { planRequest as sharedPlan } from '../helpers/plans.js';
+import { planRequest as sharedPlan, postPlan } from '../helpers/plans.js';
 
 // the plan of tests/protocol/sheet.test.ts (washed B09 base, B07 has a stationary threshold), without the band
 const planRequest = { ...sharedPlan, uncertainty: undefined };
@@ -41,10 +41,10 @@ beforeAll(async () => {
   const db = openDatabase(dbPath);
   seedDemoShelf(db);
   app = await buildApp({ config: { closeDatabase: true }, db });
-  const a = (await app.inject({ method: 'POST', url: '/api/plans', payload: anyDosePlan })).json();
+  const a = (await postPlan(app, anyDosePlan)).json();
   expect(a.result.candidates[0].threshold.anyDose).toBe(true);
   anyId = a.id;
-  normalId = (await app.inject({ method: 'POST', url: '/api/plans', payload: planRequest })).json().id;
+  normalId = (await postPlan(app, planRequest)).json().id;
 });
 afterAll(async () => {
   await app.close();
@@ -103,7 +103,7 @@ describe('an any-dose candidate', () => {
 
   it('a dose above the plan cap gets dose-above-cap (1.001 × cap), one just below it (0.999 ×) does not', async () => {
     // base 0.1 % silica, maxVolumeFraction 0.11 %: room for φ = 1e-4 of 1 µm spheres, cap = 1e-4/((4/3)π 1e-18 m³) = 2.3873e13 m⁻³ by hand
-    const p = (await app.inject({ method: 'POST', url: '/api/plans', payload: { ...anyDosePlan, maxVolumeFraction: 0.0011 } })).json();
+    const p = (await postPlan(app, { ...anyDosePlan, maxVolumeFraction: 0.0011 })).json();
     const cap = p.result.candidates[0].cap.density as number;
     expect(cap / 2.3873e13).toBeCloseTo(1, 4);
     const warned = async (f: number) => {

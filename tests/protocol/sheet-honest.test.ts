@@ -12,6 +12,7 @@ import type { App } from '../../server/http/app.js';
 import { NOT_CLASSIFIED } from '../../server/protocol/render.js';
 import { chooseSeries, mergeMessages, sheetRequestSchema, sheetWarnings, type Sheet } from '../../server/protocol/sheet.js';
 import { freshApp } from '../helpers/app.js';
+import { postPlan } from '../helpers/plans.js';
 
 let app: App;
 beforeAll(async () => {
@@ -28,11 +29,7 @@ describe('hazards of a chemical the shelf has no hazard data for', () => {
   // put H318 on the 30 % stock and nothing on the 0.682 % working solution (200 mM · 34.01 g/mol / 997 g/L).
   it('every concentration says "not classified" in JSON, HTML and Markdown; a classified chemical keeps its wording', async () => {
     const plan = (
-      await app.inject({
-        method: 'POST',
-        url: '/api/plans',
-        payload: { name: 'gox', base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }], chemicals: { h2o2: '200 mM', glucose: '20 mM' }, chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' }, boundary: 'stationary', candidates: ['ptj-1um-b07', 'goxb-2um-k11'] },
-      })
+      await postPlan(app, { name: 'gox', base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }], chemicals: { h2o2: '200 mM', glucose: '20 mM' }, chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' }, boundary: 'stationary', candidates: ['ptj-1um-b07', 'goxb-2um-k11'] })
     ).json();
     const r = await sheet(plan.id, 'json', 'ptj-1um-b07');
     expect(r.statusCode).toBe(200);
@@ -100,11 +97,7 @@ describe('sheet warnings: one line per code and subject, only this mixture’s',
   // The plan of tests/protocol/sheet-missing.test.ts with goxb-2um-k11 added: no chemical given at all.
   it('the plan and the analysis both saying no-concentration give one line per chemical; glucose (only goxb’s) is not on B07’s sheet', async () => {
     const plan = (
-      await app.inject({
-        method: 'POST',
-        url: '/api/plans',
-        payload: { name: 'no fuel given', base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }], chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' }, boundary: 'stationary', candidates: ['ptj-1um-b07', 'goxb-2um-k11'] },
-      })
+      await postPlan(app, { name: 'no fuel given', base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }], chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' }, boundary: 'stationary', candidates: ['ptj-1um-b07', 'goxb-2um-k11'] })
     ).json();
     expect(plan.result.warnings.filter((w: { code: string }) => w.code === 'no-concentration').length).toBe(3);
     const s = (await sheet(plan.id, 'json', 'ptj-1um-b07')).json() as Sheet;

@@ -6,15 +6,12 @@
 import { describe, expect, it } from 'vitest';
 import type { Sheet } from '../../server/protocol/sheet.js';
 import { freshApp } from '../helpers/app.js';
+import { postPlan } from '../helpers/plans.js';
 
 describe('a plan without the fuel concentration', () => {
   it('says so in the candidate analysis and on the sheet', async () => {
     const app = await freshApp({ demo: true });
-    const plan = await app.inject({
-      method: 'POST',
-      url: '/api/plans',
-      payload: { name: 'no fuel given', base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }], chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' }, boundary: 'stationary', candidates: ['ptj-1um-b07'] },
-    });
+    const plan = await postPlan(app, { name: 'no fuel given', base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }], chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' }, boundary: 'stationary', candidates: ['ptj-1um-b07'] });
     expect(plan.statusCode).toBe(201);
     const c = plan.json().result.candidates[0];
     expect(c.feasible).toBe(true);

@@ -10,14 +10,14 @@ import type { Sheet } from '../../server/protocol/sheet.js';
 import { seedDemoShelf } from '../../server/shelf/seed.js';
 import { openDatabase } from '../../server/store/db.js';
 import { freshApp } from '../helpers/app.js';
-import { planRequest } from '../helpers/plans.js';
+import { planRequest, postPlan } from '../helpers/plans.js';
 
 
 let app: App;
 let planId = 0;
 beforeAll(async () => {
   app = await freshApp({ demo: true });
-  planId = (await app.inject({ method: 'POST', url: '/api/plans', payload: planRequest })).json().id;
+  planId = (await postPlan(app, planRequest)).json().id;
 });
 afterAll(async () => {
   await app.close();
@@ -112,7 +112,7 @@ describe('bench sheet', () => {
     const a = await freshApp({ demo: true });
     const cur = (await a.inject({ method: 'GET', url: '/api/species/ptj-1um-b07' })).json();
     await a.inject({ method: 'PUT', url: '/api/species/ptj-1um-b07', payload: { baseRevision: cur.revision, record: { ...cur.typed, name: evil } } });
-    const p = (await a.inject({ method: 'POST', url: '/api/plans', payload: { ...planRequest, name: `plan ${evil}`, uncertainty: undefined } })).json();
+    const p = (await postPlan(a, { ...planRequest, name: `plan ${evil}`, uncertainty: undefined })).json();
     const html = (await a.inject({ method: 'GET', url: `/api/plans/${p.id}/sheet?format=html&buffer=${encodeURIComponent('<b>PBS</b>')}` })).body;
     expect(html).not.toContain('<img');
     expect(html).not.toContain('<b>PBS');
@@ -188,7 +188,7 @@ describe('brink sheet', () => {
     const db = openDatabase(path);
     seedDemoShelf(db);
     const a = await buildApp({ config: { closeDatabase: true }, db });
-    const p = (await a.inject({ method: 'POST', url: '/api/plans', payload: { ...planRequest, uncertainty: undefined } })).json();
+    const p = (await postPlan(a, { ...planRequest, uncertainty: undefined })).json();
     await a.close();
     let out = '';
     let err = '';
@@ -206,7 +206,7 @@ describe('brink sheet', () => {
 describe('the planner\'s warnings reach the sheet', () => {
   it('an earlier instability than the chosen boundary, and a band quantile above the cap, are said in every rendering', async () => {
     const req = { ...planRequest, candidates: ['ptj-swim-0.5-s02', 'catalase-e3'], uncertainty: { samples: 20, seed: 5 } };
-    const id = (await app.inject({ method: 'POST', url: '/api/plans', payload: req })).json().id;
+    const id = (await postPlan(app, req)).json().id;
     const get = async (candidate: string, format: string) => (await app.inject({ method: 'GET', url: `/api/plans/${id}/sheet?format=${format}&candidate=${candidate}` })).body;
     // the swimmer turns oscillatory below its stationary threshold (checked by hand in tests/cli/screen.test.ts)
     const swim = JSON.parse(await get('ptj-swim-0.5-s02', 'json')) as Sheet;
@@ -225,7 +225,7 @@ describe('the planner\'s warnings reach the sheet', () => {
 describe('the plan\'s own warnings reach the sheet', () => {
   it('a chemical the plan took as 0 that only another candidate uses (glucose, the substrate of gox-e1) is not on this candidate’s sheet', async () => {
     const req = { ...planRequest, candidates: ['ptj-1um-b07', 'gox-e1'], uncertainty: undefined };
-    const plan = (await app.inject({ method: 'POST', url: '/api/plans', payload: req })).json();
+    const plan = (await postPlan(app, req)).json();
     const planWarning = plan.result.warnings.find((w: { code: string; message: string }) => w.code === 'no-concentration' && /glucose/.test(w.message));
     expect(planWarning).toBeDefined();
     // neither the B09 base nor B07 couples to glucose (demo shelf): the bench of B07 has nothing to do with it

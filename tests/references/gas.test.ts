@@ -20,6 +20,7 @@ import type { Sheet } from '../../server/protocol/sheet.js';
 import { MixtureFileError, parseMixture } from '../../server/schema/mixture.js';
 import { freshApp } from '../helpers/app.js';
 import { chemical, mixture, rel, species } from '../helpers/mixtures.js';
+import { postPlan } from '../helpers/plans.js';
 
 const O2_SOLUBILITY = 1.3; // mol/m³ = mM, Henry's law, 25 °C, 1 atm O₂ (from memory)
 
@@ -130,7 +131,7 @@ describe('the demo shelf catalase (1 nM, 200 mM peroxide) through the service', 
       candidates: ['ptj-1um-b07'],
     };
     const sheetOf = async () => {
-      const p = await app.inject({ method: 'POST', url: '/api/plans', payload: plan });
+      const p = await postPlan(app, plan);
       expect(p.statusCode).toBe(201);
       return (await app.inject({ method: 'GET', url: `/api/plans/${p.json().id}/sheet?format=json` })).json() as Sheet;
     };
