@@ -5,7 +5,7 @@ import js from '@eslint/js';
 import tseslint from 'typescript-eslint';
 
 export default tseslint.config(
-  { ignores: ['node_modules/', 'data/', 'coverage/'] },
+  { ignores: ['node_modules/', 'data/', 'coverage/', 'dist/'] },
   js.configs.recommended,
   ...tseslint.configs.recommended,
   {

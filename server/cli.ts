@@ -8,6 +8,7 @@
  *   brink serve [--db PATH] [--port N] [--host H]          the web service
  *   brink seed [--reset] [--yes] [--db PATH]               load the demo shelf
  *   brink help                                             the usage text (USAGE below has every option)
+ *   brink --version | version                              the version (bin/brink.js answers it before loading this file)
  *
  * Output goes to stdout; problems with the input go to stderr with exit
  * status 2 and name the field; no stack traces (set BRINK_DEBUG=1 to see one
@@ -31,6 +32,7 @@ import { shelfRepository, NotFoundError } from './store/shelf.js';
 import { sheetService } from './protocol/service.js';
 import { splitDoses } from './protocol/sheet.js';
 import { DomainError } from './shelf/errors.js';
+import { VERSION } from './version.js';
 
 export interface Io {
   out: (text: string) => void;
@@ -61,6 +63,7 @@ usage:
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
   brink seed [--reset] [--yes] [--db PATH]             load the demo shelf; --reset empties the database first
   brink help                                         this text
+  brink --version | version                          the version
 
 defaults: --db ./data/brink.sqlite, --port 3080, --host 127.0.0.1
 
@@ -363,6 +366,10 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
         return await cmdServe(rest);
       case 'seed':
         return await cmdSeed(rest, io);
+      case 'version':
+      case '--version':
+        io.out(`${VERSION}\n`);
+        return 0;
       case undefined:
       case 'help':
       case '--help':

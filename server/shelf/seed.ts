@@ -5,9 +5,10 @@ import { shelfRepository } from '../store/shelf.js';
 import { shelfService } from './service.js';
 import { hazardsRepository } from '../store/hazards.js';
 import { hazardSetSchema } from '../protocol/hazards.js';
+import { packagePath } from '../version.js';
 
-export const DEMO_SHELF = new URL('../../seeds/demo-shelf.json', import.meta.url);
-export const DEMO_HAZARDS = new URL('../../seeds/demo-hazards.json', import.meta.url);
+export const DEMO_SHELF = packagePath('seeds', 'demo-shelf.json');
+export const DEMO_HAZARDS = packagePath('seeds', 'demo-hazards.json');
 const MARK = 'demo_shelf_seeded_at';
 
 /** Import the demo shelf (all or nothing) and record that it was done. */

@@ -5,10 +5,12 @@
 import Database from 'better-sqlite3';
 import { mkdirSync, readdirSync, readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
+import { packagePath } from '../version.js';
 
 export type Db = Database.Database;
 
-export const MIGRATIONS_DIR = new URL('../../migrations/', import.meta.url).pathname;
+/** migrations/ at the package root (found the same way from server/ and dist/server/). */
+export const MIGRATIONS_DIR = packagePath('migrations');
 
 /** The database file was written by a newer brink than this one. */
 export class DatabaseTooNewError extends Error {

@@ -1,11 +1,13 @@
 /** Health, the mixture JSON Schema, and the landing page. */
 import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import type { FastifyPluginAsync } from 'fastify';
 import { mixtureJsonSchema } from '../../schema/json-schema.js';
 import { schemaVersion } from '../../store/db.js';
-import { VERSION } from '../../version.js';
+import { packagePath, VERSION } from '../../version.js';
 
-const WEB = new URL('../../../web/', import.meta.url);
+/** web/ at the package root (found the same way from server/ and dist/server/). */
+const WEB = packagePath('web');
 
 export const metaRoutes: FastifyPluginAsync = async (app) => {
   app.get('/api/health', { schema: { tags: ['meta'], summary: 'Liveness, version and database schema version' } }, async () => ({
@@ -25,7 +27,7 @@ export const metaRoutes: FastifyPluginAsync = async (app) => {
     ['/web/common.js', 'common.js', 'text/javascript; charset=utf-8'],
   ];
   for (const [url, file, type] of files) {
-    const body = readFileSync(new URL(file, WEB), 'utf8');
+    const body = readFileSync(join(WEB, file), 'utf8');
     app.get(url, { schema: { hide: true } }, async (_req, reply) => reply.type(type).send(body));
   }
 };
