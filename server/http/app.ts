@@ -12,6 +12,10 @@ import Fastify, { type FastifyInstance, type FastifyServerOptions } from 'fastif
 import { jsonSchemaTransform, type ZodTypeProvider } from 'fastify-type-provider-zod';
 import type { ZodType } from 'zod';
 import { calibrationService, type CalibrationService } from '../calibrate/service.js';
+import { defaultPoolSize, WorkerPool, WorkTimedOutError } from '../jobs/pool.js';
+import { JobRegistry } from '../jobs/registry.js';
+import type { TaskInput, TaskKind, TaskOutput } from '../jobs/tasks.js';
+import { DomainError } from '../shelf/errors.js';
 import { planService, type PlanService } from '../shelf/plans.js';
 import { measurementsRepository } from '../store/measurements.js';
 import { hazardsRepository, type HazardsRepository } from '../store/hazards.js';
@@ -23,7 +27,9 @@ import { shelfRepository } from '../store/shelf.js';
 import { errorHandler, RequestValidationError } from './errors.js';
 import { analyzeRoutes } from './routes/analyze.js';
 import { calibrateRoutes } from './routes/calibrate.js';
+import { errorBody, jobRoutes } from './routes/jobs.js';
 import { protocolRoutes } from './routes/protocol.js';
+import { hazardRoutes } from './routes/hazards.js';
 import { metaRoutes } from './routes/meta.js';
 import { planRoutes } from './routes/plans.js';
 import { shelfIoRoutes } from './routes/shelf-io.js';
@@ -38,6 +44,15 @@ export interface AppConfig {
   closeDatabase?: boolean;
   /** largest accepted request body, bytes (default 5 MiB: whole-shelf imports) */
   bodyLimit?: number;
+  /** worker threads for engine work (default: the available parallelism, at least 1) */
+  workers?: number;
+  /** the longest a job may compute, s (default 600; a plan's timeLimit may only shorten it) */
+  jobTimeLimit?: number;
+  /** the longest engine work a request waits for (analyze, fits), s (default 120) */
+  requestTimeLimit?: number;
+  /** jobs held in memory (default 200), and how long an ended job stays readable, s (default 3600) */
+  maxJobs?: number;
+  keepJobs?: number;
 }
 
 declare module 'fastify' {
@@ -48,6 +63,10 @@ declare module 'fastify' {
     calibration: CalibrationService;
     hazards: HazardsRepository;
     sheets: SheetService;
+    pool: WorkerPool;
+    jobs: JobRegistry;
+    /** run engine work in the pool while the request waits, within config.requestTimeLimit (a 422 time-limit past it) */
+    compute: <K extends TaskKind>(kind: K, input: TaskInput<K>) => Promise<TaskOutput<K>>;
   }
 }
 
@@ -73,8 +92,29 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   app.decorate('db', db);
   const shelf = shelfService(shelfRepository(db));
   app.decorate('shelf', shelf);
+  // engine work off the event loop: a pool of worker threads, and jobs for the long work (server/jobs/)
+  const pool = new WorkerPool(config.workers ?? defaultPoolSize());
+  const jobs = new JobRegistry({
+    timeLimitMs: (config.jobTimeLimit ?? 600) * 1000,
+    ...(config.maxJobs !== undefined ? { maxJobs: config.maxJobs } : {}),
+    ...(config.keepJobs !== undefined ? { keepEndedMs: config.keepJobs * 1000 } : {}),
+    describeError: (e) => errorBody(e, app.log),
+  });
+  app.decorate('pool', pool);
+  app.decorate('jobs', jobs);
+  const requestLimitMs = (config.requestTimeLimit ?? 120) * 1000;
+  app.decorate('compute', <K extends TaskKind>(kind: K, input: TaskInput<K>) =>
+    pool.run(kind, input, { timeLimitMs: requestLimitMs }).catch((e: unknown) => {
+      if (e instanceof WorkTimedOutError) throw new DomainError('time-limit', `the computation ${e.message} (the service's limit for a request): ask for less`);
+      throw e;
+    }),
+  );
+  app.addHook('onClose', async () => {
+    jobs.close();
+    await pool.close();
+  });
   const plansRepo = plansRepository(db);
-  app.decorate('plans', planService(shelf, plansRepo));
+  app.decorate('plans', planService(shelf, plansRepo, { pool, jobs }));
   const hazards = hazardsRepository(db);
   app.decorate('hazards', hazards);
   app.decorate('sheets', sheetService(plansRepo, shelf.repo, hazards));
@@ -92,6 +132,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
         { name: 'shelf', description: 'Chemicals and species with immutable revisions' },
         { name: 'analysis', description: 'Linear stability of a sample' },
         { name: 'planner', description: 'Smallest doses that cross a boundary, stored as plans' },
+        { name: 'jobs', description: 'Long work (plans) run off the request: state, progress, cancel' },
         { name: 'calibrate', description: 'Coefficients from raw measurements' },
         { name: 'bench sheet', description: 'Printable protocols for plans, with hazards as handled' },
         { name: 'meta', description: 'Service facts' },
@@ -107,8 +148,10 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   await app.register(shelfIoRoutes);
   await app.register(analyzeRoutes);
   await app.register(planRoutes);
+  await app.register(jobRoutes);
   await app.register(calibrateRoutes);
   await app.register(protocolRoutes);
+  await app.register(hazardRoutes);
   await app.ready();
   return app;
 }

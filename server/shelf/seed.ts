@@ -4,24 +4,30 @@ import type { Db } from '../store/db.js';
 import { shelfRepository } from '../store/shelf.js';
 import { shelfService } from './service.js';
 import { hazardsRepository } from '../store/hazards.js';
-import { hazardSetSchema } from '../protocol/hazards.js';
+import { hazardSetSchema, speciesHazardSetSchema } from '../protocol/hazards.js';
 import { packagePath } from '../version.js';
 
 export const DEMO_SHELF = packagePath('seeds', 'demo-shelf.json');
 export const DEMO_HAZARDS = packagePath('seeds', 'demo-hazards.json');
+/** Hazard data of the demo shelf's enzymes, by form (invented lab; classifications from memory, marked so in their source). */
+export const DEMO_SPECIES_HAZARDS = packagePath('seeds', 'demo-species-hazards.json');
 const MARK = 'demo_shelf_seeded_at';
 
 /** Import the demo shelf (all or nothing) and record that it was done. */
 export function seedDemoShelf(db: Db) {
   const doc = JSON.parse(readFileSync(DEMO_SHELF, 'utf8')) as unknown;
   const summary = shelfService(shelfRepository(db)).importShelf(doc, { author: 'demo seed', note: 'demo shelf (invented data)' });
-  const hazards = JSON.parse(readFileSync(DEMO_HAZARDS, 'utf8')) as Record<string, unknown>;
   const repo = hazardsRepository(db);
-  for (const [key, body] of Object.entries(hazards)) {
-    const parsed = hazardSetSchema.parse(body);
-    const cur = repo.current(key);
-    if (!cur || JSON.stringify(cur.body) !== JSON.stringify(parsed)) repo.write(key, null, parsed, { author: 'demo seed', note: 'demo hazard data: verify against the supplier safety data sheet' });
-  }
+  const seedHazards = (file: string, versions: typeof repo.chemical, schema: typeof hazardSetSchema | typeof speciesHazardSetSchema) => {
+    const hazards = JSON.parse(readFileSync(file, 'utf8')) as Record<string, unknown>;
+    for (const [key, body] of Object.entries(hazards)) {
+      const parsed = schema.parse(body);
+      const cur = versions.current(key);
+      if (!cur || JSON.stringify(cur.body) !== JSON.stringify(parsed)) versions.write(key, null, parsed, { author: 'demo seed', note: 'demo hazard data: verify against the supplier safety data sheet' });
+    }
+  };
+  seedHazards(DEMO_HAZARDS, repo.chemical, hazardSetSchema);
+  seedHazards(DEMO_SPECIES_HAZARDS, repo.species, speciesHazardSetSchema);
   db.prepare('INSERT INTO app_meta (key, value) VALUES (?, ?) ON CONFLICT (key) DO UPDATE SET value = excluded.value').run(MARK, new Date().toISOString());
   return summary;
 }

@@ -1,0 +1,143 @@
+/**
+ * Hazard data that cannot mislead (docs/model.md §11): "no data" is not "no hazard"; species' bands by form;
+ * precautionary statements with every classification; hazardsFor over the store.
+ *
+ * Sources for the expected classes: the demo enzyme data (seeds/demo-species-hazards.json) follow the
+ * CLP generic concentration limits as recalled in their source text (Annex I, 3.4: Resp. Sens. 1 from 1 %
+ * in a mixture; Annex II, 2.8: EUH208 from 0.1 % — from memory); the test states them again here.
+ */
+import { readFileSync } from 'node:fs';
+import { beforeEach, describe, expect, it } from 'vitest';
+import {
+  belowLimits,
+  classify,
+  hazardLookup,
+  hazardsFor,
+  hazardSetSchema,
+  NO_HAZARD_DATA,
+  NO_HAZARD_DATA_SENTENCE,
+  speciesHazardSetSchema,
+  type HazardSet,
+} from '../../server/protocol/hazards.js';
+import { seedDemoShelf } from '../../server/shelf/seed.js';
+import { openDatabase } from '../../server/store/db.js';
+import { hazardsRepository } from '../../server/store/hazards.js';
+
+const speciesData = JSON.parse(readFileSync(new URL('../../seeds/demo-species-hazards.json', import.meta.url), 'utf8')) as Record<string, unknown>;
+const catalase = speciesHazardSetSchema.parse(speciesData['catalase-e3']);
+const codes = (set: HazardSet | null, w: number | null, form?: 'powder' | 'solution' | 'suspension') => classify(set, w, { form: form ?? null }).statements.map((s) => `${s.code} ${s.hazardClass}`);
+
+describe('no hazard data is not "no hazard"', () => {
+  it('classify(null) says no-data and sends the reader to the supplier’s safety data sheet', () => {
+    const c = classify(null, 0.3);
+    expect(c.status).toBe('no-data');
+    expect(c.note).toBe(NO_HAZARD_DATA);
+    expect(c.note).toMatch(/safety data sheet/);
+    expect(c).toMatchObject({ statements: [], pictograms: [], signal: null, precautionary: [] });
+    for (const text of [NO_HAZARD_DATA, NO_HAZARD_DATA_SENTENCE]) {
+      expect(text).toMatch(/not classified/);
+      expect(text).toMatch(/supplier’s safety data sheet/);
+      expect(text).not.toMatch(/no hazard statement applies/i);
+    }
+  });
+  it('data with no band at the concentration: below the limits of that version, still the SDS', () => {
+    const c = classify(catalase, 1e-6, { form: 'solution', version: 4 });
+    expect(c.status).toBe('below-limits');
+    expect(c.note).toBe(belowLimits(4));
+    expect(c.note).toMatch(/version 4/);
+  });
+  it('data, but not for the form handled: no data for that form', () => {
+    const onlyPowder = speciesHazardSetSchema.parse({ ...(speciesData['catalase-e3'] as object), forms: ['powder'], bands: catalase.bands.filter((b) => b.forms?.includes('powder')) });
+    const c = classify(onlyPowder, 0.001, { form: 'suspension' });
+    expect(c.status).toBe('no-data-for-form');
+    expect(c.note).toMatch(/no hazard data on the shelf for the suspension .*cover powder/);
+    expect(classify(onlyPowder, 1, { form: 'powder' }).status).toBe('classified');
+  });
+});
+
+describe('species hazard data by form (demo catalase)', () => {
+  it('the powder is a respiratory sensitiser with the dust precautions', () => {
+    const c = classify(catalase, 1, { form: 'powder' });
+    expect(codes(catalase, 1, 'powder')).toEqual(['H334 Resp. Sens. 1']);
+    expect(c).toMatchObject({ status: 'classified', signal: 'Danger', pictograms: ['GHS08'] });
+    expect(c.precautionary.some((p) => /^P261 Avoid breathing dust/.test(p))).toBe(true);
+    expect(c.precautionary.some((p) => p.startsWith('P284'))).toBe(true);
+  });
+  it('a solution: Resp. Sens. 1 from 1 %, EUH208 from 0.1 % to 1 %, none below (both sides of each limit)', () => {
+    expect(codes(catalase, 0.01, 'solution')).toEqual(['H334 Resp. Sens. 1']);
+    expect(codes(catalase, 0.00999, 'solution')).toEqual(['EUH208 Resp. Sens. 1 (elicitation, below the classification limit)']);
+    expect(codes(catalase, 0.001, 'solution')).toHaveLength(1);
+    expect(codes(catalase, 0.000999, 'solution')).toEqual([]);
+    // the solution's H334 carries the mist/spray wording, not the powder's dust
+    const sol = classify(catalase, 0.02, { form: 'solution' });
+    expect(sol.precautionary.some((p) => /mist\/spray/.test(p))).toBe(true);
+    expect(sol.precautionary.some((p) => /^P261 Avoid breathing dust\.$/.test(p))).toBe(false);
+  });
+  it('an unknown concentration is classified as the neat material and says so', () => {
+    const c = classify(catalase, null, { form: 'suspension' });
+    expect(c).toMatchObject({ status: 'classified', massFraction: 1, assumedNeat: true });
+    expect(c.note).toMatch(/concentration not known: classified as the neat material/);
+  });
+  it('every classification that applies a band carries precautionary statements (demo data, chemicals and species)', () => {
+    const chem = JSON.parse(readFileSync(new URL('../../seeds/demo-hazards.json', import.meta.url), 'utf8')) as Record<string, unknown>;
+    const sets = [...Object.values(chem).map((b) => hazardSetSchema.parse(b)), ...Object.values(speciesData).map((b) => speciesHazardSetSchema.parse(b))];
+    for (const set of sets) {
+      for (const b of set.bands) expect(b.precautionary.length, `${b.statement}`).toBeGreaterThan(0);
+      for (const form of ['powder', 'solution', 'suspension'] as const) {
+        for (const w of [0.0005, 0.002, 0.05, 0.3, 0.6, 1]) {
+          const c = classify(set, w, { form });
+          if (c.status === 'classified') expect(c.precautionary.length).toBeGreaterThan(0);
+        }
+      }
+    }
+  });
+  it('a species set must state its forms, and a band’s forms must be among them', () => {
+    const { forms: _forms, ...noForms } = speciesData['catalase-e3'] as Record<string, unknown>;
+    const r = speciesHazardSetSchema.safeParse(noForms);
+    expect(r.success).toBe(false);
+    expect(r.error!.issues.map((i) => i.path.join('.'))).toContain('forms');
+    const bad = speciesHazardSetSchema.safeParse({ ...(speciesData['catalase-e3'] as object), forms: ['solution'] });
+    expect(bad.success).toBe(false);
+    expect(bad.error!.issues.map((i) => i.path.join('.'))).toContain('bands.0.forms.0');
+    expect(hazardSetSchema.safeParse({ source: 's', bands: [], forms: ['gel'] }).success).toBe(false);
+  });
+});
+
+describe('hazardsFor over the store', () => {
+  let lookup: ReturnType<typeof hazardLookup>;
+  beforeEach(() => {
+    const db = openDatabase(':memory:');
+    seedDemoShelf(db);
+    lookup = hazardLookup(hazardsRepository(db));
+  });
+  it('a chemical: the current version, each handled concentration classified', () => {
+    const r = hazardsFor(lookup, 'chemical', 'h2o2', [
+      { where: 'stock bottle (30 % w/w)', massFraction: 0.3 },
+      { where: 'working solution (6 % w/w)', massFraction: 0.06 },
+      { where: 'sample (0.68 % w/w)', massFraction: 0.0068 },
+    ], 'hydrogen peroxide');
+    expect(r).toMatchObject({ kind: 'chemical', id: 'h2o2', classified: true, version: 1, recordedBy: 'demo seed' });
+    expect(r.asHandled.map((h) => h.classification.status)).toEqual(['classified', 'classified', 'below-limits']);
+    expect(r.asHandled.map((h) => h.classification.statements.map((s) => s.code))).toEqual([['H318'], ['H319'], []]);
+    expect(r.asHandled.every((h) => h.classification.version === 1)).toBe(true);
+    expect(r.verify).toMatch(/version 1 of the shelf’s record for hydrogen peroxide/);
+    expect(r.handling).toMatch(/never close a vial/);
+  });
+  it('a species by form: the powder and the stock solution of the demo catalase (1 mg/mL ≈ 0.1 % w/w)', () => {
+    const r = hazardsFor(lookup, 'species', 'catalase-e3', [
+      { where: 'lyophilised powder', massFraction: 1, form: 'powder' },
+      { where: 'stock (1 mg/mL)', massFraction: 1 / 997.047, form: 'solution' },
+      { where: 'sample', massFraction: 1e-6, form: 'solution' },
+    ]);
+    expect(r).toMatchObject({ kind: 'species', classified: true, version: 1, forms: ['powder', 'solution', 'suspension'] });
+    expect(r.asHandled.map((h) => h.classification.statements.map((s) => s.code))).toEqual([['H334'], ['EUH208'], []]);
+    expect(r.asHandled[2]!.classification.note).toMatch(/below the classification limits .*version 1/);
+  });
+  it('nothing on the shelf: classified false, every entry no-data, the SDS sentence', () => {
+    const r = hazardsFor(lookup, 'chemical', 'glucose', [{ where: 'stock', massFraction: 0.18 }]);
+    expect(r).toMatchObject({ classified: false, version: null, source: null });
+    expect(r.asHandled[0]!.classification.status).toBe('no-data');
+    expect(r.verify).toContain(NO_HAZARD_DATA_SENTENCE);
+    expect(hazardsFor(lookup, 'species', 'catb-0.22-l04', [{ where: 'stock', massFraction: null, form: 'suspension' }]).asHandled[0]!.classification.note).toBe(NO_HAZARD_DATA);
+  });
+});
