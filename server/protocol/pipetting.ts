@@ -1,19 +1,36 @@
 /**
- * The pipetting planner. Volumes in m³ (shown in µL), concentrations per volume
- * (particles m⁻³ or mol m⁻³): every transfer obeys C₁V₁ = C₂V₂ (common
- * practice, no source).
+ * The pipetting planner (docs/model.md §11). Volumes in m³ (shown in µL),
+ * concentrations per volume (particles m⁻³ or mol m⁻³): every transfer obeys
+ * the dilution relation C₁V₁ = C₂V₂.
  *
- * Samples of the dose series share a master mix of buffer and base species
- * (made for every tube plus an overage, default 10 %, common practice); each
- * tube then gets the master mix, the dopant, a buffer top-up that makes the
- * volumes equal, and the fuel last. A transfer that would fall below the
- * smallest volume one should pipette (default 1 µL, common practice) is taken
- * from a 1:10 serial dilution instead, as many steps as needed; every
- * intermediate is made in a volume whose own transfers are at or above the
- * minimum too. A plan that cannot be carried out (stocks too dilute for the
- * sample volume) fails with what is wrong and what would fix it.
+ * The bench gets one table, one row per sample (its replicates as a count,
+ * each tube with a code for its lid), and before it the short steps that make
+ * the liquids the table pipettes:
+ *
+ * - a working solution of a chemical (W1, W2 …) where its stock would be a
+ *   small volume per tube (below `workingBelow`, default 5 µL) or where the
+ *   stock is classified above the working solution (hazards.ts `classify` on
+ *   the mass fractions handled); the working concentration is a round one
+ *   (1, 2, 5 × 10^k) that puts about a tenth of the sample volume (at least
+ *   twice `workingBelow`) into each tube;
+ * - 1:10 serial dilutions (S1, S2 …) where a volume would fall below the
+ *   smallest one to pipette (default 1 µL);
+ * - a master mix (MM) of buffer and the base species for every tube that takes
+ *   it, plus an overage (default 10 %).
+ *
+ * Each tube then gets, in order of addition: buffer (the remainder, so that the
+ * tube holds exactly the sample volume), master mix or base stocks, the dopant,
+ * the chemicals, the fuel last; then it is mixed and the clock started. Every
+ * other volume is rounded to what a pipette delivers (dilution.ts), and the
+ * dose delivered is computed back from the rounded volumes and the
+ * concentrations as made. A plan that cannot be carried out (stocks too dilute
+ * for the sample volume) fails with what is wrong and what would fix it.
  */
+import { WATER_DENSITY_25C } from '../engine/constants.js';
 import { DomainError } from '../shelf/errors.js';
+import { classify, type Classification, type HazardSet } from './hazards.js';
+import { decideWorking, nextUp125, ROUNDING_RULE, roundDownToPipette, roundToPipette, roundUpToPipette, tenfoldTake, WORKING_BELOW, workingConcentration, type WorkingDecision } from './dilution.js';
+import { table, type Block, type Column, type Row, type Section } from './sections.js';
 
 export interface Component {
   id: string;
@@ -24,7 +41,16 @@ export interface Component {
   stockText: string;
   /** unit word of the concentration ('particles' or 'mol') */
   per: 'particles' | 'mol';
+  /** kg/mol, for the mass fraction of a chemical's working solution and sample (null or absent: not known) */
+  molarMass?: number | null;
+  /** the stock's mass fraction (null or absent: not known) */
+  stockMassFraction?: number | null;
+  /** the chemical's hazard bands as stored on the shelf; null or absent: no hazard data (nothing can be compared) */
+  hazards?: HazardSet | null;
 }
+
+/** What a sample is: the no-dopant control, a dose of the series, the no-fuel control, the dopant-alone control. */
+export type SampleKind = 'no-dopant' | 'series' | 'no-fuel' | 'dopant-alone';
 
 export interface SampleSpec {
   name: string;
@@ -35,6 +61,8 @@ export interface SampleSpec {
   conc: ReadonlyMap<string, number>;
   /** whether the tube takes the master mix (base species) */
   usesMasterMix: boolean;
+  /** what the sample is; when absent it is read from the role, the dose and which components it holds */
+  kind?: SampleKind;
 }
 
 export interface PipettingOptions {
@@ -43,32 +71,90 @@ export interface PipettingOptions {
   minVolume: number;
   overage: number;
   buffer: string;
+  /** a stock below this volume per tube is first made into a working solution (default 5 µL, common practice) */
+  workingBelow?: number;
 }
 
-export interface Transfer {
-  /** what goes in */
-  what: string;
-  /** from which source: a stock, an intermediate dilution, the master mix or the buffer */
-  from: string;
+/** A liquid the tubes or the steps draw from: the buffer, a stock, a working solution, a serial dilution, the master mix. */
+export interface Liquid {
+  key: string;
+  /** short code printed on the sheet and on the vial (W1, S1, MM), null for the buffer and the stocks */
+  code: string | null;
+  kind: 'buffer' | 'stock' | 'working' | 'serial' | 'master-mix';
+  label: string;
+  /** concentration of each component in it, per m³, as made from the rounded volumes */
+  contents: ReadonlyMap<string, number>;
+}
+
+/** One short step before the table: make a liquid from others. */
+export interface Preparation {
+  code: string;
+  kind: 'working' | 'serial' | 'master-mix';
+  /** what is made, e.g. "hydrogen peroxide working solution, 2 M" */
+  label: string;
+  /** the component a working solution or a serial dilution is of (null for the master mix) */
+  component: string | null;
+  /** the round (working) or 1:10ⁿ (serial) concentration aimed at, per m³; null for the master mix */
+  nominal: number | null;
+  /** volume made, m³ (the sum of the transfers) */
   volume: number;
+  /** what goes in, in order: the source(s) first, the buffer last */
+  transfers: { from: string; label: string; volume: number }[];
+  /** concentration of each component, as made, per m³ */
+  contents: ReadonlyMap<string, number>;
+  /** for a working solution: why it is made */
+  reason: string | null;
+  /** for the master mix: tubes it is made for (plus the overage) and the volume each takes */
+  tubes: number | null;
+  perTube: number | null;
 }
 
-export interface Dilution {
+/** One row of the table: a sample, in `replicates` tubes with the lids code + a, b, c … */
+export interface Tube {
+  code: string;
+  lids: string[];
+  kind: SampleKind;
+  role: SampleSpec['role'];
   name: string;
-  component: string;
-  /** dilution factor relative to the stock */
-  factor: number;
-  concentration: number;
-  /** volume to make, m³ */
-  volume: number;
-  steps: Transfer[];
+  replicates: number;
+  /** the dopant dose planned and delivered (after rounding), m⁻³; null for no dopant */
+  plannedDose: number | null;
+  deliveredDose: number | null;
+  /** volume from each column's liquid (aligned with BenchPlan.columns), m³; 0 = none */
+  volumes: number[];
+  /** concentration of each component in the tube, per m³: planned and delivered (after rounding) */
+  planned: ReadonlyMap<string, number>;
+  delivered: ReadonlyMap<string, number>;
 }
 
-export interface PipettingPlan {
-  dilutions: Dilution[];
-  masterMix: { tubes: number; perTube: number; total: number; steps: Transfer[] } | null;
-  samples: { name: string; role: SampleSpec['role']; dose: number | null; tubes: number; steps: Transfer[] }[];
-  /** every pipetted volume, for checks */
+/** A concentration handled at the bench, for the hazards section: a stock bottle, a working solution, the sample. */
+export interface Handled {
+  chemical: string;
+  where: 'stock' | 'working' | 'sample';
+  /** W1 … for a working solution, null otherwise */
+  code: string | null;
+  /** mol m⁻³ (as made; the sample: the largest delivered concentration) */
+  concentration: number;
+  /** mass fraction (stock: as given; otherwise c M / ρ with water's density, dilute); null if the molar mass is not known */
+  massFraction: number | null;
+}
+
+export interface BenchPlan {
+  sampleVolume: number;
+  replicates: number;
+  minVolume: number;
+  workingBelow: number;
+  liquids: Liquid[];
+  preparations: Preparation[];
+  /** the working-dilution decision for each pipetted chemical */
+  working: { chemical: string; decision: WorkingDecision; code: string | null }[];
+  /** the table's volume columns in order of addition (the buffer first, the fuel last) */
+  columns: { key: string; label: string }[];
+  tubes: Tube[];
+  handled: Handled[];
+  components: Component[];
+  dopantId: string;
+  /** every pipetted volume (the buffer top-ups included), for checks */
   allVolumes: number[];
 }
 
@@ -83,156 +169,595 @@ export function roundUp(v: number): number {
   return Math.ceil(v / step - 1e-9) * step;
 }
 
-interface Use {
-  component: string;
-  /** volume per tube from the stock, before any dilution */
-  stockVolume: number;
-  tubes: number;
-  level: number;
+const kindOf = (s: SampleSpec, baseIds: string[], dopantId: string, chemicalIds: string[]): SampleKind => {
+  if (s.kind) return s.kind;
+  if (!((s.conc.get(dopantId) ?? 0) > 0)) return 'no-dopant';
+  if (s.role === 'series') return 'series';
+  if (chemicalIds.length > 0 && !chemicalIds.some((c) => (s.conc.get(c) ?? 0) > 0)) return 'no-fuel';
+  if (baseIds.length > 0 && !baseIds.some((b) => (s.conc.get(b) ?? 0) > 0)) return 'dopant-alone';
+  return 'series';
+};
+
+/** Tube codes: C0 no dopant, D1 … Dn the doses (in the order given, low to high on a sheet), CF no fuel, CA dopant alone. */
+function tubeCodes(kinds: SampleKind[]): string[] {
+  let d = 0;
+  const raw = kinds.map((k) => (k === 'no-dopant' ? 'C0' : k === 'no-fuel' ? 'CF' : k === 'dopant-alone' ? 'CA' : `D${++d}`));
+  const seen = new Map<string, number>();
+  return raw.map((c) => {
+    const n = (seen.get(c) ?? 0) + 1;
+    seen.set(c, n);
+    return n === 1 ? c : `${c}.${n}`;
+  });
 }
 
+const LETTERS = 'abcdefghijklmnopqrstuvwxyz';
+
+interface Draw {
+  component: string;
+  /** liquid key */
+  from: string;
+  volume: number;
+}
+
+/** Stock key of a component; serial level k of it. */
+const stockKey = (id: string) => `stock\u0000${id}`;
+const serialKey = (id: string, k: number) => `serial\u0000${id}\u0000${k}`;
+const workingKey = (id: string) => `working\u0000${id}`;
+const MM = 'master-mix';
+const BUFFER = 'buffer';
+
+class Impossible extends Error {}
+
 /**
- * Plan the pipetting for a set of samples.
+ * Plan the pipetting of a set of samples: working solutions, serial dilutions,
+ * master mix, and the table of tubes.
  * @throws DomainError('impossible-volumes') with what would fix it
  */
-export function planPipetting(components: Component[], samples: SampleSpec[], o: PipettingOptions, baseIds: string[], dopantId: string, fuelIds: string[]): PipettingPlan {
+export function planBench(components: Component[], samples: SampleSpec[], o: PipettingOptions, baseIds: string[], dopantId: string, chemicalIds: string[]): BenchPlan {
   const comp = new Map(components.map((c) => [c.id, c]));
-  const tubes = o.replicates;
-  const vol = (id: string, c: number) => (c * o.sampleVolume) / comp.get(id)!.stock;
-  const ov = 1 + o.overage;
-
-  // Master mix: the base species, per tube, identical in every tube that takes it.
-  const mmSamples = samples.filter((s) => s.usesMasterMix);
-  const mmTubes = mmSamples.length * tubes;
-  const uses: Use[] = [];
-  // Dilution level of a transfer: the smallest k with V·10^k ≥ min.
-  const levelOf = (v: number) => (v >= o.minVolume || v === 0 ? 0 : Math.ceil(Math.log10(o.minVolume / v) - 1e-12));
-  const baseMm = baseIds.map((id) => {
-    const c = mmSamples[0]?.conc.get(id) ?? 0;
-    const perTube = vol(id, c);
-    const total = perTube * mmTubes * ov;
-    const level = levelOf(total);
-    if (c > 0 && mmTubes > 0) uses.push({ component: id, stockVolume: total, tubes: 1, level });
-    return { id, perTube, total, level };
-  });
-  // Per tube: dopant and fuel.
-  const perTube = samples.map((s) => {
-    const d = s.conc.get(dopantId) ?? 0;
-    const vd = d > 0 ? vol(dopantId, d) : 0;
-    const ld = levelOf(vd);
-    if (vd > 0) uses.push({ component: dopantId, stockVolume: vd, tubes, level: ld });
-    const fuels = fuelIds.map((f) => {
-      const c = s.conc.get(f) ?? 0;
-      const v = c > 0 ? vol(f, c) : 0;
-      const l = levelOf(v);
-      if (v > 0) uses.push({ component: f, stockVolume: v, tubes, level: l });
-      return { id: f, volume: v * Math.pow(10, l), level: l };
-    });
-    const bases = s.usesMasterMix
-      ? []
-      : baseIds.map((id) => {
-          const cb = s.conc.get(id) ?? 0;
-          const v = cb > 0 ? vol(id, cb) : 0;
-          const l = levelOf(v);
-          if (v > 0) uses.push({ component: id, stockVolume: v, tubes, level: l });
-          return { id, volume: v * Math.pow(10, l), level: l };
-        });
-    return { s, dopant: { volume: vd * Math.pow(10, ld), level: ld }, fuels, bases };
-  });
-
-  // Serial dilutions, deepest first: volume = uses × overage + what the next level takes, ≥ 10·min.
-  const dilutions: Dilution[] = [];
-  const byComp = new Map<string, Use[]>();
-  for (const u of uses) byComp.set(u.component, [...(byComp.get(u.component) ?? []), u]);
-  const dilutionName = (id: string, level: number) => `${comp.get(id)!.label} 1:${Math.pow(10, level)}`;
-  for (const [id, list] of byComp) {
-    const maxLevel = Math.max(0, ...list.map((u) => u.level));
-    let takeFromNext = 0;
-    const made: Dilution[] = [];
-    for (let k = maxLevel; k >= 1; k--) {
-      const direct = list.filter((u) => u.level === k).reduce((a, u) => a + u.stockVolume * Math.pow(10, k) * u.tubes * ov, 0);
-      const volume = roundUp(Math.max(direct + takeFromNext, 10 * o.minVolume));
-      const take = roundUp(volume / 10);
-      const c = comp.get(id)!;
-      const from = k === 1 ? `${c.label} stock` : dilutionName(id, k - 1);
-      made.push({
-        name: dilutionName(id, k),
-        component: id,
-        factor: Math.pow(10, k),
-        concentration: c.stock / Math.pow(10, k),
-        volume: take * 10,
-        steps: [
-          { what: o.buffer, from: o.buffer, volume: take * 9 },
-          { what: c.label, from, volume: take },
-        ],
-      });
-      takeFromNext = take;
-    }
-    dilutions.push(...made.reverse());
+  const below = o.workingBelow ?? WORKING_BELOW;
+  const V = o.sampleVolume;
+  // aim for about a tenth of the sample volume of each working solution per tube, at least twice the rule's volume
+  const aim = Math.max(2 * below, V / 10, o.minVolume);
+  const decisions: BenchPlan['working'] = [];
+  const working = new Map<string, number>();
+  for (const id of chemicalIds) {
+    const c = comp.get(id)!;
+    const cMax = Math.max(0, ...samples.map((s) => s.conc.get(id) ?? 0));
+    if (!(cMax > 0)) continue;
+    const stockPerTube = (cMax * V) / c.stock;
+    const w = workingConcentration(cMax, V, aim, c.stock);
+    const set = c.hazards ?? null;
+    const wStock = c.stockMassFraction ?? null;
+    const M = c.molarMass ?? null;
+    const stockBand = set && wStock !== null ? classify(set, wStock) : null;
+    const workBand = set && w !== null && M ? classify(set, (w * M) / WATER_DENSITY_25C) : null;
+    const decision = decideWorking(stockPerTube, below, stockBand, workBand, w !== null);
+    decisions.push({ chemical: id, decision, code: null });
+    if (decision.make && w !== null) working.set(id, w);
   }
+  // a working solution takes more room in the tube than the stock did: if the tubes do not fit, make it stronger
+  for (let attempt = 0; ; attempt++) {
+    try {
+      const plan = attemptPlan(comp, components, samples, o, baseIds, dopantId, chemicalIds, working);
+      plan.working = decisions.map((d) => ({ ...d, code: plan.preparations.find((p) => p.kind === 'working' && p.component === d.chemical)?.code ?? null }));
+      plan.workingBelow = below;
+      return plan;
+    } catch (e) {
+      if (!(e instanceof Impossible) || working.size === 0 || attempt > 12) {
+        if (e instanceof Impossible) throw new DomainError('impossible-volumes', e.message);
+        throw e;
+      }
+      let bumped = false;
+      for (const [id, w] of working) {
+        const up = nextUp125(w);
+        if (up <= comp.get(id)!.stock / 2) {
+          working.set(id, up);
+          bumped = true;
+        }
+      }
+      if (!bumped) {
+        // the stocks themselves: the last resort, and the message says what would fix it
+        for (const id of [...working.keys()]) working.delete(id);
+        for (const d of decisions) if (d.decision.make) d.decision = { ...d.decision, make: false, reason: `${d.decision.reason}; but with a working solution the tubes do not fit, so it is pipetted from the stock` };
+      }
+    }
+  }
+}
 
-  // The per-tube volume budget: the variable part (dopant + fuels) is topped up with buffer to a common reserve W.
+function attemptPlan(
+  comp: Map<string, Component>,
+  components: Component[],
+  samples: SampleSpec[],
+  o: PipettingOptions,
+  baseIds: string[],
+  dopantId: string,
+  chemicalIds: string[],
+  working: Map<string, number>,
+): BenchPlan {
+  const V = o.sampleVolume;
+  const R = o.replicates;
+  const ov = 1 + o.overage;
   const problems: string[] = [];
-  const variable = perTube.filter((t) => t.s.usesMasterMix).map((t) => t.dopant.volume + t.fuels.reduce((a, f) => a + f.volume, 0));
+  const liquids = new Map<string, Liquid>();
+  liquids.set(BUFFER, { key: BUFFER, code: null, kind: 'buffer', label: o.buffer, contents: new Map() });
+  for (const c of components) liquids.set(stockKey(c.id), { key: stockKey(c.id), code: null, kind: 'stock', label: `${c.label} stock`, contents: new Map([[c.id, c.stock]]) });
+  // Dilution level of a volume from the stock: the smallest k with V·10^k ≥ min.
+  const levelOf = (v: number) => (v >= o.minVolume * (1 - 1e-9) || v === 0 ? 0 : Math.ceil(Math.log10(o.minVolume / v) - 1e-12));
+  const atLeastMin = (v: number) => Math.max(roundToPipette(v), roundUpToPipette(o.minVolume));
+  /** A draw of component `id` giving concentration c in volume `into`: from its working solution, or the stock or a serial level. */
+  const draw = (id: string, c: number, into: number): Draw => {
+    const w = working.get(id);
+    if (w !== undefined) return { component: id, from: workingKey(id), volume: atLeastMin((c * into) / w) };
+    const v0 = (c * into) / comp.get(id)!.stock;
+    const k = levelOf(v0);
+    return { component: id, from: k === 0 ? stockKey(id) : serialKey(id, k), volume: atLeastMin(v0 * Math.pow(10, k)) };
+  };
+
+  const kinds = samples.map((s) => kindOf(s, baseIds, dopantId, chemicalIds));
+  const codes = tubeCodes(kinds);
+  // Per tube: the dopant, the chemicals, and the base species of a tube without master mix.
+  const perTube = samples.map((s) => {
+    const draws: Draw[] = [];
+    if (!s.usesMasterMix) for (const b of baseIds) if ((s.conc.get(b) ?? 0) > 0) draws.push(draw(b, s.conc.get(b)!, V));
+    if ((s.conc.get(dopantId) ?? 0) > 0) draws.push(draw(dopantId, s.conc.get(dopantId)!, V));
+    for (const f of chemicalIds) if ((s.conc.get(f) ?? 0) > 0) draws.push(draw(f, s.conc.get(f)!, V));
+    return { s, draws };
+  });
+
+  // Master mix: the base species, identical in every tube that takes it; each such tube takes p of it.
+  const mmTubes = perTube.filter((t) => t.s.usesMasterMix);
+  const nMm = mmTubes.length * R;
+  const baseTarget = new Map(baseIds.map((b) => [b, mmTubes[0]?.s.conc.get(b) ?? 0] as const));
+  const variable = mmTubes.map((t) => t.draws.reduce((a, d) => a + d.volume, 0));
   const reserve = variable.length > 0 ? Math.max(...variable) + o.minVolume : 0;
-  const mmPerTube = o.sampleVolume - reserve;
-  const baseInTube = baseMm.reduce((a, b) => a + b.perTube, 0);
-  let masterMix: PipettingPlan['masterMix'] = null;
-  if (mmSamples.length > 0) {
-    if (mmPerTube < baseInTube || mmPerTube < o.minVolume) {
+  const p = roundDownToPipette(V - reserve);
+  // the volume of each base's stock a tube's share of the master mix carries
+  const baseInTube = [...baseTarget].reduce((a, [b, c]) => a + (c * V) / comp.get(b)!.stock, 0);
+  let mmDraws: Draw[] = [];
+  let mmNeed = 0;
+  if (mmTubes.length > 0 && baseInTube > 0) {
+    if (p < baseInTube || p < o.minVolume) {
       const need = baseInTube + reserve;
-      const top = perTube.reduce((best, t) => (t.dopant.volume > best.dopant.volume ? t : best));
+      const top = mmTubes.reduce((best, t) => ((t.draws.find((d) => d.component === dopantId)?.volume ?? 0) > (best.draws.find((d) => d.component === dopantId)?.volume ?? 0) ? t : best));
+      const topDopant = top.draws.find((d) => d.component === dopantId);
       const dop = comp.get(dopantId)!;
-      // How much more concentrated the dopant stock must be for the rest to fit: other + D/f ≤ V.
-      const other = need - top.dopant.volume;
-      const room = o.sampleVolume - other;
-      const f = room > 0 ? top.dopant.volume / room : Infinity;
+      // the top dose's volume of the dopant stock (as if undiluted) — what a more concentrated stock would shrink
+      const topStockVolume = topDopant ? ((top.s.conc.get(dopantId) ?? 0) * V) / dop.stock : 0;
+      const other = need - (topDopant?.volume ?? 0);
+      const room = V - other;
+      const f = room > 0 && topStockVolume > 0 ? topStockVolume / room : Infinity;
       const per = dop.per === 'mol' ? (x: number) => `${(x / 1000).toPrecision(3)} mol/L` : (x: number) => `${(x * 1e-6).toPrecision(3)} particles/mL`;
       const stockFix = Number.isFinite(f)
         ? `a ${dop.label} stock of at least ${per(dop.stock * f * 1.05)} (now ${per(dop.stock)}, ${dop.stockText})`
         : `more concentrated base and fuel stocks (they alone take ${fmtUl(other)})`;
-      problems.push(
-        `the components need ${fmtUl(need)} in a ${fmtUl(o.sampleVolume)} tube (the top dose alone takes ${fmtUl(top.dopant.volume)} of the ${dop.label} stock). ` +
+      throw new Impossible(
+        `the components need ${fmtUl(need)} in a ${fmtUl(V)} tube (the top dose alone takes ${fmtUl(topDopant?.volume ?? 0)} of the ${dop.label} ${topDopant && topDopant.from !== stockKey(dopantId) ? 'dilution' : 'stock'}). ` +
           `Use a larger sample volume (at least ${fmtUl(roundUp(need * 1.05))}), ${stockFix}, or fewer or lower doses.`,
       );
-    } else {
-      const total = roundUp(mmPerTube * mmTubes * ov);
-      const scaleTo = (v: number) => roundUp(v);
-      const steps: Transfer[] = [];
-      const bufferMm = (mmPerTube - baseInTube) * mmTubes * ov;
-      if (bufferMm > 0) steps.push({ what: o.buffer, from: o.buffer, volume: Math.max(scaleTo(bufferMm), o.minVolume) });
-      for (const b of baseMm) {
-        if (b.perTube <= 0) continue;
-        const c = comp.get(b.id)!;
-        steps.push({ what: c.label, from: b.level === 0 ? `${c.label} stock` : dilutionName(b.id, b.level), volume: scaleTo(b.total * Math.pow(10, b.level)) });
-      }
-      masterMix = { tubes: mmTubes, perTube: mmPerTube, total, steps };
+    }
+    mmNeed = p * nMm * ov;
+    // each base into the master mix so that p of it carries the tube's share (C₁V₁ = C₂V₂ with the mix's own volume)
+    mmDraws = [...baseTarget].filter(([, c]) => c > 0).map(([b, c]) => draw(b, (c * V) / p, mmNeed));
+  }
+
+  // Serial dilutions, deepest first: each level is made for what is drawn from it plus what the next level takes.
+  const preparations: Preparation[] = [];
+  const serialNeed = new Map<string, number>();
+  const addNeed = (d: Draw, times: number) => {
+    if (d.from.startsWith('serial\u0000')) serialNeed.set(d.from, (serialNeed.get(d.from) ?? 0) + d.volume * times);
+  };
+  for (const t of perTube) for (const d of t.draws) addNeed(d, R * ov);
+  for (const d of mmDraws) addNeed(d, 1);
+  const serialIds = [...new Set([...serialNeed.keys()].map((k) => k.split('\u0000')[1]!))];
+  const serialPreps: Preparation[] = [];
+  let sIndex = 0;
+  for (const id of serialIds) {
+    const c = comp.get(id)!;
+    const maxLevel = Math.max(...[...serialNeed.keys()].filter((k) => k.split('\u0000')[1] === id).map((k) => Number(k.split('\u0000')[2])));
+    let takeFromNext = 0;
+    const made: { k: number; take: number; diluent: number }[] = [];
+    for (let k = maxLevel; k >= 1; k--) {
+      const { take, diluent } = tenfoldTake((serialNeed.get(serialKey(id, k)) ?? 0) + takeFromNext, o.minVolume);
+      made.push({ k, take, diluent });
+      takeFromNext = take;
+    }
+    for (const m of made.reverse()) {
+      const code = `S${++sIndex}`;
+      const from = m.k === 1 ? stockKey(id) : serialKey(id, m.k - 1);
+      const conc = c.stock / Math.pow(10, m.k);
+      const contents = new Map([[id, conc]]);
+      liquids.set(serialKey(id, m.k), { key: serialKey(id, m.k), code, kind: 'serial', label: `${c.label} 1:${Math.pow(10, m.k)}`, contents });
+      serialPreps.push({
+        code,
+        kind: 'serial',
+        label: `${c.label} 1:${Math.pow(10, m.k)}`,
+        component: id,
+        nominal: conc,
+        volume: m.take + m.diluent,
+        transfers: [
+          { from, label: liquids.get(from)!.label, volume: m.take },
+          { from: BUFFER, label: o.buffer, volume: m.diluent },
+        ],
+        contents,
+        reason: null,
+        tubes: null,
+        perTube: null,
+      });
     }
   }
 
-  const out: PipettingPlan['samples'] = [];
-  for (const t of perTube) {
-    const steps: Transfer[] = [];
-    const s = t.s;
-    const fuelTotal = t.fuels.reduce((a, f) => a + f.volume, 0);
-    if (s.usesMasterMix) {
-      if (masterMix) steps.push({ what: 'master mix', from: 'master mix', volume: mmPerTube });
-      if (t.dopant.volume > 0) steps.push({ what: comp.get(dopantId)!.label, from: t.dopant.level === 0 ? `${comp.get(dopantId)!.label} stock` : dilutionName(dopantId, t.dopant.level), volume: t.dopant.volume });
-      const top = reserve - t.dopant.volume - fuelTotal;
-      if (top > 1e-18) steps.push({ what: o.buffer, from: o.buffer, volume: top });
-    } else {
-      const bases = t.bases.reduce((a, b) => a + b.volume, 0);
-      const buf = o.sampleVolume - bases - t.dopant.volume - fuelTotal;
-      if (buf < -1e-18) problems.push(`${s.name}: the components need more than the ${fmtUl(o.sampleVolume)} tube`);
-      else if (buf > 1e-18 && buf < o.minVolume) problems.push(`${s.name}: the buffer would be ${fmtUl(buf)}, below the ${fmtUl(o.minVolume)} minimum; change the sample volume slightly`);
-      if (buf > 1e-18) steps.push({ what: o.buffer, from: o.buffer, volume: buf });
-      for (const b of t.bases) if (b.volume > 0) steps.push({ what: comp.get(b.id)!.label, from: b.level === 0 ? `${comp.get(b.id)!.label} stock` : dilutionName(b.id, b.level), volume: b.volume });
-      if (t.dopant.volume > 0) steps.push({ what: comp.get(dopantId)!.label, from: t.dopant.level === 0 ? `${comp.get(dopantId)!.label} stock` : dilutionName(dopantId, t.dopant.level), volume: t.dopant.volume });
+  // Working solutions: enough for every tube that takes it plus the overage, made from a settable stock volume.
+  const workingPreps: Preparation[] = [];
+  let wIndex = 0;
+  for (const id of chemicalIds) {
+    const w = working.get(id);
+    if (w === undefined) continue;
+    const c = comp.get(id)!;
+    const need = perTube.reduce((a, t) => a + t.draws.filter((d) => d.from === workingKey(id)).reduce((x, d) => x + d.volume, 0), 0) * R * ov;
+    if (!(need > 0)) continue;
+    let stockVol = roundUpToPipette(Math.max((need * w) / c.stock, o.minVolume));
+    let diluent = roundToPipette(stockVol * (c.stock / w - 1));
+    for (let i = 0; i < 100 && stockVol + diluent < need; i++) {
+      stockVol = roundUpToPipette(stockVol * (1 + 1e-6) + 1e-15);
+      diluent = roundToPipette(stockVol * (c.stock / w - 1));
     }
-    for (const f of t.fuels) if (f.volume > 0) steps.push({ what: comp.get(f.id)!.label, from: f.level === 0 ? `${comp.get(f.id)!.label} stock` : dilutionName(f.id, f.level), volume: f.volume });
-    out.push({ name: s.name, role: s.role, dose: s.dose, tubes, steps });
+    const total = stockVol + diluent;
+    const code = `W${++wIndex}`;
+    const contents = new Map([[id, (c.stock * stockVol) / total]]);
+    liquids.set(workingKey(id), { key: workingKey(id), code, kind: 'working', label: `${c.label} ${fmtConc(w, 'mol')}`, contents });
+    workingPreps.push({
+      code,
+      kind: 'working',
+      label: `${c.label} working solution, ${fmtConc(w, 'mol')}`,
+      component: id,
+      nominal: w,
+      volume: total,
+      transfers: [
+        { from: stockKey(id), label: liquids.get(stockKey(id))!.label, volume: stockVol },
+        { from: BUFFER, label: o.buffer, volume: diluent },
+      ],
+      contents,
+      reason: null,
+      tubes: null,
+      perTube: null,
+    });
   }
-  if (problems.length > 0) throw new DomainError('impossible-volumes', problems.join(' '));
-  const allVolumes = [...dilutions.flatMap((d) => d.steps.map((x) => x.volume)), ...(masterMix?.steps.map((x) => x.volume) ?? []), ...out.flatMap((s) => s.steps.map((x) => x.volume))];
-  return { dilutions, masterMix, samples: out, allVolumes };
+
+  // The master mix as made: the bases as drawn, the buffer to the volume needed.
+  if (mmDraws.length > 0) {
+    const bases = mmDraws.reduce((a, d) => a + d.volume, 0);
+    let buf = roundToPipette(mmNeed - bases);
+    if (buf > 0 && buf < o.minVolume) buf = roundUpToPipette(o.minVolume);
+    const total = bases + buf;
+    const contents = new Map<string, number>();
+    for (const d of mmDraws) contents.set(d.component, (contents.get(d.component) ?? 0) + (liquids.get(d.from)!.contents.get(d.component)! * d.volume) / total);
+    liquids.set(MM, { key: MM, code: 'MM', kind: 'master-mix', label: 'master mix', contents });
+    preparations.push(...workingPreps, ...serialPreps, {
+      code: 'MM',
+      kind: 'master-mix',
+      label: `master mix for ${nMm} tubes plus ${Math.round(o.overage * 100)} %`,
+      component: null,
+      nominal: null,
+      volume: total,
+      transfers: [...(buf > 0 ? [{ from: BUFFER, label: o.buffer, volume: buf }] : []), ...mmDraws.map((d) => ({ from: d.from, label: liquids.get(d.from)!.label, volume: d.volume }))],
+      contents,
+      reason: null,
+      tubes: nMm,
+      perTube: p,
+    });
+  } else preparations.push(...workingPreps, ...serialPreps);
+
+  // The table's columns in order of addition: buffer, master mix, base species, dopant, the chemicals (the fuel last).
+  const used = new Set<string>();
+  for (const t of perTube) for (const d of t.draws) used.add(d.from);
+  const order: string[] = [BUFFER, ...(liquids.has(MM) ? [MM] : [])];
+  const sourcesOf = (id: string) => [stockKey(id), ...[...liquids.keys()].filter((k) => k.startsWith(`serial\u0000${id}\u0000`)), workingKey(id)];
+  for (const b of baseIds) order.push(...sourcesOf(b));
+  order.push(...sourcesOf(dopantId));
+  for (const f of chemicalIds) order.push(...sourcesOf(f));
+  const columnKeys = order.filter((k, i) => (k === BUFFER || k === MM || used.has(k)) && order.indexOf(k) === i);
+
+  const tubes: Tube[] = perTube.map((t, i) => {
+    const s = t.s;
+    const vols = new Map<string, number>();
+    for (const d of t.draws) vols.set(d.from, (vols.get(d.from) ?? 0) + d.volume);
+    if (s.usesMasterMix && liquids.has(MM)) vols.set(MM, p);
+    const others = [...vols.values()].reduce((a, v) => a + v, 0);
+    const buf = V - others;
+    if (buf < -1e-15) problems.push(`${s.name}: the components need ${fmtUl(others)}, more than the ${fmtUl(V)} tube`);
+    else if (buf > 1e-15 && buf < o.minVolume * (1 - 1e-9)) problems.push(`${s.name}: the buffer would be ${fmtUl(buf)}, below the ${fmtUl(o.minVolume)} minimum; change the sample volume slightly`);
+    vols.set(BUFFER, buf > 1e-15 ? buf : 0);
+    const delivered = new Map<string, number>();
+    for (const [from, v] of vols) for (const [id, c] of liquids.get(from)!.contents) delivered.set(id, (delivered.get(id) ?? 0) + (c * v) / V);
+    const code = codes[i]!;
+    return {
+      code,
+      lids: R === 1 ? [code] : Array.from({ length: R }, (_, r) => `${code}${LETTERS[r]}`),
+      kind: kinds[i]!,
+      role: s.role,
+      name: s.name,
+      replicates: R,
+      plannedDose: (s.conc.get(dopantId) ?? 0) > 0 ? s.conc.get(dopantId)! : s.dose === null ? null : 0,
+      deliveredDose: (s.conc.get(dopantId) ?? 0) > 0 ? (delivered.get(dopantId) ?? 0) : s.dose === null ? null : 0,
+      volumes: columnKeys.map((k) => vols.get(k) ?? 0),
+      planned: s.conc,
+      delivered,
+    };
+  });
+  if (problems.length > 0) throw new Impossible(problems.join(' '));
+
+  const columns = columnKeys.map((k) => {
+    const l = liquids.get(k)!;
+    return { key: k, label: l.kind === 'master-mix' ? l.label : l.code ? `${l.code} ${l.label}` : l.label };
+  });
+
+  // Concentrations handled, per chemical: stock bottle, working solution, sample.
+  const handled: Handled[] = [];
+  for (const id of chemicalIds) {
+    const c = comp.get(id)!;
+    const inTubes = tubes.map((t) => t.delivered.get(id) ?? 0).filter((x) => x > 0);
+    if (inTubes.length === 0) continue;
+    const M = c.molarMass ?? null;
+    const w = (x: number) => (M ? (x * M) / WATER_DENSITY_25C : null);
+    handled.push({ chemical: id, where: 'stock', code: null, concentration: c.stock, massFraction: c.stockMassFraction ?? null });
+    const wl = liquids.get(workingKey(id));
+    if (wl) handled.push({ chemical: id, where: 'working', code: wl.code, concentration: wl.contents.get(id)!, massFraction: w(wl.contents.get(id)!) });
+    const top = Math.max(...inTubes);
+    handled.push({ chemical: id, where: 'sample', code: null, concentration: top, massFraction: w(top) });
+  }
+
+  const allVolumes = [...preparations.flatMap((x) => x.transfers.map((t) => t.volume)), ...tubes.flatMap((t) => t.volumes.filter((v) => v > 0))];
+  return {
+    sampleVolume: V,
+    replicates: R,
+    minVolume: o.minVolume,
+    workingBelow: o.workingBelow ?? WORKING_BELOW,
+    liquids: [...liquids.values()],
+    preparations,
+    working: [],
+    columns,
+    tubes,
+    handled,
+    components,
+    dopantId,
+    allVolumes,
+  };
+}
+
+// ---------------------------------------------------------------- text
+
+const SUP: Record<string, string> = { '-': '⁻', '0': '⁰', '1': '¹', '2': '²', '3': '³', '4': '⁴', '5': '⁵', '6': '⁶', '7': '⁷', '8': '⁸', '9': '⁹' };
+
+/** 3–4 significant figures, × 10ⁿ for large or small numbers. */
+function num(v: number, digits = 4): string {
+  if (v === 0 || (Math.abs(v) >= 1e-3 && Math.abs(v) < 1e5)) return String(Number(v.toPrecision(digits)));
+  const [m, e] = v.toExponential(digits - 1).split('e') as [string, string];
+  return `${Number(m)} × 10${String(Number(e)).split('').map((c) => SUP[c] ?? c).join('')}`;
+}
+
+/** A volume as set on the pipette: µL to 0.1 µL (the buffer remainder too), mL above 10 mL. */
+export function fmtVolume(v: number): string {
+  const u = v / UL;
+  return u >= 10000 ? `${Number((u / 1000).toFixed(2))} mL` : `${Number(u.toFixed(1))} µL`;
+}
+
+/** A concentration: per mL for particles; mM below 1 M, M above, for chemicals. */
+export function fmtConc(x: number, per: 'particles' | 'mol', digits = 4): string {
+  if (per === 'particles') return `${num(x * 1e-6, digits)} /mL`;
+  return x >= 1000 ? `${num(x / 1000, digits)} M` : `${num(x, digits)} mM`;
+}
+
+const pct = (w: number) => `${Number((w * 100).toPrecision(3))} % w/w`;
+
+/** An amount for the JSON model. */
+export interface Amount {
+  value: number;
+  unit: string;
+}
+const ulAmount = (v: number): Amount => ({ value: Number((v / UL).toFixed(1)), unit: 'µL' });
+const concAmount = (x: number, per: 'particles' | 'mol'): Amount => (per === 'particles' ? { value: Number((x * 1e-6).toPrecision(4)), unit: 'particles/mL' } : { value: Number(x.toPrecision(4)), unit: 'mM' });
+
+/** The tube list for the rest of the sheet (expected outcomes, observations): code, role, planned and delivered dose. */
+export function tubeList(plan: BenchPlan) {
+  return plan.tubes.map((t) => ({
+    code: t.code,
+    lids: t.lids,
+    kind: t.kind,
+    role: t.role,
+    name: t.name,
+    replicates: t.replicates,
+    /** SI (m⁻³) and per mL; null: no dopant in the tube */
+    plannedDose: t.plannedDose === null ? null : { si: t.plannedDose, perMl: t.plannedDose * 1e-6 },
+    deliveredDose: t.deliveredDose === null ? null : { si: t.deliveredDose, perMl: t.deliveredDose * 1e-6 },
+  }));
+}
+export type TubeListEntry = ReturnType<typeof tubeList>[number];
+
+/** The structured pipetting data for the JSON rendering (numbers with units; volumes as set on the pipette). */
+export function pipettingJson(plan: BenchPlan) {
+  const comp = new Map(plan.components.map((c) => [c.id, c]));
+  const contents = (m: ReadonlyMap<string, number>) => [...m].map(([id, x]) => ({ component: id, concentration: concAmount(x, comp.get(id)!.per) }));
+  return {
+    rule: ROUNDING_RULE,
+    sampleVolume: ulAmount(plan.sampleVolume),
+    workingBelow: ulAmount(plan.workingBelow),
+    working: plan.working.map((w) => ({ chemical: w.chemical, made: w.decision.make, code: w.code, stockPerTube: ulAmount(w.decision.stockPerTube), volumeRule: w.decision.volumeRule, bandRule: w.decision.bandRule, reason: w.decision.reason })),
+    preparations: plan.preparations.map((p) => ({
+      code: p.code,
+      kind: p.kind,
+      label: p.label,
+      component: p.component,
+      nominal: p.nominal === null || p.component === null ? null : concAmount(p.nominal, comp.get(p.component)!.per),
+      volume: ulAmount(p.volume),
+      transfers: p.transfers.map((t) => ({ from: t.label, volume: ulAmount(t.volume) })),
+      contents: contents(p.contents),
+      tubes: p.tubes,
+      perTube: p.perTube === null ? null : ulAmount(p.perTube),
+    })),
+    columns: plan.columns.map((c) => c.label),
+    tubes: plan.tubes.map((t) => ({
+      code: t.code,
+      lids: t.lids,
+      kind: t.kind,
+      role: t.role,
+      name: t.name,
+      replicates: t.replicates,
+      plannedDose: t.plannedDose === null ? null : concAmount(t.plannedDose, 'particles'),
+      deliveredDose: t.deliveredDose === null ? null : concAmount(t.deliveredDose, 'particles'),
+      volumes: t.volumes.map((v) => (v > 0 ? ulAmount(v) : null)),
+      concentrations: [...new Set([...t.planned.keys(), ...t.delivered.keys()])].map((id) => ({ component: id, planned: concAmount(t.planned.get(id) ?? 0, comp.get(id)!.per), delivered: concAmount(t.delivered.get(id) ?? 0, comp.get(id)!.per) })),
+    })),
+    handled: plan.handled.map((h) => ({ chemical: h.chemical, where: h.where, code: h.code, concentration: concAmount(h.concentration, 'mol'), massFraction: h.massFraction })),
+  };
+}
+export type PipettingJson = ReturnType<typeof pipettingJson>;
+
+const KIND_TEXT: Record<SampleKind, string> = { 'no-dopant': 'control: no dopant', series: 'dose', 'no-fuel': 'control: no fuel', 'dopant-alone': 'control: dopant alone' };
+
+/**
+ * The pipetting part of the sheet as one section (id "pipetting"): the rule, the
+ * steps before the table, the table (one row per sample, its tubes' lid codes,
+ * planned and delivered dose, the volumes in order of addition, a check box for
+ * "mixed, clock started"), and what every tube holds.
+ * `doseFactor(t)` labels a dose row (e.g. "0.5 ×"); by default the sample's name.
+ */
+export function pipettingSections(plan: BenchPlan, options: { doseLabel?: (t: Tube) => string } = {}): Section[] {
+  const comp = new Map(plan.components.map((c) => [c.id, c]));
+  const label = (id: string) => comp.get(id)?.label ?? id;
+  const blocks: Block[] = [];
+  const R = plan.replicates;
+  blocks.push({ kind: 'paragraph', text: `Each tube holds ${fmtVolume(plan.sampleVolume)}; ${R} replicate tube${R === 1 ? '' : 's'} per row. ${ROUNDING_RULE}` });
+
+  if (plan.preparations.length > 0) {
+    blocks.push({ kind: 'heading', text: 'Before the tubes: working solutions, dilutions, master mix' });
+    const prepCols: Column[] = [
+      { id: 'done', label: 'done', check: true },
+      { id: 'code', label: 'code' },
+      { id: 'make', label: 'make' },
+      { id: 'from', label: 'from' },
+      { id: 'into', label: 'into', numeric: true },
+      { id: 'total', label: 'total', numeric: true },
+      { id: 'handled', label: 'concentration handled' },
+    ];
+    const rows: Row[] = plan.preparations.map((p) => {
+      const into = p.transfers.filter((t) => t.from === BUFFER);
+      const from = p.transfers.filter((t) => t.from !== BUFFER);
+      const handled = [...p.contents].map(([id, x]) => {
+        const c = comp.get(id)!;
+        const w = c.per === 'mol' && c.molarMass ? ` (${pct((x * c.molarMass) / WATER_DENSITY_25C)})` : '';
+        return `${p.kind === 'master-mix' ? `${label(id)} ` : ''}${fmtConc(x, c.per)}${w}`;
+      });
+      const extra = p.kind === 'master-mix' && p.perTube !== null ? `; ${fmtVolume(p.perTube)} per tube` : '';
+      return {
+        cells: [null, p.code, `${p.label}${extra}`, from.map((t) => `${fmtVolume(t.volume)} ${t.label}`).join(' + '), into.length ? `${fmtVolume(into[0]!.volume)} ${into[0]!.label}` : '—', fmtVolume(p.volume), handled.join('; ')],
+      };
+    });
+    blocks.push(table(prepCols, rows));
+  }
+  const reasons = plan.working.map((w) => `${label(w.chemical)}: ${w.decision.reason}${w.code ? ` (${w.code})` : ''}.`);
+  if (reasons.length) blocks.push({ kind: 'list', items: reasons });
+
+  const last = plan.columns.at(-1);
+  blocks.push({ kind: 'heading', text: `Tubes, in order of addition: ${plan.columns.map((c) => c.label).join(', ')}${last && last.key !== BUFFER ? ' last' : ''}; then mix gently and start the clock` });
+  const cols: Column[] = [
+    { id: 'tube', label: 'tube (lids)' },
+    { id: 'sample', label: 'sample' },
+    { id: 'planned', label: 'dose planned', numeric: true },
+    { id: 'delivered', label: 'dose delivered', numeric: true },
+    ...plan.columns.map((c, i) => ({ id: `v${i}`, label: c.label, numeric: true })),
+    { id: 'start', label: 'mixed, clock started', check: true },
+  ];
+  const rows: Row[] = plan.tubes.map((t) => ({
+    code: t.code,
+    cells: [
+      R === 1 ? t.code : `${t.code} ${t.lids[0]!.slice(t.code.length)}–${t.lids.at(-1)!.slice(t.code.length)}`,
+      t.kind === 'series' ? (options.doseLabel?.(t) ?? t.name) : KIND_TEXT[t.kind],
+      t.plannedDose === null ? '—' : fmtConc(t.plannedDose, 'particles'),
+      t.deliveredDose === null ? '—' : fmtConc(t.deliveredDose, 'particles'),
+      ...t.volumes.map((v) => (v > 0 ? fmtVolume(v) : '—')),
+      null,
+    ],
+  }));
+  blocks.push(table(cols, rows, `dopant: ${label(plan.dopantId)}; concentrations per mL of sample`));
+
+  // What every tube holds besides the dopant: planned → delivered (the same in every tube that takes it, or a range).
+  const held: string[] = [];
+  for (const c of plan.components) {
+    if (c.id === plan.dopantId) continue;
+    const pairs = plan.tubes.map((t) => [t.planned.get(c.id) ?? 0, t.delivered.get(c.id) ?? 0] as const).filter(([a]) => a > 0);
+    if (pairs.length === 0) continue;
+    const range = (xs: number[]) => {
+      const lo = Math.min(...xs);
+      const hi = Math.max(...xs);
+      return fmtConc(lo, c.per) === fmtConc(hi, c.per) ? fmtConc(lo, c.per) : `${fmtConc(lo, c.per)} – ${fmtConc(hi, c.per)}`;
+    };
+    held.push(`${c.label}: ${range(pairs.map((x) => x[0]))} planned, ${range(pairs.map((x) => x[1]))} delivered (in the ${pairs.length} sample${pairs.length === 1 ? '' : 's'} that take it)`);
+  }
+  if (held.length) blocks.push({ kind: 'list', items: held });
+  const lidText = `Tube codes, for the lids: C0 no dopant; D1…D${plan.tubes.filter((t) => t.kind === 'series').length} the doses, low to high; CF no fuel; CA dopant alone${R > 1 ? `; the letter (a–${LETTERS[R - 1]}) is the replicate` : ''}.`;
+  blocks.push({ kind: 'paragraph', text: lidText, muted: true });
+  return [{ id: 'pipetting', title: 'Pipetting', blocks }];
+}
+
+/** A legacy transfer step (what, from, volume). */
+export interface Transfer {
+  what: string;
+  from: string;
+  volume: number;
+}
+
+/** The plan as separate step lists (dilutions, master mix, per-sample steps), for a sheet that lists steps per sample. */
+export interface PipettingPlan {
+  dilutions: { name: string; component: string; factor: number; concentration: number; volume: number; steps: Transfer[] }[];
+  masterMix: { tubes: number; perTube: number; total: number; steps: Transfer[] } | null;
+  samples: { name: string; role: SampleSpec['role']; dose: number | null; tubes: number; steps: Transfer[] }[];
+  allVolumes: number[];
+  /** the compact plan these steps come from */
+  bench: BenchPlan;
+}
+
+/**
+ * planBench's plan as step lists: working solutions and serial dilutions as
+ * `dilutions`, the master mix, and each sample's transfers in order of addition.
+ * @throws DomainError('impossible-volumes') with what would fix it
+ */
+export function planPipetting(components: Component[], samples: SampleSpec[], o: PipettingOptions, baseIds: string[], dopantId: string, fuelIds: string[]): PipettingPlan {
+  const bench = planBench(components, samples, o, baseIds, dopantId, fuelIds);
+  const liquid = new Map(bench.liquids.map((l) => [l.key, l]));
+  const what = (key: string) => {
+    const l = liquid.get(key)!;
+    if (l.kind === 'buffer') return l.label;
+    if (l.kind === 'master-mix') return 'master mix';
+    const id = [...l.contents.keys()][0]!;
+    return components.find((c) => c.id === id)!.label;
+  };
+  const mm = bench.preparations.find((p) => p.kind === 'master-mix');
+  return {
+    dilutions: bench.preparations
+      .filter((p) => p.kind !== 'master-mix')
+      .map((p) => {
+        const c = components.find((x) => x.id === p.component)!;
+        const conc = p.contents.get(c.id)!;
+        return { name: `${p.code}: ${p.label}`, component: c.id, factor: c.stock / conc, concentration: conc, volume: p.volume, steps: p.transfers.map((t) => ({ what: t.from === BUFFER ? o.buffer : c.label, from: t.label, volume: t.volume })) };
+      }),
+    masterMix: mm ? { tubes: mm.tubes!, perTube: mm.perTube!, total: mm.volume, steps: mm.transfers.map((t) => ({ what: t.from === BUFFER ? o.buffer : what(t.from), from: t.label, volume: t.volume })) } : null,
+    samples: bench.tubes.map((t) => ({
+      name: `${t.code}: ${t.name}`,
+      role: t.role,
+      dose: t.plannedDose,
+      tubes: t.replicates,
+      steps: bench.columns.flatMap((c, i) => (t.volumes[i]! > 0 ? [{ what: what(c.key), from: liquid.get(c.key)!.label, volume: t.volumes[i]! }] : [])),
+    })),
+    allVolumes: bench.allVolumes,
+    bench,
+  };
+}
+
+/** Classification of each concentration of a chemical handled at the bench (for the hazards section). */
+export function handledClassifications(plan: BenchPlan, hazards: (id: string) => HazardSet | null): (Handled & { classified: boolean; classification: Classification | null })[] {
+  return plan.handled.map((h) => {
+    const set = hazards(h.chemical);
+    return { ...h, classified: set !== null && h.massFraction !== null, classification: set && h.massFraction !== null ? classify(set, h.massFraction) : null };
+  });
 }
