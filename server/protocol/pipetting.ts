@@ -536,12 +536,6 @@ function num(v: number, digits = 4): string {
   return `${Number(m)} × 10${String(Number(e)).split('').map((c) => SUP[c] ?? c).join('')}`;
 }
 
-/** A volume as set on the pipette: µL to 0.1 µL (the buffer remainder too), mL above 10 mL. */
-export function fmtVolume(v: number): string {
-  const u = v / UL;
-  return u >= 10000 ? `${Number((u / 1000).toFixed(2))} mL` : `${Number(u.toFixed(1))} µL`;
-}
-
 /** A concentration: per mL for particles; mM below 1 M, M above, for chemicals. */
 export function fmtConc(x: number, per: 'particles' | 'mol', digits = 4): string {
   if (per === 'particles') return `${num(x * 1e-6, digits)} /mL`;
@@ -577,11 +571,19 @@ export type TubeListEntry = ReturnType<typeof tubeList>[number];
 /** The structured pipetting data for the JSON rendering (numbers with units; volumes as set on the pipette). */
 export function pipettingJson(plan: BenchPlan) {
   const comp = new Map(plan.components.map((c) => [c.id, c]));
-  const contents = (m: ReadonlyMap<string, number>) => [...m].map(([id, x]) => ({ component: id, concentration: concAmount(x, comp.get(id)!.per) }));
+  const wOf = (id: string, x: number) => {
+    const c = comp.get(id)!;
+    return c.per === 'mol' && c.molarMass ? (x * c.molarMass) / WATER_DENSITY_25C : null;
+  };
+  const contents = (m: ReadonlyMap<string, number>) => [...m].map(([id, x]) => ({ component: id, concentration: concAmount(x, comp.get(id)!.per), massFraction: wOf(id, x) }));
   return {
     rule: ROUNDING_RULE,
     sampleVolume: ulAmount(plan.sampleVolume),
+    replicates: plan.replicates,
+    minVolume: ulAmount(plan.minVolume),
     workingBelow: ulAmount(plan.workingBelow),
+    dopant: plan.dopantId,
+    components: plan.components.map((c) => ({ id: c.id, label: c.label, per: c.per })),
     working: plan.working.map((w) => ({ chemical: w.chemical, made: w.decision.make, code: w.code, stockPerTube: ulAmount(w.decision.stockPerTube), volumeRule: w.decision.volumeRule, bandRule: w.decision.bandRule, reason: w.decision.reason })),
     preparations: plan.preparations.map((p) => ({
       code: p.code,
@@ -590,11 +592,12 @@ export function pipettingJson(plan: BenchPlan) {
       component: p.component,
       nominal: p.nominal === null || p.component === null ? null : concAmount(p.nominal, comp.get(p.component)!.per),
       volume: ulAmount(p.volume),
-      transfers: p.transfers.map((t) => ({ from: t.label, volume: ulAmount(t.volume) })),
+      transfers: p.transfers.map((t) => ({ from: t.label, buffer: t.from === BUFFER, volume: ulAmount(t.volume) })),
       contents: contents(p.contents),
       tubes: p.tubes,
       perTube: p.perTube === null ? null : ulAmount(p.perTube),
     })),
+    /** the table's volume columns in order of addition; `last`: the fuel (the sample is started by it) */
     columns: plan.columns.map((c) => c.label),
     tubes: plan.tubes.map((t) => ({
       code: t.code,
@@ -605,8 +608,11 @@ export function pipettingJson(plan: BenchPlan) {
       replicates: t.replicates,
       plannedDose: t.plannedDose === null ? null : concAmount(t.plannedDose, 'particles'),
       deliveredDose: t.deliveredDose === null ? null : concAmount(t.deliveredDose, 'particles'),
+      /** aligned with columns; null: nothing from that liquid */
       volumes: t.volumes.map((v) => (v > 0 ? ulAmount(v) : null)),
-      concentrations: [...new Set([...t.planned.keys(), ...t.delivered.keys()])].map((id) => ({ component: id, planned: concAmount(t.planned.get(id) ?? 0, comp.get(id)!.per), delivered: concAmount(t.delivered.get(id) ?? 0, comp.get(id)!.per) })),
+      concentrations: [...new Set([...t.planned.keys(), ...t.delivered.keys()])]
+        .filter((id) => (t.planned.get(id) ?? 0) > 0 || (t.delivered.get(id) ?? 0) > 0)
+        .map((id) => ({ component: id, planned: concAmount(t.planned.get(id) ?? 0, comp.get(id)!.per), delivered: concAmount(t.delivered.get(id) ?? 0, comp.get(id)!.per) })),
     })),
     handled: plan.handled.map((h) => ({ chemical: h.chemical, where: h.where, code: h.code, concentration: concAmount(h.concentration, 'mol'), massFraction: h.massFraction })),
   };
@@ -615,21 +621,26 @@ export type PipettingJson = ReturnType<typeof pipettingJson>;
 
 const KIND_TEXT: Record<SampleKind, string> = { 'no-dopant': 'control: no dopant', series: 'dose', 'no-fuel': 'control: no fuel', 'dopant-alone': 'control: dopant alone' };
 
+/** An Amount of the JSON as printed: µL to 0.1 µL (mL from 10 mL), per mL, mM below 1 M and M above. */
+const vText = (a: Amount) => (a.value >= 10000 ? `${Number((a.value / 1000).toFixed(2))} mL` : `${a.value} µL`);
+const cText = (a: Amount) => (a.unit === 'particles/mL' ? `${num(a.value)} /mL` : a.unit === 'mM' ? (a.value >= 1000 ? `${num(a.value / 1000)} M` : `${num(a.value)} mM`) : `${num(a.value)} ${a.unit}`);
+
 /**
- * The pipetting part of the sheet as one section (id "pipetting"): the rule, the
+ * The pipetting part of the sheet as one section (id "pipetting"), from the JSON
+ * model alone (so every rendering shows what the JSON holds): the rule, the
  * steps before the table, the table (one row per sample, its tubes' lid codes,
  * planned and delivered dose, the volumes in order of addition, a check box for
  * "mixed, clock started"), and what every tube holds.
- * `doseFactor(t)` labels a dose row (e.g. "0.5 ×"); by default the sample's name.
+ * `doseLabel(t)` labels a dose row (e.g. "0.5 ×"); by default the sample's name.
  */
-export function pipettingSections(plan: BenchPlan, options: { doseLabel?: (t: Tube) => string } = {}): Section[] {
-  const comp = new Map(plan.components.map((c) => [c.id, c]));
+export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: PipettingJson['tubes'][number]) => string } = {}): Section[] {
+  const comp = new Map(p.components.map((c) => [c.id, c]));
   const label = (id: string) => comp.get(id)?.label ?? id;
   const blocks: Block[] = [];
-  const R = plan.replicates;
-  blocks.push({ kind: 'paragraph', text: `Each tube holds ${fmtVolume(plan.sampleVolume)}; ${R} replicate tube${R === 1 ? '' : 's'} per row. ${ROUNDING_RULE}` });
+  const R = p.replicates;
+  blocks.push({ kind: 'paragraph', text: `Each tube holds ${vText(p.sampleVolume)}; ${R} replicate tube${R === 1 ? '' : 's'} per row. ${p.rule}` });
 
-  if (plan.preparations.length > 0) {
+  if (p.preparations.length > 0) {
     blocks.push({ kind: 'heading', text: 'Before the tubes: working solutions, dilutions, master mix' });
     const prepCols: Column[] = [
       { id: 'done', label: 'done', check: true },
@@ -640,63 +651,65 @@ export function pipettingSections(plan: BenchPlan, options: { doseLabel?: (t: Tu
       { id: 'total', label: 'total', numeric: true },
       { id: 'handled', label: 'concentration handled' },
     ];
-    const rows: Row[] = plan.preparations.map((p) => {
-      const into = p.transfers.filter((t) => t.from === BUFFER);
-      const from = p.transfers.filter((t) => t.from !== BUFFER);
-      const handled = [...p.contents].map(([id, x]) => {
-        const c = comp.get(id)!;
-        const w = c.per === 'mol' && c.molarMass ? ` (${pct((x * c.molarMass) / WATER_DENSITY_25C)})` : '';
-        return `${p.kind === 'master-mix' ? `${label(id)} ` : ''}${fmtConc(x, c.per)}${w}`;
-      });
-      const extra = p.kind === 'master-mix' && p.perTube !== null ? `; ${fmtVolume(p.perTube)} per tube` : '';
-      return {
-        cells: [null, p.code, `${p.label}${extra}`, from.map((t) => `${fmtVolume(t.volume)} ${t.label}`).join(' + '), into.length ? `${fmtVolume(into[0]!.volume)} ${into[0]!.label}` : '—', fmtVolume(p.volume), handled.join('; ')],
-      };
+    const rows: Row[] = p.preparations.map((x) => {
+      const into = x.transfers.filter((t) => t.buffer);
+      const from = x.transfers.filter((t) => !t.buffer);
+      const handled = x.contents.map((c) => `${x.kind === 'master-mix' ? `${label(c.component)} ` : ''}${cText(c.concentration)}${c.massFraction !== null ? ` (${pct(c.massFraction)})` : ''}`);
+      const extra = x.kind === 'master-mix' && x.perTube !== null ? `; ${vText(x.perTube)} per tube` : '';
+      return { cells: [null, x.code, `${x.label}${extra}`, from.map((t) => `${vText(t.volume)} ${t.from}`).join(' + '), into.length ? `${vText(into[0]!.volume)} ${into[0]!.from}` : '—', vText(x.volume), handled.join('; ')] };
     });
     blocks.push(table(prepCols, rows));
   }
-  const reasons = plan.working.map((w) => `${label(w.chemical)}: ${w.decision.reason}${w.code ? ` (${w.code})` : ''}.`);
+  const reasons = p.working.map((w) => `${label(w.chemical)}: ${w.reason}${w.code ? ` (${w.code})` : ''}.`);
   if (reasons.length) blocks.push({ kind: 'list', items: reasons });
 
-  const last = plan.columns.at(-1);
-  blocks.push({ kind: 'heading', text: `Tubes, in order of addition: ${plan.columns.map((c) => c.label).join(', ')}${last && last.key !== BUFFER ? ' last' : ''}; then mix gently and start the clock` });
+  const fuelLast = p.columns.length > 1 && p.working.length > 0;
+  blocks.push({ kind: 'heading', text: `Tubes, in order of addition: ${p.columns.join(', ')}${fuelLast ? ' last' : ''}; then mix gently and start the clock` });
   const cols: Column[] = [
     { id: 'tube', label: 'tube (lids)' },
     { id: 'sample', label: 'sample' },
     { id: 'planned', label: 'dose planned', numeric: true },
     { id: 'delivered', label: 'dose delivered', numeric: true },
-    ...plan.columns.map((c, i) => ({ id: `v${i}`, label: c.label, numeric: true })),
+    ...p.columns.map((c, i) => ({ id: `v${i}`, label: c, numeric: true })),
     { id: 'start', label: 'mixed, clock started', check: true },
   ];
-  const rows: Row[] = plan.tubes.map((t) => ({
+  const rows: Row[] = p.tubes.map((t) => ({
     code: t.code,
     cells: [
       R === 1 ? t.code : `${t.code} ${t.lids[0]!.slice(t.code.length)}–${t.lids.at(-1)!.slice(t.code.length)}`,
       t.kind === 'series' ? (options.doseLabel?.(t) ?? t.name) : KIND_TEXT[t.kind],
-      t.plannedDose === null ? '—' : fmtConc(t.plannedDose, 'particles'),
-      t.deliveredDose === null ? '—' : fmtConc(t.deliveredDose, 'particles'),
-      ...t.volumes.map((v) => (v > 0 ? fmtVolume(v) : '—')),
+      t.plannedDose === null ? '—' : cText(t.plannedDose),
+      t.deliveredDose === null ? '—' : cText(t.deliveredDose),
+      ...t.volumes.map((v) => (v ? vText(v) : '—')),
       null,
     ],
   }));
-  blocks.push(table(cols, rows, `dopant: ${label(plan.dopantId)}; concentrations per mL of sample`));
+  blocks.push(table(cols, rows, `dopant: ${label(p.dopant)}; doses per mL of sample`));
 
-  // What every tube holds besides the dopant: planned → delivered (the same in every tube that takes it, or a range).
+  // What every tube holds besides the dopant: planned and delivered (the same in every tube that takes it, or a range).
   const held: string[] = [];
-  for (const c of plan.components) {
-    if (c.id === plan.dopantId) continue;
-    const pairs = plan.tubes.map((t) => [t.planned.get(c.id) ?? 0, t.delivered.get(c.id) ?? 0] as const).filter(([a]) => a > 0);
+  for (const c of p.components) {
+    if (c.id === p.dopant) continue;
+    const pairs = p.tubes.flatMap((t) => t.concentrations.filter((x) => x.component === c.id && x.planned.value > 0));
     if (pairs.length === 0) continue;
-    const range = (xs: number[]) => {
-      const lo = Math.min(...xs);
-      const hi = Math.max(...xs);
-      return fmtConc(lo, c.per) === fmtConc(hi, c.per) ? fmtConc(lo, c.per) : `${fmtConc(lo, c.per)} – ${fmtConc(hi, c.per)}`;
+    const range = (xs: Amount[]) => {
+      const texts = [...new Set(xs.map(cText))];
+      const lo = xs.reduce((a, b) => (b.value < a.value ? b : a));
+      const hi = xs.reduce((a, b) => (b.value > a.value ? b : a));
+      return texts.length === 1 ? texts[0]! : `${cText(lo)} – ${cText(hi)}`;
     };
-    held.push(`${c.label}: ${range(pairs.map((x) => x[0]))} planned, ${range(pairs.map((x) => x[1]))} delivered (in the ${pairs.length} sample${pairs.length === 1 ? '' : 's'} that take it)`);
+    held.push(`${c.label}: ${range(pairs.map((x) => x.planned))} planned, ${range(pairs.map((x) => x.delivered))} delivered (in the ${pairs.length} sample${pairs.length === 1 ? '' : 's'} that take it)`);
   }
   if (held.length) blocks.push({ kind: 'list', items: held });
-  const lidText = `Tube codes, for the lids: C0 no dopant; D1…D${plan.tubes.filter((t) => t.kind === 'series').length} the doses, low to high; CF no fuel; CA dopant alone${R > 1 ? `; the letter (a–${LETTERS[R - 1]}) is the replicate` : ''}.`;
-  blocks.push({ kind: 'paragraph', text: lidText, muted: true });
+  const nDoses = p.tubes.filter((t) => t.kind === 'series').length;
+  const present = new Set(p.tubes.map((t) => t.kind));
+  const lid = [
+    ...(present.has('no-dopant') ? ['C0 no dopant'] : []),
+    ...(nDoses > 0 ? [`${nDoses === 1 ? 'D1 the dose' : `D1…D${nDoses} the doses, low to high`}`] : []),
+    ...(present.has('no-fuel') ? ['CF no fuel'] : []),
+    ...(present.has('dopant-alone') ? ['CA dopant alone'] : []),
+  ];
+  blocks.push({ kind: 'paragraph', muted: true, text: `Tube codes, for the lids: ${lid.join('; ')}${R > 1 ? `; the letter (a–${LETTERS[R - 1]}) is the replicate` : ''}.` });
   return [{ id: 'pipetting', title: 'Pipetting', blocks }];
 }
 

@@ -147,7 +147,7 @@ describe('the compact pipetting plan of a default sheet', () => {
   });
 
   it('one section, one row per sample with its code, the rule and C₁V₁ = C₂V₂ named; the JSON keeps the same data', () => {
-    const sections = pipettingSections(plan);
+    const sections = pipettingSections(pipettingJson(plan));
     expect(sections.map((s) => s.id)).toEqual(['pipetting']);
     const tables = sections[0]!.blocks.filter((b) => b.kind === 'table');
     const tubes = tables.at(-1)!;
