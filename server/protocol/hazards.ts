@@ -119,7 +119,8 @@ export function classify(set: HazardSet | null, w: number | null, opts: { form?:
   if (form !== null && set.forms && !set.forms.includes(form)) return { ...empty, status: 'no-data-for-form', note: noDataForForm(form, set.forms) };
   const bands = set.bands.filter((b) => massFraction >= b.min && (b.max === null || massFraction < b.max) && (form === null || !b.forms || b.forms.includes(form)));
   if (bands.length === 0) return { ...empty, status: 'below-limits', note: belowLimits(version) };
-  const statements = bands.map((b) => ({ code: b.statement, text: b.text, hazardClass: b.hazardClass }));
+  // one line per statement and class (two bands of one class, e.g. per form, say it once)
+  const statements = [...new Map(bands.map((b) => [`${b.statement}\u0000${b.hazardClass}\u0000${b.text}`, { code: b.statement, text: b.text, hazardClass: b.hazardClass }])).values()];
   let pictograms = [...new Set(bands.flatMap((b) => b.pictograms))].sort();
   if (pictograms.includes('GHS05')) {
     const otherGhs07 = bands.some((b) => b.pictograms.includes('GHS07') && !IRRITATION.has(b.statement));
@@ -128,7 +129,8 @@ export function classify(set: HazardSet | null, w: number | null, opts: { form?:
   const signal = bands.some((b) => b.signal === 'Danger') ? 'Danger' : bands.some((b) => b.signal === 'Warning') ? 'Warning' : null;
   const precautionary = [...new Set(bands.flatMap((b) => b.precautionary))];
   const classes = [...new Set(statements.map((s) => s.hazardClass))].join(', ');
-  const note = `${classes}${assumedNeat ? ' (concentration not known: classified as the neat material)' : ''}${version !== null ? ` — shelf hazard data version ${version}` : ''}; check the supplier’s safety data sheet, which takes precedence`;
+  const unstated = form === null && set.forms !== undefined ? ' (form not stated: the bands of every form applied)' : '';
+  const note = `${classes}${assumedNeat ? ' (concentration not known: classified as the neat material)' : ''}${unstated}${version !== null ? ` — shelf hazard data version ${version}` : ''}; check the supplier’s safety data sheet, which takes precedence`;
   return { massFraction, form, version, status: 'classified', statements, pictograms, signal, precautionary, note, ...neat };
 }
 

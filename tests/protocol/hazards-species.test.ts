@@ -78,6 +78,12 @@ describe('species hazard data by form (demo catalase)', () => {
     expect(c).toMatchObject({ status: 'classified', massFraction: 1, assumedNeat: true });
     expect(c.note).toMatch(/concentration not known: classified as the neat material/);
   });
+  it('a form not stated applies the bands of every form, and says so', () => {
+    const c = classify(catalase, 0.5);
+    expect(c.statements.map((s) => s.code)).toEqual(['H334']); // said once, though two bands (powder; liquids) apply
+    expect(c.precautionary.some((p) => /dust\.$/.test(p)) && c.precautionary.some((p) => /mist\/spray\.$/.test(p))).toBe(true);
+    expect(c.note).toMatch(/form not stated: the bands of every form applied/);
+  });
   it('every classification that applies a band carries precautionary statements (demo data, chemicals and species)', () => {
     const chem = JSON.parse(readFileSync(new URL('../../seeds/demo-hazards.json', import.meta.url), 'utf8')) as Record<string, unknown>;
     const sets = [...Object.values(chem).map((b) => hazardSetSchema.parse(b)), ...Object.values(speciesData).map((b) => speciesHazardSetSchema.parse(b))];
