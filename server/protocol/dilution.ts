@@ -91,11 +91,12 @@ const rank = (c: Classification) => (c.signal === 'Danger' ? 2 : c.signal === 'W
 /**
  * Whether the stock's classification is above the working solution's: a higher
  * signal word, or a hazard statement (code and class) the working solution does
- * not carry. Null when either is unknown (no hazard data on the shelf: nothing
- * can be compared, which is not "no hazard").
+ * not carry. Null when either is unknown (no hazard data on the shelf, or none for
+ * the form handled: nothing can be compared, which is not "no hazard").
  */
 export function bandAbove(stock: Classification | null, working: Classification | null): boolean | null {
-  if (!stock || !working) return null;
+  const unknown = (c: Classification) => c.status === 'no-data' || c.status === 'no-data-for-form';
+  if (!stock || !working || unknown(stock) || unknown(working)) return null;
   if (rank(stock) > rank(working)) return true;
   const w = new Set(working.statements.map((s) => `${s.code}\u0000${s.hazardClass}`));
   return stock.statements.some((s) => !w.has(`${s.code}\u0000${s.hazardClass}`));

@@ -103,6 +103,8 @@ describe('round concentrations and the working-dilution rule (common practice)',
     expect(bandAbove(stock, work)).toBe(true);
     expect(bandAbove(work, work)).toBe(false);
     expect(bandAbove(null, work)).toBeNull();
+    // no hazard data is not "no hazard": nothing to compare
+    expect(bandAbove(classify(null, 0.3), classify(null, 0.068))).toBeNull();
     // 2.043 µL per tube: both rules
     const both = decideWorking(ul(2.043), ul(5), stock, work, true);
     expect(both).toMatchObject({ make: true, volumeRule: true, bandRule: true });
