@@ -67,6 +67,18 @@ export function sectionTexts(sections: readonly Section[]): string[] {
   return sections.flatMap((s) => [s.title, ...s.blocks.flatMap(blockTexts)]);
 }
 
+const SUP: Record<string, string> = { '-': '⁻', '0': '⁰', '1': '¹', '2': '²', '3': '³', '4': '⁴', '5': '⁵', '6': '⁶', '7': '⁷', '8': '⁸', '9': '⁹' };
+
+/** 1.433 × 10⁸ for large or small numbers, plain otherwise (four significant figures). */
+export function formatNumber(v: number): string {
+  if (v === 0 || (Math.abs(v) >= 1e-3 && Math.abs(v) < 1e5)) return String(Number(v.toPrecision(4)));
+  const [m, e] = v.toExponential(3).split('e') as [string, string];
+  return `${Number(m)} × 10${String(Number(e)).split('').map((c) => SUP[c] ?? c).join('')}`;
+}
+
+/** "2.043 µL" from { value, unit }; "—" for none. */
+export const fmtAmount = (a: { value: number; unit: string } | null | undefined): string => (a ? `${formatNumber(a.value)} ${a.unit}` : '—');
+
 /** A table block from columns and rows (a small convenience for builders). */
 export function table(columns: Column[], rows: Row[], caption?: string): Extract<Block, { kind: 'table' }> {
   for (const r of rows) if (r.cells.length !== columns.length) throw new Error(`table row has ${r.cells.length} cells for ${columns.length} columns`);

@@ -1,7 +1,8 @@
 /**
  * A bench sheet for a stored plan: the plan's own SI inputs and the exact shelf
  * revisions it used (so the same plan prints the same sheet), the chemicals'
- * current hazard data, rendered as HTML, Markdown or JSON.
+ * current hazard data, rendered as HTML, Markdown or JSON. A plan that does not
+ * fit throws SheetNotFitError, whose `sheet` renders the same way.
  */
 import type { Mixture, Species } from '../engine/types.js';
 import type { CandidateResult } from '../engine/planner.js';
@@ -9,9 +10,9 @@ import type { ChemicalRecord, SpeciesRecord } from '../schema/shelf.js';
 import type { PlansRepository } from '../store/plans.js';
 import type { ShelfRepository } from '../store/shelf.js';
 import type { HazardsRepository } from '../store/hazards.js';
-import { hazardSetSchema, type HazardSet } from './hazards.js';
+import { hazardLookup } from './hazards.js';
 import { renderHtml, renderMarkdown } from './render.js';
-import { buildSheet, sheetRequestSchema, type Sheet } from './sheet.js';
+import { buildSheet, sheetRequestSchema, type NotFitSheet, type Sheet } from './sheet.js';
 import { issueList } from '../schema/mixture.js';
 import { InputError } from '../shelf/errors.js';
 
@@ -19,7 +20,7 @@ export type SheetFormat = 'html' | 'md' | 'json';
 
 export function sheetService(plans: PlansRepository, shelf: ShelfRepository, hazards: HazardsRepository) {
   return {
-    /** Build the sheet model of plan `id` with the given (raw) options. */
+    /** Build the sheet model of plan `id` with the given (raw) options. @throws SheetNotFitError (422) with the explanation to render */
     build(id: number, rawOptions: unknown, printedAt = new Date().toISOString()): Sheet {
       const parsed = sheetRequestSchema.safeParse(rawOptions ?? {});
       if (!parsed.success) throw new InputError(issueList(parsed.error));
@@ -37,16 +38,14 @@ export function sheetService(plans: PlansRepository, shelf: ShelfRepository, haz
           revisions: revs.map(({ r, rev }) => ({ role: r.role, id: rev.id, revision: rev.revision, revisionId: rev.revisionId })),
           speciesRecord: (k) => species.get(k) ?? null,
           chemicalRecord: (k) => chemicals.get(k) ?? null,
-          hazards: (k) => {
-            const h = hazards.current<HazardSet>(k);
-            return h ? { set: hazardSetSchema.parse(h.body), version: h.version, createdAt: h.createdAt, author: h.author } : null;
-          },
+          hazards: hazardLookup(hazards),
           printedAt,
         },
         parsed.data,
       );
     },
-    render(sheet: Sheet, format: SheetFormat, paper: 'A4' | 'Letter' = 'A4'): string {
+    /** A sheet, or the explanation of one that does not fit, in one format: HTML and Markdown from its sections, JSON the model itself. */
+    render(sheet: Sheet | NotFitSheet, format: SheetFormat, paper: 'A4' | 'Letter' = 'A4'): string {
       if (format === 'html') return renderHtml(sheet, paper);
       if (format === 'md') return renderMarkdown(sheet);
       return JSON.stringify(sheet, null, 2) + '\n';

@@ -8,17 +8,19 @@
  * Every number carries its unit. Nothing depends on the clock but `printedAt`.
  */
 import { z } from 'zod';
-import type { AnalysisResult } from '../engine/analyze.js';
+import { analyze, type AnalysisResult, type State } from '../engine/analyze.js';
 import { WATER_DENSITY_25C } from '../engine/constants.js';
-import { DEFAULT_DOSE_FACTORS, doseSeries, withDose, type CandidateResult } from '../engine/planner.js';
+import { DEFAULT_DOSE_FACTORS, doseSeries, withDose, type CandidateResult, type Dosing } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
 import { idRecord, ownEntry, quantity } from '../schema/mixture.js';
 import { numberDensity, type ChemicalRecord, type SpeciesRecord } from '../schema/shelf.js';
 import { DomainError, InputError } from '../shelf/errors.js';
 import { DIMENSIONS } from '../units/index.js';
 import { VERSION } from '../version.js';
-import { classify, type Classification, type HazardSet } from './hazards.js';
-import { planPipetting, type Component, type SampleSpec } from './pipetting.js';
+import { DEFAULT_VENT_FRACTION, gasRoute, molarVolume, tubeGas } from './gas.js';
+import { hazardsFor, PICTOGRAMS, type HazardForm, type HazardLookup, type HazardReport } from './hazards.js';
+import { pipettingJson, pipettingSections, planPipetting, tubeList, type Component, type PipettingJson, type SampleSpec } from './pipetting.js';
+import { fmtAmount, formatNumber, table, type Block, type Section } from './sections.js';
 
 /** "0, 1e6 1/mL,1e7 1/mL" → ["0", "1e6 1/mL", "1e7 1/mL"], for the CLI flag and the query parameter (read and bounded by the schema). */
 export const splitDoses = (text: string): string[] => text.split(',').map((x) => x.trim()).filter((x) => x !== '');
@@ -51,6 +53,12 @@ export const sheetRequestSchema = z.strictObject({
   buffer: z.string().min(1).max(100).default('buffer'),
   stocks: idRecord(z.string(), stockSchema).optional(),
   operator: z.string().max(200).optional(),
+  /** the vessel each sample is made in, for the gas check (default 1.5 mL, a common microcentrifuge tube) */
+  tubeVolume: quantity({ length: 3 }, 'positive', 'volume of the tube each sample is made in (default 1.5 mL)').optional(),
+  /** the imaging chamber's volume, for the gas check (default: length² × depth of the plan's chamber) */
+  chamberVolume: quantity({ length: 3 }, 'positive', 'volume of the imaging chamber (default: length² × depth)').optional(),
+  /** the imaging chamber will be physically closed (glued, clamped, greased): the sheet then cautions against catalyst and fuel in it */
+  closedChamber: z.boolean().default(false),
 });
 export type SheetRequest = z.output<typeof sheetRequestSchema>;
 
@@ -59,35 +67,33 @@ export interface Amount {
   unit: string;
 }
 
-export interface HazardEntry {
+/**
+ * The hazards of one chemical or species as handled (hazards.ts hazardsFor): each concentration or form handled
+ * with its classification, whose `status` says whether there were data (no-data, no-data-for-form), whether a
+ * band applied (below-limits, classified); `classified` on an entry is false when there were no data for it
+ * (an empty classification then means "not known", never "no hazard"; docs/model.md §11).
+ */
+export type HazardEntry = Omit<HazardReport, 'asHandled'> & {
+  /** the chemical's or species' id (as `id`; kept under this name for API users) */
   chemical: string;
   name: string;
-  /**
-   * classified false: the shelf holds no hazard data for this chemical, so nothing was classified (an empty
-   * classification then means "not known", never "no hazard"; docs/model.md §11)
-   */
-  asHandled: { where: string; massFraction: number; classified: boolean; classification: Classification }[];
-  /** false when the shelf holds no hazard data for the chemical (see asHandled) */
-  classified: boolean;
-  source: string | null;
-  /** The shelf's record of these hazard data: its version, when and by whom it was entered (null: no hazard data) */
-  version: number | null;
-  recordedAt: string | null;
-  recordedBy: string | null;
-  incompatibilities: string | null;
-  storage: string | null;
-  disposal: string | null;
-  handling: string | null;
-  verify: string;
-}
+  asHandled: (HazardReport['asHandled'][number] & { classified: boolean })[];
+};
 
+/**
+ * A bench sheet: the structured data (kept for API users and re-entry) and `sections`, the ordered section model
+ * that the HTML and Markdown renderings read (sections.ts, render.ts). `fits: true` tells it from a NotFitSheet.
+ */
 export interface Sheet {
+  fits: true;
   title: string;
   software: { name: 'brink'; version: string };
   printedAt: string;
   plan: { id: number; name: string; boundary: string; dosing: string; createdAt: string };
   candidate: { id: string; name: string };
   shelfRevisions: { role: string; id: string; revision: number; revisionId: number }[];
+  /** The model's conditions in bench words: the walls as a boundary condition of the model, never an instruction */
+  model: { walls: string; chamberLength: Amount | null; chamberDepth: Amount | null; temperature: Amount };
   prediction: {
     /** anyDose: every dose above 0 crosses (threshold 0⁺) */
     threshold: Amount & { volumeFraction: number; anyDose: boolean };
@@ -99,12 +105,23 @@ export interface Sheet {
     /** How the series was made: dose factors × the reference (default or given), or the doses given */
     series: { from: 'default-factors' | 'dose-factors' | 'doses'; note: string };
     atMargin: { state: string; growthTime: Amount | null; wavelength: Amount | null; oscillationPeriod: Amount | null; gathers: string[]; pushedOut: string[] } | null;
+    /** The candidate's dose path (states over (from, to]) and first onset, in particles/mL */
+    dosePath: { from: Amount; to: Amount; state: State }[];
+    firstOnset: { dose: Amount; state: State } | null;
   };
   options: { sampleVolume: Amount; replicates: number; minVolume: Amount; overage: number; buffer: string };
   stocks: { id: string; name: string; kind: 'species' | 'chemical'; concentration: Amount; described: string; source: 'shelf' | 'option' }[];
   dilutions: { name: string; concentration: Amount; volume: Amount; steps: { what: string; from: string; volume: Amount }[] }[];
   masterMix: { tubes: number; perTube: Amount; total: Amount; steps: { what: string; from: string; volume: Amount }[] } | null;
   samples: { name: string; role: 'series' | 'control'; dose: Amount | null; doseFactor: number | null; tubes: number; steps: { what: string; from: string; volume: Amount }[] }[];
+  /** The compact pipetting (pipetting.ts): the rounding rule, working solutions and dilutions, one row per sample in order of addition, the concentrations handled */
+  pipetting: PipettingJson;
+  /** One entry per sample, with its code and the replicate tubes' codes */
+  tubes: SheetTube[];
+  /** Expected outcome per sample code */
+  outcomes: TubeOutcome[];
+  /** Blank observations per tube code, to be filled in and entered back */
+  observations: Observation[];
   imaging: {
     frameInterval: Amount;
     duration: Amount;
@@ -116,9 +133,11 @@ export interface Sheet {
     fieldOfView: Amount | null;
     notes: string[];
   };
+  gas: SheetGas;
   warnings: { code: string; message: string }[];
   hazards: HazardEntry[];
   safety: string[];
+  sections: Section[];
 }
 
 export interface SheetContext {
@@ -126,8 +145,8 @@ export interface SheetContext {
   revisions: { role: string; id: string; revision: number; revisionId: number }[];
   speciesRecord: (id: string) => SpeciesRecord | null;
   chemicalRecord: (id: string) => ChemicalRecord | null;
-  /** The current hazard data of a chemical as stored on the shelf, with its version */
-  hazards: (id: string) => { set: HazardSet; version: number; createdAt: string; author: string } | null;
+  /** The current hazard data of a chemical or species as stored on the shelf, with its version (hazards.ts) */
+  hazards: HazardLookup;
   printedAt: string;
 }
 
@@ -302,8 +321,25 @@ export function sheetWarnings(ws: SubjectWarning[], species: Set<string>, chemic
   return [...out.values()];
 }
 
-/** Build the sheet model. @throws InputError, DomainError (what is impossible and what would fix it) */
-export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
+// ------------------------------------------------------------------ preparing the liquids
+
+/** The kinds of tube on a sheet: how each one's expected outcome is computed. */
+export type TubeKind = 'no-dopant' | 'series' | 'no-fuel' | 'dopant-alone';
+
+const NO_FUEL = 'control: no fuel (dopant at 1 ×)';
+const DOPANT_ALONE = 'control: dopant alone (1 ×, with fuel)';
+/** The form a species' stock is handled in (hazards by form): enzymes as solutions, particles as suspensions. */
+const stockForm = (kind: string): HazardForm => (kind === 'enzyme' ? 'solution' : 'suspension');
+
+/** Changes tried when a plan does not fit (optionsThatFit): a sample volume, one stock × a factor, the largest doses left out. */
+interface Tweak {
+  sampleVolume?: number;
+  stockScale?: { id: string; factor: number };
+  dropLargest?: number;
+}
+
+/** Everything up to the pipetting plan: the candidate, the series, the stocks, the samples and their liquids. */
+function prepare(ctx: SheetContext, req: SheetRequest, tweak: Tweak = {}) {
   const { plan } = ctx;
   const results = plan.result.candidates;
   const chosen = req.candidate ?? results.find((c) => c.feasible)?.species;
@@ -314,7 +350,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   const base = plan.inputs.base;
   const dopant = plan.inputs.candidates.find((c) => c.id === chosen)!;
   const o = {
-    sampleVolume: req.sampleVolume?.value ?? 100 * UL,
+    sampleVolume: tweak.sampleVolume ?? req.sampleVolume?.value ?? 100 * UL,
     replicates: req.replicates,
     minVolume: req.minVolume?.value ?? 1 * UL,
     overage: req.overage,
@@ -322,7 +358,10 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   };
 
   // Reference dose and the series (engine/planner.ts: factors × median, plus the band's ends), or the doses given.
-  const { ref, series, referenceFrom, seriesInfo, seriesWarnings } = chooseSeries(cand, req);
+  const chosenSeries = chooseSeries(cand, req);
+  const { ref, referenceFrom, seriesInfo, seriesWarnings } = chosenSeries;
+  const series = tweak.dropLargest ? chosenSeries.series.slice(0, Math.max(1, chosenSeries.series.length - tweak.dropLargest)) : chosenSeries.series;
+  const scale = (id: string) => (tweak.stockScale?.id === id ? tweak.stockScale.factor : 1);
 
   // Stocks.
   const stocks: Sheet['stocks'] = [];
@@ -333,7 +372,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     if (!rec) throw new DomainError('missing-revision', `species "${id}" of the plan is not on the shelf`);
     const st = speciesStock(rec, ownEntry(req.stocks, id));
     if (!st) throw new InputError([{ path: `stocks.${id}`, message: `no usable stock for "${id}" on the shelf: give one (e.g. { "massConcentration": "10 mg/mL" })` }]);
-    components.push({ id, label: rec.name, stock: st.density, stockText: st.text, per: 'particles' });
+    components.push({ id, label: rec.name, stock: st.density * scale(id), stockText: st.text, per: 'particles' });
     stocks.push({ id, name: rec.name, kind: 'species', concentration: perMl(st.density), described: st.text, source: st.source });
   }
   const fuelIds: string[] = [];
@@ -349,7 +388,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
       continue;
     }
     fuelIds.push(ch.id);
-    components.push({ id: ch.id, label: rec.name, stock: st.molar, stockText: st.text, per: 'mol' });
+    components.push({ id: ch.id, label: rec.name, stock: st.molar * scale(ch.id), stockText: st.text, per: 'mol', molarMass: rec.molarMass?.si ?? null, stockMassFraction: st.massFraction, hazards: ctx.hazards('chemical', ch.id)?.set ?? null });
     stocks.push({ id: ch.id, name: rec.name, kind: 'chemical', concentration: mM(st.molar), described: st.text, source: st.source });
     stockFractions.set(ch.id, st.massFraction);
   }
@@ -364,21 +403,235 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   // Target concentrations keyed by id: Maps, so that an id such as "constructor" is an ordinary key.
   const fuelConc = new Map(base.chemicals.filter((c) => fuelIds.includes(c.id)).map((c) => [c.id, c.concentration] as const));
   // base and dopant densities at dose x, exactly as the planner doses (add, or replace at fixed φ)
-  const dosing = plan.request.dosing === 'replace' ? 'replace' : 'add';
+  const dosing: Dosing = plan.request.dosing === 'replace' ? 'replace' : 'add';
   const dosed = (x: number) => new Map(withDose(base, dopant, x, dosing).species.map((sp) => [sp.id, sp.density] as const));
   const withFuel = (m: Map<string, number>) => new Map([...m, ...fuelConc]);
   const replace = dosing === 'replace';
   const specs: SampleSpec[] = series.map((x) => ({
     name: x === 0 ? 'dose 0 (control: no dopant)' : `dose ${(x / ref).toPrecision(3)} ×`,
     role: x === 0 ? 'control' : 'series',
+    kind: x === 0 ? 'no-dopant' : 'series',
     dose: x,
     conc: withFuel(dosed(x)),
     usesMasterMix: !replace,
   }));
-  specs.push({ name: 'control: no fuel (dopant at 1 ×)', role: 'control', dose: ref, conc: dosed(ref), usesMasterMix: !replace });
-  specs.push({ name: 'control: dopant alone (1 ×, with fuel)', role: 'control', dose: ref, conc: withFuel(new Map([[dopant.id, ref]])), usesMasterMix: false });
+  specs.push({ name: NO_FUEL, role: 'control', kind: 'no-fuel', dose: ref, conc: dosed(ref), usesMasterMix: !replace });
+  specs.push({ name: DOPANT_ALONE, role: 'control', kind: 'dopant-alone', dose: ref, conc: withFuel(new Map([[dopant.id, ref]])), usesMasterMix: false });
 
   const pip = planPipetting(components, specs, o, base.species.map((x) => x.id), dopant.id, fuelIds);
+  return { cand: cand as CandidateResult & { threshold: NonNullable<CandidateResult['threshold']> }, chosen, base, dopant, dosing, o, ref, series, referenceFrom, seriesInfo, warnings, stocks, components, fuelIds, fuelConc, stockFractions, specs, pip, spIds };
+}
+type Prepared = ReturnType<typeof prepare>;
+
+// ------------------------------------------------------------------ plans that do not fit
+
+/** One change that would make a plan fit: the option to set and its value, in words. */
+export interface FitOption {
+  /** the sheet option (sampleVolume, stocks.<id>, doses) */
+  option: string;
+  value: string;
+  text: string;
+}
+
+/**
+ * What a plan that cannot be printed as asked gets instead of a sheet: why (the reasons, with the code of the
+ * refusal) and the options that would fix it, each one tried (docs/model.md §11). `fits: false` tells it apart
+ * from a sheet; the service answers it with 422 in every format (the body is this explanation).
+ */
+export interface NotFitSheet {
+  fits: false;
+  title: string;
+  software: { name: 'brink'; version: string };
+  printedAt: string;
+  plan: { id: number; name: string; boundary: string; dosing: string; createdAt: string };
+  candidate: { id: string; name: string } | null;
+  code: string;
+  reasons: string[];
+  options: FitOption[];
+  sections: Section[];
+}
+
+/** A sheet that cannot be made as asked: a DomainError (422) that carries the explanation to render. */
+export class SheetNotFitError extends DomainError {
+  constructor(readonly sheet: NotFitSheet) {
+    super(sheet.code, sheet.reasons.join(' '));
+  }
+}
+
+const NICE_VOLUMES_UL = [10, 20, 25, 50, 100, 150, 200, 250, 300, 400, 500, 750, 1000, 1500, 2000, 5000, 10000];
+const STOCK_FACTORS = [2, 5, 10, 20, 50, 100, 1000];
+
+/** Each single change that makes the pipetting fit, tried by planning again with it. */
+function optionsThatFit(ctx: SheetContext, req: SheetRequest): FitOption[] {
+  const fits = (t: Tweak) => {
+    try {
+      prepare(ctx, req, t);
+      return true;
+    } catch (e) {
+      if (e instanceof DomainError && e.code === 'impossible-volumes') return false;
+      throw e;
+    }
+  };
+  const out: FitOption[] = [];
+  const now = req.sampleVolume?.value ?? 100 * UL;
+  const v = NICE_VOLUMES_UL.map((x) => x * UL).find((x) => x > now * (1 + 1e-9) && fits({ sampleVolume: x }));
+  if (v !== undefined) out.push({ option: 'sampleVolume', value: `${formatNumber(v / UL)} µL`, text: `a sample volume of ${formatNumber(v / UL)} µL (now ${formatNumber(now / UL)} µL): every tube then fits` });
+  // one stock more concentrated (the stock as the sheet would read it, × the smallest factor that fits)
+  let probe: Prepared | null = null;
+  try {
+    probe = prepare(ctx, req, { sampleVolume: 1e6 * UL });
+  } catch {
+    probe = null;
+  }
+  for (const c of probe?.components ?? []) {
+    const f = STOCK_FACTORS.find((k) => fits({ stockScale: { id: c.id, factor: k } }));
+    if (f === undefined) continue;
+    const conc = c.per === 'mol' ? `${formatNumber((c.stock * f) / 1000)} mol/L` : `${formatNumber(c.stock * f * 1e-6)} particles/mL`;
+    const was = c.per === 'mol' ? `${formatNumber(c.stock / 1000)} mol/L` : `${formatNumber(c.stock * 1e-6)} particles/mL`;
+    out.push({ option: `stocks.${c.id}`, value: conc, text: `a ${c.label} stock of ${conc} (${f} × the one used now, ${was}: ${c.stockText}), given as stocks.${c.id}` });
+  }
+  const n = probe?.series.length ?? 0;
+  for (let k = 1; k < n - 1; k++) {
+    if (!fits({ dropLargest: k })) continue;
+    const kept = probe!.series.slice(0, n - k);
+    out.push({ option: 'doses', value: kept.map((x) => per(x)).join(', '), text: `leave out the ${k === 1 ? 'largest dose' : `${k} largest doses`} (give doses up to ${per(kept[kept.length - 1]!)} as the doses option)` });
+    break;
+  }
+  return out;
+}
+
+/** The explanation of a plan that cannot be printed as asked (an impossible tube, a candidate that does not cross). */
+export function notFitSheet(ctx: SheetContext, req: SheetRequest, err: DomainError): NotFitSheet {
+  const { plan } = ctx;
+  const chosen = req.candidate ?? plan.result.candidates.find((c) => c.feasible)?.species ?? null;
+  const reasons = [err.message];
+  let options: FitOption[] = [];
+  if (err.code === 'impossible-volumes') options = optionsThatFit(ctx, req);
+  else {
+    const others = plan.result.candidates.filter((c) => c.feasible && c.species !== chosen).map((c) => c.species);
+    if (others.length) options = [{ option: 'candidate', value: others.join(', '), text: `a sheet for a candidate that crosses the boundary: ${others.join(', ')} (the candidate option)` }];
+    if (!others.length) options = [{ option: 'plan', value: '', text: 'a new plan: another boundary, other candidates, or a higher dose cap (the plan’s maxDensity or maxVolumeFraction)' }];
+  }
+  const title = `Bench sheet — plan ${plan.id}: ${plan.name} — cannot be made as asked`;
+  const head: Section = {
+    id: 'title',
+    title,
+    blocks: [{ kind: 'paragraph', muted: true, text: `brink ${VERSION} · plan ${plan.id} (${plan.request.boundary}, ${plan.request.dosing}; computed ${plan.createdAt})${chosen ? ` · candidate ${chosen}` : ''} · printed ${ctx.printedAt}` }],
+  };
+  const body: Section = {
+    id: 'not-fit',
+    title: 'Why there is no sheet',
+    blocks: [
+      { kind: 'caution', title: `Not printed (${err.code})`, text: 'this plan cannot be carried out as asked; nothing below is a protocol.' },
+      { kind: 'list', items: reasons },
+      { kind: 'heading', text: 'What would fix it' },
+      options.length
+        ? { kind: 'list', items: options.map((x) => x.text) }
+        : { kind: 'paragraph', text: 'no single change tried (a larger sample volume up to 10 mL, one stock up to 1000 × more concentrated, fewer doses) makes it fit: change several options, or the plan.' },
+    ],
+  };
+  return {
+    fits: false,
+    title,
+    software: { name: 'brink', version: VERSION },
+    printedAt: ctx.printedAt,
+    plan: { id: plan.id, name: plan.name, boundary: plan.request.boundary, dosing: plan.request.dosing, createdAt: plan.createdAt },
+    candidate: chosen ? { id: chosen, name: ctx.speciesRecord(chosen)?.name ?? chosen } : null,
+    code: err.code,
+    reasons,
+    options,
+    sections: [head, body],
+  };
+}
+
+// ------------------------------------------------------------------ the sheet
+
+/** The model's walls in words that cannot be read as advice to close a vessel (docs/model.md §11). */
+export function wallsWording(walls: string): string {
+  if (walls === 'sealed') return 'no-flux boundary (model): a boundary condition of the calculation, not an instruction to close the chamber';
+  if (walls === 'periodic') return 'periodic boundary (model)';
+  return 'no walls: unbounded (model)';
+}
+
+/** Engine and plan wordings that name the model's "sealed" walls, reworded for the bench (nothing reads as "close it"). */
+export function benchWording(text: string): string {
+  return text
+    .replace(/In a sealed chamber the gas also builds pressure\./g, 'In a closed vessel the gas also builds pressure.')
+    .replace(/\bsealed walls\b/g, 'no-flux walls (the model’s boundary condition)')
+    .replace(/\bsealed chamber\b/g, 'chamber with no-flux walls (model)')
+    .replace(/\bsealed\b/g, 'no-flux (model)');
+}
+
+/** One kind of tube of the sheet (a sample, made in `replicates` tubes): its code, the planned and delivered dopant dose. */
+export interface SheetTube {
+  /** short code for the sample, printed on the sheet and on the tube lids (replicates add a letter: D1a, D1b …) */
+  code: string;
+  sample: string;
+  kind: TubeKind;
+  replicates: number;
+  /** the replicate tubes' own codes */
+  tubes: string[];
+  plannedDose: Amount | null;
+  /** the dopant dose the pipetted volumes deliver */
+  dose: Amount | null;
+}
+
+/** What the sheet expects a tube to do, from the dose path and the analysis at the tube's delivered dose (docs/model.md §5, §6, §11). */
+export interface TubeOutcome {
+  tube: string;
+  /** null: not predicted (why in `note`) */
+  state: State | null;
+  growthTime: Amount | null;
+  wavelength: Amount | null;
+  oscillationPeriod: Amount | null;
+  /** the dose lies within the 5–95 % band of the plan's boundary: either side is plausible */
+  withinBand: boolean;
+  /** the state at this dose comes before the chosen boundary (the candidate's first onset lies below its threshold) */
+  earlierInstability: boolean;
+  /** flags and notes, in words */
+  flags: string[];
+}
+
+/**
+ * One tube's observations, blank on a printed sheet; a filled-in sheet is entered back in this shape, keyed by
+ * the tube code (docs/model.md §11): stateSeen one of stable | stationary | oscillatory | unclear, onsetTime and
+ * patternLength as a number with a unit ("12 min", "0.4 mm"), notes free text.
+ */
+export interface Observation {
+  tube: string;
+  stateSeen: string | null;
+  onsetTime: string | null;
+  patternLength: string | null;
+  notes: string | null;
+}
+
+export interface SheetGas {
+  /** the vessel the sample is made in (option tubeVolume; default 1.5 mL, a common microcentrifuge tube) */
+  tubeVolume: Amount;
+  /** the imaging chamber's volume: the option, or length² × depth of the plan's chamber (a square cell), or null */
+  chamberVolume: Amount | null;
+  chamberVolumeFrom: 'option' | 'chamber' | null;
+  temperature: Amount;
+  molarVolume: Amount;
+  ventFraction: number;
+  perTube: { tube: string; gas: string; fuel: string; moles: Amount; volume: Amount; fractionOfHeadspace: number | null; fractionOfChamber: number | null; ventTube: boolean; ventChamber: boolean; closedWithCatalyst: boolean; message: string }[];
+  cautions: string[];
+}
+
+const stateWords: Record<State, string> = { stable: 'stable (nothing grows)', stationary: 'stationary (clusters or bands that grow in place)', oscillatory: 'oscillatory (travelling or pulsating patterns)' };
+
+/** Build the sheet model. @throws InputError, SheetNotFitError (422: what is impossible and what would fix it) */
+export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
+  let P: Prepared;
+  try {
+    P = prepare(ctx, req);
+  } catch (e) {
+    if (e instanceof DomainError && ['impossible-volumes', 'candidate-infeasible', 'no-feasible-candidate'].includes(e.code)) throw new SheetNotFitError(notFitSheet(ctx, req, e));
+    throw e;
+  }
+  const { plan } = ctx;
+  const { cand, chosen, base, dopant, dosing, o, ref, referenceFrom, seriesInfo, stocks, components, fuelIds, pip, spIds } = P;
+  const warnings = P.warnings;
   const tr = (t: { what: string; from: string; volume: number }) => ({ what: t.what, from: t.from, volume: ul(t.volume) });
 
   // Imaging plan from the numbers at the margin dose.
@@ -441,45 +694,176 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   // code and subject: the plan and the analysis word the same warning differently, so their messages are merged.
   const sheetSpecies = new Set(spIds);
   const sheetChemicals = new Set([...base.species, dopant].flatMap((sp) => sp.couplings.flatMap((c) => [c.chemical, ...(c.activity?.kind === 'saturating' && c.activity.product !== null ? [c.activity.product] : [])])));
-  warnings.splice(0, warnings.length, ...sheetWarnings(gathered, sheetSpecies, sheetChemicals));
+  warnings.splice(0, warnings.length, ...sheetWarnings(gathered, sheetSpecies, sheetChemicals).map((w) => ({ code: w.code, message: benchWording(w.message) })));
 
-  // Hazards as handled: the stock bottle and the working solution.
+  // Tubes (pipetting.ts): one code per sample, a letter per replicate; the dose the rounded volumes deliver.
+  const bench = pip.bench;
+  const tubesSi = tubeList(bench).map((t, i) => ({ code: t.code, sample: t.name, kind: t.kind as TubeKind, planned: t.plannedDose?.si ?? null, delivered: t.deliveredDose?.si ?? null, tubes: t.lids, conc: bench.tubes[i]!.delivered }));
+  const tubes: SheetTube[] = tubesSi.map((t) => ({ code: t.code, sample: t.sample, kind: t.kind, replicates: t.tubes.length, tubes: t.tubes, plannedDose: t.planned === null ? null : perMl(t.planned), dose: t.delivered === null ? null : perMl(t.delivered) }));
+
+  // Expected outcome of each tube (docs/model.md §11).
+  const mixtureOf = (t: (typeof tubesSi)[number]): Mixture => {
+    const x = t.delivered ?? 0;
+    if (t.kind === 'no-fuel') {
+      // No fuel: the fuel at 0, and the activities that run on it off. A constant rate is the model's idealisation
+      // of an activity while its fuel lasts (docs/model.md §8), so a species that consumes a withheld fuel makes
+      // and consumes nothing without it; a saturating turnover of a fuel at 0 is 0 by itself.
+      const mx = withDose(base, dopant, x, dosing);
+      const withheld = new Set(fuelIds);
+      const runsOnFuel = (sp: Species) => sp.couplings.some((c) => withheld.has(c.chemical) && ((c.activity?.kind === 'constant' && c.activity.rate < 0) || c.activity?.kind === 'saturating'));
+      return {
+        ...mx,
+        chemicals: mx.chemicals.map((c) => (withheld.has(c.id) ? { ...c, concentration: 0 } : c)),
+        species: mx.species.map((sp) => (runsOnFuel(sp) ? { ...sp, couplings: sp.couplings.map((c) => (c.activity?.kind === 'constant' || withheld.has(c.chemical) ? { ...c, activity: null } : c)) } : sp)),
+      };
+    }
+    if (t.kind === 'dopant-alone') return withDose({ ...base, species: [] }, dopant, x, 'add');
+    return withDose(base, dopant, x, dosing);
+  };
+  const band = cand.band;
+  const threshold = cand.threshold.density;
+  const onset = cand.firstOnset ?? null;
+  const cache = new Map<string, AnalysisResult | Error>();
+  const analysed = (t: (typeof tubesSi)[number]) => {
+    const key = `${t.kind === 'series' || t.kind === 'no-dopant' ? 's' : t.kind}:${t.delivered}`;
+    if (!cache.has(key)) {
+      try {
+        cache.set(key, analyze(mixtureOf(t)));
+      } catch (e) {
+        cache.set(key, e as Error);
+      }
+    }
+    return cache.get(key)!;
+  };
+  const outcomes: TubeOutcome[] = tubesSi.map((t) => {
+    const a = analysed(t);
+    const flags: string[] = [];
+    if (a instanceof Error) return { tube: t.code, state: null, growthTime: null, wavelength: null, oscillationPeriod: null, withinBand: false, earlierInstability: false, flags: [`not predicted: ${a.message}`] };
+    const x = t.delivered ?? 0;
+    let state: State = a.state;
+    const onPath = t.kind === 'series' || t.kind === 'no-dopant';
+    if (onPath && x > 0 && cand.dosePath?.length) {
+      const iv = cand.dosePath.find((v) => x > v.from && x <= v.to);
+      if (!iv) flags.push('above the dose cap: the dose path does not reach it (from the analysis at this dose)');
+      else if (iv.state !== a.state) {
+        state = iv.state;
+        flags.push(`at a change of state: the dose path gives ${iv.state}, the analysis at this very dose ${a.state}`);
+      }
+    }
+    if (!onPath) flags.push(t.kind === 'no-fuel' ? 'control: the mixture without its pipetted fuel, analysed as such (the activities that run on the fuel off)' : 'control: the dopant alone with the fuel, analysed as such');
+    let withinBand = false;
+    if (onPath && band && x > 0) {
+      const lo = band.p05;
+      const hi = band.p95 ?? Infinity;
+      if (lo !== null && x >= lo && x <= hi) {
+        withinBand = true;
+        flags.push(`within the 5–95 % band of the ${plan.request.boundary} threshold (${lo === null ? '' : per(lo)} to ${band.p95 === null ? 'above the dose cap' : per(band.p95)}): either side is plausible`);
+      }
+    }
+    let earlierInstability = false;
+    if (onPath && onset && onset.density < threshold * (1 - 1e-5) && x >= onset.density && x < threshold) {
+      earlierInstability = true;
+      flags.push(`turns ${onset.state} from ${per(onset.density)}, below the ${plan.request.boundary} threshold (${per(threshold)}): not the boundary the plan asked for`);
+    }
+    const grows = state !== 'stable' && a.growthTime !== null;
+    return {
+      tube: t.code,
+      state,
+      growthTime: grows ? s(a.growthTime!) : null,
+      wavelength: grows && a.fastestMode.wavelength !== null ? mm(a.fastestMode.wavelength) : null,
+      oscillationPeriod: grows && a.fastestMode.oscillationPeriod !== null ? s(a.fastestMode.oscillationPeriod) : null,
+      withinBand,
+      earlierInstability,
+      flags,
+    };
+  });
+  const observations: Observation[] = tubesSi.flatMap((t) => t.tubes.map((tube) => ({ tube, stateSeen: null, onsetTime: null, patternLength: null, notes: null })));
+
+  // Gas each tube's fuel can release (gas.ts), against the tube and the chamber.
+  const tubeVolume = req.tubeVolume?.value ?? 1.5e-6;
+  const chamberVolume = req.chamberVolume?.value ?? (base.chamber.length !== null && base.chamber.depth !== null ? base.chamber.length * base.chamber.length * base.chamber.depth : null);
+  const chamberVolumeFrom = req.chamberVolume ? 'option' : chamberVolume !== null ? 'chamber' : null;
+  const T = base.conditions.temperature;
+  const gases = base.chemicals.filter((c) => c.solubility !== null).map((c) => c.id);
+  const perTube: SheetGas['perTube'] = [];
+  let catalystAndFuel = false;
+  tubesSi.forEach((t) => {
+    const conc = t.conc;
+    const present = [...base.species, dopant].filter((sp) => (conc.get(sp.id) ?? 0) > 0);
+    for (const g of gases) {
+      let molesFuel = 0;
+      const fuels: string[] = [];
+      for (const f of fuelIds) {
+        const c = conc.get(f) ?? 0;
+        const route = c > 0 ? gasRoute(present, f, g) : null;
+        if (!route) continue;
+        molesFuel += c * o.sampleVolume * route.yieldPerFuel;
+        fuels.push(f);
+      }
+      if (fuels.length === 0) continue;
+      catalystAndFuel = true;
+      const r = tubeGas({ gas: ctx.chemicalRecord(g)?.name ?? g, fuelMoles: molesFuel, yieldPerFuel: 1, temperature: T, tubeVolume, sampleVolume: o.sampleVolume, chamberVolume, closed: req.closedChamber, catalyst: true });
+      perTube.push({ tube: t.code, gas: g, fuel: fuels.join(', '), moles: { value: Number((r.moles * 1e6).toPrecision(3)), unit: 'µmol' }, volume: ul(r.volume), fractionOfHeadspace: r.fractionOfHeadspace, fractionOfChamber: r.fractionOfChamber, ventTube: r.ventTube, ventChamber: r.ventChamber, closedWithCatalyst: r.closedWithCatalyst, message: r.message });
+    }
+  });
+  const cautions: string[] = [];
+  if (catalystAndFuel) {
+    cautions.push('Catalyst and fuel together evolve gas: never close a tube, vial or imaging chamber that holds both unless it is built to take the pressure; leave tubes open or vented while they react.');
+    if (req.closedChamber) cautions.push('You said the imaging chamber will be closed (closedChamber): a closed chamber holding catalyst and fuel builds pressure and can burst. Use an open or vented cell, or much less fuel, unless the cell is built for the pressure.');
+  }
+  const gas: SheetGas = {
+    tubeVolume: ul(tubeVolume),
+    chamberVolume: chamberVolume === null ? null : ul(chamberVolume),
+    chamberVolumeFrom,
+    temperature: { value: Number((T - 273.15).toPrecision(4)), unit: '°C' },
+    molarVolume: { value: Number((molarVolume(T) * 1e3).toPrecision(4)), unit: 'L/mol' },
+    ventFraction: DEFAULT_VENT_FRACTION,
+    perTube,
+    cautions,
+  };
+
+  // Hazards as handled (hazards.ts hazardsFor): each chemical's stock, working solution and sample (pipetting.ts
+  // handled); each species' stock in its form, the sample, and an enzyme's powder should the stock be made from it.
+  const pct3 = (w: number) => `${Number((w * 100).toPrecision(3))} % w/w`;
+  const entry = (r: HazardReport, name: string): HazardEntry => ({ ...r, chemical: r.id, name, asHandled: r.asHandled.map((x) => ({ ...x, classified: x.classification.status === 'classified' || x.classification.status === 'below-limits' })) });
   const hazards: HazardEntry[] = [];
   for (const id of fuelIds) {
     const rec = ctx.chemicalRecord(id)!;
-    const stored = ctx.hazards(id);
-    const set = stored?.set ?? null;
-    const M = rec.molarMass?.si ?? null;
-    const wStock = stockFractions.get(id) ?? null;
-    const cWork = fuelConc.get(id)!;
-    const wWork = M ? (cWork * M) / WATER_DENSITY_25C : null;
-    const asHandled: HazardEntry['asHandled'] = [];
-    const classified = set !== null;
-    if (wStock !== null) asHandled.push({ where: `stock bottle (${(wStock * 100).toPrecision(3)} % w/w)`, massFraction: wStock, classified, classification: classify(set, wStock) });
-    if (wWork !== null) asHandled.push({ where: `working solution in the sample (${(wWork * 100).toPrecision(3)} % w/w, ${mM(cWork).value} mM)`, massFraction: wWork, classified, classification: classify(set, wWork) });
-    hazards.push({
-      chemical: id,
-      name: rec.name,
-      asHandled,
-      classified,
-      source: set?.source ?? null,
-      version: stored?.version ?? null,
-      recordedAt: stored?.createdAt ?? null,
-      recordedBy: stored?.author ?? null,
-      incompatibilities: set?.incompatibilities ?? null,
-      storage: set?.storage ?? null,
-      disposal: set?.disposal ?? null,
-      handling: set?.handling ?? null,
-      verify: stored
-        ? `Hazard data: version ${stored.version} of the shelf's record for ${rec.name} (entered ${stored.createdAt.slice(0, 10)} by ${stored.author}). Check them against your supplier's safety data sheet for the product you use; where they differ, the safety data sheet takes precedence.`
-        : "No hazard data on the shelf for this chemical: read your supplier's safety data sheet before handling it; it takes precedence over this sheet.",
-    });
+    const handled = bench.handled
+      .filter((h) => h.chemical === id)
+      .map((h) => {
+        const w = h.massFraction === null ? '' : `, ${pct3(h.massFraction)}`;
+        const where = h.where === 'stock' ? `stock bottle (${h.massFraction === null ? `${mM(h.concentration).value} mM` : pct3(h.massFraction)})` : h.where === 'working' ? `working solution ${h.code ?? ''} (${mM(h.concentration).value} mM${w})` : `in the sample (at most ${mM(h.concentration).value} mM${w})`;
+        return { where: where.replace('  ', ' '), massFraction: h.massFraction, form: 'solution' as const };
+      });
+    hazards.push(entry(hazardsFor(ctx.hazards, 'chemical', id, handled, rec.name), rec.name));
+  }
+  for (const id of spIds) {
+    const rec = ctx.speciesRecord(id)!;
+    const comp = components.find((c) => c.id === id)!;
+    // mass per particle from the record (a molar mass or a material density); null: no mass fraction known
+    let mass: number | null = null;
+    try {
+      mass = 1 / numberDensity(rec, { massConcentration: { si: 1, sd: 0, unit: null, input: 1 } }).value;
+    } catch {
+      mass = null;
+    }
+    const wStock = mass !== null ? (comp.stock * mass) / WATER_DENSITY_25C : null;
+    const inSample = Math.max(0, ...bench.tubes.map((t) => t.delivered.get(id) ?? 0));
+    const wSample = mass !== null ? (inSample * mass) / WATER_DENSITY_25C : null;
+    const form = stockForm(rec.kind);
+    const handled: { where: string; massFraction: number | null; form: HazardForm }[] = [
+      { where: `stock (${form}${wStock !== null ? `, ${pct3(wStock)}` : ', mass fraction not known'})`, massFraction: wStock, form },
+      { where: `in the sample (${form}${wSample !== null ? `, at most ${pct3(wSample)}` : ''})`, massFraction: wSample, form },
+    ];
+    if (rec.kind === 'enzyme') handled.push({ where: 'powder, if you make the stock from it', massFraction: 1, form: 'powder' });
+    hazards.push(entry(hazardsFor(ctx.hazards, 'species', id, handled, rec.name), rec.name));
   }
   const catalytic = [...base.species, dopant].some((x) => x.couplings.some((c) => (c.activity?.kind === 'constant' && c.activity.rate < 0) || c.activity?.kind === 'saturating'));
-  const gas = base.chemicals.some((c) => c.solubility !== null);
+  const anyGas = base.chemicals.some((c) => c.solubility !== null);
   const safety = [
     'Wear eye protection and gloves (nitrile) and a lab coat for every step; handle concentrated stocks in a fume hood if the safety data sheet asks for it.',
-    ...(catalytic || gas ? ['Catalytic particles and enzymes decompose the fuel and can evolve gas: never seal a vial, tube or chamber that holds catalyst and fuel unless it is built to take the pressure; keep stock vials vented.'] : []),
+    ...(catalytic || anyGas ? ['Catalytic particles and enzymes decompose the fuel and can evolve gas: never close a vial, tube or chamber that holds catalyst and fuel unless it is built to take the pressure; keep stock vials vented.'] : []),
     'Add the fuel last, to the diluted mixture, never the other way round; do not return unused fuel to its stock bottle.',
     'Biological materials (enzymes, coated beads): follow your institution’s biosafety rules; particles and nanoparticles: avoid aerosols.',
     'Local regulations, your institution’s safety rules and the supplier’s safety data sheet take precedence over this sheet.',
@@ -512,15 +896,19 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
           pushedOut: m.composition.filter((c) => c.weight < -0.05).map((c) => c.species),
         }
       : null,
+    dosePath: (cand.dosePath ?? []).map((iv) => ({ from: perMl(iv.from), to: perMl(iv.to), state: iv.state })),
+    firstOnset: onset ? { dose: perMl(onset.density), state: onset.state } : null,
   };
 
-  return {
+  const data: Omit<Sheet, 'sections'> = {
+    fits: true,
     title: `Bench sheet — plan ${plan.id}: ${plan.name}`,
     software: { name: 'brink', version: VERSION },
     printedAt: ctx.printedAt,
     plan: { id: plan.id, name: plan.name, boundary: plan.request.boundary, dosing: plan.request.dosing, createdAt: plan.createdAt },
     candidate: { id: chosen, name: ctx.speciesRecord(chosen)?.name ?? chosen },
     shelfRevisions: ctx.revisions,
+    model: { walls: wallsWording(base.chamber.walls), chamberLength: L !== null ? mm(L) : null, chamberDepth: base.chamber.depth !== null ? mm(base.chamber.depth) : null, temperature: gas.temperature },
     prediction,
     options: { sampleVolume: ul(o.sampleVolume), replicates: o.replicates, minVolume: ul(o.minVolume), overage: o.overage, buffer: o.buffer },
     stocks,
@@ -532,6 +920,10 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     })),
     masterMix: pip.masterMix ? { tubes: pip.masterMix.tubes, perTube: ul(pip.masterMix.perTube), total: ul(pip.masterMix.total), steps: pip.masterMix.steps.map(tr) } : null,
     samples: pip.samples.map((x) => ({ name: x.name, role: x.role, dose: x.dose === null ? null : perMl(x.dose), doseFactor: x.dose === null ? null : Number((x.dose / ref).toPrecision(4)), tubes: x.tubes, steps: x.steps.map(tr) })),
+    pipetting: pipettingJson(bench),
+    tubes,
+    outcomes,
+    observations,
     imaging: {
       frameInterval: s(frame),
       duration: s(duration),
@@ -542,11 +934,217 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
       wavelength: lambda !== null ? mm(lambda) : null,
       chamberLength: L !== null ? mm(L) : null,
       fieldOfView: fov !== null ? mm(fov) : null,
-      notes,
+      notes: notes.map(benchWording),
     },
+    gas,
     warnings,
     hazards,
     safety,
   };
+  // a dose row is labelled by its factor of the 1 × dose (planned dose per mL / the reference per mL)
+  const doseLabel = (t: { plannedDose: Amount | null }) => (t.plannedDose === null ? 'no dopant' : `${formatNumber(Number((t.plannedDose.value / (ref * 1e-6)).toPrecision(3)))} ×`);
+  return { ...data, sections: sheetSections(data, pipettingSections(data.pipetting, { doseLabel })) };
 }
 
+// ------------------------------------------------------------------ the sections every rendering reads
+
+const a = fmtAmount;
+/** A band quantile: null means it lies above the dose cap (engine/planner.ts), not that it is unknown. */
+const q = (x: Amount | null | undefined) => (x ? a(x) : 'above the dose cap');
+const pct = (f: number | null) => (f === null ? '—' : f >= 1 ? `${formatNumber(Number(f.toPrecision(2)))} ×` : `${formatNumber(Number((100 * f).toPrecision(2)))} %`);
+
+function hazardBlocks(h: HazardEntry): Block[] {
+  const blocks: Block[] = [{ kind: 'heading', text: h.name }];
+  blocks.push(
+    table(
+      [
+        { id: 'where', label: 'as handled' },
+        { id: 'signal', label: 'signal word' },
+        { id: 'statements', label: 'hazard statements' },
+        { id: 'pictograms', label: 'pictograms' },
+        { id: 'precautionary', label: 'precautionary statements' },
+      ],
+      h.asHandled.map((x) => {
+        // hazards.ts words each status: no data (not classified: the supplier's SDS), no data for this form,
+        // below the limits of the shelf's data (version N), or the classes that apply; never "no hazard"
+        const c = x.classification;
+        if (c.status !== 'classified') return { cells: [x.where, '—', c.note, '—', c.status === 'below-limits' ? '—' : 'read the supplier’s safety data sheet before handling it'] };
+        return {
+          cells: [
+            x.where,
+            c.signal ?? '—',
+            `${c.statements.map((st) => `${st.code} ${st.text} (${st.hazardClass})`).join('; ')}${c.assumedNeat ? ' — concentration not known: classified as the neat material' : ''}`,
+            c.pictograms.length ? c.pictograms.map((p) => `${p} (${PICTOGRAMS[p] ?? ''})`).join(', ') : '—',
+            c.precautionary.length ? c.precautionary.join(' ') : '—',
+          ],
+        };
+      }),
+    ),
+  );
+  const kv: [string, string | null][] = [['Incompatible with', h.incompatibilities], ['Handling', h.handling], ['Storage', h.storage], ['Disposal', h.disposal]];
+  const given = kv.filter(([, v]) => !!v).map(([key, value]) => ({ key, value: value! }));
+  if (given.length) blocks.push({ kind: 'keyValue', rows: given });
+  blocks.push({ kind: 'paragraph', muted: true, text: `${h.verify}${h.source ? ` Source of these data, as stored on the shelf: ${h.source}` : ''}` });
+  return blocks;
+}
+
+const expectedText = (o: TubeOutcome) =>
+  o.state === null
+    ? 'not predicted'
+    : [stateWords[o.state], o.growthTime ? `grows in about ${a(o.growthTime)}` : null, o.wavelength ? `wavelength ${a(o.wavelength)}` : null, o.oscillationPeriod ? `period ${a(o.oscillationPeriod)}` : null].filter(Boolean).join('; ');
+
+/** The ordered sections of a sheet: the one source of the HTML and Markdown renderings (render.ts). */
+export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[]): Section[] {
+  const p = sh.prediction;
+  const sections: Section[] = [];
+  sections.push({
+    id: 'title',
+    title: sh.title,
+    blocks: [
+      { kind: 'paragraph', muted: true, text: `brink ${sh.software.version} · plan ${sh.plan.id} (${sh.plan.boundary}, ${sh.plan.dosing}; computed ${sh.plan.createdAt}) · candidate ${sh.candidate.name} (${sh.candidate.id}) · printed ${sh.printedAt}` },
+      { kind: 'keyValue', rows: [{ key: 'Operator', value: null }, { key: 'Date', value: null }, { key: 'Batch / lot numbers', value: null }] },
+      { kind: 'caution', title: 'Safety first', text: 'Local regulations, your institution’s safety rules and the supplier’s safety data sheet take precedence over this sheet. Read the hazards and gas sections before you start.' },
+    ],
+  });
+  const rows: { key: string; value: string }[] = [
+    { key: `threshold dose of ${sh.candidate.id} (${sh.plan.boundary})`, value: p.threshold.anyDose ? 'any dose above 0 (threshold 0⁺)' : `${a(p.threshold)} (volume fraction ${formatNumber(Number(p.threshold.volumeFraction.toPrecision(3)))})` },
+  ];
+  if (p.band) {
+    const extra = p.band.alreadyPast !== null && p.band.feasibleFraction !== null ? `; already past without dopant in ${(100 * p.band.alreadyPast).toFixed(1)} % of draws; crosses at or below the cap in ${(100 * p.band.feasibleFraction).toFixed(1)} %` : '';
+    rows.push({ key: `uncertainty band (${p.band.samples} Monte Carlo draws, seed ${p.band.seed}${extra}): 5 % · median · 95 %`, value: `${q(p.band.p05)} · ${q(p.band.median)} · ${q(p.band.p95)}` });
+  } else rows.push({ key: 'uncertainty band', value: 'none: the plan ran without Monte Carlo draws, so no tube is flagged as within a band' });
+  rows.push({ key: 'reference dose (1 ×)', value: a(p.referenceDose) }, { key: 'dose series', value: p.series.note });
+  if (p.dosePath.length) rows.push({ key: 'dose path (state over the doses, whatever the boundary)', value: p.dosePath.map((iv) => `${iv.state} over (${a(iv.from)}, ${a(iv.to)}]`).join('; ') });
+  if (p.firstOnset) rows.push({ key: 'first onset (smallest dose at which anything grows)', value: `${p.firstOnset.state} from ${a(p.firstOnset.dose)}` });
+  if (p.atMargin) {
+    rows.push({ key: `above the threshold: state, growth time, wavelength${p.atMargin.oscillationPeriod ? ', period' : ''}`, value: `${p.atMargin.state}, ${a(p.atMargin.growthTime)}, ${a(p.atMargin.wavelength)}${p.atMargin.oscillationPeriod ? `, ${a(p.atMargin.oscillationPeriod)}` : ''}` });
+    rows.push({ key: 'gather together · pushed out', value: `${p.atMargin.gathers.join(', ') || '—'} · ${p.atMargin.pushedOut.join(', ') || '—'}` });
+  }
+  rows.push({ key: 'chamber walls', value: sh.model.walls }, { key: 'chamber length · depth', value: `${a(sh.model.chamberLength)} · ${a(sh.model.chamberDepth)}` }, { key: 'sample temperature', value: a(sh.model.temperature) });
+  sections.push({ id: 'prediction', title: 'Prediction', blocks: [{ kind: 'keyValue', rows }] });
+
+  sections.push({
+    id: 'stocks',
+    title: 'Stocks',
+    blocks: [
+      table(
+        [
+          { id: 'name', label: 'substance' },
+          { id: 'stock', label: 'stock' },
+          { id: 'concentration', label: 'concentration', numeric: true },
+          { id: 'from', label: 'from' },
+        ],
+        sh.stocks.map((x) => ({ cells: [x.name, x.described, a(x.concentration), x.source] })),
+      ),
+      { kind: 'paragraph', muted: true, text: `Sample volume ${a(sh.options.sampleVolume)}, ${sh.options.replicates} replicate tube(s) per sample, smallest volume pipetted ${a(sh.options.minVolume)}, master-mix overage ${Math.round(sh.options.overage * 100)} %, diluent: ${sh.options.buffer}.` },
+    ],
+  });
+  sections.push(...pipetting);
+
+  // Expected outcome per sample, and the observations per tube (blank: to fill in, and to enter back later).
+  const byCode = new Map(sh.outcomes.map((o) => [o.tube, o] as const));
+  sections.push({
+    id: 'outcomes',
+    title: 'Expected outcome',
+    blocks: [
+      table(
+        [
+          { id: 'tube', label: 'tube' },
+          { id: 'sample', label: 'sample' },
+          { id: 'dose', label: 'dopant delivered', numeric: true },
+          { id: 'expected', label: 'expected' },
+          { id: 'flags', label: 'flags' },
+        ],
+        sh.tubes.map((t) => {
+          const o = byCode.get(t.code)!;
+          return { code: t.code, cells: [t.code, t.sample, t.dose ? a(t.dose) : '—', expectedText(o), o.flags.length ? o.flags.join('; ') : '—'] };
+        }),
+      ),
+      { kind: 'paragraph', muted: true, text: 'Expected from the dose path (the state) and the analysis at each tube’s delivered dose (growth time, wavelength, period); a flag marks a dose within the uncertainty band of the boundary, an instability before the one asked for, or a control analysed as its own mixture.' },
+    ],
+  });
+  sections.push({
+    id: 'observations',
+    title: 'Observations',
+    blocks: [
+      table(
+        [
+          { id: 'tube', label: 'tube' },
+          { id: 'expected', label: 'expected' },
+          { id: 'stateSeen', label: 'state seen', blank: true },
+          { id: 'onsetTime', label: 'onset time', blank: true },
+          { id: 'patternLength', label: 'pattern length', blank: true },
+          { id: 'notes', label: 'notes', blank: true },
+        ],
+        sh.tubes.flatMap((t) => t.tubes.map((tube) => ({ code: tube, cells: [tube, byCode.get(t.code)!.state ?? 'not predicted', null, null, null, null] }))),
+      ),
+      { kind: 'paragraph', muted: true, text: 'State seen: stable, stationary, oscillatory or unclear; onset time and pattern length with their units. The JSON sheet carries the same blank fields per tube (observations), to be entered back.' },
+    ],
+  });
+
+  sections.push({
+    id: 'imaging',
+    title: 'Imaging plan',
+    blocks: [
+      {
+        kind: 'keyValue',
+        rows: [
+          { key: 'frame interval', value: a(sh.imaging.frameInterval) },
+          { key: 'duration', value: a(sh.imaging.duration) },
+          { key: 'fuel lasts about', value: a(sh.imaging.fuelLife) },
+          { key: 'gas passes its solubility after', value: sh.imaging.gasSaturation ? `${sh.imaging.gasSaturation.chemical}: ${a(sh.imaging.gasSaturation.time)}` : '—' },
+          { key: 'expected wavelength · chamber length', value: `${a(sh.imaging.wavelength)} · ${a(sh.imaging.chamberLength)}` },
+          { key: 'suggested field of view', value: a(sh.imaging.fieldOfView) },
+        ],
+      },
+      ...(sh.imaging.notes.length ? [{ kind: 'list' as const, items: sh.imaging.notes }] : []),
+    ],
+  });
+
+  const g = sh.gas;
+  const gasBlocks: Block[] = g.cautions.map((text, i) => ({ kind: 'caution' as const, title: i === 0 ? 'Gas' : 'Closed chamber', text }));
+  if (g.perTube.length) {
+    gasBlocks.push(
+      table(
+        [
+          { id: 'tube', label: 'tube' },
+          { id: 'gas', label: 'gas' },
+          { id: 'moles', label: 'up to', numeric: true },
+          { id: 'volume', label: `volume at ${a(g.temperature)}`, numeric: true },
+          { id: 'headspace', label: 'of the tube’s headspace', numeric: true },
+          { id: 'chamber', label: 'of the chamber', numeric: true },
+          { id: 'do', label: 'what to do' },
+        ],
+        g.perTube.map((x) => ({
+          code: x.tube,
+          cells: [x.tube, x.gas, a(x.moles), a(x.volume), pct(x.fractionOfHeadspace), pct(x.fractionOfChamber), [x.ventTube ? 'leave the tube open or vented' : null, x.ventChamber ? 'use an open or vented chamber, or less fuel' : null].filter(Boolean).join('; ') || 'nothing beyond the general cautions'],
+        })),
+      ),
+    );
+    gasBlocks.push({
+      kind: 'paragraph',
+      muted: true,
+      text: `Upper bound: all the fuel in the tube turned over, no gas left dissolved; ideal gas at ${a(g.temperature)} and 1 atm (${a(g.molarVolume)}). Tube ${a(g.tubeVolume)} (its headspace is that less the sample); chamber ${g.chamberVolume ? `${a(g.chamberVolume)}${g.chamberVolumeFrom === 'chamber' ? ' (length² × depth of the plan’s chamber; give chamberVolume for your cell)' : ''}` : 'volume not known (give chamberVolume)'}, filled from the tube. Vent above ${Math.round(g.ventFraction * 100)} % of the headspace (common practice).`,
+    });
+  } else gasBlocks.push({ kind: 'paragraph', text: 'No tube holds a fuel together with something that turns it into a gas.' });
+  sections.push({ id: 'gas', title: 'Gas', blocks: gasBlocks });
+
+  if (sh.warnings.length) sections.push({ id: 'warnings', title: 'Practical warnings', blocks: [{ kind: 'list', items: sh.warnings.map((w) => `${w.code}: ${w.message}`) }] });
+  sections.push({ id: 'hazards', title: 'Hazards and safe handling', blocks: [...sh.hazards.flatMap(hazardBlocks), { kind: 'heading', text: 'General cautions' }, { kind: 'list', items: sh.safety }] });
+  sections.push({
+    id: 'traceability',
+    title: 'Traceability',
+    blocks: [
+      table(
+        [
+          { id: 'role', label: 'role' },
+          { id: 'id', label: 'shelf item' },
+          { id: 'revision', label: 'revision', numeric: true },
+          { id: 'revisionId', label: 'revision id', numeric: true },
+        ],
+        sh.shelfRevisions.map((r) => ({ cells: [r.role, r.id, String(r.revision), String(r.revisionId)] })),
+      ),
+    ],
+  });
+  return sections;
+}
