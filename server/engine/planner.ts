@@ -27,10 +27,11 @@
  * A search that finds nothing says "not found below the cap by a search of N
  * doses", never "too weak": only the closed form proves that.
  */
-import { analyze, type AnalysisResult, type State } from './analyze.js';
+import { analyze, stateOf, type AnalysisResult, type State } from './analyze.js';
 import { missingConcentrationWarnings, sphereVolume, type Warning } from './checks.js';
 import { stationaryDoseClosedForm } from './dose.js';
-import { buildModel, linearise } from './model.js';
+import { fastInapplicable, RankOneDose, type FastVerdict } from './fast.js';
+import { buildModel, linearise, validateMixture } from './model.js';
 import { Random } from './random.js';
 import { scanModes } from './scan.js';
 import { EngineInputError, type Mixture, type Species } from './types.js';
@@ -62,8 +63,14 @@ export interface DoseOptions {
   relTol?: number;
   /** Scan points over (0, cap] (default 48, log-spaced over 9 decades). */
   scanPoints?: number;
-  /** Use the closed form where it applies (default true; false forces the search, for checks). */
+  /** Use the closed form where it applies (default true; false forces the search, for checks: no closed form and no fast path). */
   closedForm?: boolean;
+  /**
+   * Use the fast exact paths of docs/model.md §6 (the rank-one determinant with Hurwitz
+   * certification, `fast.ts`) where they apply and are certified (default true). false forces
+   * the general path everywhere: the reference for the tests and the benchmark.
+   */
+  fast?: boolean;
 }
 
 export interface DoseSearch {
@@ -83,7 +90,12 @@ export interface DoseSearch {
    * state just above it (e.g. an oscillatory window that turns stationary, still unstable).
    */
   window: { upTo: number; stateAbove: State } | null;
-  method: 'closed-form' | 'search' | null;
+  /**
+   * How the threshold was found: the closed form, the general search, or the fast exact path
+   * ('rank-one-determinant': the S×S determinant's crossing, certified by Hurwitz counts, docs/model.md §6).
+   * For an infeasible result: the fast path's no-crossing proof gives 'rank-one-determinant', else null.
+   */
+  method: 'closed-form' | 'search' | 'rank-one-determinant' | null;
   /** The dose cap used, m⁻³, and why */
   cap: { density: number; limitedBy: 'volume-fraction' | 'max-density' | 'replaced-everything' };
   /** Doses at which the growth was evaluated by the search (scan, refinement, bisection); 0 for the closed form */
@@ -407,7 +419,17 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
   });
 
   if (o.dosing === 'replace' && baseVolumeFraction(base) === 0) return infeasible(d, cap, 'nothing-to-replace', o, evaluations);
-  if (pred(0)) return infeasible(d, cap, 'base-already-past', o, evaluations);
+  // The fast exact path (docs/model.md §6 "Fast exact paths"): the base's side from Hurwitz counts, the threshold in closed form per mode.
+  let fast: RankOneDose | null = null;
+  if (fastWanted(o) && cap.density > 0 && fastInapplicable(base, d, o.dosing, o.boundary) === null) {
+    validateMixture(withDose(base, d, cap.density, o.dosing));
+    const f = new RankOneDose();
+    const b = f.prepare(base, d, cap.density, o.boundary as 'stationary' | 'any');
+    evaluations++; // the base's own check at dose 0
+    if (b.kind === 'base-past') return { ...infeasible(d, cap, 'base-already-past', o, evaluations), method: 'rank-one-determinant' };
+    if (b.kind === 'stable') fast = f;
+  }
+  if (fast === null && pred(0)) return infeasible(d, cap, 'base-already-past', o, evaluations);
   if (!(cap.density > 0)) {
     if (cap.limitedBy === 'volume-fraction') return infeasible(d, cap, 'no-room-under-cap', o, evaluations);
     return infeasible(d, cap, 'not-found-below-cap', o, evaluations, 'the dose cap is zero: no dose can be searched.');
@@ -454,8 +476,20 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
     }
   }
 
-  // Scan (0, cap] on a log grid, look between the scan doses, then bisect the first crossing and the first return.
   const n = o.scanPoints ?? 48;
+  if (fast) {
+    const v = fast.verdict(n);
+    evaluations += fast.checked - 1;
+    if (v.kind === 'threshold') return ok(v.dose, 'rank-one-determinant', null);
+    if (v.kind === 'none-below-cap') {
+      // the same reasons the search gives when it finds nothing (the sign rule only for rank one)
+      const fastInfeasible = (reason: ReasonCode, message?: string): DoseSearch => ({ ...infeasible(d, cap, reason, o, evaluations, message), method: 'rank-one-determinant' });
+      if (fast.S === 1 && !sg.neg && sg.pos) return fastInfeasible('wrong-sign');
+      return fastInfeasible('not-found-below-cap', notFoundFastMessage(o.boundary, fast, n, cap.density));
+    }
+  }
+
+  // Scan (0, cap] on a log grid, look between the scan doses, then bisect the first crossing and the first return.
   const grid = scanDoses(cap.density, n).map((x) => ({ x, e: at(x) }));
   const samples = refine(grid, (e) => measure(e, o.boundary), (e) => past(e, o.boundary), at, relTol);
   const k = samples.findIndex((s) => past(s.e, o.boundary));
@@ -498,6 +532,20 @@ function anyDoseSearched(floor: number): string {
   return `any dose crosses (threshold 0⁺): the boundary is past at every scan dose and still at ${perMl(floor)} (10⁻³⁰ of the cap).`;
 }
 
+/** Whether the options allow the fast exact paths (`fast` and `closedForm` not false). */
+function fastWanted(o: DoseOptions): boolean {
+  return o.fast !== false && o.closedForm !== false;
+}
+
+function notFoundFastMessage(b: Boundary, f: RankOneDose, n: number, cap: number): string {
+  return (
+    `the ${b} boundary was not found below the cap (${perMl(cap)}): no allowed mode's rank-one determinant changes sign at or below it ` +
+    `(all ${f.modes} modes below the proven bound, ${f.modes - f.active} of them stable at every dose by Gershgorin), and every mode is stable by its Hurwitz count ` +
+    `at the ${n} doses log-spaced from ${perMl(cap * 1e-9)}; a complex pair that grows and decays again between two of them is not excluded, ` +
+    'so this does not prove that no narrower window exists.'
+  );
+}
+
 function notFoundMessage(b: Boundary, n: number, extra: number, lowest: number, cap: number): string {
   const branch = b === 'stationary' ? 'real-eigenvalue' : b === 'oscillatory' ? 'complex-pair' : 'overall';
   return (
@@ -524,8 +572,12 @@ export interface DosePath {
   baseState: State;
   /** For a stable base: the smallest dose at which any mode grows, and the state there; null otherwise or if none below the cap */
   firstOnset: { density: number; state: State } | null;
-  /** How the path was searched: scan doses, extra doses from the refinement, the lowest scan dose and the floor (m⁻³) */
-  search: { doses: number; refined: number; lowest: number | null; floor: number | null; evaluations: number };
+  /**
+   * How the path was searched: scan doses, extra doses from the refinement, the lowest scan dose and the floor (m⁻³),
+   * the general evaluations, and the method: 'general' (a mode scan at every dose) or 'rank-one-determinant'
+   * (docs/model.md §6: stable below the certified stationary crossing without a scan, mode scans only above it).
+   */
+  search: { doses: number; refined: number; lowest: number | null; floor: number | null; evaluations: number; method: 'general' | 'rank-one-determinant' };
 }
 
 /**
@@ -545,18 +597,52 @@ export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
     evaluations++;
     return evaluate(withDose(base, d, x, o.dosing));
   };
-  const baseState = at(0).state;
   const n = o.scanPoints ?? 48;
-  if (!(cap > 0)) return { intervals: [], baseState, firstOnset: null, search: { doses: 0, refined: 0, lowest: null, floor: null, evaluations } };
+  // The fast facts (docs/model.md §6 "Fast exact paths"): a base proven stable, and a certified first stationary crossing x*.
+  let fastStable = false;
+  let fastVerdict: FastVerdict | null = null;
+  if (fastWanted(o) && cap > 0 && fastInapplicable(base, d, o.dosing, 'any') === null) {
+    validateMixture(withDose(base, d, cap, o.dosing));
+    const f = new RankOneDose();
+    if (f.prepare(base, d, cap, 'any').kind === 'stable') {
+      fastStable = true;
+      const v = f.verdict(n);
+      if (v.kind !== 'fallback') fastVerdict = v;
+    }
+  }
+  const baseState: State = fastStable ? 'stable' : at(0).state;
+  const floor = cap * FLOOR;
+  if (!(cap > 0)) return { intervals: [], baseState, firstOnset: null, search: { doses: 0, refined: 0, lowest: null, floor: null, evaluations, method: 'general' } };
   if (o.dosing === 'add' && !base.crowding && (!signs(d, base).coupled || !feedback(d, base).feedsBack)) {
     // An uncoupled dopant, or one that feeds nothing back (its substrate absent, say), added without
     // crowding only adds its own decoupled mode, −k² D_d < 0: the spectrum of the base is unchanged
     // at every dose (docs/model.md §3, `feedback`), so no scan is needed.
-    return { intervals: [{ from: 0, to: cap, state: baseState }], baseState, firstOnset: null, search: { doses: 0, refined: 0, lowest: null, floor: null, evaluations } };
+    return { intervals: [{ from: 0, to: cap, state: baseState }], baseState, firstOnset: null, search: { doses: 0, refined: 0, lowest: null, floor: null, evaluations, method: 'general' } };
   }
-  let samples = scanDoses(cap, n).map((x) => ({ x, e: at(x) }));
+  const fastSearch = (refined: number): DosePath['search'] => ({ doses: n, refined, lowest: cap * 1e-9, floor, evaluations, method: 'rank-one-determinant' });
+  if (fastVerdict?.kind === 'none-below-cap') {
+    // every mode stable at every scan dose and no determinant changes sign below the cap: stable throughout, as far as the scan doses show
+    return { intervals: [{ from: 0, to: cap, state: 'stable' }], baseState, firstOnset: null, search: fastSearch(0) };
+  }
+  let xStar: number | null = null;
+  if (fastVerdict?.kind === 'threshold') {
+    // Stable up to x*; just above it the crossing mode's one real eigenvalue is the only growth: stationary.
+    // Mode scans only above x* (the state there needs eigenvalues); one just above x* confirms it.
+    const x = fastVerdict.dose;
+    if (x < cap && at(Math.min(cap, x * (1 + 10 * relTol))).state === 'stationary') xStar = x;
+    else if (x === cap) xStar = x;
+  }
+  let samples = scanDoses(cap, n)
+    .filter((x) => xStar === null || x > xStar)
+    .map((x) => ({ x, e: at(x) }));
+  const scanned = samples.length;
   samples = refine(samples, (e) => e.real, (e) => e.real > 0, at, relTol);
   samples = refine(samples, (e) => e.complex, (e) => e.complex > 0, at, relTol);
+  const refined = samples.length - scanned;
+  if (xStar !== null) {
+    // the certified crossing as the first sample: stable below, stationary from it
+    samples.unshift({ x: xStar, e: { any: 0, real: 0, complex: -Infinity, state: 'stationary' } });
+  }
   const stateAt = (x: number) => at(x).state;
   const intervals: DoseInterval[] = [];
   const push = (from: number, state: State) => {
@@ -565,9 +651,11 @@ export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
     if (last) last.to = from;
     intervals.push({ from, to: cap, state });
   };
-  const floor = cap * FLOOR;
   const s0 = samples[0]!.e.state;
-  if (s0 !== baseState) {
+  if (xStar !== null) {
+    push(0, 'stable');
+    push(xStar, 'stationary');
+  } else if (s0 !== baseState) {
     const sf = stateAt(floor);
     if (sf === s0) push(0, s0);
     else {
@@ -590,11 +678,12 @@ export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
   }
   const path = tidyPath(intervals);
   const onset = baseState === 'stable' ? path.find((iv) => iv.state !== 'stable') : undefined;
+  const search: DosePath['search'] = xStar !== null ? fastSearch(refined) : { doses: n, refined, lowest: samples[0]!.x, floor, evaluations, method: 'general' };
   return {
     intervals: path,
     baseState,
     firstOnset: onset ? { density: onset.from, state: onset.state } : null,
-    search: { doses: n, refined: samples.length - n, lowest: samples[0]!.x, floor, evaluations },
+    search,
   };
 }
 
@@ -701,6 +790,26 @@ export interface ThresholdBand {
   aboveCap: { median: boolean; p05: boolean; p95: boolean };
   /** P(crossed at dose) for each requested dose */
   probability: { density: number; probability: number }[];
+  /**
+   * How the draws were computed: `fastDraws` by the fast exact path (docs/model.md §7: the rank-one
+   * determinant's threshold, certified by Hurwitz counts, exact rather than bisected), `fallbackDraws`
+   * by the general per-draw search (a draw the fast path could not certify, or fast off or not applicable).
+   */
+  fastDraws: number;
+  fallbackDraws: number;
+}
+
+/** Internal hooks of a band: the base's draws shared by every candidate of a screen, and a per-draw progress call. */
+export interface BandHooks {
+  /** baseDraws[i] = perturb(base, new Random(streamSeed(seed, i, ''))), computed once for all candidates */
+  baseDraws?: Mixture[];
+  /** called after each draw with the number done */
+  progress?: (done: number) => void;
+}
+
+/** The base's Monte Carlo draws (docs/model.md §7), the same for every candidate (common random numbers). */
+export function baseDraws(base: Mixture, u: UncertaintyOptions): Mixture[] {
+  return Array.from({ length: u.samples }, (_, i) => perturb(base, new Random(streamSeed(u.seed, i, ''))));
 }
 
 /** Linear interpolation between order statistics (the "type 7" sample quantile); +∞ propagates. */
@@ -721,21 +830,55 @@ function quantile(sorted: number[], q: number): number {
  * band). A draw whose base is already past the boundary has threshold 0; one
  * that does not cross below the cap, +∞. Same seed, same numbers.
  */
-export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: UncertaintyOptions): ThresholdBand {
+export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: UncertaintyOptions, hooks: BandHooks = {}): ThresholdBand {
   const thresholds: number[] = [];
-  const crossedAt = (u.doses ?? []).map(() => 0);
+  const doses = u.doses ?? [];
+  const crossedAt = doses.map(() => 0);
   let already = 0;
+  let fastDraws = 0;
+  const drawOptions: DoseOptions = { ...o, relTol: Math.max(o.relTol ?? 1e-6, 1e-4), scanPoints: Math.min(o.scanPoints ?? 48, 28) };
+  // The fast exact path applies by structure (the same for every draw); one work space serves all draws.
+  const fast = fastWanted(o) && fastInapplicable(base, d, o.dosing, o.boundary) === null ? new RankOneDose() : null;
+  // a candidate whose first draws all fall back (a Hopf crossing first, say) stops trying: the general search decides the rest
+  let fastTries = 0;
+  const GIVE_UP_AFTER = 16;
+  if (hooks.baseDraws && hooks.baseDraws.length < u.samples) throw new EngineInputError('baseDraws', 'fewer base draws than samples');
   for (let i = 0; i < u.samples; i++) {
-    const b = perturb(base, new Random(streamSeed(u.seed, i, '')));
+    const b = hooks.baseDraws?.[i] ?? perturb(base, new Random(streamSeed(u.seed, i, '')));
     const dd = perturbSpecies(d, ...posSigned(new Random(streamSeed(u.seed, i, d.id))));
-    const r = findDose(b, dd, { ...o, relTol: Math.max(o.relTol ?? 1e-6, 1e-4), scanPoints: Math.min(o.scanPoints ?? 48, 28) });
-    if (r.reason === 'base-already-past') {
-      already++;
-      thresholds.push(0);
-    } else thresholds.push(r.feasible ? r.threshold!.density : Infinity);
-    (u.doses ?? []).forEach((x, j) => {
-      if (pastBoundary(withDose(b, dd, x, o.dosing), o.boundary)) crossedAt[j]!++;
+    let threshold: number | null = null;
+    let verdict: FastVerdict | null = null;
+    if (fast && !(fastDraws === 0 && fastTries >= GIVE_UP_AFTER)) {
+      fastTries++;
+      const cap = doseCap(b, dd, o).density;
+      if (cap > 0) {
+        const p = fast.prepare(b, dd, cap, o.boundary as 'stationary' | 'any');
+        if (p.kind === 'base-past') threshold = 0;
+        else if (p.kind === 'stable') {
+          verdict = fast.verdict(drawOptions.scanPoints!);
+          if (verdict.kind === 'threshold') threshold = verdict.dose;
+          else if (verdict.kind === 'none-below-cap') threshold = Infinity;
+        }
+      }
+    }
+    if (threshold !== null) {
+      fastDraws++;
+      if (threshold === 0) already++;
+    } else {
+      verdict = null;
+      const r = findDose(b, dd, { ...drawOptions, fast: false });
+      if (r.reason === 'base-already-past') {
+        already++;
+        threshold = 0;
+      } else threshold = r.feasible ? r.threshold!.density : Infinity;
+    }
+    thresholds.push(threshold);
+    doses.forEach((x, j) => {
+      // the fast facts where they prove it, else the spectrum
+      const known = verdict && fast ? fast.pastAt(x, verdict) : null;
+      if (known ?? pastBoundary(withDose(b, dd, x, o.dosing), o.boundary)) crossedAt[j]!++;
     });
+    hooks.progress?.(i + 1);
   }
   thresholds.sort((a, b) => a - b);
   const crossed = thresholds.filter(Number.isFinite).length;
@@ -751,7 +894,9 @@ export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: Unce
     p05: orNull(p05),
     p95: orNull(p95),
     aboveCap: { median: !Number.isFinite(median), p05: !Number.isFinite(p05), p95: !Number.isFinite(p95) },
-    probability: (u.doses ?? []).map((x, j) => ({ density: x, probability: u.samples > 0 ? crossedAt[j]! / u.samples : 0 })),
+    probability: doses.map((x, j) => ({ density: x, probability: u.samples > 0 ? crossedAt[j]! / u.samples : 0 })),
+    fastDraws,
+    fallbackDraws: u.samples - fastDraws,
   };
 }
 
@@ -816,8 +961,12 @@ export function screen(base: Mixture, candidates: Species[], o: ScreenOptions): 
     if (seen.has(c.id)) throw new EngineInputError('candidates', `candidate "${c.id}" is listed twice`);
     seen.add(c.id);
   }
+  const u = o.uncertainty && o.uncertainty.samples > 0 ? o.uncertainty : null;
+  // the base's draws are the same for every candidate (common random numbers): perturb them once
+  const draws = u ? baseDraws(base, u) : undefined;
   const results = candidates.map((d, index): CandidateResult => {
-    o.progress?.(index / candidates.length, `candidate ${index + 1} of ${candidates.length}: ${d.id}`);
+    const stage = `candidate ${index + 1} of ${candidates.length}: ${d.id}`;
+    o.progress?.(index / candidates.length, stage);
     const r = findDose(base, d, o);
     const path = dosePath(base, d, o);
     const warnings: Warning[] = [];
@@ -863,7 +1012,12 @@ export function screen(base: Mixture, candidates: Species[], o: ScreenOptions): 
       const how = [o.dosing === 'replace' ? 'diluting the base it replaces' : null, base.crowding ? 'crowding (excluded volume)' : null].filter(Boolean).join(' and ');
       warnings.push({ code: 'no-feedback', message: `this species feeds nothing back on the chemicals: whatever this answer shows comes only from ${how}.` });
     }
-    const band = o.uncertainty && o.uncertainty.samples > 0 ? thresholdBand(base, d, o, o.uncertainty) : null;
+    // progress within the candidate's draws, about every 1 % of its share
+    const every = u ? Math.max(1, Math.floor(u.samples / 100)) : 1;
+    const onDraw = (done: number) => {
+      if (done % every === 0 || done === u!.samples) o.progress?.((index + done / (u!.samples + 1)) / candidates.length, `${stage}, draw ${done} of ${u!.samples}`);
+    };
+    const band = u ? thresholdBand(base, d, o, u, { baseDraws: draws, progress: o.progress ? onDraw : undefined }) : null;
     if (band && band.alreadyPast > 0)
       warnings.push({ code: 'already-past-in-draws', message: `in ${(100 * band.alreadyPast).toFixed(1)} % of the Monte Carlo draws the base alone is already past the boundary (threshold 0).` });
     if (band && r.feasible && (band.aboveCap.median || band.aboveCap.p95))
@@ -917,7 +1071,7 @@ export interface StateMapOptions extends DoseOptions {
   baseRange?: [number, number];
   /** Dose range, m⁻³; default (0, cap] */
   doseRange?: [number, number];
-  /** Grid size (each 3 to 80; default 24 × 24) */
+  /** Grid size (each 3 to 200; default 24 × 24) */
   baseSteps?: number;
   doseSteps?: number;
 }
@@ -931,12 +1085,6 @@ export interface StateMap {
   boundaries: { from: string; to: string; points: [number, number][] }[];
 }
 
-function stateOf(mix: Mixture): 'stable' | 'stationary' | 'oscillatory' {
-  const model = buildModel(mix);
-  const s = scanModes(model, mix.chamber.walls).overall;
-  return s.value > 0 ? (s.im > 0 ? 'oscillatory' : 'stationary') : 'stable';
-}
-
 /** Scale the base (one species, or all) by a factor. */
 export function scaleBase(base: Mixture, factor: number, which: string | null): Mixture {
   if (which !== null && !base.species.some((s) => s.id === which)) throw new EngineInputError('baseSpecies', `"${which}" is not a base species`);
@@ -947,10 +1095,16 @@ export function scaleBase(base: Mixture, factor: number, which: string | null): 
  * States on a grid of base level × dose, and the boundaries between them: along
  * each row the dose of every change of state is bisected (relative 1e-6) and
  * the points of the same transition are joined across rows into polylines.
+ * Each state comes from `stateOf` (analyze.ts), equal to analyze().state with
+ * fewer eigenvalues; `fast: false` takes the general mode scan at every point
+ * (the reference).
  */
 export function stateMap(base: Mixture, d: Species, o: StateMapOptions): StateMap {
-  const nb = Math.min(80, Math.max(3, o.baseSteps ?? 24));
-  const nd = Math.min(80, Math.max(3, o.doseSteps ?? 24));
+  const nb = Math.min(200, Math.max(3, o.baseSteps ?? 24));
+  const nd = Math.min(200, Math.max(3, o.doseSteps ?? 24));
+  // the state alone, equal to analyze().state (analyze.ts stateOf; fast: false is the general scan)
+  const fast = o.fast !== false;
+  const mapState = (mix: Mixture) => stateOf(mix, { fast });
   const [b0, b1] = o.baseRange ?? [0.1, 10];
   if (!(b0 > 0 && b1 > b0)) throw new EngineInputError('baseRange', 'must be two increasing positive factors');
   const cap = doseCap(base, d, o).density;
@@ -961,7 +1115,7 @@ export function stateMap(base: Mixture, d: Species, o: StateMapOptions): StateMa
   const doseAxis = Array.from({ length: nd }, (_, j) => x0 * Math.pow(x1 / x0, j / (nd - 1)));
   const states = factor.map((f) => {
     const b = scaleBase(base, f, which);
-    return doseAxis.map((x) => stateOf(withDose(b, d, x, o.dosing)));
+    return doseAxis.map((x) => mapState(withDose(b, d, x, o.dosing)));
   });
   const lines = new Map<string, [number, number][][]>();
   factor.forEach((f, i) => {
@@ -971,7 +1125,7 @@ export function stateMap(base: Mixture, d: Species, o: StateMapOptions): StateMa
       const from = row[j]!;
       const to = row[j + 1]!;
       if (from === to) continue;
-      const x = bisect((y) => stateOf(withDose(b, d, y, o.dosing)) !== from, doseAxis[j]!, doseAxis[j + 1]!, o.relTol ?? 1e-6);
+      const x = bisect((y) => mapState(withDose(b, d, y, o.dosing)) !== from, doseAxis[j]!, doseAxis[j + 1]!, o.relTol ?? 1e-6);
       const key = `${from}→${to}`;
       const segs = lines.get(key) ?? [];
       // continue the polyline whose last point is on the previous row, else start a new one

@@ -1,0 +1,465 @@
+/**
+ * Fast exact paths of the dose planner (docs/model.md §6 "Fast exact paths", §7).
+ *
+ * In `add` mode without crowding, for a dopant d that is not already in the
+ * base and has no saturating coupling (its density would enter R and G), the
+ * dose x enters the scaled Jacobian of every allowed mode only through the
+ * dopant's own row: with Ĵ = J'/k'² (so the mode's eigenvalues are O(1) at
+ * every k'),
+ *
+ *     Ĵ(x) = Ĵ₀ + x e_d wᵀ,      w_n = −p_dᵀ G'(k') Q'_nᵀ            (per unit dose)
+ *
+ * Two facts follow.
+ *
+ * 1. **Stationary crossings in closed form** (Weinstein–Aronszajn at λ = 0,
+ *    docs/model.md §3). det(−J) = Π_m k'²D'_m · det(M(x)) with the S×S matrix
+ *    M(x) = I_S + G' Q'ᵀ 𝔇'⁻¹ P'(x). The dopant adds x (G' q_d / D'_d) p_dᵀ, a
+ *    rank-one update, so det M(x) = det M₀ (1 + x vᵀ M₀⁻¹ u) with u = G'q_d/D'_d,
+ *    v = p_d: affine in x. A real eigenvalue of the mode crosses zero exactly at
+ *    x_k = −1/(vᵀM₀⁻¹u) when that is positive, and past it det M stays negative
+ *    (an odd number of growing real eigenvalues: the crossing cannot return).
+ * 2. **Hurwitz counts at any dose** in O(n²). The characteristic polynomial is
+ *    affine in x too: det(λ − Ĵ(x)) = p₀(λ) − x q(λ) (matrix determinant lemma on
+ *    the one row), with p₀ = charPoly(Ĵ₀) and q = (p₀ − charPoly(Ĵ(x_s)))/x_s. The
+ *    Routh–Hurwitz count (linalg/charpoly.ts) of p₀ − x q says how many roots of
+ *    the mode grow at dose x.
+ *
+ * The stationary threshold is x* = min_k x_k over the allowed modes, certified
+ * only when every mode is stable (count 0) at each scan dose below x* (the same
+ * log grid the general search samples) and at x*(1 − 10⁻⁶): a growing complex
+ * pair below x* (a Hopf crossing first), a degenerate Routh table, or anything
+ * else unproven makes the caller fall back to the general path.
+ *
+ * **Which modes.** Only modes k' = 1 … n_hi need work, n_hi from the scan's
+ * proven bound (scan.ts, docs/model.md §4) at the largest dose (the bound grows
+ * with x), with f_ref = 0: beyond it Re λ ≤ −k'² d + C̄ < 0 for every dose in
+ * [0, cap]. Of those, a mode whose Gershgorin bound on Ĵ (the smaller of the
+ * row and column forms; each is a maximum of functions affine in x, hence
+ * convex, so its maximum over [0, cap] is at an end) is negative at both ends
+ * is stable at every dose and needs no work at all.
+ *
+ * Everything is in the engine's scaled units (length ℓ = 1/k₁, time ℓ²/max D,
+ * one concentration unit per chemical as in buildModel, with the dopant taken at
+ * the cap), so the small matrices are O(1).
+ *
+ * A `RankOneDose` owns its work arrays and reuses them from one call to the
+ * next (one per candidate, across all its Monte Carlo draws): the loops over
+ * modes and doses allocate nothing.
+ */
+import { charPoly, charPolyScratch, hurwitzUnstable, type CharPolyScratch } from './linalg/charpoly.js';
+import { solveInPlace } from './linalg/dense.js';
+import { linearise } from './model.js';
+import type { Mixture, Species } from './types.js';
+
+/** More modes below the proven bound than this and the general path (exhaustive to 200 modes, a log grid beyond) is used instead. */
+export const MAX_FAST_MODES = 1000;
+/** Certification just below the threshold: every mode must be stable at x*(1 − this). */
+export const BELOW_THRESHOLD = 1e-6;
+/** The general search's floor (a fraction of the cap): a fast threshold below it is left to the general path. */
+const FLOOR = 1e-30;
+
+/**
+ * Why the fast path cannot serve this (base, dopant, dosing, boundary), or null when it can.
+ * Depends only on the structure, not on the values, so it holds for every Monte Carlo draw.
+ */
+export function fastInapplicable(base: Mixture, d: Species, dosing: 'add' | 'replace', boundary: string): string | null {
+  if (dosing !== 'add') return 'replace mode scales the whole base, not one row';
+  if (boundary !== 'stationary' && boundary !== 'any') return `the ${boundary} boundary needs the spectrum`;
+  if (base.crowding) return 'crowding couples every species through excluded volume';
+  if (base.chamber.walls === 'unbounded') return 'an unbounded chamber has a continuum of modes';
+  if (base.species.some((s) => s.id === d.id)) return 'the dopant is already in the base';
+  if (d.couplings.some((c) => c.activity?.kind === 'saturating')) return 'a saturating coupling of the dopant puts its density into R';
+  return null;
+}
+
+/** What `prepare` found about the base at dose 0. */
+export type FastBase =
+  | { kind: 'stable' }
+  /** the base alone is past the boundary: a growing root (any), or det M₀ < 0 at some mode (stationary: an odd number of growing real eigenvalues) */
+  | { kind: 'base-past' }
+  | { kind: 'fallback'; why: string };
+
+export type FastVerdict =
+  /** the first crossing: a real eigenvalue of mode `mode` crosses zero at `dose` (m⁻³); stable at every certified dose below */
+  | { kind: 'threshold'; dose: number; mode: number }
+  /** no mode's determinant changes sign at or below the cap, and every mode is stable at every scan dose */
+  | { kind: 'none-below-cap' }
+  | { kind: 'fallback'; why: string };
+
+/** The fast path for one candidate; `prepare` for each (base, dopant) draw, then `verdict`, `stableAt`, `pastAt`. */
+export class RankOneDose {
+  /** species (base + the dopant, last) */
+  n = 0;
+  /** chemicals kept (those that move a particle, and the base's fuels) */
+  S = 0;
+  /** modes below the proven bound, and how many of them the Gershgorin test did not settle */
+  modes = 0;
+  active = 0;
+  /** doses at which the Hurwitz counts were taken (since `prepare`) */
+  checked = 0;
+  cap = 0;
+  private xStar = Infinity;
+  private kStar = 0;
+  private verdictCache: FastVerdict | null = null;
+  // scaled coefficients
+  private D = new Float64Array(0);
+  private P = new Float64Array(0);
+  private Q = new Float64Array(0);
+  private Dc = new Float64Array(0);
+  private R = new Float64Array(0);
+  private cstar = new Float64Array(0);
+  private kept = new Int32Array(0);
+  private alphaD = new Float64Array(0);
+  private muD = new Float64Array(0);
+  // per active mode
+  private modeN = new Int32Array(0);
+  private p0 = new Float64Array(0);
+  private q = new Float64Array(0);
+  private xk = new Float64Array(0);
+  // work
+  private A = new Float64Array(0);
+  private X = new Float64Array(0);
+  private J = new Float64Array(0);
+  private w = new Float64Array(0);
+  private M0 = new Float64Array(0);
+  private y = new Float64Array(0);
+  private coef = new Float64Array(0);
+  private routh = new Float64Array(0);
+  private cp: CharPolyScratch = charPolyScratch(1);
+
+  private size(n: number, S: number, Sf: number): void {
+    if (this.D.length < n) {
+      this.D = new Float64Array(n);
+      this.J = new Float64Array(n * n);
+      this.w = new Float64Array(n);
+      this.coef = new Float64Array(n + 1);
+      this.routh = new Float64Array(3 * (Math.floor(n / 2) + 2));
+    }
+    if (this.cp.n !== n) this.cp = charPolyScratch(n);
+    if (this.P.length < n * S) {
+      this.P = new Float64Array(n * S);
+      this.Q = new Float64Array(n * S);
+    }
+    if (this.X.length < S * n) this.X = new Float64Array(S * n);
+    if (this.Dc.length < S) {
+      this.Dc = new Float64Array(S);
+      this.cstar = new Float64Array(S);
+      this.y = new Float64Array(S);
+      this.R = new Float64Array(S * S);
+      this.A = new Float64Array(S * S);
+      this.M0 = new Float64Array(S * S);
+    }
+    if (this.R.length < S * S) {
+      this.R = new Float64Array(S * S);
+      this.A = new Float64Array(S * S);
+      this.M0 = new Float64Array(S * S);
+    }
+    if (this.kept.length < Sf) this.kept = new Int32Array(Sf);
+    if (this.alphaD.length < Sf) {
+      this.alphaD = new Float64Array(Sf);
+      this.muD = new Float64Array(Sf);
+    }
+  }
+
+  /** Room for `count` modes of n + 1 coefficients each, keeping the modes already stored. */
+  private sizeModes(count: number, n: number): void {
+    const stride = n + 1;
+    if (this.modeN.length >= count && this.p0.length >= this.modeN.length * stride) return;
+    const c = Math.max(count, 2 * this.modeN.length, 16);
+    const grow = <T extends Int32Array | Float64Array>(old: T, len: number, make: (l: number) => T): T => {
+      const a = make(len);
+      a.set(old.subarray(0, Math.min(old.length, len)) as never);
+      return a;
+    };
+    this.modeN = grow(this.modeN, c, (l) => new Int32Array(l));
+    this.xk = grow(this.xk, c, (l) => new Float64Array(l));
+    this.p0 = grow(this.p0, c * stride, (l) => new Float64Array(l));
+    this.q = grow(this.q, c * stride, (l) => new Float64Array(l));
+  }
+
+  /**
+   * Build the per-mode facts for `d` added to `base` with doses up to `cap` (m⁻³, > 0), and decide the
+   * base's own side (dose 0). The caller has checked `fastInapplicable` is null. Mixtures must be valid
+   * (the planner validates the nominal one; Monte Carlo draws keep validity).
+   */
+  prepare(base: Mixture, d: Species, cap: number, boundary: 'stationary' | 'any'): FastBase {
+    this.verdictCache = null;
+    this.checked = 0;
+    this.active = 0;
+    this.modes = 0;
+    this.xStar = Infinity;
+    this.kStar = 0;
+    this.cap = cap;
+    const Mb = base.species.length;
+    const n = Mb + 1;
+    const dIdx = Mb;
+    const Sf = base.chemicals.length;
+    const lin = linearise(base);
+    this.size(n, 0, Sf);
+    // the dopant's activities (constant only) and mobilities, per chemical of the mixture
+    const alphaD = this.alphaD;
+    const muD = this.muD;
+    alphaD.fill(0, 0, Sf);
+    muD.fill(0, 0, Sf);
+    for (const c of d.couplings) {
+      let s = 0;
+      while (s < Sf && base.chemicals[s]!.id !== c.chemical) s++;
+      if (s === Sf) return { kind: 'fallback', why: `unknown chemical "${c.chemical}"` };
+      muD[s]! += c.mobility;
+      if (c.activity !== null && c.activity.kind === 'constant') alphaD[s]! += c.activity.rate;
+    }
+    // kept chemicals: the same rule as buildModel (someone responds to it, or it is a base fuel)
+    let S = 0;
+    const kept = this.kept;
+    for (let s = 0; s < Sf; s++) {
+      let keep = muD[s] !== 0;
+      for (let m = 0; m < Mb && !keep; m++) if (lin.mu[m * Sf + s] !== 0) keep = true;
+      if (!keep) {
+        const id = base.chemicals[s]!.id;
+        for (const sp of base.species) for (const c of sp.couplings) if (c.chemical === id && c.activity?.kind === 'saturating') keep = true;
+      }
+      if (keep) kept[S++] = s;
+    }
+    if (S === 0) return { kind: 'fallback', why: 'no chemical moves a particle' };
+    this.S = S;
+    this.n = n;
+    this.size(n, S, Sf);
+    const { walls, length } = base.chamber;
+    const ell = walls === 'sealed' ? length! / Math.PI : length! / (2 * Math.PI);
+    let Dmax = d.diffusivity;
+    for (const sp of base.species) Dmax = Math.max(Dmax, sp.diffusivity);
+    const tau = (ell * ell) / Dmax;
+    const D = this.D;
+    const P = this.P;
+    const Q = this.Q;
+    for (let si = 0; si < S; si++) {
+      const s = kept[si]!;
+      let amax = Math.abs(alphaD[s]!);
+      let pmax = Math.abs(cap * muD[s]!);
+      for (let m = 0; m < Mb; m++) {
+        amax = Math.max(amax, Math.abs(lin.alpha[m * Sf + s]!));
+        pmax = Math.max(pmax, Math.abs(base.species[m]!.density * lin.mu[m * Sf + s]!));
+      }
+      const c0 = base.chemicals[s]!.concentration;
+      this.cstar[si] = amax > 0 && pmax > 0 ? Math.sqrt(amax / pmax) / (ell * ell) : c0 > 0 ? c0 : 1;
+      this.Dc[si] = base.chemicals[s]!.diffusivity / Dmax;
+    }
+    const cs = this.cstar;
+    for (let si = 0; si < S; si++)
+      for (let ti = 0; ti < S; ti++) this.R[si * S + ti] = (tau * lin.reaction[kept[si]! * Sf + kept[ti]!]! * cs[ti]!) / cs[si]!;
+    for (let m = 0; m < n; m++) {
+      const sp = m < Mb ? base.species[m]! : d;
+      D[m] = sp.diffusivity / Dmax;
+      for (let si = 0; si < S; si++) {
+        const s = kept[si]!;
+        // the dopant's row of P' per unit dose; its α does not depend on its density
+        const rhoMu = m < Mb ? sp.density * lin.mu[m * Sf + s]! : muD[s]!;
+        const alpha = m < Mb ? lin.alpha[m * Sf + s]! : alphaD[s]!;
+        P[m * S + si] = rhoMu * cs[si]! * tau * ell;
+        Q[m * S + si] = (alpha * tau) / (cs[si]! * ell * ell * ell);
+      }
+    }
+    for (let i = 0; i < n * S; i++) if (!Number.isFinite(P[i]!) || !Number.isFinite(Q[i]!)) return { kind: 'fallback', why: 'overflow' };
+    for (let i = 0; i < S * S; i++) if (!Number.isFinite(this.R[i]!)) return { kind: 'fallback', why: 'overflow' };
+
+    // The scan's proven bound (docs/model.md §4) at the cap, f_ref = 0: beyond it every mode decays at every dose.
+    let dmin = Infinity;
+    for (let m = 0; m < n; m++) dmin = Math.min(dmin, D[m]!);
+    let minDc = Infinity;
+    let kA2 = 0;
+    for (let s = 0; s < S; s++) {
+      minDc = Math.min(minDc, this.Dc[s]!);
+      let row = 0;
+      for (let t = 0; t < S; t++) row += Math.abs(this.R[s * S + t]!) / this.Dc[t]!;
+      kA2 = Math.max(kA2, 2 * row);
+    }
+    let pBase = 0;
+    let pDop = 0;
+    for (let m = 0; m < n; m++) {
+      let row = 0;
+      for (let s = 0; s < S; s++) row += Math.abs(P[m * S + s]!);
+      if (m === dIdx) pDop = row;
+      else pBase = Math.max(pBase, row);
+    }
+    // Gershgorin on S⁻¹J'S with S = diag(1, …, 1, t) (the same eigenvalues): for k'² ≥ k_a², with
+    // ‖k'²G'‖∞ ≤ g = 2/min D'_c, every row's sum of |C_mn| s_n/s_m is at most g h(t) max(p_B, X p_d/t),
+    // h(t) = max_s (Σ_base |Q'_ns| + t |Q'_ds|); the best t = X p_d/p_B gives g max_s (p_B q_B,s + X p_d q_d,s).
+    // So Re λ ≤ −k'² min D' + that, and beyond k'² = cut(X) every mode decays at every dose in [0, X].
+    const g = 2 / minDc;
+    const cutAt = (X: number) => {
+      let r = 0;
+      for (let s = 0; s < S; s++) {
+        let qB = 0;
+        for (let m = 0; m < Mb; m++) qB += Math.abs(Q[m * S + s]!);
+        r = Math.max(r, pBase * qB + X * pDop * Math.abs(Q[dIdx * S + s]!));
+      }
+      return Math.max(kA2, (g * r) / dmin);
+    };
+    if (!Number.isFinite(cutAt(cap))) return { kind: 'fallback', why: 'no finite mode bound' };
+    this.sizeModes(16, n);
+
+    const X = this.X;
+    const J = this.J;
+    const w = this.w;
+    const A = this.A;
+    const M0 = this.M0;
+    const y = this.y;
+    const stride = n + 1;
+    let baseUnstable = false;
+    let baseStationary = false;
+    for (let k = 1; ; k++) {
+      // the doses that matter: [0, X], X = min(lowest crossing so far, cap); modes beyond the bound at X cannot cross below it
+      const xMax = Math.min(this.xStar, cap);
+      const k2 = k * k;
+      if (k2 > cutAt(xMax)) break;
+      if (k > MAX_FAST_MODES) return { kind: 'fallback', why: `more than ${MAX_FAST_MODES} modes below the proven bound` };
+      this.modes = k;
+      // X = k'² G' Q'ᵀ (S×n): (D'_c + R'/k'²) X = Q'ᵀ
+      for (let s = 0; s < S; s++) {
+        for (let t = 0; t < S; t++) A[s * S + t] = this.R[s * S + t]! / k2;
+        A[s * S + s]! += this.Dc[s]!;
+        for (let m = 0; m < n; m++) X[s * n + m] = Q[m * S + s]!;
+      }
+      if (!solveInPlace(A, S, X, n)) return { kind: 'fallback', why: 'singular chemistry at a mode' };
+      // Ĵ₀ = J'/k'² at dose 0 (the dopant's row is its own −D'_d), and w (the dopant's row per unit dose)
+      for (let i = 0; i < n; i++) {
+        for (let j = 0; j < n; j++) {
+          let acc = 0;
+          for (let s = 0; s < S; s++) acc += P[i * S + s]! * X[s * n + j]!;
+          if (i === dIdx) {
+            w[j] = -acc / k2;
+            J[i * n + j] = i === j ? -D[i]! : 0;
+          } else J[i * n + j] = (i === j ? -D[i]! : 0) - acc / k2;
+        }
+      }
+      // Gershgorin on Ĵ(x), rows and columns, at both ends of [0, cap]
+      let rowBase = -Infinity;
+      for (let i = 0; i < Mb; i++) {
+        let r = J[i * n + i]!;
+        for (let j = 0; j < n; j++) if (j !== i) r += Math.abs(J[i * n + j]!);
+        rowBase = Math.max(rowBase, r);
+      }
+      let slope = w[dIdx]!;
+      for (let j = 0; j < Mb; j++) slope += Math.abs(w[j]!);
+      const rowBound = Math.max(rowBase, -D[dIdx]!, -D[dIdx]! + xMax * slope);
+      let col0 = -Infinity;
+      let colCap = -Infinity;
+      for (let j = 0; j < n; j++) {
+        let c = J[j * n + j]!;
+        for (let i = 0; i < Mb; i++) if (i !== j) c += Math.abs(J[i * n + j]!);
+        const atCap = j === dIdx ? c + xMax * w[dIdx]! : c + xMax * Math.abs(w[j]!);
+        col0 = Math.max(col0, c);
+        colCap = Math.max(colCap, atCap);
+      }
+      const colBound = Math.max(col0, colCap);
+      if (Math.min(rowBound, colBound) < 0) continue; // stable at every dose in [0, X]
+
+      const a = this.active;
+      this.sizeModes(a + 1, n);
+      this.modeN[a] = k;
+      // the S×S rank-one determinant: M₀ = I + G'Q_Bᵀ𝔇_B⁻¹P_B, u = G'q_d/D'_d, v = p_d
+      for (let s = 0; s < S; s++) {
+        for (let t = 0; t < S; t++) {
+          let acc = s === t ? 1 : 0;
+          for (let m = 0; m < Mb; m++) acc += (X[s * n + m]! * P[m * S + t]!) / (k2 * D[m]!);
+          M0[s * S + t] = acc;
+        }
+        y[s] = X[s * n + dIdx]! / (k2 * D[dIdx]!);
+      }
+      if (!solveInPlace(M0, S, y, 1)) return { kind: 'fallback', why: 'singular S×S matrix at a mode' };
+      let beta = 0;
+      for (let t = 0; t < S; t++) beta += P[dIdx * S + t]! * y[t]!;
+      const xk = beta < 0 ? -1 / beta : Infinity;
+      this.xk[a] = xk;
+      // p₀ and q: det(λ − Ĵ(x)) = p₀(λ) − x q(λ)
+      const c0 = charPoly(J, n, this.cp);
+      const off = a * stride;
+      for (let t = 0; t < stride; t++) this.p0[off + t] = c0[t]!;
+      const xs = Math.min(cap, xk);
+      for (let j = 0; j < n; j++) J[dIdx * n + j]! += xs * w[j]!;
+      const c1 = charPoly(J, n, this.cp);
+      for (let t = 0; t < stride; t++) this.q[off + t] = (this.p0[off + t]! - c1[t]!) / xs;
+      for (let t = 0; t < stride; t++) if (!Number.isFinite(this.p0[off + t]!) || !Number.isFinite(this.q[off + t]!)) return { kind: 'fallback', why: 'non-finite characteristic polynomial' };
+      const h = hurwitzUnstable(this.p0.subarray(off, off + stride), this.routh);
+      if (h === null) return { kind: 'fallback', why: 'degenerate Routh table at dose 0' };
+      if (h > 0) {
+        baseUnstable = true;
+        // det(−Ĵ₀) = p₀(0) < 0: an odd number of growing real eigenvalues
+        if (this.p0[off + n]! < 0) baseStationary = true;
+      }
+      this.active = a + 1;
+      if (xk < this.xStar) {
+        this.xStar = xk;
+        this.kStar = k;
+      }
+    }
+    this.checked = 1;
+    if (baseUnstable) {
+      if (boundary === 'any' || baseStationary) return { kind: 'base-past' };
+      return { kind: 'fallback', why: 'the base has a growing complex pair' };
+    }
+    return { kind: 'stable' };
+  }
+
+  /**
+   * Whether every mode is stable at dose x (Hurwitz count 0 for each mode the bounds did not settle);
+   * false when some mode grows, null when a Routh table is degenerate. Valid for 0 ≤ x ≤ cap.
+   */
+  stableAt(x: number): boolean | null {
+    const n = this.n;
+    const stride = n + 1;
+    const coef = this.coef.subarray(0, stride);
+    this.checked++;
+    for (let a = 0; a < this.active; a++) {
+      const off = a * stride;
+      for (let t = 0; t < stride; t++) coef[t] = this.p0[off + t]! - x * this.q[off + t]!;
+      const h = hurwitzUnstable(coef, this.routh);
+      if (h === null) return null;
+      if (h > 0) return false;
+    }
+    return true;
+  }
+
+  /**
+   * The first crossing, certified against the `points` log-spaced scan doses of the general search
+   * (cap · 10^(−9 + 9i/(points − 1))) and just below the threshold.
+   */
+  verdict(points: number): FastVerdict {
+    if (this.verdictCache) return this.verdictCache;
+    const cap = this.cap;
+    const x = this.xStar;
+    const limit = Math.min(x, cap);
+    const v = ((): FastVerdict => {
+      if (x <= cap && !(x >= cap * FLOOR)) return { kind: 'fallback', why: 'threshold below the search floor' };
+      for (let i = 0; i < points; i++) {
+        const xi = cap * Math.pow(10, -9 + (9 * i) / (points - 1));
+        if (!(xi < limit) && !(x > cap && xi <= cap)) continue;
+        const s = this.stableAt(xi);
+        if (s !== true) return { kind: 'fallback', why: s === null ? 'degenerate Routh table below the threshold' : 'a mode grows below the stationary threshold' };
+      }
+      if (x > cap) return { kind: 'none-below-cap' };
+      const s = this.stableAt(x * (1 - BELOW_THRESHOLD));
+      if (s !== true) return { kind: 'fallback', why: s === null ? 'degenerate Routh table just below the threshold' : 'a mode grows just below the stationary threshold' };
+      return { kind: 'threshold', dose: x, mode: this.kStar };
+    })();
+    this.verdictCache = v;
+    return v;
+  }
+
+  /**
+   * Whether dose x is past the stationary (or any) boundary, from a certified verdict: above a
+   * threshold always (det M of its mode stays negative); below it when every mode is stable, not past;
+   * null when that is not proven (the caller asks the general path).
+   */
+  pastAt(x: number, v: FastVerdict): boolean | null {
+    if (v.kind === 'fallback' || !(x >= 0) || x > this.cap) return null;
+    if (v.kind === 'threshold' && x > v.dose) return true;
+    if (x === 0) return false;
+    return this.stableAt(x) === true ? false : null;
+  }
+
+  /** The crossing dose of each mode the bounds did not settle (m⁻³; +∞ when its determinant never changes sign), for checks. */
+  modeCrossings(): { mode: number; dose: number }[] {
+    return Array.from({ length: this.active }, (_, a) => ({ mode: this.modeN[a]!, dose: this.xk[a]! }));
+  }
+}
