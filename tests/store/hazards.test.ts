@@ -40,8 +40,28 @@ describe('species hazard sets (0005)', () => {
     expect(() => db.prepare('DELETE FROM species_hazard_sets').run()).toThrow(/never deleted/);
     expect(() => db.prepare("UPDATE hazard_sets SET author = 'x'").run()).toThrow(/immutable/);
     expect(() => db.prepare('DELETE FROM hazard_sets').run()).toThrow(/never deleted/);
-    expect(() => db.prepare("INSERT INTO species_hazard_sets (species_key, version, body, author, created_at) VALUES ('enz', 1, '{}', 'x', 'now')").run()).toThrow(/UNIQUE/);
+    expect(() => db.prepare("INSERT INTO species_hazard_sets (species_key, version, body, author, created_at) VALUES ('enz', 1, '{}', 'x', 'now')").run()).toThrow(/this version exists/);
     expect(() => db.prepare("INSERT INTO species_hazard_sets (species_key, version, body, author, created_at) VALUES ('y', 1, 'not json', 'x', 'now')").run()).toThrow(/CHECK/);
+  });
+  it('a replacing insert cannot rewrite a version in place (0006: REPLACE skips delete triggers)', () => {
+    const db = openDatabase(':memory:');
+    const repo = hazardsRepository(db);
+    repo.species.write('enz', 0, body('a'));
+    repo.chemical.write('h2o2', 0, { source: 's', bands: [] });
+    for (const sql of [
+      "INSERT OR REPLACE INTO species_hazard_sets (species_key, version, body, author, created_at) VALUES ('enz', 1, '{}', 'x', 'now')",
+      "REPLACE INTO species_hazard_sets (species_key, version, body, author, created_at) VALUES ('enz', 1, '{}', 'x', 'now')",
+      "INSERT OR REPLACE INTO species_hazard_sets (id, species_key, version, body, author, created_at) VALUES (1, 'other', 1, '{}', 'x', 'now')",
+      "INSERT OR REPLACE INTO hazard_sets (chemical_key, version, body, author, created_at) VALUES ('h2o2', 1, '{}', 'x', 'now')",
+      "INSERT OR REPLACE INTO hazard_sets (id, chemical_key, version, body, author, created_at) VALUES (1, 'other', 1, '{}', 'x', 'now')",
+    ]) {
+      expect(() => db.prepare(sql).run(), sql).toThrow(/immutable: this version exists/);
+    }
+    expect(repo.species.current('enz')).toMatchObject({ version: 1, body: body('a') });
+    expect(repo.chemical.current('h2o2')).toMatchObject({ version: 1, body: { source: 's', bands: [] } });
+    expect(repo.species.current('other')).toBeNull();
+    // the next version is still written as before
+    expect(repo.species.write('enz', 1, body('b')).version).toBe(2);
   });
   it('a chemical and a species with the same key are kept apart; the top-level methods are the chemicals’', () => {
     const repo = hazardsRepository(openDatabase(':memory:'));
