@@ -148,8 +148,8 @@ export interface BenchPlan {
   preparations: Preparation[];
   /** the working-dilution decision for each pipetted chemical */
   working: { chemical: string; decision: WorkingDecision; code: string | null }[];
-  /** the table's volume columns in order of addition (the buffer first, the fuel last) */
-  columns: { key: string; label: string }[];
+  /** the table's volume columns in order of addition (the buffer first, the fuel last): a short header (a code, or a role such as "dopant stock") and the liquid's full name */
+  columns: { key: string; short: string; label: string }[];
   tubes: Tube[];
   handled: Handled[];
   components: Component[];
@@ -487,9 +487,14 @@ function attemptPlan(
   });
   if (problems.length > 0) throw new Impossible(problems.join(' '));
 
+  // Each column has a short header (a code or a role: the table must fit a page) and its full name for the caption.
+  const baseNo = (id: string) => (baseIds.length === 1 ? 'base' : `base ${baseIds.indexOf(id) + 1}`);
   const columns = columnKeys.map((k) => {
     const l = liquids.get(k)!;
-    return { key: k, label: l.kind === 'master-mix' ? l.label : l.code ? `${l.code} ${l.label}` : l.label };
+    const id = [...l.contents.keys()][0];
+    const role = id === dopantId ? 'dopant' : id !== undefined && baseIds.includes(id) ? baseNo(id) : null;
+    const short = l.kind === 'buffer' ? l.label : l.code ?? (role ? `${role} stock` : l.label);
+    return { key: k, short, label: l.label };
   });
 
   // Concentrations handled, per chemical: stock bottle, working solution, sample.
@@ -597,8 +602,8 @@ export function pipettingJson(plan: BenchPlan) {
       tubes: p.tubes,
       perTube: p.perTube === null ? null : ulAmount(p.perTube),
     })),
-    /** the table's volume columns in order of addition; `last`: the fuel (the sample is started by it) */
-    columns: plan.columns.map((c) => c.label),
+    /** the table's volume columns in order of addition: short header and full name */
+    columns: plan.columns.map((c) => ({ short: c.short, label: c.label })),
     tubes: plan.tubes.map((t) => ({
       code: t.code,
       lids: t.lids,
@@ -619,7 +624,7 @@ export function pipettingJson(plan: BenchPlan) {
 }
 export type PipettingJson = ReturnType<typeof pipettingJson>;
 
-const KIND_TEXT: Record<SampleKind, string> = { 'no-dopant': 'control: no dopant', series: 'dose', 'no-fuel': 'control: no fuel', 'dopant-alone': 'control: dopant alone' };
+const KIND_TEXT: Record<SampleKind, string> = { 'no-dopant': 'no dopant', series: 'dose', 'no-fuel': 'no fuel', 'dopant-alone': 'dopant alone' };
 
 /** An Amount of the JSON as printed: µL to 0.1 µL (mL from 10 mL), per mL, mM below 1 M and M above. */
 const vText = (a: Amount) => (a.value >= 10000 ? `${Number((a.value / 1000).toFixed(2))} mL` : `${a.value} µL`);
@@ -664,19 +669,20 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
   if (reasons.length) blocks.push({ kind: 'list', items: reasons });
 
   const fuelLast = p.columns.length > 1 && p.working.length > 0;
-  blocks.push({ kind: 'heading', text: `Tubes, in order of addition: ${p.columns.join(', ')}${fuelLast ? ' last' : ''}; then mix gently and start the clock` });
+  blocks.push({ kind: 'heading', text: `Tubes, in order of addition: ${p.columns.map((c) => c.short).join(', ')}${fuelLast ? ' last' : ''}; then mix gently and start the clock` });
   const cols: Column[] = [
     { id: 'tube', label: 'tube (lids)' },
     { id: 'sample', label: 'sample' },
     { id: 'planned', label: 'dose planned', numeric: true },
     { id: 'delivered', label: 'dose delivered', numeric: true },
-    ...p.columns.map((c, i) => ({ id: `v${i}`, label: c, numeric: true })),
+    ...p.columns.map((c, i) => ({ id: `v${i}`, label: c.short, numeric: true })),
     { id: 'start', label: 'mixed, clock started', check: true },
   ];
   const rows: Row[] = p.tubes.map((t) => ({
     code: t.code,
     cells: [
-      R === 1 ? t.code : `${t.code} ${t.lids[0]!.slice(t.code.length)}–${t.lids.at(-1)!.slice(t.code.length)}`,
+      // a no-break space: "D3 a–c" stays on one line
+      R === 1 ? t.code : `${t.code}\u00a0${t.lids[0]!.slice(t.code.length)}–${t.lids.at(-1)!.slice(t.code.length)}`,
       t.kind === 'series' ? (options.doseLabel?.(t) ?? t.name) : KIND_TEXT[t.kind],
       t.plannedDose === null ? '—' : cText(t.plannedDose),
       t.deliveredDose === null ? '—' : cText(t.deliveredDose),
@@ -684,7 +690,9 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
       null,
     ],
   }));
-  blocks.push(table(cols, rows, `dopant: ${label(p.dopant)}; doses per mL of sample`));
+  // the dopant is named once (its stock column needs no second line); every other short header is spelled out
+  const legend = p.columns.filter((c) => c.short !== c.label && c.short !== 'dopant stock').map((c) => `${c.short}: ${c.label}`);
+  blocks.push(table(cols, rows, [`dopant: ${label(p.dopant)}`, ...legend, 'doses per mL of sample'].join('; ')));
 
   // What every tube holds besides the dopant: planned and delivered (the same in every tube that takes it, or a range).
   const held: string[] = [];

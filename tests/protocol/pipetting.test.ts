@@ -68,7 +68,7 @@ function traced(plan: BenchPlan): Map<string, Map<string, number>> {
   return result;
 }
 
-const col = (plan: BenchPlan, label: RegExp) => plan.columns.findIndex((c) => label.test(c.label));
+const col = (plan: BenchPlan, header: RegExp) => plan.columns.findIndex((c) => header.test(c.short));
 
 describe('the compact pipetting plan of a default sheet', () => {
   const { comps, samples } = demo();
@@ -92,7 +92,7 @@ describe('the compact pipetting plan of a default sheet', () => {
     // as made: 9790 × 68 / 333 = 1999.16 mM
     expect(w.contents.get('fuel')!).toBeCloseTo((9790 * 68) / 333, 9);
     // every tube with fuel takes 10 µL of W1, none any stock
-    const wi = col(plan, /^W1 /);
+    const wi = col(plan, /^W1$/);
     for (const t of plan.tubes) expect(t.volumes[wi]! / UL).toBeCloseTo(t.kind === 'no-fuel' ? 0 : 10, 9);
     expect(plan.columns.some((c) => c.key === 'stock\u0000fuel')).toBe(false);
   });
@@ -143,7 +143,8 @@ describe('the compact pipetting plan of a default sheet', () => {
   });
 
   it('order of addition: buffer first, the master mix, the dopant, the fuel last', () => {
-    expect(plan.columns.map((c) => c.label)).toEqual(['buffer', 'master mix', 'dopant stock', 'W1 peroxide 2 M']);
+    expect(plan.columns.map((c) => c.short)).toEqual(['buffer', 'MM', 'dopant stock', 'W1']);
+    expect(plan.columns.map((c) => c.label)).toEqual(['buffer', 'master mix', 'dopant stock', 'peroxide 2 M']);
   });
 
   it('one section, one row per sample with its code, the rule and C₁V₁ = C₂V₂ named; the JSON keeps the same data', () => {
@@ -155,7 +156,8 @@ describe('the compact pipetting plan of a default sheet', () => {
     const texts = sectionTexts(sections).join('\n');
     expect(texts).toMatch(/0\.1 µL below 10 µL, to 1 µL below 100 µL/);
     expect(texts).toMatch(/C₁V₁ = C₂V₂/);
-    expect(texts).toMatch(/D4 a–c/);
+    expect(texts).toMatch(/D4\u00a0a–c/);
+    expect(texts).toMatch(/MM: master mix; W1: peroxide 2 M/);
     expect(texts).toMatch(/1\.552 × 10⁸ \/mL/); // D4 delivered
     expect(texts).toMatch(/W1.*68 µL peroxide stock.*265 µL buffer/s);
     const json = pipettingJson(plan);
@@ -229,7 +231,7 @@ describe('serial dilutions and plans that do not fit', () => {
     for (const t of plan.tubes) for (const [k, v] of t.planned) if (v > 0) expect(Math.abs(tr.get(t.code)!.get(k)! / v - 1)).toBeLessThan(0.05);
     expect(Math.min(...plan.allVolumes)).toBeGreaterThanOrEqual(o.minVolume * (1 - 1e-9));
     // the largest dose still from the stock (40 µL), the small ones from the dilution
-    const s1 = col(plan, /^S1 /);
+    const s1 = col(plan, /^S1$/);
     const st = col(plan, /^dopant stock$/);
     expect(plan.tubes[1]!.volumes[s1]! / UL).toBeCloseTo(5, 12);
     expect(plan.tubes[3]!.volumes[st]! / UL).toBeCloseTo(40, 12);
