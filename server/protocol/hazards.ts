@@ -5,7 +5,9 @@
  * species' data, e.g. an enzyme powder as a respiratory sensitiser). The classification of what is handled
  * is the union of the bands that contain its mass fraction (and apply to its form), with the CLP/GHS
  * precedence rules that matter here: the signal word is "Danger" if any band says so, and the exclamation
- * mark (GHS07) is not shown for skin or eye irritation when the corrosion pictogram (GHS05) is.
+ * mark (GHS07) gives way as CLP Article 26(1) says: (b) not at all beside the skull and crossbones (GHS06),
+ * (c) not for skin or eye irritation beside the corrosion pictogram (GHS05), (d) not for skin sensitisation
+ * or skin and eye irritation beside the health hazard pictogram (GHS08) for respiratory sensitisation.
  *
  * Answers that cannot mislead (docs/model.md §11): a classification says whether there were data at all
  * (`status`): "no-data" (nothing on the shelf: not classified, read the supplier's safety data sheet),
@@ -23,7 +25,7 @@ export const hazardFormSchema = z.enum(HAZARD_FORMS);
 export const hazardBandSchema = z.strictObject({
   /** inclusive lower bound of the mass fraction (0–1) */
   min: z.number().min(0).max(1),
-  /** exclusive upper bound, null for no upper bound */
+  /** exclusive upper bound, null for no upper bound (1 includes the neat material, w = 1) */
   max: z.number().min(0).max(1).nullable(),
   /** hazard statement code, e.g. H318 */
   statement: z.string().regex(/^EUH?\d{3}[A-Za-z]*$|^H\d{3}[A-Za-z]*$/, 'a hazard statement code such as H318'),
@@ -102,30 +104,44 @@ export interface Classification {
   assumedNeat?: boolean;
 }
 
-const IRRITATION = new Set(['H315', 'H319']);
+/**
+ * Whether the exclamation mark (GHS07) stays beside the other pictograms, by the precedence rules of CLP
+ * Article 26(1) (docs/model.md §11): (b) GHS06 present → never; (c) GHS05 present → not for skin or eye
+ * irritation (H315, H319); (d) GHS08 for respiratory sensitisation (H334) present → not for skin
+ * sensitisation (H317) or skin and eye irritation. It stays when some band shows it for anything else
+ * (e.g. H335, respiratory irritation).
+ */
+function keepsExclamationMark(bands: readonly HazardBand[]): boolean {
+  const shown = (p: string) => bands.some((b) => b.pictograms.includes(p));
+  if (shown('GHS06')) return false;
+  const givesWay = new Set<string>();
+  if (shown('GHS05')) for (const h of ['H315', 'H319']) givesWay.add(h);
+  if (bands.some((b) => b.statement === 'H334' && b.pictograms.includes('GHS08'))) for (const h of ['H315', 'H319', 'H317']) givesWay.add(h);
+  return bands.some((b) => b.pictograms.includes('GHS07') && !givesWay.has(b.statement));
+}
 
 /**
  * The classification of a material of mass fraction w (0–1, or null when not known: then the neat material,
  * w = 1, is classified and `assumedNeat` says so) in a given form under a set of bands (null: no data).
+ * A w above 1 (a mass fraction worked out with an approximate density) counts as the neat material; a
+ * negative one is refused (RangeError). A band whose max is 1 includes the neat material.
  */
 export function classify(set: HazardSet | null, w: number | null, opts: { form?: HazardForm | null; version?: number | null } = {}): Classification {
   const form = opts.form ?? null;
   const version = opts.version ?? null;
   const assumedNeat = w === null || !Number.isFinite(w);
-  const massFraction = assumedNeat ? 1 : w;
+  if (!assumedNeat && w < 0) throw new RangeError(`a mass fraction must be 0–1 (or null: not known), got ${w}`);
+  const massFraction = assumedNeat ? 1 : Math.min(1, w);
   const neat = assumedNeat ? { assumedNeat: true } : {};
   const empty = { massFraction, form, version, statements: [], pictograms: [], signal: null, precautionary: [], ...neat };
   if (set === null) return { ...empty, status: 'no-data', note: NO_HAZARD_DATA };
   if (form !== null && set.forms && !set.forms.includes(form)) return { ...empty, status: 'no-data-for-form', note: noDataForForm(form, set.forms) };
-  const bands = set.bands.filter((b) => massFraction >= b.min && (b.max === null || massFraction < b.max) && (form === null || !b.forms || b.forms.includes(form)));
+  const bands = set.bands.filter((b) => massFraction >= b.min && (b.max === null || massFraction < b.max || (b.max >= 1 && massFraction >= 1)) && (form === null || !b.forms || b.forms.includes(form)));
   if (bands.length === 0) return { ...empty, status: 'below-limits', note: belowLimits(version) };
   // one line per statement and class (two bands of one class, e.g. per form, say it once)
   const statements = [...new Map(bands.map((b) => [`${b.statement}\u0000${b.hazardClass}\u0000${b.text}`, { code: b.statement, text: b.text, hazardClass: b.hazardClass }])).values()];
   let pictograms = [...new Set(bands.flatMap((b) => b.pictograms))].sort();
-  if (pictograms.includes('GHS05')) {
-    const otherGhs07 = bands.some((b) => b.pictograms.includes('GHS07') && !IRRITATION.has(b.statement));
-    if (!otherGhs07) pictograms = pictograms.filter((p) => p !== 'GHS07');
-  }
+  if (pictograms.includes('GHS07') && !keepsExclamationMark(bands)) pictograms = pictograms.filter((p) => p !== 'GHS07');
   const signal = bands.some((b) => b.signal === 'Danger') ? 'Danger' : bands.some((b) => b.signal === 'Warning') ? 'Warning' : null;
   const precautionary = [...new Set(bands.flatMap((b) => b.precautionary))];
   const classes = [...new Set(statements.map((s) => s.hazardClass))].join(', ');

@@ -147,3 +147,49 @@ describe('hazardsFor over the store', () => {
     expect(hazardsFor(lookup, 'species', 'catb-0.22-l04', [{ where: 'stock', massFraction: null, form: 'suspension' }]).asHandled[0]!.classification.note).toBe(NO_HAZARD_DATA);
   });
 });
+
+describe('pictogram precedence: CLP Article 26(1)(b)–(d) (Regulation (EC) No 1272/2008; recalled, then read in a published copy of the Article)', () => {
+  // (b) GHS06 → no GHS07; (c) GHS05 → no GHS07 for skin or eye irritation; (d) GHS08 for respiratory
+  // sensitisation → no GHS07 for skin sensitisation or skin and eye irritation. Pictograms and signal words
+  // per class from CLP Annex I (from memory): Acute Tox. 3 GHS06 Danger, Acute Tox. 4 / Skin Irrit. 2 /
+  // Eye Irrit. 2 / Skin Sens. 1 / STOT SE 3 GHS07 Warning, Resp. Sens. 1 GHS08 Danger.
+  const band = (statement: string, hazardClass: string, pictograms: string[], signal: 'Danger' | 'Warning') => ({ min: 0, max: null, statement, text: hazardClass, hazardClass, pictograms, signal, precautionary: ['P280 Wear protective gloves.'] });
+  const set = (...bands: ReturnType<typeof band>[]) => hazardSetSchema.parse({ source: 'test bands, classes as named above', bands });
+  const acuteTox3 = band('H301', 'Acute Tox. 3', ['GHS06'], 'Danger');
+  const acuteTox4 = band('H302', 'Acute Tox. 4', ['GHS07'], 'Warning');
+  const skinIrrit = band('H315', 'Skin Irrit. 2', ['GHS07'], 'Warning');
+  const eyeIrrit = band('H319', 'Eye Irrit. 2', ['GHS07'], 'Warning');
+  const skinSens = band('H317', 'Skin Sens. 1', ['GHS07'], 'Warning');
+  const respSens = band('H334', 'Resp. Sens. 1', ['GHS08'], 'Danger');
+  const stot3 = band('H335', 'STOT SE 3', ['GHS07'], 'Warning');
+  const eyeDam = band('H318', 'Eye Dam. 1', ['GHS05'], 'Danger');
+  const pics = (s: HazardSet) => classify(s, 0.5).pictograms;
+  it('(b) the skull and crossbones hides the exclamation mark whatever it stands for', () => {
+    expect(pics(set(acuteTox3, acuteTox4, stot3))).toEqual(['GHS06']);
+    expect(pics(set(acuteTox4, stot3))).toEqual(['GHS07']);
+  });
+  it('(c) corrosion hides it for skin and eye irritation only', () => {
+    expect(pics(set(eyeDam, skinIrrit, eyeIrrit))).toEqual(['GHS05']);
+    expect(pics(set(eyeDam, skinIrrit, skinSens))).toEqual(['GHS05', 'GHS07']); // skin sensitisation keeps it
+  });
+  it('(d) the health hazard for respiratory sensitisation hides it for skin sensitisation and skin/eye irritation, not for the rest', () => {
+    expect(pics(set(respSens, skinSens, skinIrrit, eyeIrrit))).toEqual(['GHS08']);
+    expect(pics(set(respSens, skinSens, stot3))).toEqual(['GHS07', 'GHS08']);
+    // GHS08 for another hazard (here a carcinogen, Carc. 2, H351) does not
+    expect(pics(set(band('H351', 'Carc. 2', ['GHS08'], 'Warning'), skinSens))).toEqual(['GHS07', 'GHS08']);
+  });
+});
+
+describe('mass fractions at the ends of the range', () => {
+  const upTo1 = hazardSetSchema.parse({ source: 'test band', bands: [{ min: 0.5, max: 1, statement: 'H318', text: 'Causes serious eye damage.', hazardClass: 'Eye Dam. 1', pictograms: ['GHS05'], signal: 'Danger', precautionary: ['P280 Wear eye protection.'] }] });
+  it('a band up to max 1 holds the neat material (w = 1, and an unknown w classified as neat)', () => {
+    expect(classify(upTo1, 1).status).toBe('classified');
+    expect(classify(upTo1, null)).toMatchObject({ status: 'classified', assumedNeat: true });
+    expect(classify(upTo1, 0.4999).status).toBe('below-limits');
+  });
+  it('a w above 1 (from an approximate density) counts as the neat material; a negative w is refused', () => {
+    expect(classify(upTo1, 1.03)).toMatchObject({ status: 'classified', massFraction: 1 });
+    expect(() => classify(upTo1, -0.01)).toThrow(RangeError);
+    expect(() => classify(null, -0.01)).toThrow(RangeError);
+  });
+});

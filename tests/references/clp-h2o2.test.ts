@@ -10,7 +10,7 @@
  *   STOT SE 3 H335 C ≥ 35 %.  (C in % w/w.)
  * Pictograms and signal words per class from CLP Annex I / UN GHS (from memory): Ox. Liq. → GHS03 Danger;
  * Skin Corr. 1A/1B and Eye Dam. 1 → GHS05 Danger; Skin Irrit. 2, Eye Irrit. 2, STOT SE 3 → GHS07 Warning;
- * GHS07 is not shown for skin/eye irritation when GHS05 is (CLP Article 26(1)(d), from memory).
+ * GHS07 is not shown for skin/eye irritation when GHS05 is (CLP Article 26(1)(c); recalled, then read in a published copy of the Article).
  * Molar mass of H₂O₂ 34.0147 g/mol and water's density 997.047 kg/m³ at 25 °C (handbook, from memory):
  * 200 mM is w = 0.2 mol/L × 34.0147 g/mol / 997.047 g/L = 0.68232 %.
  */
