@@ -142,7 +142,7 @@ export interface TubeGas {
   chamberGasVolume: number | null;
   /** chamberGasVolume / chamber volume (null: unknown) */
   fractionOfChamber: number | null;
-  /** pressure a closed tube would reach, in atmospheres of the ambient pressure: 1 + V/H (null: unknown) */
+  /** absolute pressure a closed tube would reach, in multiples of the ambient pressure: 1 + V/H (null: unknown or no headspace) */
   overpressure: number | null;
   ventFraction: number;
   /** the tube's gas exceeds ventFraction of its headspace (or there is no headspace and any gas) */
@@ -157,12 +157,15 @@ export interface TubeGas {
   message: string;
 }
 
+/** `digits` significant figures in plain decimals (toPrecision alone writes 1.5e+2 from 150). */
+const sig = (x: number, digits: number) => String(Number(x.toPrecision(digits)));
+/** A volume in m³ as µL below 1 mL, else mL (a value that rounds to 1000 µL is written 1 mL). */
 const mL = (v: number) => {
-  const x = v * 1e6;
-  return `${x >= 1 ? x.toPrecision(3) : (x * 1000).toPrecision(3)} ${x >= 1 ? 'mL' : 'µL'}`;
+  const uL = Number((v * 1e9).toPrecision(3));
+  return uL < 1000 ? `${sig(v * 1e9, 3)} µL` : `${sig(v * 1e6, 3)} mL`;
 };
-const pct = (f: number) => `${(f * 100).toPrecision(2)} %`;
-const times = (f: number) => (f >= 1 ? `${f.toPrecision(2)} ×` : pct(f));
+const pct = (f: number) => `${sig(f * 100, 2)} %`;
+const times = (f: number) => (Number(f.toPrecision(2)) >= 1 ? `${sig(f, 2)} ×` : pct(f));
 
 /**
  * The gas one tube's fuel can release, against the tube's headspace and the chamber (docs/model.md §11).
@@ -173,6 +176,7 @@ export function tubeGas(input: TubeGasInput): TubeGas {
   const { gas, fuelMoles, yieldPerFuel, temperature } = input;
   const pressure = input.pressure ?? STANDARD_ATMOSPHERE;
   const ventFraction = input.ventFraction ?? DEFAULT_VENT_FRACTION;
+  if (!(fuelMoles >= 0) || !Number.isFinite(fuelMoles)) throw new RangeError(`fuelMoles must be a finite number ≥ 0 (mol), got ${fuelMoles}`);
   if (!(yieldPerFuel >= 0) || !Number.isFinite(yieldPerFuel)) throw new RangeError(`yieldPerFuel must be a finite number ≥ 0, got ${yieldPerFuel}`);
   if (!(ventFraction > 0)) throw new RangeError(`ventFraction must be above 0, got ${ventFraction}`);
   for (const [k, v] of [['tubeVolume', input.tubeVolume], ['sampleVolume', input.sampleVolume ?? null], ['chamberVolume', input.chamberVolume]] as const) {
@@ -198,16 +202,23 @@ export function tubeGas(input: TubeGasInput): TubeGas {
   const closedWithCatalyst = input.closed === true && catalyst && fuelMoles > 0;
 
   const parts: string[] = [];
-  const t = `${(temperature - 273.15).toFixed(0)} °C`;
+  const t = `${Number((temperature - 273.15).toFixed(1))} °C`;
   if (moles === 0) {
     parts.push(fuelMoles === 0 ? `No fuel in this tube: no ${gas} from it.` : `Nothing in this tube turns the fuel into ${gas}.`);
   } else {
-    parts.push(`The fuel can release up to ${(moles * 1e6).toPrecision(3)} µmol ${gas}, ${mL(volume)} of gas at ${t} (ideal gas, ${(vm * 1e3).toPrecision(4)} L/mol)`);
+    parts.push(`The fuel can release up to ${sig(moles * 1e6, 3)} µmol ${gas}, ${mL(volume)} of gas at ${t} (ideal gas, ${(vm * 1e3).toPrecision(4)} L/mol)`);
     const against: string[] = [];
     if (fractionOfTube !== null) against.push(`${times(fractionOfTube)} the tube's volume`);
     if (fractionOfChamber !== null) against.push(`${times(fractionOfChamber)} the chamber's volume`);
     parts[0] += against.length ? `: ${against.join(', ')}.` : '.';
-    if (ventTube) parts.push(`More than ${pct(ventFraction)} of the tube's headspace: leave the tube open or vented while it reacts${overpressure !== null ? ` (closed, it would reach about ${overpressure.toPrecision(2)} atm)` : ''}.`);
+    // Missing volumes are said, not skipped: no venting advice is not "no need to vent".
+    if (tube === null && chamber === null) parts.push("The tube's and the chamber's volumes are not known: not compared, so no venting advice for either; keep both open or vented.");
+    else if (tube === null) parts.push("The tube's volume is not known: not compared, so no venting advice for it; keep it open or vented.");
+    else if (chamber === null) parts.push("The chamber's volume is not known: not compared, so no venting advice for it; keep it open or vented.");
+    // 1 + V/H ambient pressures, written in atm (the ambient need not be 1 atm)
+    const closedAtm = overpressure === null ? null : (overpressure * pressure) / STANDARD_ATMOSPHERE;
+    if (ventTube && headspace === 0) parts.push(`The tube is full (no headspace): leave it open or vented while it reacts.`);
+    else if (ventTube) parts.push(`More than ${pct(ventFraction)} of the tube's headspace: leave the tube open or vented while it reacts${closedAtm !== null ? ` (closed, it would reach about ${sig(closedAtm, 2)} atm)` : ''}.`);
     if (ventChamber) parts.push(`More than ${pct(ventFraction)} of the chamber's volume: the chamber must let the gas out (an open or vented cell), or use less fuel; bubbles will also spoil imaging.`);
   }
   if (closedWithCatalyst) parts.push(`CAUTION: a closed vessel holding catalyst and fuel builds pressure and can burst; do not close it unless it is built to take the pressure.`);

@@ -100,7 +100,8 @@ describe('per tube: 100 µL of 200 mM H₂O₂ decomposed by catalase', () => {
     expect(below.ventTube).toBe(false);
     expect(above.ventTube).toBe(true);
     expect(below.vent).toBe(false);
-    expect(below.message).not.toMatch(/vent/);
+    expect(below.message).not.toMatch(/headspace: leave the tube open or vented/);
+    expect(above.message).toMatch(/More than 10 % of the tube's headspace: leave the tube open or vented/);
   });
   it('a stated fraction other than 10 % is used as given', () => {
     const g = tubeGas({ ...base, tubeVolume: 1.5e-6, sampleVolume: 100e-9, chamberVolume: null, ventFraction: 0.2 });
@@ -122,5 +123,40 @@ describe('per tube: 100 µL of 200 mM H₂O₂ decomposed by catalase', () => {
     expect(g.headspace).toBe(0);
     expect(g.ventTube).toBe(true);
     expect(g.overpressure).toBeNull();
+    expect(g.message).toMatch(/The tube is full \(no headspace\): leave it open or vented/);
+  });
+  it('a volume not known is said, not skipped: no venting advice is not "no need to vent"', () => {
+    expect(tubeGas({ ...base, tubeVolume: null, chamberVolume: null }).message).toMatch(/tube's and the chamber's volumes are not known: not compared/);
+    expect(tubeGas({ ...base, tubeVolume: 1.5e-6, sampleVolume: 100e-9, chamberVolume: null }).message).toMatch(/chamber's volume is not known: not compared/);
+    expect(tubeGas({ ...base, tubeVolume: null, chamberVolume: 100e-9 }).message).toMatch(/tube's volume is not known: not compared/);
+    expect(tubeGas({ ...base, tubeVolume: 1.5e-6, sampleVolume: 100e-9, chamberVolume: 100e-9 }).message).not.toMatch(/not known/);
+  });
+  it('the closed-tube pressure is written in atm also when the ambient is not 1 atm', () => {
+    // at 0.8 atm: V = 1e-5 mol × 8.314462618 × 298.15 / 81060 Pa = 3.05818e-7 m³; H = 1.4e-6 m³;
+    // closed: 0.8 atm × (1 + 3.05818e-7 / 1.4e-6) = 0.8 × 1.21844 = 0.975 atm
+    const g = tubeGas({ ...base, pressure: 0.8 * 101325, tubeVolume: 1.5e-6, sampleVolume: 100e-9, chamberVolume: 100e-9 });
+    expect(g.volume * 1e9).toBeCloseTo(305.818, 2);
+    expect(g.overpressure!).toBeCloseTo(1.21844, 4);
+    expect(g.message).toContain('(closed, it would reach about 0.97 atm)');
+  });
+  it('figures in plain decimals: 1 M peroxide, ½ O₂ per H₂O₂, is 12 × the chamber; 1000 µL is written 1 mL', () => {
+    // 1000 mol/m³ × 0.5 × 0.0244654 m³/mol = 12.23 (the chamber filled from the sample holds the same concentration)
+    const strong = tubeGas({ ...base, fuelMoles: 100e-9 * 1000, tubeVolume: 1.5e-6, sampleVolume: 100e-9, chamberVolume: 100e-9 });
+    expect(strong.fractionOfChamber!).toBeCloseTo(12.2327, 3);
+    expect(strong.message).toContain('12 × the chamber');
+    // 9 M over the same 100 µL: 9e-4 mol H₂O₂ → 450 µmol O₂ → × 24.4654 mL/mmol = 11.009 mL, 7.3 × the 1.5 mL tube, 110 × the 100 µL chamber (toPrecision alone: 1.1e+2)
+    const stock = tubeGas({ ...base, fuelMoles: 100e-9 * 9000, tubeVolume: 1.5e-6, sampleVolume: 100e-9, chamberVolume: 100e-9 });
+    expect(stock.message).toContain('450 µmol');
+    expect(stock.message).toContain('11 mL of gas');
+    expect(stock.message).toContain('110 × the chamber');
+    expect(stock.message).not.toMatch(/e[+-]\d/);
+    // 40.87 µmol × 24.4654 mL/mmol = 0.99990 mL → 1000 µL at three figures → "1 mL"
+    const edge = tubeGas({ ...base, fuelMoles: 2 * 40.87e-6, tubeVolume: null, chamberVolume: null });
+    expect(edge.volume * 1e6).toBeCloseTo(0.9999, 4);
+    expect(edge.message).toContain('1 mL of gas');
+  });
+  it('refuses a negative or non-finite amount of fuel by its name', () => {
+    expect(() => tubeGas({ ...base, fuelMoles: -1e-6, tubeVolume: null, chamberVolume: null })).toThrow(/fuelMoles/);
+    expect(() => tubeGas({ ...base, fuelMoles: Number.NaN, tubeVolume: null, chamberVolume: null })).toThrow(/fuelMoles/);
   });
 });
