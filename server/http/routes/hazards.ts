@@ -32,36 +32,34 @@ export const hazardRoutes: FastifyPluginAsync = async (base) => {
     };
   };
 
-  app.get('/api/chemicals/:id/hazards', {
-    schema: { tags: ['shelf'], summary: "A chemical's hazard bands (current) and their version history", params: z.object({ id: keySchema }) },
-    handler: async (req) => read('chemical', req.params.id),
-  });
-  app.put('/api/chemicals/:id/hazards', {
-    schema: {
-      tags: ['shelf'],
-      summary: "Replace a chemical's hazard data: a new version, refused with 409 if baseVersion is not the current one (0 for the first)",
-      params: z.object({ id: keySchema }),
-      body: z.strictObject({ baseVersion: z.number().int().min(0), hazards: hazardSetSchema, ...meta }),
+  // The same two routes for each kind; only the path, the body's schema and the words differ.
+  const kinds = [
+    {
+      kind: 'chemical',
+      path: '/api/chemicals/:id/hazards',
+      set: hazardSetSchema,
+      get: "A chemical's hazard bands (current) and their version history",
+      put: "Replace a chemical's hazard data: a new version, refused with 409 if baseVersion is not the current one (0 for the first)",
     },
-    handler: async (req) => {
-      app.shelf.repo.mustGet('chemical', req.params.id);
-      return app.hazards.chemical.write(req.params.id, req.body.baseVersion, req.body.hazards, { author: req.body.author, note: req.body.note ?? null });
+    {
+      kind: 'species',
+      path: '/api/species/:id/hazards',
+      set: speciesHazardSetSchema,
+      get: "A species' hazard bands by form (current) and their version history",
+      put: "Replace a species' hazard data (bands by form; `forms` names the forms covered): a new version, refused with 409 if baseVersion is not the current one (0 for the first)",
     },
-  });
-  app.get('/api/species/:id/hazards', {
-    schema: { tags: ['shelf'], summary: "A species' hazard bands by form (current) and their version history", params: z.object({ id: keySchema }) },
-    handler: async (req) => read('species', req.params.id),
-  });
-  app.put('/api/species/:id/hazards', {
-    schema: {
-      tags: ['shelf'],
-      summary: "Replace a species' hazard data (bands by form; `forms` names the forms covered): a new version, refused with 409 if baseVersion is not the current one (0 for the first)",
-      params: z.object({ id: keySchema }),
-      body: z.strictObject({ baseVersion: z.number().int().min(0), hazards: speciesHazardSetSchema, ...meta }),
-    },
-    handler: async (req) => {
-      app.shelf.repo.mustGet('species', req.params.id);
-      return app.hazards.species.write(req.params.id, req.body.baseVersion, req.body.hazards, { author: req.body.author, note: req.body.note ?? null });
-    },
-  });
+  ] as const;
+  for (const k of kinds) {
+    app.get(k.path, {
+      schema: { tags: ['shelf'], summary: k.get, params: z.object({ id: keySchema }) },
+      handler: async (req) => read(k.kind, req.params.id),
+    });
+    app.put(k.path, {
+      schema: { tags: ['shelf'], summary: k.put, params: z.object({ id: keySchema }), body: z.strictObject({ baseVersion: z.number().int().min(0), hazards: k.set, ...meta }) },
+      handler: async (req) => {
+        app.shelf.repo.mustGet(k.kind, req.params.id);
+        return app.hazards.of(k.kind).write(req.params.id, req.body.baseVersion, req.body.hazards, { author: req.body.author, note: req.body.note ?? null });
+      },
+    });
+  }
 };
