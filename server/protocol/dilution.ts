@@ -22,7 +22,7 @@ export function pipetteStep(v: number): number {
 
 /** The rounding rule as printed on the sheet. */
 export const ROUNDING_RULE =
-  'Volumes are rounded to what a hand pipette delivers (common practice): to 0.1 µL below 10 µL, to 1 µL below 100 µL, to 5 µL below 1000 µL and to 10 µL above; the buffer top-up of each tube takes the remainder, so that every tube holds exactly the sample volume. The dose delivered is computed from the rounded volumes (C₁V₁ = C₂V₂) and printed beside the planned one.';
+  'Volumes as a hand pipette is set (common practice): to 0.1 µL below 10 µL, 1 µL below 100 µL, 5 µL below 1000 µL, 10 µL above; the buffer takes the remainder, so every tube holds exactly the sample volume, and the doses delivered are computed from these volumes (C₁V₁ = C₂V₂).';
 
 /** n steps of `step`, computed in whole tenths of a µL and divided once, so that 66 tenths is 6.6e-9 m³ exactly as written. */
 const snap = (n: number, step: number) => (n * Math.round(step / (0.1 * UL))) / 1e10;
@@ -136,14 +136,14 @@ export function decideWorking(stockPerTube: number, below: number, stockBand: Cl
   const make = possible && (volumeRule || bandRule === true);
   const ul = (v: number) => `${Number((v / UL).toPrecision(3))} µL`;
   const parts: string[] = [];
-  if (volumeRule) parts.push(`the stock would be ${ul(stockPerTube)} per tube, below ${ul(below)}`);
-  const bands = (c: Classification | null) => (c && c.statements.length ? c.statements.map((x) => `${x.code} ${x.hazardClass}`).join(', ') + (c.signal ? ` (${c.signal})` : '') : 'no hazard statement under the shelf\u2019s bands');
+  if (volumeRule) parts.push(`${ul(stockPerTube)} of stock per tube is below ${ul(below)}`);
+  const bands = (c: Classification | null) => (c && c.statements.length ? c.statements.map((x) => `${x.code} ${x.hazardClass}`).join(', ') + (c.signal ? `, ${c.signal}` : '') : 'no hazard statement under the shelf\u2019s bands');
   const pc = (c: Classification) => `${Number((c.massFraction * 100).toPrecision(3))} % w/w`;
-  if (bandRule === true) parts.push(`the stock (${pc(stockBand!)}: ${bands(stockBand)}) is classified above the working solution (${pc(workingBand!)}: ${bands(workingBand)})`);
+  if (bandRule === true) parts.push(`the stock (${pc(stockBand!)}: ${bands(stockBand)}) is classified above it (${pc(workingBand!)}: ${bands(workingBand)})`);
   const reason = !possible
-    ? 'no working solution: the stock is already within a factor of two of a round working concentration'
+    ? 'pipetted from the stock: it is already within a factor of two of a round working concentration'
     : make
-      ? `working solution made: ${parts.join('; ')}`
+      ? `a working solution, since ${parts.join(', and ')}`
       : `pipetted from the stock: ${ul(stockPerTube)} per tube is at least ${ul(below)}${bandRule === null ? ', and the hazard bands could not be compared (no hazard data on the shelf, or no mass fraction)' : ', and the stock is not classified above the working solution'}`;
   return { make, stockPerTube, volumeRule, bandRule, reason };
 }

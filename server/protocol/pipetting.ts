@@ -154,6 +154,7 @@ export interface BenchPlan {
   handled: Handled[];
   components: Component[];
   dopantId: string;
+  baseIds: string[];
   /** every pipetted volume (the buffer top-ups included), for checks */
   allVolumes: number[];
 }
@@ -526,6 +527,7 @@ function attemptPlan(
     handled,
     components,
     dopantId,
+    baseIds,
     allVolumes,
   };
 }
@@ -576,6 +578,7 @@ export type TubeListEntry = ReturnType<typeof tubeList>[number];
 /** The structured pipetting data for the JSON rendering (numbers with units; volumes as set on the pipette). */
 export function pipettingJson(plan: BenchPlan) {
   const comp = new Map(plan.components.map((c) => [c.id, c]));
+  const liquid = new Map(plan.liquids.map((l) => [l.key, l]));
   const wOf = (id: string, x: number) => {
     const c = comp.get(id)!;
     return c.per === 'mol' && c.molarMass ? (x * c.molarMass) / WATER_DENSITY_25C : null;
@@ -588,6 +591,7 @@ export function pipettingJson(plan: BenchPlan) {
     minVolume: ulAmount(plan.minVolume),
     workingBelow: ulAmount(plan.workingBelow),
     dopant: plan.dopantId,
+    base: plan.baseIds,
     components: plan.components.map((c) => ({ id: c.id, label: c.label, per: c.per })),
     working: plan.working.map((w) => ({ chemical: w.chemical, made: w.decision.make, code: w.code, stockPerTube: ulAmount(w.decision.stockPerTube), volumeRule: w.decision.volumeRule, bandRule: w.decision.bandRule, reason: w.decision.reason })),
     preparations: plan.preparations.map((p) => ({
@@ -597,7 +601,8 @@ export function pipettingJson(plan: BenchPlan) {
       component: p.component,
       nominal: p.nominal === null || p.component === null ? null : concAmount(p.nominal, comp.get(p.component)!.per),
       volume: ulAmount(p.volume),
-      transfers: p.transfers.map((t) => ({ from: t.label, buffer: t.from === BUFFER, volume: ulAmount(t.volume) })),
+      /** base: the base species a master-mix transfer carries (null otherwise) */
+      transfers: p.transfers.map((t) => ({ from: t.label, buffer: t.from === BUFFER, base: p.kind === 'master-mix' ? ([...(liquid.get(t.from)?.contents.keys() ?? [])][0] ?? null) : null, volume: ulAmount(t.volume) })),
       contents: contents(p.contents),
       tubes: p.tubes,
       perTube: p.perTube === null ? null : ulAmount(p.perTube),
@@ -643,7 +648,7 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
   const label = (id: string) => comp.get(id)?.label ?? id;
   const blocks: Block[] = [];
   const R = p.replicates;
-  blocks.push({ kind: 'paragraph', text: `Each tube holds ${vText(p.sampleVolume)}; ${R} replicate tube${R === 1 ? '' : 's'} per row. ${p.rule}` });
+  blocks.push({ kind: 'paragraph', text: `Tubes of ${vText(p.sampleVolume)}, ${R} replicate${R === 1 ? '' : 's'} per row. ${p.rule}` });
 
   if (p.preparations.length > 0) {
     blocks.push({ kind: 'heading', text: 'Before the tubes: working solutions, dilutions, master mix' });
@@ -653,15 +658,17 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
       { id: 'make', label: 'make' },
       { id: 'from', label: 'from' },
       { id: 'into', label: 'into', numeric: true },
-      { id: 'total', label: 'total', numeric: true },
       { id: 'handled', label: 'concentration handled' },
     ];
     const rows: Row[] = p.preparations.map((x) => {
       const into = x.transfers.filter((t) => t.buffer);
       const from = x.transfers.filter((t) => !t.buffer);
-      const handled = x.contents.map((c) => `${x.kind === 'master-mix' ? `${label(c.component)} ` : ''}${cText(c.concentration)}${c.massFraction !== null ? ` (${pct(c.massFraction)})` : ''}`);
-      const extra = x.kind === 'master-mix' && x.perTube !== null ? `; ${vText(x.perTube)} per tube` : '';
-      return { cells: [null, x.code, `${x.label}${extra}`, from.map((t) => `${vText(t.volume)} ${t.from}`).join(' + '), into.length ? `${vText(into[0]!.volume)} ${into[0]!.from}` : '—', vText(x.volume), handled.join('; ')] };
+      // in the master mix the base species go by their role (named once in the make cell), so the row stays short
+      const role = (id: string) => (p.base.length === 1 ? 'base' : `base ${p.base.indexOf(id) + 1}`);
+      const handled = x.contents.map((c) => `${x.kind === 'master-mix' && p.base.length > 1 ? `${role(c.component)} ` : ''}${cText(c.concentration)}${c.massFraction !== null ? ` (${pct(c.massFraction)})` : ''}`);
+      const make = `${vText(x.volume)} ${x.kind === 'master-mix' ? `${x.label}${x.perTube !== null ? `, ${vText(x.perTube)} per tube` : ''} (${x.contents.map((c) => `${p.base.length > 1 ? `${role(c.component)}: ` : 'base: '}${label(c.component)}`).join('; ')})` : x.label}`;
+      const fromText = (t: (typeof x.transfers)[number]) => (x.kind === 'master-mix' && t.base !== null ? `${vText(t.volume)} ${role(t.base)} ${t.from.endsWith(' stock') ? 'stock' : t.from.slice(label(t.base).length + 1)}` : `${vText(t.volume)} ${t.from}`);
+      return { cells: [null, x.code, make, from.map(fromText).join(' + '), into.length ? `${vText(into[0]!.volume)} ${into[0]!.from}` : '—', handled.join('; ')] };
     });
     blocks.push(table(prepCols, rows));
   }
@@ -669,30 +676,36 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
   if (reasons.length) blocks.push({ kind: 'list', items: reasons });
 
   const fuelLast = p.columns.length > 1 && p.working.length > 0;
-  blocks.push({ kind: 'heading', text: `Tubes, in order of addition: ${p.columns.map((c) => c.short).join(', ')}${fuelLast ? ' last' : ''}; then mix gently and start the clock` });
+  blocks.push({ kind: 'heading', text: `Tubes: add in the order of the columns (${p.columns.map((c) => c.short).join(', ')}${fuelLast ? ' last' : ''}), then mix gently and start the clock` });
+  // doses in one unit of 10ⁿ per mL (the largest dose's decade), so the cells are short: 0.7854, 1.594 …
+  const topDose = Math.max(0, ...p.tubes.map((t) => Math.max(t.plannedDose?.value ?? 0, t.deliveredDose?.value ?? 0)));
+  const decade = topDose > 0 ? Math.floor(Math.log10(topDose)) : 0;
+  const scaleText = decade === 0 ? 'per mL' : `10${String(decade).split('').map((c) => SUP[c] ?? c).join('')} /mL`;
+  const doseText = (a: Amount) => String(Number((a.value / Math.pow(10, decade)).toPrecision(4)));
   const cols: Column[] = [
-    { id: 'tube', label: 'tube (lids)' },
+    { id: 'tube', label: 'tubes' },
     { id: 'sample', label: 'sample' },
-    { id: 'planned', label: 'dose planned', numeric: true },
-    { id: 'delivered', label: 'dose delivered', numeric: true },
+    { id: 'planned', label: 'planned', numeric: true },
+    { id: 'delivered', label: 'delivered', numeric: true },
     ...p.columns.map((c, i) => ({ id: `v${i}`, label: c.short, numeric: true })),
-    { id: 'start', label: 'mixed, clock started', check: true },
+    { id: 'start', label: 'started', check: true },
   ];
   const rows: Row[] = p.tubes.map((t) => ({
     code: t.code,
     cells: [
       // a no-break space: "D3 a–c" stays on one line
-      R === 1 ? t.code : `${t.code}\u00a0${t.lids[0]!.slice(t.code.length)}–${t.lids.at(-1)!.slice(t.code.length)}`,
+      // a no-break space and a word joiner: "D3 a–c" stays on one line
+      R === 1 ? t.code : `${t.code}\u00a0${t.lids[0]!.slice(t.code.length)}–\u2060${t.lids.at(-1)!.slice(t.code.length)}`,
       t.kind === 'series' ? (options.doseLabel?.(t) ?? t.name) : KIND_TEXT[t.kind],
-      t.plannedDose === null ? '—' : cText(t.plannedDose),
-      t.deliveredDose === null ? '—' : cText(t.deliveredDose),
+      t.plannedDose === null ? '—' : doseText(t.plannedDose),
+      t.deliveredDose === null ? '—' : doseText(t.deliveredDose),
       ...t.volumes.map((v) => (v ? vText(v) : '—')),
       null,
     ],
   }));
   // the dopant is named once (its stock column needs no second line); every other short header is spelled out
   const legend = p.columns.filter((c) => c.short !== c.label && c.short !== 'dopant stock').map((c) => `${c.short}: ${c.label}`);
-  blocks.push(table(cols, rows, [`dopant: ${label(p.dopant)}`, ...legend, 'doses per mL of sample'].join('; ')));
+  blocks.push(table(cols, rows, [`dopant: ${label(p.dopant)}, dose planned and delivered in ${scaleText} of sample`, ...legend].join('; ')));
 
   // What every tube holds besides the dopant: planned and delivered (the same in every tube that takes it, or a range).
   const held: string[] = [];
@@ -706,9 +719,10 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
       const hi = xs.reduce((a, b) => (b.value > a.value ? b : a));
       return texts.length === 1 ? texts[0]! : `${cText(lo)} – ${cText(hi)}`;
     };
-    held.push(`${c.label}: ${range(pairs.map((x) => x.planned))} planned, ${range(pairs.map((x) => x.delivered))} delivered (in the ${pairs.length} sample${pairs.length === 1 ? '' : 's'} that take it)`);
+    const who = p.base.includes(c.id) ? (p.base.length === 1 ? 'base' : `base ${p.base.indexOf(c.id) + 1}`) : c.label;
+    held.push(`${who} ${range(pairs.map((x) => x.planned))} planned, ${range(pairs.map((x) => x.delivered))} delivered (${pairs.length} sample${pairs.length === 1 ? '' : 's'})`);
   }
-  if (held.length) blocks.push({ kind: 'list', items: held });
+  if (held.length) blocks.push({ kind: 'paragraph', text: `In the tubes besides the dopant: ${held.join('; ')}.` });
   const nDoses = p.tubes.filter((t) => t.kind === 'series').length;
   const present = new Set(p.tubes.map((t) => t.kind));
   const lid = [

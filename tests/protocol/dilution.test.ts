@@ -109,7 +109,7 @@ describe('round concentrations and the working-dilution rule (common practice)',
     const both = decideWorking(ul(2.043), ul(5), stock, work, true);
     expect(both).toMatchObject({ make: true, volumeRule: true, bandRule: true });
     expect(both.reason).toMatch(/below 5 µL/);
-    expect(both.reason).toMatch(/H318 Eye Dam\. 1 \(Danger\).*H319 Eye Irrit\. 2 \(Warning\)/);
+    expect(both.reason).toMatch(/H318 Eye Dam\. 1, Danger.*H319 Eye Irrit\. 2, Warning/);
     // 10.2 µL per tube, stock above the working solution: the band rule alone
     expect(decideWorking(ul(10.2), ul(5), stock, classify(set, 0.0341), true)).toMatchObject({ make: true, volumeRule: false, bandRule: true });
     // both sides of the volume limit, without hazard data: the bands cannot be compared, and the reason says so

@@ -154,11 +154,12 @@ describe('the compact pipetting plan of a default sheet', () => {
     const tubes = tables.at(-1)!;
     expect(tubes.kind === 'table' && tubes.rows.map((r) => r.code)).toEqual(plan.tubes.map((t) => t.code));
     const texts = sectionTexts(sections).join('\n');
-    expect(texts).toMatch(/0\.1 µL below 10 µL, to 1 µL below 100 µL/);
+    expect(texts).toMatch(/to 0\.1 µL below 10 µL, 1 µL below 100 µL, 5 µL below 1000 µL/);
     expect(texts).toMatch(/C₁V₁ = C₂V₂/);
-    expect(texts).toMatch(/D4\u00a0a–c/);
-    expect(texts).toMatch(/MM: master mix; W1: peroxide 2 M/);
-    expect(texts).toMatch(/1\.552 × 10⁸ \/mL/); // D4 delivered
+        expect(texts).toMatch(/MM: master mix; W1: peroxide 2 M/);
+    // D4: planned 1.594, delivered 1.552 (× 10⁸ per mL, the caption's unit)
+    expect(tubes.kind === 'table' && tubes.rows[4]!.cells.slice(0, 4)).toEqual(['D4\u00a0a–\u2060c', 'dose 1 ×', '1.594', '1.552']);
+    expect(texts).toMatch(/dose planned and delivered in 10⁸ \/mL of sample/);
     expect(texts).toMatch(/W1.*68 µL peroxide stock.*265 µL buffer/s);
     const json = pipettingJson(plan);
     expect(json.tubes.map((t) => t.code)).toEqual(plan.tubes.map((t) => t.code));
