@@ -22,6 +22,7 @@ import { EngineDomainError, EngineInputError } from './engine/types.js';
 import { MixtureFileError, parseMixture } from './schema/mixture.js';
 import { parseScreenRequest, screenOutput } from './schema/screen.js';
 import { screen, screenWarnings } from './engine/planner.js';
+import { progressBar } from './jobs/progress-bar.js';
 import { FIT_METHODS, parseFitOptions, runFit, type FitMethod } from './calibrate/run.js';
 import { InputError } from './shelf/errors.js';
 import { seedDemoShelf } from './shelf/seed.js';
@@ -37,11 +38,14 @@ import { VERSION } from './version.js';
 export interface Io {
   out: (text: string) => void;
   err: (text: string) => void;
+  /** stderr is a terminal this many columns wide: long commands (screen) draw a progress bar on it; absent: none */
+  errColumns?: number;
 }
 
 const defaultIo: Io = {
   out: (t) => process.stdout.write(t),
   err: (t) => process.stderr.write(t),
+  ...(process.stderr.isTTY ? { errColumns: process.stderr.columns || 80 } : {}),
 };
 
 const USAGE = `brink — experiment-design planner for catalytic mixtures
@@ -213,14 +217,22 @@ function cmdScreen(args: string[], io: Io): number {
   if (positionals.length !== 1) throw new UsageError('usage: brink screen <request.json> [--format json|text]');
   if (values.format !== 'json' && values.format !== 'text') throw new UsageError(`--format: expected json or text, got "${values.format}"`);
   const { req, base, candidates } = parseScreenRequest(readJson(positionals[0]!));
-  const results = screen(base, candidates, {
-    boundary: req.boundary,
-    dosing: req.dosing,
-    margin: req.margin,
-    ...(req.maxDensity ? { maxDensity: req.maxDensity.value } : {}),
-    ...(req.maxVolumeFraction !== undefined ? { maxVolumeFraction: req.maxVolumeFraction } : {}),
-    ...(req.uncertainty ? { uncertainty: req.uncertainty } : {}),
-  });
+  // a progress bar on a terminal only: pipes, files and tests see the same stderr as before
+  const bar = io.errColumns ? progressBar(io.err, io.errColumns) : null;
+  let results: ReturnType<typeof screen>;
+  try {
+    results = screen(base, candidates, {
+      boundary: req.boundary,
+      dosing: req.dosing,
+      margin: req.margin,
+      ...(req.maxDensity ? { maxDensity: req.maxDensity.value } : {}),
+      ...(req.maxVolumeFraction !== undefined ? { maxVolumeFraction: req.maxVolumeFraction } : {}),
+      ...(req.uncertainty ? { uncertainty: req.uncertainty } : {}),
+      ...(bar ? { progress: bar.update } : {}),
+    });
+  } finally {
+    bar?.done();
+  }
   const out = screenOutput(results, screenWarnings(base, candidates));
   if (values.format === 'json') io.out(JSON.stringify(out, null, 2) + '\n');
   else {

@@ -12,13 +12,31 @@ export interface ServeOptions {
   port: number;
   host: string;
   log?: (line: string) => void;
+  /** worker threads for engine work (default env BRINK_WORKERS, else the available parallelism) */
+  workers?: number;
+  /** the longest a job may compute, s (default env BRINK_JOB_TIME_LIMIT, else 600) */
+  jobTimeLimit?: number;
+}
+
+/** A positive number from the environment, or undefined; anything else is refused at start-up. */
+function envNumber(name: string, integer: boolean): number | undefined {
+  const raw = process.env[name];
+  if (raw === undefined || raw === '') return undefined;
+  const v = Number(raw);
+  if (!(v > 0) || (integer && !Number.isInteger(v))) throw new Error(`${name} must be a positive ${integer ? 'whole ' : ''}number, got "${raw}"`);
+  return v;
 }
 
 export async function serve(o: ServeOptions): Promise<{ app: App; url: string }> {
   const log = o.log ?? ((l) => process.stdout.write(l + '\n'));
   const db = openDatabase(o.dbPath);
   if (ensureDemoShelf(db)) log(`loaded the demo shelf into ${o.dbPath}`);
-  const app = await buildApp({ config: { logger: { level: 'warn' }, closeDatabase: true }, db });
+  const workers = o.workers ?? envNumber('BRINK_WORKERS', true);
+  const jobTimeLimit = o.jobTimeLimit ?? envNumber('BRINK_JOB_TIME_LIMIT', false);
+  const app = await buildApp({
+    config: { logger: { level: 'warn' }, closeDatabase: true, ...(workers !== undefined ? { workers } : {}), ...(jobTimeLimit !== undefined ? { jobTimeLimit } : {}) },
+    db,
+  });
   await app.listen({ port: o.port, host: o.host });
   const addr = app.server.address();
   const port = typeof addr === 'object' && addr ? addr.port : o.port;

@@ -46,6 +46,8 @@ export interface AppConfig {
   bodyLimit?: number;
   /** worker threads for engine work (default: the available parallelism, at least 1) */
   workers?: number;
+  /** smallest interval between two progress reports of a job, ms (default 100) */
+  progressIntervalMs?: number;
   /** the longest a job may compute, s (default 600; a plan's timeLimit may only shorten it) */
   jobTimeLimit?: number;
   /** the longest engine work a request waits for (analyze, fits), s (default 120) */
@@ -93,7 +95,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   const shelf = shelfService(shelfRepository(db));
   app.decorate('shelf', shelf);
   // engine work off the event loop: a pool of worker threads, and jobs for the long work (server/jobs/)
-  const pool = new WorkerPool(config.workers ?? defaultPoolSize());
+  const pool = new WorkerPool({ size: config.workers ?? defaultPoolSize(), ...(config.progressIntervalMs !== undefined ? { progressIntervalMs: config.progressIntervalMs } : {}) });
   const jobs = new JobRegistry({
     timeLimitMs: (config.jobTimeLimit ?? 600) * 1000,
     ...(config.maxJobs !== undefined ? { maxJobs: config.maxJobs } : {}),

@@ -1,12 +1,14 @@
 /**
  * The `brink screen` request file: a base mixture file, candidate species as in
  * the mixture file (their density is ignored), a boundary and a dosing mode.
+ * Its work is bounded by the same budget as a stored plan's (server/jobs/budget.ts).
  */
 import { z } from 'zod';
 import type { Warning } from '../engine/checks.js';
 import type { CandidateResult } from '../engine/planner.js';
 import { DIMENSIONS } from '../units/index.js';
 import { candidateSchema, mixtureSchema, quantity, toEngineMixture, toEngineSpecies, issueList } from './mixture.js';
+import { baseModes, checkWorkBudget } from '../jobs/budget.js';
 import { InputError } from '../shelf/errors.js';
 import type { Mixture, Species } from '../engine/types.js';
 
@@ -15,7 +17,7 @@ export const screenRequestSchema = z
     name: z.string().optional(),
     description: z.string().optional(),
     base: mixtureSchema,
-    candidates: z.array(candidateSchema).min(1).max(50),
+    candidates: z.array(candidateSchema).min(1).describe('as many as the work budget allows: candidates × (1 + draws) × the modes the base scans'),
     boundary: z.enum(['stationary', 'oscillatory', 'any', 'restore']),
     dosing: z.enum(['add', 'replace']).default('add'),
     maxDensity: quantity(DIMENSIONS.numberDensity, 'positive', 'largest dopant number density').optional(),
@@ -35,11 +37,16 @@ export const screenRequestSchema = z
   });
 export type ScreenRequest = z.output<typeof screenRequestSchema>;
 
-/** Parse a screen request into SI inputs; throws InputError with every problem by path. */
+/**
+ * Parse a screen request into SI inputs; throws InputError with every problem by path,
+ * and when its work is above the budget (one scan of the base counts its modes).
+ */
 export function parseScreenRequest(doc: unknown): { req: ScreenRequest; base: Mixture; candidates: Species[] } {
   const r = screenRequestSchema.safeParse(doc);
   if (!r.success) throw new InputError(issueList(r.error));
-  return { req: r.data, base: toEngineMixture(r.data.base), candidates: r.data.candidates.map((c) => ({ ...toEngineSpecies(c), density: 0 })) };
+  const base = toEngineMixture(r.data.base);
+  checkWorkBudget({ candidates: r.data.candidates.length, samples: r.data.uncertainty?.samples ?? 0, modes: baseModes(base) });
+  return { req: r.data, base, candidates: r.data.candidates.map((c) => ({ ...toEngineSpecies(c), density: 0 })) };
 }
 
 /**

@@ -4,25 +4,21 @@
  * numbers can be read back unchanged after the shelf moves on.
  */
 import { z } from 'zod';
-import type { Warning } from '../engine/checks.js';
-import { doseSeries, screen, screenWarnings, stateMap, fuelSweep, type CandidateResult, type ScreenOptions } from '../engine/planner.js';
-import type { Mixture, Species } from '../engine/types.js';
 import { issueList, quantity } from '../schema/mixture.js';
 import { keySchema } from '../schema/shelf.js';
 import type { PlansRepository } from '../store/plans.js';
 import { DIMENSIONS } from '../units/index.js';
-import { VERSION } from '../version.js';
+import { baseModes, checkWorkBudget, WORK_BUDGET } from '../jobs/budget.js';
+import type { WorkerPool } from '../jobs/pool.js';
+import type { Job, JobRegistry } from '../jobs/registry.js';
 import { InputError } from './errors.js';
+import type { PlanResult } from './run-plan.js';
 import { shelfSampleSchema, type ShelfService } from './service.js';
 
-const dose = (desc: string) => quantity(DIMENSIONS.numberDensity, 'positive', desc);
+// runPlan (the computation, no database) lives in run-plan.ts so that a worker thread loads it without the schema layer
+export { runPlan, type PlanProgress, type PlanResult } from './run-plan.js';
 
-/**
- * The most dose searches one plan may run: candidates × (1 + Monte Carlo draws).
- * At about 25–60 ms a search (a dose scan, its refinement and the dose path) this keeps
- * one request to minutes; a larger one is refused with the count, never truncated.
- */
-export const PLAN_SEARCH_LIMIT = 20_000;
+const dose = (desc: string) => quantity(DIMENSIONS.numberDensity, 'positive', desc);
 
 export const planRequestSchema = z.strictObject({
   name: z.string().min(1).max(200).optional(),
@@ -36,9 +32,9 @@ export const planRequestSchema = z.strictObject({
   boundary: z.enum(['stationary', 'oscillatory', 'any', 'restore']),
   dosing: z.enum(['add', 'replace']).default('add'),
   candidates: z
-    .union([z.literal('all'), z.array(keySchema).min(1).max(50)])
+    .union([z.literal('all'), z.array(keySchema).min(1)])
     .default('all')
-    .describe(`"all": every active shelf species not in the base, however many (never cut); or up to 50 ids. A plan runs at most ${PLAN_SEARCH_LIMIT} dose searches, candidates × (1 + Monte Carlo draws); above that it is refused with a 400 naming the count.`),
+    .describe(`"all": every active shelf species not in the base, however many (never cut); or a list of ids. A plan's work, candidates × (1 + Monte Carlo draws + fuel-sweep levels) × the modes the base's own scan evaluates, is at most ${WORK_BUDGET.toExponential(2)}; above that it is refused with a 400 naming the numbers.`),
   maxVolumeFraction: z.number().gt(0).max(0.74).optional(),
   maxDensity: dose('largest dopant number density allowed').optional(),
   margin: z.number().min(1).max(100).default(1.25),
@@ -54,6 +50,7 @@ export const planRequestSchema = z.strictObject({
       doseSteps: z.number().int().min(3).max(80).optional(),
     })
     .optional(),
+  timeLimit: quantity(DIMENSIONS.time, 'positive', "stop the job after it has computed this long (state 'timed-out'); at most the service's own limit").optional(),
   fuelSweep: z
     .strictObject({
       chemical: keySchema,
@@ -68,86 +65,14 @@ export type PlanRequest = z.output<typeof planRequestSchema>;
 export type PlanRequestInput = z.input<typeof planRequestSchema>;
 
 
-/** Refuse a plan whose work would exceed PLAN_SEARCH_LIMIT, naming the count and the limit. */
-export function checkPlanWork(candidates: number, samples: number, allOfShelf: boolean): void {
-  const searches = candidates * (1 + samples);
-  if (searches <= PLAN_SEARCH_LIMIT) return;
-  const what = allOfShelf ? `"all" is ${candidates} species on the shelf` : `${candidates} candidates`;
-  throw new InputError([
-    {
-      path: samples > 0 ? 'uncertainty.samples' : 'candidates',
-      message: `this plan would run ${searches} dose searches (${what} × (1 + ${samples} Monte Carlo draws)); the limit is ${PLAN_SEARCH_LIMIT}: name fewer candidates or use fewer draws`,
-    },
-  ]);
-}
-
-export interface PlanResult {
-  candidates: CandidateResult[];
-  /** What happened other than what was asked: the shelf's input warnings, `no-concentration` for every chemical taken as 0, the base mixture's own analysis warnings (as a screen's), then the plan's own (e.g. a state map that could not be drawn) */
-  warnings: Warning[];
-  /** the state map of one candidate, with the bench sheet's default dose series at base factor 1 */
-  stateMap: (ReturnType<typeof stateMap> & { candidate: string; doseSeries: number[] }) | null;
-  fuelSweep: ReturnType<typeof fuelSweep> | null;
-  engineVersion: string;
-  computedAt: string;
-}
-
-/** Run the planner on SI inputs (no database): what a stored plan and `brink screen` both do. */
-export function runPlan(base: Mixture, candidates: Species[], req: PlanRequest): PlanResult {
-  const o: ScreenOptions = {
-    boundary: req.boundary,
-    dosing: req.dosing,
-    margin: req.margin,
-    ...(req.maxVolumeFraction !== undefined ? { maxVolumeFraction: req.maxVolumeFraction } : {}),
-    ...(req.maxDensity !== undefined ? { maxDensity: req.maxDensity.value } : {}),
-    ...(req.uncertainty ? { uncertainty: { ...req.uncertainty, doses: (req.probabilityAt ?? []).map((q) => q.value) } } : {}),
-  };
-  const ranked = screen(base, candidates, o);
-  // A chemical the request gave no level for is taken as 0 (the shelf marks it, docs/model.md §8): that is the plan's
-  // answer too, so say it here, where pages and sheets read the plan's warnings, and name who needs it.
-  // Then what the base mixture's own analysis says (an absent fuel, settling, a missing datum), as a screen does.
-  const warnings: Warning[] = screenWarnings(base, candidates);
-  let map: PlanResult['stateMap'] = null;
-  const m = req.stateMap;
-  const chosen = m ? (m.candidate ?? ranked.find((c) => c.feasible)?.species) : undefined;
-  if (m && m.candidate !== undefined && !candidates.some((c) => c.id === m.candidate))
-    throw new InputError([{ path: 'stateMap.candidate', message: `"${m.candidate}" is not one of the candidates` }]);
-  const cr = chosen !== undefined ? ranked.find((c) => c.species === chosen)! : undefined;
-  if (m && !cr) {
-    warnings.push({ code: 'no-state-map', message: 'a state map was asked for, but no candidate crosses the boundary below its cap: the plan is stored without a map (name one with stateMap.candidate to draw it anyway).' });
-  } else if (m && cr && !(cr.cap.density > 0)) {
-    warnings.push({ code: 'no-state-map', message: `a state map was asked for, but "${cr.species}" has no dose range to draw (its dose cap is 0): the plan is stored without a map.`, candidate: cr.species });
-  } else if (m && cr) {
-    const d = candidates.find((c) => c.id === cr.species)!;
-    const x = cr.feasible ? cr.threshold!.density : 0;
-    map = {
-      candidate: cr.species,
-      doseSeries: cr.feasible && x > 0 ? doseSeries(cr).doses : [],
-      ...stateMap(base, d, {
-        ...o,
-        ...(m.baseSpecies !== undefined ? { baseSpecies: m.baseSpecies } : {}),
-        ...(m.baseRange ? { baseRange: m.baseRange } : {}),
-        // default dose range: a factor of 20 either side of the threshold (under the cap), so the boundary shows
-        ...(m.doseRange
-          ? { doseRange: [m.doseRange[0].value, m.doseRange[1].value] as [number, number] }
-          : x > 0
-            ? { doseRange: [x / 20, Math.min(x * 20, cr.cap.density)] as [number, number] }
-            : {}),
-        ...(m.baseSteps ? { baseSteps: m.baseSteps } : {}),
-        ...(m.doseSteps ? { doseSteps: m.doseSteps } : {}),
-      }),
-    };
-  }
-  let sweep: PlanResult['fuelSweep'] = null;
-  if (req.fuelSweep) {
-    const f = req.fuelSweep;
-    sweep = fuelSweep(base, candidates, { ...o, chemical: f.chemical, range: [f.range[0].value, f.range[1].value], ...(f.steps ? { steps: f.steps } : {}), ...(f.scale ? { scale: f.scale } : {}) });
-  }
-  return { candidates: ranked, warnings, stateMap: map, fuelSweep: sweep, engineVersion: VERSION, computedAt: new Date().toISOString() };
-}
-
-export function planService(shelf: ShelfService, plans: PlansRepository) {
-  function compute(raw: PlanRequestInput, rerunOf: number | null) {
+/**
+ * Stored plans. `start` and `rerun` check the request, the shelf ids and the work budget here,
+ * in the request (a 400 or 404 before any job), build the SI mixture from the shelf, then start
+ * a job: the planner runs in a worker thread (`pool.run('plan', …)`) and the plan is stored here,
+ * in the main thread, when it is done; the job's result is `{ planId }`.
+ */
+export function planService(shelf: ShelfService, plans: PlansRepository, work: { pool: WorkerPool; jobs: JobRegistry }) {
+  function prepare(raw: PlanRequestInput, rerunOf: number | null) {
     const parsed = planRequestSchema.safeParse(raw);
     if (!parsed.success) throw new Error('stored plan request no longer validates'); // validated before it was stored
     const req = parsed.data;
@@ -162,39 +87,53 @@ export function planService(shelf: ShelfService, plans: PlansRepository) {
         if (page.items.length < 500 || offset + 500 >= page.total) break;
       }
     } else ids = req.candidates;
-    checkPlanWork(ids.length, req.uncertainty?.samples ?? 0, req.candidates === 'all');
     const built = shelf.buildMixture({ species: req.base, chemicals: req.chemicals, chamber: req.chamber, crowding: req.crowding, conditions: req.conditions }, ids);
-    const run = runPlan(built.mixture, built.candidates, req);
-    // what the shelf had to note (a retired species) belongs to the answer: the plan's warnings carry it, first
-    const result: PlanResult = { ...run, warnings: [...built.warnings, ...run.warnings] };
-    const revisions = [
-      ...built.revisions.species.map((r) => ({ revisionId: r.revisionId, role: 'base' as const })),
-      ...built.revisions.candidates.map((r) => ({ revisionId: r.revisionId, role: 'candidate' as const })),
-      ...built.revisions.chemicals.map((r) => ({ revisionId: r.revisionId, role: 'chemical' as const })),
-    ];
+    checkWorkBudget({ candidates: ids.length, samples: req.uncertainty?.samples ?? 0, sweepLevels: req.fuelSweep ? (req.fuelSweep.steps ?? 12) : 0, modes: baseModes(built.mixture), allOfShelf: req.candidates === 'all' });
     const name = req.name ?? `${req.boundary} screen of ${req.base.map((b) => b.id).join(' + ')}`;
-    return plans.create({
-      name,
-      notes: req.notes ?? '',
-      author: req.author ?? 'anonymous',
-      request: raw,
-      inputs: { base: built.mixture, candidates: built.candidates, warnings: built.warnings, shelfRevisions: built.revisions },
-      result,
-      rerunOf,
-      revisions,
-    });
+    const store = (run: PlanResult) => {
+      // what the shelf had to note (a retired species) belongs to the answer: the plan's warnings carry it, first
+      const result: PlanResult = { ...run, warnings: [...built.warnings, ...run.warnings] };
+      const revisions = [
+        ...built.revisions.species.map((r) => ({ revisionId: r.revisionId, role: 'base' as const })),
+        ...built.revisions.candidates.map((r) => ({ revisionId: r.revisionId, role: 'candidate' as const })),
+        ...built.revisions.chemicals.map((r) => ({ revisionId: r.revisionId, role: 'chemical' as const })),
+      ];
+      return plans.create({
+        name,
+        notes: req.notes ?? '',
+        author: req.author ?? 'anonymous',
+        request: raw,
+        inputs: { base: built.mixture, candidates: built.candidates, warnings: built.warnings, shelfRevisions: built.revisions },
+        result,
+        rerunOf,
+        revisions,
+      });
+    };
+    return { req, name, input: { base: built.mixture, candidates: built.candidates, req }, store };
+  }
+  function start(raw: PlanRequestInput, rerunOf: number | null): Job<{ planId: number }> {
+    const p = prepare(raw, rerunOf);
+    return work.jobs.start<{ planId: number }>(
+      'plan',
+      async (ctx) => {
+        const run = await work.pool.run('plan', p.input, ctx.runOptions);
+        ctx.signal.throwIfAborted(); // cancelled while the answer was on its way: store nothing
+        return { planId: p.store(run).id };
+      },
+      { label: rerunOf === null ? p.name : `${p.name} (rerun of plan ${rerunOf})`, ...(p.req.timeLimit ? { timeLimit: p.req.timeLimit.value } : {}) },
+    );
   }
   return {
-    /** Validate, run and store a plan; `raw` is the request as sent. */
-    create(raw: unknown) {
+    /** Validate, check the budget and start the plan as a job; `raw` is the request as sent. */
+    start(raw: unknown) {
       const parsed = planRequestSchema.safeParse(raw);
       if (!parsed.success) throw new InputError(issueList(parsed.error));
-      return compute(raw as PlanRequestInput, null);
+      return start(raw as PlanRequestInput, null);
     },
-    /** A new plan from the same request on the current shelf. */
+    /** A job computing a new plan from the same request on the current shelf. */
     rerun(id: number) {
       const old = plans.get(id);
-      return compute(old.request as PlanRequestInput, id);
+      return start(old.request as PlanRequestInput, id);
     },
     get: (id: number) => plans.get(id),
     list: (limit: number, offset: number) => plans.list(limit, offset),

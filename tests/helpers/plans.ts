@@ -17,17 +17,20 @@ export interface PlanAnswer {
   headers: Record<string, unknown>;
   body: string;
   json: () => any; // eslint-disable-line @typescript-eslint/no-explicit-any
+  job?: any; // eslint-disable-line @typescript-eslint/no-explicit-any
 }
 
 const ENDED = new Set(['done', 'failed', 'cancelled', 'timed-out']);
 
 /**
- * POST a plan request and wait for it: a 202 job is polled at GET /api/jobs/:id until it ends; a finished job
- * answers as the stored plan with 201 (as a synchronous create would), a failed one with the error it carries.
- * Anything else (a 400 refused before a job starts, a 201) is passed through as it came.
+ * POST a plan request (or a rerun: payload undefined, url /api/plans/:id/rerun) and wait for it: a 202 job is
+ * polled at GET /api/jobs/:id until it ends; a finished job answers as the stored plan with 201 and the plan's
+ * location (as a synchronous create would), a failed one with the error it carries (job.error: its statusCode
+ * and the error handler's body), a cancelled or timed-out one with its error or the state. Anything else (a 400
+ * or 404 refused before a job starts) is passed through as it came. `job` is the job as it ended.
  */
 export async function postPlan(
-  app: { inject: (o: { method: 'GET' | 'POST'; url: string; payload?: unknown }) => Promise<{ statusCode: number; headers: Record<string, unknown>; body: string; json: () => any }> }, // eslint-disable-line @typescript-eslint/no-explicit-any
+  app: { inject: (o: { method: 'GET' | 'POST' | 'DELETE'; url: string; payload?: unknown }) => Promise<{ statusCode: number; headers: Record<string, unknown>; body: string; json: () => any }> }, // eslint-disable-line @typescript-eslint/no-explicit-any
   payload: unknown,
   url = '/api/plans',
 ): Promise<PlanAnswer> {
@@ -37,12 +40,14 @@ export async function postPlan(
   for (let i = 0; !ENDED.has(job.state); i++) {
     if (i > 6000) throw new Error(`job ${job.id} did not end within 2 minutes`);
     await new Promise((res) => setTimeout(res, 20));
-    job = (await app.inject({ method: 'GET', url: `/api/jobs/${job.id}` })).json();
+    const next = await app.inject({ method: 'GET', url: `/api/jobs/${job.id}` });
+    if (next.statusCode !== 200) throw new Error(`GET /api/jobs/${job.id} answered ${next.statusCode}: ${next.body}`);
+    job = next.json();
   }
   if (job.state === 'done') {
     const plan = await app.inject({ method: 'GET', url: `/api/plans/${job.result.planId}` });
-    return { statusCode: plan.statusCode === 200 ? 201 : plan.statusCode, headers: plan.headers, body: plan.body, json: () => plan.json() };
+    return { statusCode: plan.statusCode === 200 ? 201 : plan.statusCode, headers: { ...plan.headers, location: `/api/plans/${job.result.planId}` }, body: plan.body, json: () => plan.json(), job };
   }
   const err = job.error ?? { statusCode: 500, error: job.state, message: `job ${job.state}` };
-  return { statusCode: err.statusCode ?? 500, headers: {}, body: JSON.stringify(err), json: () => err };
+  return { statusCode: err.statusCode ?? 500, headers: {}, body: JSON.stringify(err), json: () => err, job };
 }

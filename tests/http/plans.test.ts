@@ -1,7 +1,7 @@
 /** Stored plans: same numbers later after the shelf changes; rerun from the current shelf; list, names, notes. */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { App } from '../../server/http/app.js';
-import { PLAN_SEARCH_LIMIT } from '../../server/shelf/plans.js';
+import { WORK_BUDGET } from '../../server/jobs/budget.js';
 import { freshApp, speciesRecord } from '../helpers/app.js';
 import { postPlan } from '../helpers/plans.js';
 
@@ -52,8 +52,9 @@ describe('plans', () => {
     expect(edit.statusCode).toBe(200);
     const later = (await app.inject({ method: 'GET', url: `/api/plans/${id}` })).json();
     expect(later.result).toEqual(stored.result);
-    const rerun = await app.inject({ method: 'POST', url: `/api/plans/${id}/rerun` });
+    const rerun = await postPlan(app, undefined, `/api/plans/${id}/rerun`);
     expect(rerun.statusCode).toBe(201);
+    expect(rerun.job).toMatchObject({ kind: 'plan', state: 'done', label: `${request.name} (rerun of plan ${id})` });
     const fresh = rerun.json();
     expect(fresh.rerunOf).toBe(id);
     const before = stored.result.candidates[0]!.threshold!.density;
@@ -179,15 +180,27 @@ describe('candidates "all" on a shelf of more than 500 species', () => {
     expect(ids.filter((id: string) => id.startsWith('aa-inert-'))).toHaveLength(600);
   });
 
-  it('refuses work above the limit with a 400 that names the count and the limit', async () => {
-    const samples = Math.ceil(PLAN_SEARCH_LIMIT / 607);
-    const r = await postPlan(big, { ...request, candidates: 'all', uncertainty: { samples, seed: 1 }, probabilityAt: undefined, stateMap: undefined });
+  it('refuses work above the budget with a 400 that names the numbers, before any job', async () => {
+    const chamber = { walls: 'sealed', length: '20 mm', depth: '100 um' };
+    // the modes the base's own scan evaluates, as POST /api/analyze reports them for the same sample
+    const modes = (await big.inject({ method: 'POST', url: '/api/analyze', payload: { species: request.base, chemicals: request.chemicals, chamber } })).json().scan.evaluations;
+    expect(modes).toBeGreaterThan(1);
+    // the most draws that fit (607 × (1 + draws) × modes ≤ the budget), and one more
+    const fits = Math.floor(WORK_BUDGET / (607 * modes)) - 1;
+    const samples = fits + 1;
+    const work = 607 * (1 + samples) * modes;
+    expect(work).toBeGreaterThan(WORK_BUDGET);
+    expect(607 * (1 + fits) * modes).toBeLessThanOrEqual(WORK_BUDGET);
+    const jobsBefore = (await big.inject({ method: 'GET', url: '/api/jobs' })).json().total;
+    const r = await big.inject({ method: 'POST', url: '/api/plans', payload: { ...request, chamber, candidates: 'all', uncertainty: { samples, seed: 1 }, probabilityAt: undefined, stateMap: undefined } });
     expect(r.statusCode).toBe(400);
     const [p] = r.json().problems;
     expect(p.path).toBe('uncertainty.samples');
-    expect(p.message).toContain(`${607 * (1 + samples)} dose searches`);
-    expect(p.message).toContain('607 species');
-    expect(p.message).toContain(`the limit is ${PLAN_SEARCH_LIMIT}`);
+    expect(p.message).toContain(`${work.toExponential(3)} units of work`);
+    expect(p.message).toContain(`"all" is 607 species on the shelf × (1 + ${samples} Monte Carlo draws) × ${modes} modes`);
+    expect(p.message).toContain(`the budget is ${WORK_BUDGET.toExponential(3)}`);
+    expect(p.message).toContain(`at most ${fits} Monte Carlo draws with these candidates`);
+    expect((await big.inject({ method: 'GET', url: '/api/jobs' })).json().total).toBe(jobsBefore);
     expect((await big.inject({ method: 'GET', url: '/api/plans' })).json().total).toBe(1);
   });
 });

@@ -1,7 +1,6 @@
-/** Linear stability of a sample built from shelf species, or of a whole mixture file. */
+/** Linear stability of a sample built from shelf species, or of a whole mixture file (computed in the worker pool). */
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
-import { analyze } from '../../engine/analyze.js';
 import { mixtureSchema, toEngineMixture } from '../../schema/mixture.js';
 import { shelfSampleSchema } from '../../shelf/service.js';
 
@@ -15,12 +14,12 @@ export const analyzeRoutes: FastifyPluginAsync = async (base) => {
     },
     handler: async (req) => {
       const built = app.shelf.buildMixture(req.body);
-      const result = analyze(built.mixture);
+      const result = await app.compute('analyze', { mixture: built.mixture });
       return { ...result, warnings: [...built.warnings, ...result.warnings], revisions: built.revisions, mixture: built.mixture };
     },
   });
   app.post('/api/analyze/mixture', {
     schema: { tags: ['analysis'], summary: 'Stability of a mixture file (the same JSON brink analyze reads)', body: mixtureSchema },
-    handler: async (req) => analyze(toEngineMixture(req.body)),
+    handler: async (req) => app.compute('analyze', { mixture: toEngineMixture(req.body) }),
   });
 };

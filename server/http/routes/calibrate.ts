@@ -21,7 +21,7 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { FIT_METHODS, parseFitOptions, runFit, type FitMethod } from '../../calibrate/run.js';
+import { FIT_METHODS, parseFitOptions, type FitMethod } from '../../calibrate/run.js';
 import { stokesEinstein, stokesEinsteinDebye, waterViscosity } from '../../engine/transport.js';
 import { quantity } from '../../schema/mixture.js';
 import { keySchema } from '../../schema/shelf.js';
@@ -37,7 +37,8 @@ export const calibrateRoutes: FastifyPluginAsync = async (base) => {
   for (const method of FIT_METHODS) {
     app.post(`/api/fits/${method}`, {
       schema: { tags, summary: `Fit ${method} data (nothing is stored)`, body: z.strictObject({ data, options: z.unknown().optional() }) },
-      handler: async (req) => runFit(method, req.body.data, parseFitOptions(method, req.body.options)),
+      // the options are read here (a 400 at once); the fit runs in the worker pool, within the request time limit
+      handler: async (req) => app.compute('fit', { method, data: req.body.data, options: parseFitOptions(method, req.body.options) }),
     });
   }
 

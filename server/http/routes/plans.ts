@@ -1,18 +1,29 @@
 /**
  * Stored plans:
  *
- *   POST  /api/plans              run and store a screening request (at most PLAN_SEARCH_LIMIT dose searches)
+ *   POST  /api/plans              start a screening request as a job (202; the job stores the plan when done)
  *   GET   /api/plans              list (newest first)
  *   GET   /api/plans/:id          the stored request, inputs, revisions and results
  *   PATCH /api/plans/:id          rename / annotate { name?, notes? }
- *   POST  /api/plans/:id/rerun    the same request on the current shelf: a new plan
+ *   POST  /api/plans/:id/rerun    the same request on the current shelf as a job: a new plan
+ *
+ * Validation, unknown ids and the work budget (server/jobs/budget.ts) answer 400 / 404 before a
+ * job starts; the job (GET /api/jobs/:id) then carries the plan's id, or the error it ended with.
  */
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
-import { PLAN_SEARCH_LIMIT, planRequestSchema } from '../../shelf/plans.js';
+import { WORK_BUDGET } from '../../jobs/budget.js';
+import type { Job } from '../../jobs/registry.js';
+import { planRequestSchema } from '../../shelf/plans.js';
 
 const params = z.object({ id: z.coerce.number().int().min(1) });
+
+/** 202 with the job, and where to follow it. */
+function accepted(reply: { code: (n: number) => { header: (k: string, v: string) => unknown } }, job: Job) {
+  reply.code(202).header('location', `/api/jobs/${job.id}`);
+  return job;
+}
 
 export const planRoutes: FastifyPluginAsync = async (base) => {
   const app = base.withTypeProvider<ZodTypeProvider>();
@@ -20,8 +31,8 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
   app.post('/api/plans', {
     schema: {
       tags,
-      summary: 'Screen candidate dopants against a base mixture from the shelf, and store the plan',
-      description: `Every candidate gets its threshold (with the Monte Carlo band's alreadyPast, feasibleFraction and quantiles over all draws), dosePath, firstOnset and warnings (messages give doses per mL; the numbers stay SI); result.warnings carries a no-concentration warning for every chemical given no level (taken as 0). candidates "all" takes every active species not in the base; a plan may run at most ${PLAN_SEARCH_LIMIT} dose searches (candidates × (1 + draws)) and is refused with a 400 above that.`,
+      summary: 'Start a job that screens candidate dopants against a base mixture from the shelf and stores the plan',
+      description: `Answers 202 with the job (header location: /api/jobs/:id); when the job is done its result is { planId } (GET /api/plans/:planId). Every candidate gets its threshold (with the Monte Carlo band's alreadyPast, feasibleFraction and quantiles over all draws), dosePath, firstOnset and warnings (messages give doses per mL; the numbers stay SI); result.warnings carries a no-concentration warning for every chemical given no level (taken as 0). candidates "all" takes every active species not in the base. A plan's work, candidates × (1 + draws + fuel-sweep levels) × the modes the base's own scan evaluates, may be at most ${WORK_BUDGET.toExponential(2)}: above that, a 400 before any job. timeLimit (at most the service's own, 10 min by default) stops the job as timed-out.`,
       body: planRequestSchema,
     },
     // keep the request as sent (units as typed) for reruns; validation then reads the units
@@ -29,11 +40,7 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
       (req as unknown as { sent: unknown }).sent = JSON.parse(JSON.stringify(req.body ?? null));
       done();
     },
-    handler: async (req, reply) => {
-      const plan = app.plans.create((req as unknown as { sent: unknown }).sent);
-      reply.code(201).header('location', `/api/plans/${plan.id}`);
-      return plan;
-    },
+    handler: async (req, reply) => accepted(reply, app.plans.start((req as unknown as { sent: unknown }).sent)),
   });
   app.get('/api/plans', {
     schema: {
@@ -52,11 +59,7 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
     },
   });
   app.post('/api/plans/:id/rerun', {
-    schema: { tags, summary: 'Run the same request on the current shelf: a new plan that points back to this one', params },
-    handler: async (req, reply) => {
-      const plan = app.plans.rerun(req.params.id);
-      reply.code(201).header('location', `/api/plans/${plan.id}`);
-      return plan;
-    },
+    schema: { tags, summary: 'Start a job that runs the same request on the current shelf: a new plan that points back to this one', params },
+    handler: async (req, reply) => accepted(reply, app.plans.rerun(req.params.id)),
   });
 };

@@ -1,0 +1,47 @@
+/**
+ * The kinds of engine work the worker pool runs (server/jobs/pool.ts), each a
+ * pure function of structured-clonable SI inputs: no database here (the main
+ * thread builds the mixture from the shelf and stores what comes back).
+ *
+ * Each kind is loaded in the worker the first time it is asked for, so a
+ * worker that only plans never loads the unit parser (mathjs, seconds to load).
+ * To run a new kind of work off the event loop: add its input and output to
+ * `Tasks` and a loader to `LOADERS`; then `pool.run(kind, input, options)`.
+ */
+import type { FitMethod, FitOptions, runFit } from '../calibrate/run.js';
+import type { AnalysisResult } from '../engine/analyze.js';
+import type { Mixture, Species } from '../engine/types.js';
+import type { PlanRequest } from '../shelf/plans.js';
+import type { PlanResult } from '../shelf/run-plan.js';
+
+/** Progress callback a task may call: fraction of its work done (0–1) and what it is doing. */
+export type TaskProgress = (fraction: number, stage: string) => void;
+
+export interface Tasks {
+  /** A stored plan's computation: screen, state map, fuel sweep (runPlan, server/shelf/run-plan.ts). */
+  plan: { input: { base: Mixture; candidates: Species[]; req: PlanRequest }; output: PlanResult };
+  /** One linear-stability analysis (engine/analyze.ts). */
+  analyze: { input: { mixture: Mixture }; output: AnalysisResult };
+  /** A calibration fit from raw data (calibrate/run.ts; the options already parsed). */
+  fit: { input: { method: FitMethod; data: unknown; options: FitOptions[FitMethod] }; output: ReturnType<typeof runFit> };
+}
+
+export type TaskKind = keyof Tasks;
+export type TaskInput<K extends TaskKind> = Tasks[K]['input'];
+export type TaskOutput<K extends TaskKind> = Tasks[K]['output'];
+type TaskFunction<K extends TaskKind> = (input: TaskInput<K>, progress: TaskProgress) => TaskOutput<K>;
+
+export const LOADERS: { [K in TaskKind]: () => Promise<TaskFunction<K>> } = {
+  plan: async () => {
+    const { runPlan } = await import('../shelf/run-plan.js');
+    return (input, progress) => runPlan(input.base, input.candidates, input.req, progress);
+  },
+  analyze: async () => {
+    const { analyze } = await import('../engine/analyze.js');
+    return (input) => analyze(input.mixture);
+  },
+  fit: async () => {
+    const { runFit } = await import('../calibrate/run.js');
+    return (input) => runFit(input.method, input.data, input.options);
+  },
+};
