@@ -65,7 +65,10 @@ describe('species hazard data by form (demo catalase)', () => {
   });
   it('a solution: Resp. Sens. 1 from 1 %, EUH208 from 0.1 % to 1 %, none below (both sides of each limit)', () => {
     expect(codes(catalase, 0.01, 'solution')).toEqual(['H334 Resp. Sens. 1']);
-    expect(codes(catalase, 0.00999, 'solution')).toEqual(['EUH208 Resp. Sens. 1 (elicitation, below the classification limit)']);
+    // EUH208 is a supplemental label element (CLP Annex II, 2.8, from memory), not a hazard class: the
+    // mixture is not classified Resp. Sens. 1 below 1 %, and the class text must not read as if it were
+    expect(codes(catalase, 0.00999, 'solution')).toEqual(['EUH208 not classified; EUH208 label (sensitiser from 0.1 %, below the 1 % limit)']);
+    expect(classify(catalase, 0.005, { form: 'solution' })).toMatchObject({ signal: null, pictograms: [] });
     expect(codes(catalase, 0.001, 'solution')).toHaveLength(1);
     expect(codes(catalase, 0.000999, 'solution')).toEqual([]);
     // the solution's H334 carries the mist/spray wording, not the powder's dust
