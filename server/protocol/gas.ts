@@ -1,15 +1,16 @@
 /**
  * Gas a tube's fuel can release, at the bench (docs/model.md §11, "Gas").
  *
- * - Ideal-gas volume V = n R T / p (the ideal gas law; R = 8.314462618 J mol⁻¹ K⁻¹, exact since the
- *   2019 SI redefinition, CODATA): 24.465 L mol⁻¹ at 25 °C and 101.325 kPa.
+ * - Ideal-gas volume V = n R T / p (the ideal gas law; R = N_A k_B, exact since the 2019 SI
+ *   redefinition, 8.314462618 J mol⁻¹ K⁻¹ to ten figures, CODATA): 24.465 L mol⁻¹ at 25 °C and 101.325 kPa.
  * - The gas the fuel can release is the fuel in the tube × the moles of gas made per mole of fuel turned
  *   over: a saturating turnover's `productYield` (default 1; 0.5 for catalase, 2 H₂O₂ → 2 H₂O + O₂), or
  *   for a constant activity the ratio of its production of the gas to its consumption of the fuel (the demo
  *   Pt colloids: 1e-16 mol/s O₂ per 2e-16 mol/s H₂O₂ = 0.5). Chains (glucose → H₂O₂ by glucose oxidase,
  *   H₂O₂ → O₂ by catalase) multiply their yields. It is an upper bound: the whole fuel turned over, no gas
  *   left dissolved (at most the solubility × the liquid volume stays in solution) and none consumed by
- *   other activities.
+ *   other activities (glucose oxidase itself takes one O₂ per glucose, which is not subtracted: net, that
+ *   pair takes up O₂).
  * - Venting (common practice, no source): vent, or leave open, a vessel whose gas would exceed
  *   `DEFAULT_VENT_FRACTION` (10 %) of its headspace (the tube's volume less the liquid; the whole volume
  *   of a filled chamber). A closed vessel of headspace H reaching gas volume V (at 1 atm) would stand at
@@ -19,7 +20,7 @@
  */
 import type { Species } from '../engine/types.js';
 
-/** Molar gas constant R, J mol⁻¹ K⁻¹: exact since the 2019 SI redefinition (N_A k_B; CODATA). */
+/** Molar gas constant R = N_A k_B, J mol⁻¹ K⁻¹ (exact since the 2019 SI redefinition; ten figures, CODATA). */
 export const GAS_CONSTANT = 8.314462618;
 /** Standard atmosphere, Pa (exact by definition). */
 export const STANDARD_ATMOSPHERE = 101325;
