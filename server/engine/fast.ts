@@ -48,7 +48,10 @@
  */
 import { charPoly, charPolyScratch, hurwitzUnstable, type CharPolyScratch } from './linalg/charpoly.js';
 import { solveInPlace } from './linalg/dense.js';
+import { eigenvalues } from './linalg/eigen.js';
 import { linearise } from './model.js';
+import { GROWTH_RESOLUTION } from './scan.js';
+import { REAL_TOLERANCE } from './spectrum.js';
 import type { Mixture, Species } from './types.js';
 
 /** More modes below the proven bound than this and the general path (exhaustive to 200 modes, a log grid beyond) is used instead. */
@@ -77,7 +80,31 @@ export type FastBase =
   | { kind: 'stable' }
   /** the base alone is past the boundary: a growing root (any), or det M₀ < 0 at some mode (stationary: an odd number of growing real eigenvalues) */
   | { kind: 'base-past' }
+  /** stationary boundary: some mode grows at dose 0 but no determinant is negative (a growing complex pair, or an even number of growing real roots): `pastExact(0)` decides */
+  | { kind: 'unsettled' }
   | { kind: 'fallback'; why: string };
+
+/** The search on exact predicates (second tier): the general search's scan doses and bisection, each dose decided by Hurwitz counts and the eigenvalues of the modes that grow. */
+export type FastSearch =
+  | { kind: 'threshold'; dose: number; windowUpTo: number | null }
+  | { kind: 'any-dose'; floor: number }
+  | { kind: 'none-below-cap' }
+  | { kind: 'fallback'; why: string };
+
+/**
+ * First x in (lo, hi] with pred true, given pred(lo) false and pred(hi) true, to a relative bracket
+ * of relTol: in the geometric mean while the bracket spans more than a factor of 4, then arithmetically.
+ */
+export function bisect(pred: (x: number) => boolean, lo: number, hi: number, relTol: number): number {
+  for (let it = 0; it < 200 && hi - lo > relTol * hi; it++) {
+    const mid = lo > 0 && hi / lo > 4 ? Math.sqrt(lo * hi) : 0.5 * (lo + hi);
+    if (pred(mid)) hi = mid;
+    else lo = mid;
+  }
+  return hi;
+}
+
+class Undecided extends Error {}
 
 export type FastVerdict =
   /** the first crossing: a real eigenvalue of mode `mode` crosses zero at `dose` (m⁻³); stable at every certified dose below */
@@ -116,6 +143,8 @@ export class RankOneDose {
   private p0 = new Float64Array(0);
   private q = new Float64Array(0);
   private xk = new Float64Array(0);
+  private J0s = new Float64Array(0);
+  private Ws = new Float64Array(0);
   // work
   private A = new Float64Array(0);
   private X = new Float64Array(0);
@@ -164,7 +193,7 @@ export class RankOneDose {
   /** Room for `count` modes of n + 1 coefficients each, keeping the modes already stored. */
   private sizeModes(count: number, n: number): void {
     const stride = n + 1;
-    if (this.modeN.length >= count && this.p0.length >= this.modeN.length * stride) return;
+    if (this.modeN.length >= count && this.p0.length >= this.modeN.length * stride && this.J0s.length >= this.modeN.length * n * n) return;
     const c = Math.max(count, 2 * this.modeN.length, 16);
     const grow = <T extends Int32Array | Float64Array>(old: T, len: number, make: (l: number) => T): T => {
       const a = make(len);
@@ -175,6 +204,8 @@ export class RankOneDose {
     this.xk = grow(this.xk, c, (l) => new Float64Array(l));
     this.p0 = grow(this.p0, c * stride, (l) => new Float64Array(l));
     this.q = grow(this.q, c * stride, (l) => new Float64Array(l));
+    this.J0s = grow(this.J0s, c * n * n, (l) => new Float64Array(l));
+    this.Ws = grow(this.Ws, c * n, (l) => new Float64Array(l));
   }
 
   /**
@@ -371,6 +402,9 @@ export class RankOneDose {
       for (let t = 0; t < S; t++) beta += P[dIdx * S + t]! * y[t]!;
       const xk = beta < 0 ? -1 / beta : Infinity;
       this.xk[a] = xk;
+      // keep Ĵ₀ and w for the eigenvalues of a growing mode (second tier)
+      this.J0s.set(J.subarray(0, n * n), a * n * n);
+      this.Ws.set(w.subarray(0, n), a * n);
       // p₀ and q: det(λ − Ĵ(x)) = p₀(λ) − x q(λ)
       const c0 = charPoly(J, n, this.cp);
       const off = a * stride;
@@ -396,7 +430,7 @@ export class RankOneDose {
     this.checked = 1;
     if (baseUnstable) {
       if (boundary === 'any' || baseStationary) return { kind: 'base-past' };
-      return { kind: 'fallback', why: 'the base has a growing complex pair' };
+      return { kind: 'unsettled' };
     }
     return { kind: 'stable' };
   }
@@ -456,6 +490,91 @@ export class RankOneDose {
     if (v.kind === 'threshold' && x > v.dose) return true;
     if (x === 0) return false;
     return this.stableAt(x) === true ? false : null;
+  }
+
+  /**
+   * Whether dose x (0 ≤ x ≤ cap) is past the boundary, exactly: above the lowest determinant crossing
+   * x* always; below it, for each mode the bounds did not settle, a negative p(0; x) (stationary: an odd
+   * number of growing real roots), else its Hurwitz count, and where that is not zero (or the table is
+   * degenerate) the mode's own eigenvalues, judged as the scan judges them (a root is real within
+   * REAL_TOLERANCE of the matrix scale, growth within GROWTH_RESOLUTION of it is none). Null when the
+   * eigen solver does not converge. Valid after `prepare` returned 'stable' or 'unsettled'.
+   */
+  pastExact(x: number, boundary: 'stationary' | 'any'): boolean | null {
+    this.checked++;
+    if (x > this.xStar) return true;
+    const n = this.n;
+    const stride = n + 1;
+    const coef = this.coef.subarray(0, stride);
+    const dIdx = n - 1;
+    for (let a = 0; a < this.active; a++) {
+      const off = a * stride;
+      for (let t = 0; t < stride; t++) coef[t] = this.p0[off + t]! - x * this.q[off + t]!;
+      if (boundary === 'stationary' && coef[n]! < 0) return true;
+      const h = hurwitzUnstable(coef, this.routh);
+      if (h === 0) continue;
+      if (boundary === 'any' && h !== null) return true;
+      const J = this.J;
+      J.set(this.J0s.subarray(a * n * n, (a + 1) * n * n));
+      for (let j = 0; j < n; j++) J[dIdx * n + j]! += x * this.Ws[a * n + j]!;
+      let scale = 0;
+      for (let i = 0; i < n * n; i++) scale = Math.max(scale, Math.abs(J[i]!));
+      const spec = eigenvalues(J.subarray(0, n * n), n);
+      if (!spec.converged) return null;
+      for (let i = 0; i < n; i++) {
+        if (!(spec.re[i]! > GROWTH_RESOLUTION * scale)) continue;
+        if (boundary === 'any' || Math.abs(spec.im[i]!) <= REAL_TOLERANCE * scale) return true;
+      }
+    }
+    return false;
+  }
+
+  /**
+   * The second tier: the general search's `points` scan doses and its bisection to `relTol`, on the
+   * exact predicate `pastExact` (the refinement between scan doses is not run: it needs the branch
+   * growth at every mode). The first crossing, the first return after it (a window; only below x*,
+   * past which the crossing mode stays past), or a threshold of 0⁺ when still past at cap × 10⁻³⁰.
+   */
+  search(points: number, relTol: number, boundary: 'stationary' | 'any'): FastSearch {
+    const cap = this.cap;
+    const pred = (x: number) => {
+      const r = this.pastExact(x, boundary);
+      if (r === null) throw new Undecided();
+      return r;
+    };
+    try {
+      let prevX = 0;
+      let k = -1;
+      let lo = 0;
+      for (let i = 0; i < points; i++) {
+        const xi = cap * Math.pow(10, -9 + (9 * i) / (points - 1));
+        if (pred(xi)) {
+          k = i;
+          lo = prevX;
+          prevX = xi;
+          break;
+        }
+        prevX = xi;
+      }
+      if (k < 0) return { kind: 'none-below-cap' };
+      let crossed: number;
+      if (k === 0) {
+        const floor = cap * FLOOR;
+        if (pred(floor)) return { kind: 'any-dose', floor };
+        crossed = bisect(pred, floor, prevX, relTol);
+      } else crossed = bisect(pred, lo, prevX, relTol);
+      // the first scan dose after the crossing that is back on the old side (none above x*)
+      for (let i = k + 1; i < points; i++) {
+        const xi = cap * Math.pow(10, -9 + (9 * i) / (points - 1));
+        if (xi > this.xStar) break;
+        if (!pred(xi)) return { kind: 'threshold', dose: crossed, windowUpTo: bisect((x) => !pred(x), prevX, xi, relTol) };
+        prevX = xi;
+      }
+      return { kind: 'threshold', dose: crossed, windowUpTo: null };
+    } catch (e) {
+      if (e instanceof Undecided) return { kind: 'fallback', why: 'the eigen solver did not converge at a growing mode' };
+      throw e;
+    }
   }
 
   /** The crossing dose of each mode the bounds did not settle (m⁻³; +∞ when its determinant never changes sign), for checks. */

@@ -30,7 +30,7 @@
 import { analyze, stateOf, type AnalysisResult, type State } from './analyze.js';
 import { missingConcentrationWarnings, sphereVolume, type Warning } from './checks.js';
 import { stationaryDoseClosedForm } from './dose.js';
-import { fastInapplicable, RankOneDose, type FastVerdict } from './fast.js';
+import { bisect, fastInapplicable, RankOneDose, type FastVerdict } from './fast.js';
 import { buildModel, linearise, validateMixture } from './model.js';
 import { Random } from './random.js';
 import { scanModes } from './scan.js';
@@ -92,10 +92,11 @@ export interface DoseSearch {
   window: { upTo: number; stateAbove: State } | null;
   /**
    * How the threshold was found: the closed form, the general search, or the fast exact path
-   * ('rank-one-determinant': the S×S determinant's crossing, certified by Hurwitz counts, docs/model.md §6).
+   * ('rank-one-determinant': the S×S determinant's crossing, certified by Hurwitz counts; 'hurwitz-search': the
+   * search's scan doses and bisection on exact per-mode predicates, when something grows below that crossing; docs/model.md §6).
    * For an infeasible result: the fast path's no-crossing proof gives 'rank-one-determinant', else null.
    */
-  method: 'closed-form' | 'search' | 'rank-one-determinant' | null;
+  method: 'closed-form' | 'search' | 'rank-one-determinant' | 'hurwitz-search' | null;
   /** The dose cap used, m⁻³, and why */
   cap: { density: number; limitedBy: 'volume-fraction' | 'max-density' | 'replaced-everything' };
   /** Doses at which the growth was evaluated by the search (scan, refinement, bisection); 0 for the closed form */
@@ -197,15 +198,6 @@ export function pastBoundary(mix: Mixture, boundary: Boundary): boolean {
   return past(evaluate(mix), boundary);
 }
 
-/** First x in (lo, hi] with pred true, given pred(lo) false and pred(hi) true; log bisection when lo > 0. */
-function bisect(pred: (x: number) => boolean, lo: number, hi: number, relTol: number): number {
-  for (let it = 0; it < 200 && hi - lo > relTol * hi; it++) {
-    const mid = lo > 0 && hi / lo > 4 ? Math.sqrt(lo * hi) : 0.5 * (lo + hi);
-    if (pred(mid)) hi = mid;
-    else lo = mid;
-  }
-  return hi;
-}
 
 /** The scan doses: n points log-spaced over 9 decades below the cap (m⁻³). */
 export function scanDoses(cap: number, n = 48): number[] {
@@ -421,13 +413,20 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
   if (o.dosing === 'replace' && baseVolumeFraction(base) === 0) return infeasible(d, cap, 'nothing-to-replace', o, evaluations);
   // The fast exact path (docs/model.md §6 "Fast exact paths"): the base's side from Hurwitz counts, the threshold in closed form per mode.
   let fast: RankOneDose | null = null;
+  // false when the base grows below the boundary (stationary, a growing pair): only the second tier applies
+  let certifiable = false;
+  const fb = o.boundary as 'stationary' | 'any';
   if (fastWanted(o) && cap.density > 0 && fastInapplicable(base, d, o.dosing, o.boundary) === null) {
     validateMixture(withDose(base, d, cap.density, o.dosing));
     const f = new RankOneDose();
-    const b = f.prepare(base, d, cap.density, o.boundary as 'stationary' | 'any');
+    const b = f.prepare(base, d, cap.density, fb);
     evaluations++; // the base's own check at dose 0
-    if (b.kind === 'base-past') return { ...infeasible(d, cap, 'base-already-past', o, evaluations), method: 'rank-one-determinant' };
-    if (b.kind === 'stable') fast = f;
+    const pastAtZero = b.kind === 'base-past' ? true : b.kind === 'unsettled' ? f.pastExact(0, fb) : null;
+    if (pastAtZero === true) return { ...infeasible(d, cap, 'base-already-past', o, evaluations), method: 'rank-one-determinant' };
+    if (b.kind === 'stable' || pastAtZero === false) {
+      fast = f;
+      certifiable = b.kind === 'stable';
+    }
   }
   if (fast === null && pred(0)) return infeasible(d, cap, 'base-already-past', o, evaluations);
   if (!(cap.density > 0)) {
@@ -478,15 +477,31 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
 
   const n = o.scanPoints ?? 48;
   if (fast) {
-    const v = fast.verdict(n);
-    evaluations += fast.checked - 1;
-    if (v.kind === 'threshold') return ok(v.dose, 'rank-one-determinant', null);
-    if (v.kind === 'none-below-cap') {
-      // the same reasons the search gives when it finds nothing (the sign rule only for rank one)
-      const fastInfeasible = (reason: ReasonCode, message?: string): DoseSearch => ({ ...infeasible(d, cap, reason, o, evaluations, message), method: 'rank-one-determinant' });
-      if (fast.S === 1 && !sg.neg && sg.pos) return fastInfeasible('wrong-sign');
-      return fastInfeasible('not-found-below-cap', notFoundFastMessage(o.boundary, fast, n, cap.density));
+    const f = fast;
+    // the same reasons the search gives when it finds nothing (the sign rule only for rank one)
+    const fastInfeasible = (method: DoseSearch['method'], message: string): DoseSearch => {
+      evaluations += f.checked - 1;
+      if (f.S === 1 && !sg.neg && sg.pos) return { ...infeasible(d, cap, 'wrong-sign', o, evaluations), method };
+      return { ...infeasible(d, cap, 'not-found-below-cap', o, evaluations, message), method };
+    };
+    const v: FastVerdict = certifiable ? f.verdict(n) : { kind: 'fallback', why: 'the base grows below the boundary' };
+    if (v.kind === 'threshold') {
+      evaluations += f.checked - 1;
+      return ok(v.dose, 'rank-one-determinant', null);
     }
+    if (v.kind === 'none-below-cap') return fastInfeasible('rank-one-determinant', notFoundFastMessage(o.boundary, f, n, cap.density));
+    // second tier: something grows below the determinant's crossing; the search's doses and bisection on exact predicates
+    const t = f.search(n, relTol, fb);
+    if (t.kind === 'threshold') {
+      evaluations += f.checked - 1;
+      const window = t.windowUpTo === null ? null : { upTo: t.windowUpTo, stateAbove: at(t.windowUpTo).state };
+      return ok(t.dose, 'hurwitz-search', window);
+    }
+    if (t.kind === 'any-dose') {
+      evaluations += f.checked - 1;
+      return ok(0, 'hurwitz-search', null, true, anyDoseSearched(t.floor));
+    }
+    if (t.kind === 'none-below-cap') return fastInfeasible('hurwitz-search', notFoundHurwitzMessage(o.boundary, n, cap.density));
   }
 
   // Scan (0, cap] on a log grid, look between the scan doses, then bisect the first crossing and the first return.
@@ -543,6 +558,13 @@ function notFoundFastMessage(b: Boundary, f: RankOneDose, n: number, cap: number
     `(all ${f.modes} modes below the proven bound, ${f.modes - f.active} of them stable at every dose by Gershgorin), and every mode is stable by its Hurwitz count ` +
     `at the ${n} doses log-spaced from ${perMl(cap * 1e-9)}; a complex pair that grows and decays again between two of them is not excluded, ` +
     'so this does not prove that no narrower window exists.'
+  );
+}
+
+function notFoundHurwitzMessage(b: Boundary, n: number, cap: number): string {
+  return (
+    `the ${b} boundary was not found below the cap (${perMl(cap)}) at any of ${n} doses log-spaced from ${perMl(cap * 1e-9)}, each decided exactly on every allowed mode ` +
+    '(Hurwitz counts, and the eigenvalues of the modes that grow); the doses between them are not searched, so this does not prove that no narrower window exists.'
   );
 }
 
@@ -848,22 +870,35 @@ export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: Unce
     const dd = perturbSpecies(d, ...posSigned(new Random(streamSeed(u.seed, i, d.id))));
     let threshold: number | null = null;
     let verdict: FastVerdict | null = null;
+    let tier2 = false;
     if (fast && !(fastDraws === 0 && fastTries >= GIVE_UP_AFTER)) {
       fastTries++;
       const cap = doseCap(b, dd, o).density;
       if (cap > 0) {
-        const p = fast.prepare(b, dd, cap, o.boundary as 'stationary' | 'any');
-        if (p.kind === 'base-past') threshold = 0;
-        else if (p.kind === 'stable') {
-          verdict = fast.verdict(drawOptions.scanPoints!);
-          if (verdict.kind === 'threshold') threshold = verdict.dose;
-          else if (verdict.kind === 'none-below-cap') threshold = Infinity;
+        const fb = o.boundary as 'stationary' | 'any';
+        const p = fast.prepare(b, dd, cap, fb);
+        const pastAtZero = p.kind === 'base-past' ? true : p.kind === 'unsettled' ? fast.pastExact(0, fb) : null;
+        if (pastAtZero === true) threshold = 0;
+        else if (p.kind === 'stable' || pastAtZero === false) {
+          verdict = p.kind === 'stable' ? fast.verdict(drawOptions.scanPoints!) : null;
+          if (verdict?.kind === 'threshold') threshold = verdict.dose;
+          else if (verdict?.kind === 'none-below-cap') threshold = Infinity;
+          else {
+            // the second tier: exact predicates at the search's doses, bisected to the draw's tolerance
+            verdict = null;
+            const t = fast.search(drawOptions.scanPoints!, drawOptions.relTol!, fb);
+            if (t.kind === 'threshold') threshold = t.dose;
+            else if (t.kind === 'any-dose') threshold = 0;
+            else if (t.kind === 'none-below-cap') threshold = Infinity;
+            if (t.kind !== 'fallback') tier2 = true;
+          }
         }
       }
     }
     if (threshold !== null) {
       fastDraws++;
-      if (threshold === 0) already++;
+      // a draw past at dose 0 counts as already past; a 0⁺ threshold (any dose crosses) does not
+      if (threshold === 0 && !tier2) already++;
     } else {
       verdict = null;
       const r = findDose(b, dd, { ...drawOptions, fast: false });
@@ -875,7 +910,7 @@ export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: Unce
     thresholds.push(threshold);
     doses.forEach((x, j) => {
       // the fast facts where they prove it, else the spectrum
-      const known = verdict && fast ? fast.pastAt(x, verdict) : null;
+      const known = fast && threshold !== null && (verdict || tier2) ? (verdict ? fast.pastAt(x, verdict) : x <= fast.cap ? fast.pastExact(x, o.boundary as 'stationary' | 'any') : null) : null;
       if (known ?? pastBoundary(withDose(b, dd, x, o.dosing), o.boundary)) crossedAt[j]!++;
     });
     hooks.progress?.(i + 1);
