@@ -46,9 +46,13 @@ const got = (p: number) => {
 };
 
 describe('hydrogen peroxide: demo bands = CLP Annex VI specific concentration limits (index 008-003-00-9, from memory)', () => {
-  it('30 % (a common stock): Eye Dam. 1 H318 only, GHS05, Danger', () => {
+  it('30 % (a common stock): of the specific limits only Eye Dam. 1 H318, GHS05, Danger; the data say what they leave out', () => {
     expect(got(30)).toEqual(expected(30));
     expect(got(30)).toEqual({ statements: ['H318 Eye Dam. 1'], pictograms: ['GHS05'], signal: 'Danger' });
+    // Annex VI also lists acute toxicity (Acute Tox. 4, H302 and H332; from memory), which has no specific
+    // concentration limit and so is not a band here: the source printed with the data must say so
+    expect(set.source).toMatch(/Acute toxicity .*\(H302, H332\) is not banded here/);
+    expect(set.source).toMatch(/safety data sheet takes precedence/);
   });
   it('3 % (pharmacy grade): below every limit, said as "below the classification limits", not "no hazard"', () => {
     expect(expected(3).statements).toEqual([]);
