@@ -170,14 +170,25 @@ export function roundUp(v: number): number {
   return Math.ceil(v / step - 1e-9) * step;
 }
 
-const kindOf = (s: SampleSpec, baseIds: string[], dopantId: string, chemicalIds: string[]): SampleKind => {
-  if (s.kind) return s.kind;
-  if (!((s.conc.get(dopantId) ?? 0) > 0)) return 'no-dopant';
-  if (s.role === 'series') return 'series';
-  if (chemicalIds.length > 0 && !chemicalIds.some((c) => (s.conc.get(c) ?? 0) > 0)) return 'no-fuel';
-  if (baseIds.length > 0 && !baseIds.some((b) => (s.conc.get(b) ?? 0) > 0)) return 'dopant-alone';
-  return 'series';
-};
+/**
+ * What a sample is, when the caller does not say: no dopant → the no-dopant control; a series sample → a dose; a
+ * control with dopant is the no-fuel control when it lacks the chemicals other samples have, the dopant-alone
+ * control when it lacks the base species others have, and otherwise (nothing to tell them apart by) no-fuel when it
+ * holds no pipetted chemical.
+ */
+function kindsOf(samples: SampleSpec[], baseIds: string[], dopantId: string, chemicalIds: string[]): SampleKind[] {
+  const has = (s: SampleSpec, ids: string[]) => ids.some((id) => (s.conc.get(id) ?? 0) > 0);
+  const anyChem = samples.some((s) => has(s, chemicalIds));
+  const anyBase = samples.some((s) => has(s, baseIds));
+  return samples.map((s) => {
+    if (s.kind) return s.kind;
+    if (!((s.conc.get(dopantId) ?? 0) > 0)) return 'no-dopant';
+    if (s.role === 'series') return 'series';
+    if (anyChem && !has(s, chemicalIds)) return 'no-fuel';
+    if (anyBase && !has(s, baseIds)) return 'dopant-alone';
+    return has(s, chemicalIds) ? 'dopant-alone' : 'no-fuel';
+  });
+}
 
 /** Tube codes: C0 no dopant, D1 … Dn the doses (in the order given, low to high on a sheet), CF no fuel, CA dopant alone. */
 function tubeCodes(kinds: SampleKind[]): string[] {
@@ -295,7 +306,7 @@ function attemptPlan(
     return { component: id, from: k === 0 ? stockKey(id) : serialKey(id, k), volume: atLeastMin(v0 * Math.pow(10, k)) };
   };
 
-  const kinds = samples.map((s) => kindOf(s, baseIds, dopantId, chemicalIds));
+  const kinds = kindsOf(samples, baseIds, dopantId, chemicalIds);
   const codes = tubeCodes(kinds);
   // Per tube: the dopant, the chemicals, and the base species of a tube without master mix.
   const perTube = samples.map((s) => {

@@ -78,6 +78,9 @@ describe('the compact pipetting plan of a default sheet', () => {
     expect(plan.tubes.map((t) => t.code)).toEqual(['C0', 'D1', 'D2', 'D3', 'D4', 'D5', 'D6', 'D7', 'D8', 'CF', 'CA']);
     expect(plan.tubes[0]!.lids).toEqual(['C0a', 'C0b', 'C0c']);
     expect(tubeList(plan).map((t) => t.kind)).toEqual(['no-dopant', ...Array(8).fill('series'), 'no-fuel', 'dopant-alone']);
+    // with no chemical pipetted (no fuel stock), the no-fuel control is still told from a dose and from the dopant alone
+    const bare = planBench(comps.slice(0, 2), samples.map((s) => ({ ...s, conc: new Map([...s.conc].filter(([k]) => k !== 'fuel')) })), o, ['base'], 'dop', []);
+    expect(bare.tubes.map((t) => t.code).slice(-2)).toEqual(['CF', 'CA']);
   });
 
   it('the fuel is first made into a 2 M working solution (2.04 µL of 30 % per tube is below 5 µL, and the stock is Eye Dam. 1)', () => {
