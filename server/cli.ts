@@ -31,7 +31,7 @@ import { hazardsRepository } from './store/hazards.js';
 import { plansRepository } from './store/plans.js';
 import { shelfRepository, NotFoundError } from './store/shelf.js';
 import { sheetService } from './protocol/service.js';
-import { splitDoses } from './protocol/sheet.js';
+import { SheetNotFitError, splitDoses } from './protocol/sheet.js';
 import { DomainError } from './shelf/errors.js';
 import { VERSION } from './version.js';
 
@@ -63,7 +63,9 @@ usage:
   brink sheet <plan-id> [--db PATH] [--candidate ID] [--format html|md|json] [--paper A4|Letter] [--out FILE]
               [--sample-volume 100uL] [--replicates 3] [--min-volume 1uL] [--overage 0.1] [--buffer NAME] [--options FILE]
               [--doses "0,1e6 1/mL,1e7 1/mL"] (the dopant doses themselves; needed when any dose crosses)
-                                                     the bench sheet of a stored plan
+              [--operator NAME] [--tube-volume 1.5mL] [--chamber-volume 10uL] [--closed-chamber]
+                                                     the bench sheet of a stored plan; a plan that does not fit
+                                                     prints why and what would fix it, and exits 2
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
   brink seed [--reset] [--yes] [--db PATH]             load the demo shelf; --reset empties the database first
   brink help                                         this text
@@ -328,6 +330,10 @@ function cmdSheet(args: string[], io: Io): number {
       buffer: { type: 'string' },
       options: { type: 'string' },
       doses: { type: 'string' },
+      operator: { type: 'string' },
+      'tube-volume': { type: 'string' },
+      'chamber-volume': { type: 'string' },
+      'closed-chamber': { type: 'boolean' },
     },
   });
   const id = Number(positionals[0]);
@@ -344,14 +350,28 @@ function cmdSheet(args: string[], io: Io): number {
   if (values.overage) opts.overage = Number(values.overage);
   if (values.buffer) opts.buffer = values.buffer;
   if (values.doses !== undefined) opts.doses = splitDoses(values.doses);
+  if (values.operator) opts.operator = values.operator;
+  if (values['tube-volume']) opts.tubeVolume = values['tube-volume'];
+  if (values['chamber-volume']) opts.chamberVolume = values['chamber-volume'];
+  if (values['closed-chamber']) opts.closedChamber = true;
   const db = openDatabase(values.db);
-  try {
-    const sheets = sheetService(plansRepository(db), shelfRepository(db), hazardsRepository(db));
-    const text = sheets.render(sheets.build(id, opts), format, values.paper);
+  const write = (text: string) => {
     if (values.out) {
       writeFileSync(values.out, text);
       io.out(`wrote ${values.out}\n`);
     } else io.out(text);
+  };
+  try {
+    const sheets = sheetService(plansRepository(db), shelfRepository(db), hazardsRepository(db));
+    try {
+      write(sheets.render(sheets.build(id, opts), format, values.paper));
+    } catch (e) {
+      if (!(e instanceof SheetNotFitError)) throw e;
+      // the explanation, in the format asked for, and the refusal on stderr with exit 2
+      write(sheets.render(e.sheet, format, values.paper));
+      io.err(`cannot do that (${e.code}): ${e.message}\n${e.sheet.options.length ? `would fit: ${e.sheet.options.map((o) => o.text).join('; ')}\n` : ''}`);
+      return 2;
+    }
   } finally {
     db.close();
   }

@@ -109,7 +109,7 @@ export interface Sheet {
     dosePath: { from: Amount; to: Amount; state: State }[];
     firstOnset: { dose: Amount; state: State } | null;
   };
-  options: { sampleVolume: Amount; replicates: number; minVolume: Amount; overage: number; buffer: string };
+  options: { sampleVolume: Amount; replicates: number; minVolume: Amount; overage: number; buffer: string; operator: string | null };
   stocks: { id: string; name: string; kind: 'species' | 'chemical'; concentration: Amount; described: string; source: 'shelf' | 'option' }[];
   dilutions: { name: string; concentration: Amount; volume: Amount; steps: { what: string; from: string; volume: Amount }[] }[];
   masterMix: { tubes: number; perTube: Amount; total: Amount; steps: { what: string; from: string; volume: Amount }[] } | null;
@@ -339,7 +339,7 @@ interface Tweak {
 }
 
 /** Everything up to the pipetting plan: the candidate, the series, the stocks, the samples and their liquids. */
-function prepare(ctx: SheetContext, req: SheetRequest, tweak: Tweak = {}) {
+function liquids(ctx: SheetContext, req: SheetRequest, tweak: Tweak = {}) {
   const { plan } = ctx;
   const results = plan.result.candidates;
   const chosen = req.candidate ?? results.find((c) => c.feasible)?.species;
@@ -418,17 +418,24 @@ function prepare(ctx: SheetContext, req: SheetRequest, tweak: Tweak = {}) {
   specs.push({ name: NO_FUEL, role: 'control', kind: 'no-fuel', dose: ref, conc: dosed(ref), usesMasterMix: !replace });
   specs.push({ name: DOPANT_ALONE, role: 'control', kind: 'dopant-alone', dose: ref, conc: withFuel(new Map([[dopant.id, ref]])), usesMasterMix: false });
 
-  const pip = planPipetting(components, specs, o, base.species.map((x) => x.id), dopant.id, fuelIds);
-  return { cand: cand as CandidateResult & { threshold: NonNullable<CandidateResult['threshold']> }, chosen, base, dopant, dosing, o, ref, series, referenceFrom, seriesInfo, warnings, stocks, components, fuelIds, fuelConc, stockFractions, specs, pip, spIds };
+  return { cand: cand as CandidateResult & { threshold: NonNullable<CandidateResult['threshold']> }, chosen, base, dopant, dosing, o, ref, series, referenceFrom, seriesInfo, warnings, stocks, components, fuelIds, fuelConc, stockFractions, specs, spIds };
+}
+
+/** The liquids and their pipetting plan. @throws DomainError('impossible-volumes') */
+function prepare(ctx: SheetContext, req: SheetRequest, tweak: Tweak = {}) {
+  const L = liquids(ctx, req, tweak);
+  const pip = planPipetting(L.components, L.specs, L.o, L.base.species.map((x) => x.id), L.dopant.id, L.fuelIds);
+  return { ...L, pip };
 }
 type Prepared = ReturnType<typeof prepare>;
 
 // ------------------------------------------------------------------ plans that do not fit
 
-/** One change that would make a plan fit: the option to set and its value, in words. */
+/** One change that would make a plan fit, each tried: the option to set, its value as the option takes it, and in words. */
 export interface FitOption {
-  /** the sheet option (sampleVolume, stocks.<id>, doses) */
+  /** the sheet option (sampleVolume, stocks.<id> as density or molarConcentration, doses, candidate) */
   option: string;
+  /** e.g. "200 uL", "5.968e8 1/mL", "0.5 mol/L", "0 1/mL,1e6 1/mL" (doses, comma-separated), a candidate id */
   value: string;
   text: string;
 }
@@ -475,26 +482,23 @@ function optionsThatFit(ctx: SheetContext, req: SheetRequest): FitOption[] {
   const out: FitOption[] = [];
   const now = req.sampleVolume?.value ?? 100 * UL;
   const v = NICE_VOLUMES_UL.map((x) => x * UL).find((x) => x > now * (1 + 1e-9) && fits({ sampleVolume: x }));
-  if (v !== undefined) out.push({ option: 'sampleVolume', value: `${formatNumber(v / UL)} µL`, text: `a sample volume of ${formatNumber(v / UL)} µL (now ${formatNumber(now / UL)} µL): every tube then fits` });
+  if (v !== undefined) out.push({ option: 'sampleVolume', value: `${formatNumber(v / UL)} uL`, text: `a sample volume of ${formatNumber(v / UL)} µL (now ${formatNumber(now / UL)} µL): every tube then fits` });
   // one stock more concentrated (the stock as the sheet would read it, × the smallest factor that fits)
-  let probe: Prepared | null = null;
-  try {
-    probe = prepare(ctx, req, { sampleVolume: 1e6 * UL });
-  } catch {
-    probe = null;
-  }
-  for (const c of probe?.components ?? []) {
+  const probe = liquids(ctx, req);
+  for (const c of probe.components) {
     const f = STOCK_FACTORS.find((k) => fits({ stockScale: { id: c.id, factor: k } }));
     if (f === undefined) continue;
     const conc = c.per === 'mol' ? `${formatNumber((c.stock * f) / 1000)} mol/L` : `${formatNumber(c.stock * f * 1e-6)} particles/mL`;
     const was = c.per === 'mol' ? `${formatNumber(c.stock / 1000)} mol/L` : `${formatNumber(c.stock * 1e-6)} particles/mL`;
-    out.push({ option: `stocks.${c.id}`, value: conc, text: `a ${c.label} stock of ${conc} (${f} × the one used now, ${was}: ${c.stockText}), given as stocks.${c.id}` });
+    // the value as the stocks option takes it (molarConcentration or density)
+    const value = c.per === 'mol' ? `${Number(((c.stock * f) / 1000).toPrecision(4))} mol/L` : `${Number((c.stock * f * 1e-6).toPrecision(4))} 1/mL`;
+    out.push({ option: `stocks.${c.id}`, value, text: `a ${c.label} stock of ${conc} (${f} × the one used now, ${was}: ${c.stockText}), given as stocks.${c.id}` });
   }
-  const n = probe?.series.length ?? 0;
+  const n = probe.series.length;
   for (let k = 1; k < n - 1; k++) {
     if (!fits({ dropLargest: k })) continue;
-    const kept = probe!.series.slice(0, n - k);
-    out.push({ option: 'doses', value: kept.map((x) => per(x)).join(', '), text: `leave out the ${k === 1 ? 'largest dose' : `${k} largest doses`} (give doses up to ${per(kept[kept.length - 1]!)} as the doses option)` });
+    const kept = probe.series.slice(0, n - k);
+    out.push({ option: 'doses', value: kept.map((x) => `${Number((x * 1e-6).toPrecision(6))} 1/mL`).join(','), text: `leave out the ${k === 1 ? 'largest dose' : `${k} largest doses`} (give doses up to ${pm(kept[kept.length - 1]!)} as the doses option)` });
     break;
   }
   return out;
@@ -618,6 +622,8 @@ export interface SheetGas {
   cautions: string[];
 }
 
+/** A dose as the sheet prints it: particles per mL, four figures (1.433 × 10⁸ particles/mL). */
+const pm = (x: number) => fmtAmount(perMl(x));
 const stateWords: Record<State, string> = { stable: 'stable (nothing grows)', stationary: 'stationary (clusters or bands that grow in place)', oscillatory: 'oscillatory (travelling or pulsating patterns)' };
 
 /** Build the sheet model. @throws InputError, SheetNotFitError (422: what is impossible and what would fix it) */
@@ -757,13 +763,13 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
       const hi = band.p95 ?? Infinity;
       if (lo !== null && x >= lo && x <= hi) {
         withinBand = true;
-        flags.push(`within the 5–95 % band of the ${plan.request.boundary} threshold (${lo === null ? '' : per(lo)} to ${band.p95 === null ? 'above the dose cap' : per(band.p95)}): either side is plausible`);
+        flags.push(`within the 5–95 % band of the ${plan.request.boundary} threshold (${pm(lo)} to ${band.p95 === null ? 'above the dose cap' : pm(band.p95)}): either side is plausible`);
       }
     }
     let earlierInstability = false;
     if (onPath && onset && onset.density < threshold * (1 - 1e-5) && x >= onset.density && x < threshold) {
       earlierInstability = true;
-      flags.push(`turns ${onset.state} from ${per(onset.density)}, below the ${plan.request.boundary} threshold (${per(threshold)}): not the boundary the plan asked for`);
+      flags.push(`turns ${onset.state} from ${pm(onset.density)} (first onset), below the ${plan.request.boundary} threshold (${pm(threshold)}): not the boundary the plan asked for`);
     }
     const grows = state !== 'stable' && a.growthTime !== null;
     return {
@@ -910,7 +916,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     shelfRevisions: ctx.revisions,
     model: { walls: wallsWording(base.chamber.walls), chamberLength: L !== null ? mm(L) : null, chamberDepth: base.chamber.depth !== null ? mm(base.chamber.depth) : null, temperature: gas.temperature },
     prediction,
-    options: { sampleVolume: ul(o.sampleVolume), replicates: o.replicates, minVolume: ul(o.minVolume), overage: o.overage, buffer: o.buffer },
+    options: { sampleVolume: ul(o.sampleVolume), replicates: o.replicates, minVolume: ul(o.minVolume), overage: o.overage, buffer: o.buffer, operator: req.operator ?? null },
     stocks,
     dilutions: pip.dilutions.map((d) => ({
       name: d.name,
@@ -1002,7 +1008,7 @@ export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[])
     title: sh.title,
     blocks: [
       { kind: 'paragraph', muted: true, text: `brink ${sh.software.version} · plan ${sh.plan.id} (${sh.plan.boundary}, ${sh.plan.dosing}; computed ${sh.plan.createdAt}) · candidate ${sh.candidate.name} (${sh.candidate.id}) · printed ${sh.printedAt}` },
-      { kind: 'keyValue', rows: [{ key: 'Operator', value: null }, { key: 'Date', value: null }, { key: 'Batch / lot numbers', value: null }] },
+      { kind: 'keyValue', rows: [{ key: 'Operator', value: sh.options.operator }, { key: 'Date', value: null }, { key: 'Batch / lot numbers', value: null }] },
       { kind: 'caution', title: 'Safety first', text: 'Local regulations, your institution’s safety rules and the supplier’s safety data sheet take precedence over this sheet. Read the hazards and gas sections before you start.' },
     ],
   });

@@ -2,7 +2,7 @@
  * Bench sheets (the hazard data routes are in routes/hazards.ts):
  *
  *   GET  /api/plans/:id/sheet?candidate=&format=html|md|json&paper=A4|Letter&sampleVolume=&replicates=&minVolume=&overage=&buffer=&doses=
- *        &tubeVolume=&chamberVolume=&closedChamber=   (doses: comma-separated dopant doses, e.g. doses=0,1e6 1/mL,1e7 1/mL)
+ *        &operator=&tubeVolume=&chamberVolume=&closedChamber=   (doses: comma-separated dopant doses, e.g. doses=0,1e6 1/mL,1e7 1/mL)
  *   POST /api/plans/:id/sheet?format=…&paper=…      the same with all options (stocks, dose factors, doses) in the body
  *
  * A plan that does not fit (impossible volumes, a candidate that does not cross) answers 422 in every format, and the
@@ -44,6 +44,7 @@ export const protocolRoutes: FastifyPluginAsync = async (base) => {
         overage: z.coerce.number().optional(),
         buffer: z.string().optional(),
         doses: z.string().max(2000).optional().describe('comma-separated dopant doses, e.g. "0,1e6 1/mL,1e7 1/mL" (at most 24); needed when any dose crosses'),
+        operator: z.string().optional(),
         tubeVolume: z.string().optional(),
         chamberVolume: z.string().optional(),
         closedChamber: z.enum(['true', 'false']).optional(),
