@@ -3,9 +3,14 @@
  * terminal stderr stays empty and stdout is the same. The bar itself: width, percentage,
  * the stage cut to the line, at most one redraw per 100 ms except the end.
  */
+import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { main } from '../../server/cli.js';
+import { baseModes, WORK_BUDGET } from '../../server/jobs/budget.js';
 import { progressBar } from '../../server/jobs/progress-bar.js';
+import { parseMixture } from '../../server/schema/mixture.js';
 
 const file = new URL('../../seeds/screens/washed-janus.json', import.meta.url).pathname;
 
@@ -26,6 +31,26 @@ describe('brink screen progress', () => {
     expect(frames.at(-2)!.slice(0, -3)).toMatch(/^\[#+\] 100 % {2}ranking the candidates$/);
     expect(frames.at(-1)).toBe('\x1b[K');
     for (const f of frames) expect(f.replace('\x1b[K', '').length).toBeLessThanOrEqual(71);
+  });
+
+  it('has no fixed number of candidates: 60 pass; the work budget refuses a larger screen with exit 2, naming the numbers', async () => {
+    const doc = JSON.parse(readFileSync(file, 'utf8'));
+    const tracer = doc.candidates.find((c: { id: string }) => c.id === 'silica-1um-t01');
+    const dir = mkdtempSync(join(tmpdir(), 'brink-screen-'));
+    const many = join(dir, 'many.json');
+    writeFileSync(many, JSON.stringify({ ...doc, uncertainty: undefined, candidates: Array.from({ length: 60 }, (_, i) => ({ ...tracer, id: `tracer-${i}` })) }));
+    let out = '';
+    expect(await main(['screen', many], { out: (t) => (out += t), err: () => {} })).toBe(0);
+    expect(JSON.parse(out).candidates).toHaveLength(60);
+    // 2000 draws of n candidates: n × 2001 × modes just above the budget
+    const modes = baseModes(parseMixture(doc.base));
+    const n = Math.floor(WORK_BUDGET / (2001 * modes)) + 1;
+    const big = join(dir, 'big.json');
+    writeFileSync(big, JSON.stringify({ ...doc, uncertainty: { samples: 2000, seed: 1 }, candidates: Array.from({ length: n }, (_, i) => ({ ...tracer, id: `tracer-${i}` })) }));
+    let err = '';
+    expect(await main(['screen', big], { out: () => {}, err: (t) => (err += t) })).toBe(2);
+    expect(err).toContain(`uncertainty.samples: this screen would need ${(n * 2001 * modes).toExponential(3)} units of work (${n} candidates × (1 + 2000 Monte Carlo draws) × ${modes} modes`);
+    expect(err).toContain(`at most ${n - 1} candidates with these draws`);
   });
 
   it('the bar: fraction as # of the width, the stage cut with an ellipsis, redrawn at most every 100 ms but always at the end', () => {
