@@ -30,7 +30,7 @@ import { WATER_DENSITY_25C } from '../engine/constants.js';
 import { DomainError } from '../shelf/errors.js';
 import { classify, type Classification, type HazardSet } from './hazards.js';
 import { decideWorking, nextUp125, ROUNDING_RULE, roundDownToPipette, roundToPipette, roundUpToPipette, tenfoldTake, WORKING_BELOW, workingConcentration, type WorkingDecision } from './dilution.js';
-import { table, type Block, type Column, type Row, type Section } from './sections.js';
+import { formatNumber, table, type Block, type Column, type Row, type Section } from './sections.js';
 
 export interface Component {
   id: string;
@@ -545,19 +545,14 @@ function attemptPlan(
 
 // ---------------------------------------------------------------- text
 
-const SUP: Record<string, string> = { '-': '⁻', '0': '⁰', '1': '¹', '2': '²', '3': '³', '4': '⁴', '5': '⁵', '6': '⁶', '7': '⁷', '8': '⁸', '9': '⁹' };
+/** Superscript digits for a power of ten (10⁸). */
+const sup = (n: number) => String(n).split('').map((c) => '⁻⁰¹²³⁴⁵⁶⁷⁸⁹'['-0123456789'.indexOf(c)] ?? c).join('');
+const num = formatNumber;
 
-/** 3–4 significant figures, × 10ⁿ for large or small numbers. */
-function num(v: number, digits = 4): string {
-  if (v === 0 || (Math.abs(v) >= 1e-3 && Math.abs(v) < 1e5)) return String(Number(v.toPrecision(digits)));
-  const [m, e] = v.toExponential(digits - 1).split('e') as [string, string];
-  return `${Number(m)} × 10${String(Number(e)).split('').map((c) => SUP[c] ?? c).join('')}`;
-}
-
-/** A concentration: per mL for particles; mM below 1 M, M above, for chemicals. */
-export function fmtConc(x: number, per: 'particles' | 'mol', digits = 4): string {
-  if (per === 'particles') return `${num(x * 1e-6, digits)} /mL`;
-  return x >= 1000 ? `${num(x / 1000, digits)} M` : `${num(x, digits)} mM`;
+/** A concentration: per mL for particles; mM below 1 M, M above, for chemicals (four significant figures). */
+export function fmtConc(x: number, per: 'particles' | 'mol'): string {
+  if (per === 'particles') return `${num(x * 1e-6)} /mL`;
+  return x >= 1000 ? `${num(x / 1000)} M` : `${num(x)} mM`;
 }
 
 const pct = (w: number) => `${Number((w * 100).toPrecision(3))} % w/w`;
@@ -691,7 +686,7 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
   // doses in one unit of 10ⁿ per mL (the largest dose's decade), so the cells are short: 0.7854, 1.594 …
   const topDose = Math.max(0, ...p.tubes.map((t) => Math.max(t.plannedDose?.value ?? 0, t.deliveredDose?.value ?? 0)));
   const decade = topDose > 0 ? Math.floor(Math.log10(topDose)) : 0;
-  const scaleText = decade === 0 ? 'per mL' : `10${String(decade).split('').map((c) => SUP[c] ?? c).join('')} /mL`;
+  const scaleText = decade === 0 ? 'per mL' : `10${sup(decade)} /mL`;
   const doseText = (a: Amount) => String(Number((a.value / Math.pow(10, decade)).toPrecision(4)));
   const cols: Column[] = [
     { id: 'tube', label: 'tubes' },
