@@ -55,7 +55,7 @@ import { REAL_TOLERANCE } from './spectrum.js';
 import type { Mixture, Species } from './types.js';
 
 /** More modes below the proven bound than this and the general path (exhaustive to 200 modes, a log grid beyond) is used instead. */
-export const MAX_FAST_MODES = 1000;
+export const MAX_FAST_MODES = 20000;
 /** Certification just below the threshold: every mode must be stable at x*(1 − this). */
 export const BELOW_THRESHOLD = 1e-6;
 /** The general search's floor (a fraction of the cap): a fast threshold below it is left to the general path. */
@@ -144,6 +144,8 @@ export class RankOneDose {
   private q = new Float64Array(0);
   private xk = new Float64Array(0);
   private J0s = new Float64Array(0);
+  /** per active mode: every dose below this is proven stable by a Gershgorin bound (no Hurwitz count needed) */
+  private settled = new Float64Array(0);
   private Ws = new Float64Array(0);
   // work
   private A = new Float64Array(0);
@@ -202,6 +204,7 @@ export class RankOneDose {
     };
     this.modeN = grow(this.modeN, c, (l) => new Int32Array(l));
     this.xk = grow(this.xk, c, (l) => new Float64Array(l));
+    this.settled = grow(this.settled, c, (l) => new Float64Array(l));
     this.p0 = grow(this.p0, c * stride, (l) => new Float64Array(l));
     this.q = grow(this.q, c * stride, (l) => new Float64Array(l));
     this.J0s = grow(this.J0s, c * n * n, (l) => new Float64Array(l));
@@ -363,7 +366,8 @@ export class RankOneDose {
           } else J[i * n + j] = (i === j ? -D[i]! : 0) - acc / k2;
         }
       }
-      // Gershgorin on Ĵ(x), rows and columns, at both ends of [0, cap]
+      // Gershgorin on Ĵ(x), rows and columns: each bound is a maximum of pieces a + s·x, convex in x, so it
+      // stays negative on [0, x) up to x = min over rising pieces of −a/s when every a < 0 ("settled" below it)
       let rowBase = -Infinity;
       for (let i = 0; i < Mb; i++) {
         let r = J[i * n + i]!;
@@ -372,22 +376,41 @@ export class RankOneDose {
       }
       let slope = w[dIdx]!;
       for (let j = 0; j < Mb; j++) slope += Math.abs(w[j]!);
-      const rowBound = Math.max(rowBase, -D[dIdx]!, -D[dIdx]! + xMax * slope);
-      let col0 = -Infinity;
-      let colCap = -Infinity;
-      for (let j = 0; j < n; j++) {
+      const Dd = D[dIdx]!;
+      const upTo = (a0: number, s0: number) => (a0 >= 0 ? 0 : s0 > 0 ? -a0 / s0 : Infinity);
+      const rowSettled = rowBase < 0 ? upTo(-Dd, slope) : 0;
+      let colSettled = Infinity;
+      for (let j = 0; j < n && colSettled > 0; j++) {
         let c = J[j * n + j]!;
         for (let i = 0; i < Mb; i++) if (i !== j) c += Math.abs(J[i * n + j]!);
-        const atCap = j === dIdx ? c + xMax * w[dIdx]! : c + xMax * Math.abs(w[j]!);
-        col0 = Math.max(col0, c);
-        colCap = Math.max(colCap, atCap);
+        colSettled = Math.min(colSettled, upTo(c, j === dIdx ? w[dIdx]! : Math.abs(w[j]!)));
       }
-      const colBound = Math.max(col0, colCap);
-      if (Math.min(rowBound, colBound) < 0) continue; // stable at every dose in [0, X]
+      // rows of S⁻¹ĴS, S = diag(1, …, 1, t): the dopant's row sum shrinks by t, its column grows by t;
+      // t balances the two at xMax (any fixed t > 0 gives a valid bound of the same convex form)
+      let scaledSettled = 0;
+      let colD = 0;
+      let wOff = 0;
+      for (let i = 0; i < Mb; i++) {
+        colD = Math.max(colD, Math.abs(J[i * n + dIdx]!));
+        wOff += Math.abs(w[i]!);
+      }
+      if (colD > 0 && wOff > 0 && xMax > 0) {
+        const t = Math.sqrt((xMax * wOff) / colD);
+        let rows = -Infinity;
+        for (let i = 0; i < Mb; i++) {
+          let r = J[i * n + i]!;
+          for (let j = 0; j < Mb; j++) if (j !== i) r += Math.abs(J[i * n + j]!);
+          rows = Math.max(rows, r + t * Math.abs(J[i * n + dIdx]!));
+        }
+        scaledSettled = rows < 0 ? upTo(-Dd, w[dIdx]! + wOff / t) : 0;
+      }
+      const settled = Math.max(rowSettled, colSettled, scaledSettled);
+      if (settled > xMax) continue; // stable at every dose in [0, xMax]
 
       const a = this.active;
       this.sizeModes(a + 1, n);
       this.modeN[a] = k;
+      this.settled[a] = settled;
       // the S×S rank-one determinant: M₀ = I + G'Q_Bᵀ𝔇_B⁻¹P_B, u = G'q_d/D'_d, v = p_d
       for (let s = 0; s < S; s++) {
         for (let t = 0; t < S; t++) {
@@ -445,6 +468,7 @@ export class RankOneDose {
     const coef = this.coef.subarray(0, stride);
     this.checked++;
     for (let a = 0; a < this.active; a++) {
+      if (x < this.settled[a]!) continue;
       const off = a * stride;
       for (let t = 0; t < stride; t++) coef[t] = this.p0[off + t]! - x * this.q[off + t]!;
       const h = hurwitzUnstable(coef, this.routh);
@@ -508,12 +532,25 @@ export class RankOneDose {
     const coef = this.coef.subarray(0, stride);
     const dIdx = n - 1;
     for (let a = 0; a < this.active; a++) {
+      if (x < this.settled[a]!) continue;
       const off = a * stride;
       for (let t = 0; t < stride; t++) coef[t] = this.p0[off + t]! - x * this.q[off + t]!;
       if (boundary === 'stationary' && coef[n]! < 0) return true;
       const h = hurwitzUnstable(coef, this.routh);
       if (h === 0) continue;
       if (boundary === 'any' && h !== null) return true;
+      if (boundary === 'stationary') {
+        // Descartes' rule of signs: no sign change among the coefficients, no positive real root
+        let changes = 0;
+        let last = 0;
+        for (let t = 0; t < stride; t++) {
+          const c = coef[t]!;
+          if (c === 0) continue;
+          if (last !== 0 && (c > 0) !== (last > 0)) changes++;
+          last = c;
+        }
+        if (changes === 0) continue;
+      }
       const J = this.J;
       J.set(this.J0s.subarray(a * n * n, (a + 1) * n * n));
       for (let j = 0; j < n; j++) J[dIdx * n + j]! += x * this.Ws[a * n + j]!;
