@@ -28,7 +28,7 @@
  */
 import { WATER_DENSITY_25C } from '../engine/constants.js';
 import { DomainError } from '../shelf/errors.js';
-import { classify, type Classification, type HazardSet } from './hazards.js';
+import { classify, type HazardSet } from './hazards.js';
 import { decideWorking, nextUp125, ROUNDING_RULE, roundDownToPipette, roundToPipette, roundUpToPipette, tenfoldTake, WORKING_BELOW, workingConcentration, type WorkingDecision } from './dilution.js';
 import { formatNumber, table, type Block, type Column, type Row, type Section } from './sections.js';
 
@@ -793,12 +793,4 @@ export function planPipetting(components: Component[], samples: SampleSpec[], o:
     allVolumes: bench.allVolumes,
     bench,
   };
-}
-
-/** Classification of each concentration of a chemical handled at the bench (for the hazards section). */
-export function handledClassifications(plan: BenchPlan, hazards: (id: string) => HazardSet | null): (Handled & { classified: boolean; classification: Classification | null })[] {
-  return plan.handled.map((h) => {
-    const set = hazards(h.chemical);
-    return { ...h, classified: set !== null && h.massFraction !== null, classification: set && h.massFraction !== null ? classify(set, h.massFraction) : null };
-  });
 }
