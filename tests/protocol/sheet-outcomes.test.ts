@@ -152,6 +152,21 @@ describe('gas per tube', () => {
   });
 });
 
+describe('gas options over HTTP', () => {
+  it('tubeVolume, chamberVolume and closedChamber in the query string; the operator printed', async () => {
+    const r = await app.inject({ method: 'GET', url: `/api/plans/${plan.id}/sheet?format=json&tubeVolume=2%20mL&chamberVolume=10%20uL&closedChamber=true&operator=${encodeURIComponent('A. Tester (invented)')}` });
+    expect(r.statusCode).toBe(200);
+    const s = r.json() as Sheet;
+    expect(s.gas).toMatchObject({ tubeVolume: { value: 2000, unit: 'µL' }, chamberVolume: { value: 10, unit: 'µL' }, chamberVolumeFrom: 'option' });
+    // 10 µL of the 100 µL sample in a 10 µL chamber: 244.65 µL × 0.1 / 10 µL = 2.45 × (by hand, as above); headspace 1.9 mL: 12.9 %
+    const d4 = s.gas.perTube.find((g) => g.tube === 'D4')!;
+    expect(Math.abs(d4.fractionOfChamber! / 2.4465 - 1)).toBeLessThan(1e-3);
+    expect(Math.abs(d4.fractionOfHeadspace! / (244.65 / 1900) - 1)).toBeLessThan(1e-3);
+    expect(d4.closedWithCatalyst).toBe(true);
+    expect(s.sections[0]!.blocks.find((b) => b.kind === 'keyValue')).toMatchObject({ rows: [{ key: 'Operator', value: 'A. Tester (invented)' }, { key: 'Date', value: null }, { key: 'Batch / lot numbers', value: null }] });
+  });
+});
+
 describe('the model\'s walls are not advice', () => {
   it('"sealed" (a no-flux boundary of the model) appears on no rendering; the walls are worded as the model’s', () => {
     expect(sheet.model.walls).toMatch(/^no-flux boundary \(model\)/);
