@@ -331,22 +331,25 @@ function attemptPlan(
   if (mmTubes.length > 0 && baseInTube > 0) {
     if (p < baseInTube || p < o.minVolume) {
       const need = baseInTube + reserve;
-      const top = mmTubes.reduce((best, t) => ((t.draws.find((d) => d.component === dopantId)?.volume ?? 0) > (best.draws.find((d) => d.component === dopantId)?.volume ?? 0) ? t : best));
+      // the fullest tube (the largest variable part) and its dopant draw
+      const vi = variable.indexOf(Math.max(...variable));
+      const top = mmTubes[vi]!;
       const topDopant = top.draws.find((d) => d.component === dopantId);
       const dop = comp.get(dopantId)!;
-      // the top dose's volume of the dopant stock (as if undiluted) — what a more concentrated stock would shrink
-      const topStockVolume = topDopant ? ((top.s.conc.get(dopantId) ?? 0) * V) / dop.stock : 0;
-      const other = need - (topDopant?.volume ?? 0);
-      const room = V - other;
-      const f = room > 0 && topStockVolume > 0 ? topStockVolume / room : Infinity;
       const per = dop.per === 'mol' ? (x: number) => `${(x / 1000).toPrecision(3)} mol/L` : (x: number) => `${(x * 1e-6).toPrecision(3)} particles/mL`;
-      const stockFix = Number.isFinite(f)
-        ? `a ${dop.label} stock of at least ${per(dop.stock * f * 1.05)} (now ${per(dop.stock)}, ${dop.stockText})`
-        : `more concentrated base and fuel stocks (they alone take ${fmtUl(other)})`;
-      throw new Impossible(
-        `the components need ${fmtUl(need)} in a ${fmtUl(V)} tube (the top dose alone takes ${fmtUl(topDopant?.volume ?? 0)} of the ${dop.label} ${topDopant && topDopant.from !== stockKey(dopantId) ? 'dilution' : 'stock'}). ` +
-          `Use a larger sample volume (at least ${fmtUl(roundUp(need * 1.05))}), ${stockFix}, or fewer or lower doses.`,
-      );
+      const fixes: string[] = [`a larger sample volume (at least ${fmtUl(roundUp(need * 1.05))})`];
+      // a more concentrated dopant stock helps only when the fullest tube takes it from the stock itself: a draw from a
+      // dilution is there because the stock volume is small, and a stronger stock would not shrink it
+      if (topDopant && topDopant.from === stockKey(dopantId)) {
+        const room = V - (need - topDopant.volume);
+        const f = room > 0 ? topDopant.volume / room : Infinity;
+        fixes.push(Number.isFinite(f) && f > 1 ? `a ${dop.label} stock of at least ${per(dop.stock * f * 1.05)} (now ${per(dop.stock)}, ${dop.stockText})` : `more concentrated base and fuel stocks (they alone take ${fmtUl(need - topDopant.volume)})`);
+      } else fixes.push(`more concentrated base and fuel stocks (they take ${fmtUl(need - (topDopant?.volume ?? 0))})`);
+      // volumes raised to a minimum set above the usual 1 µL take room of their own
+      const raised = top.draws.filter((d) => d.volume <= roundUpToPipette(o.minVolume) * (1 + 1e-9));
+      if (raised.length > 0 && o.minVolume > UL * (1 + 1e-9)) fixes.push(`a smaller minimum volume to pipette (now ${fmtUl(o.minVolume)}; ${raised.length} of that tube's volumes are raised to it)`);
+      const drawText = top.draws.map((d) => `${fmtUl(d.volume)} of ${d.from === stockKey(d.component) ? `the ${comp.get(d.component)!.label} stock` : d.from.startsWith('working') ? `the ${comp.get(d.component)!.label} working solution` : `a ${comp.get(d.component)!.label} dilution`}`).join(', ');
+      throw new Impossible(`the components need ${fmtUl(need)} in a ${fmtUl(V)} tube (the fullest tube, ${top.s.name}, takes ${drawText}, beside the base species' ${fmtUl(baseInTube)} and one minimum volume of buffer). Use ${fixes.join(', ')}, or fewer or lower doses.`);
     }
     mmNeed = p * nMm * ov;
     // each base into the master mix so that p of it carries the tube's share (C₁V₁ = C₂V₂ with the mix's own volume)

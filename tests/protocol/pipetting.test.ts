@@ -269,6 +269,20 @@ describe('serial dilutions and plans that do not fit', () => {
     const fixed = setup(Number(m![1]) * 1e6, [0, 1e14, 2e14]);
     expect(() => planBench(fixed.comps, fixed.samples, o, ['base'], 'dop', ['fuel'])).not.toThrow();
   });
+
+  it('when the fullest tube takes its dopant from a dilution, no stock is offered as the fix (a stronger stock would not shrink it); a raised minimum is named', () => {
+    // a 20 µL minimum: 1.5e14 m⁻³ needs 100 µL × 1.5e14 / 1e15 = 15 µL of stock, below 20 µL → 150 µL of a 1:10 dilution
+    const { comps, samples } = setup(1e15, [0, 5e13, 1.5e14]);
+    let msg = '';
+    try {
+      planBench(comps, samples, { ...o, minVolume: 20 * UL }, ['base'], 'dop', ['fuel']);
+    } catch (e) {
+      msg = (e as Error).message;
+    }
+    expect(msg).toMatch(/the fullest tube, s2, takes 150 µL of a dopant dilution/);
+    expect(msg).not.toMatch(/dopant stock of at least/);
+    expect(msg).toMatch(/a smaller minimum volume to pipette \(now 20 µL/);
+  });
 });
 
 describe('stocks', () => {
