@@ -130,8 +130,9 @@ export interface Tube {
 /** A concentration handled at the bench, for the hazards section: a stock bottle, a working solution, the sample. */
 export interface Handled {
   chemical: string;
+  /** working: a liquid made of it before the tubes (its working solution W…, or a 1:10 dilution S… when none fits) */
   where: 'stock' | 'working' | 'sample';
-  /** W1 … for a working solution, null otherwise */
+  /** W1 … or S1 … for a liquid made before the tubes, null otherwise */
   code: string | null;
   /** mol m⁻³ (as made; the sample: the largest delivered concentration) */
   concentration: number;
@@ -521,8 +522,12 @@ function attemptPlan(
     const M = c.molarMass ?? null;
     const w = (x: number) => (M ? (x * M) / WATER_DENSITY_25C : null);
     handled.push({ chemical: id, where: 'stock', code: null, concentration: c.stock, massFraction: c.stockMassFraction ?? null });
-    const wl = liquids.get(workingKey(id));
-    if (wl) handled.push({ chemical: id, where: 'working', code: wl.code, concentration: wl.contents.get(id)!, massFraction: w(wl.contents.get(id)!) });
+    // every liquid made of it before the tubes: its working solution, or 1:10 dilutions when none fits (code S…)
+    for (const p of preparations) {
+      if (p.component !== id) continue;
+      const x = p.contents.get(id)!;
+      handled.push({ chemical: id, where: 'working', code: p.code, concentration: x, massFraction: w(x) });
+    }
     const top = Math.max(...inTubes);
     handled.push({ chemical: id, where: 'sample', code: null, concentration: top, massFraction: w(top) });
   }
