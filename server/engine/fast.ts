@@ -341,11 +341,52 @@ export class RankOneDose {
     const stride = n + 1;
     let baseUnstable = false;
     let baseStationary = false;
+    // With R' diagonal and non-negative (no saturating turnover couples two chemicals), |(P'G'Q'ᵀ)_ij| ≤
+    // Σ_s |P'_is||Q'_js| / (k'²D'_c,s + R'_ss), which falls with k'; a Gershgorin bound built from it that
+    // is negative on [0, X] at mode k is negative at every higher mode too: the enumeration stops there.
+    let diagonalR = true;
+    for (let s = 0; s < S; s++) for (let t = 0; t < S; t++) if ((s !== t && this.R[s * S + t] !== 0) || (s === t && !(this.R[s * S + t]! >= 0))) diagonalR = false;
+    const decaysBeyond = (k2: number, X: number): boolean => {
+      let colD = 0;
+      let dOff = 0;
+      let dSelf = 0;
+      let rows = -Infinity;
+      for (let i = 0; i <= Mb; i++) {
+        let r = 0;
+        for (let j = 0; j < n; j++) {
+          let e = 0;
+          for (let s = 0; s < S; s++) e += (Math.abs(P[i * S + s]!) * Math.abs(Q[j * S + s]!)) / (k2 * this.Dc[s]! + this.R[s * S + s]!);
+          if (i === dIdx) {
+            if (j === dIdx) dSelf = e;
+            else dOff += e;
+          } else if (j === dIdx) colD = Math.max(colD, e);
+          else r += e;
+        }
+        if (i < Mb) rows = Math.max(rows, -D[i]! + r);
+      }
+      if (!(rows < 0)) return false;
+      // rows of S⁻¹ĴS with S = diag(1, …, 1, t); the base rows gain t·colD, the dopant's row X(dOff/t + dSelf)
+      const t = colD > 0 && dOff > 0 && X > 0 ? Math.sqrt((X * dOff) / colD) : 1;
+      let baseRows = -Infinity;
+      for (let i = 0; i < Mb; i++) {
+        let r = -D[i]!;
+        let ed = 0;
+        for (let j = 0; j < n; j++) {
+          let e = 0;
+          for (let s = 0; s < S; s++) e += (Math.abs(P[i * S + s]!) * Math.abs(Q[j * S + s]!)) / (k2 * this.Dc[s]! + this.R[s * S + s]!);
+          if (j === dIdx) ed = e;
+          else r += e;
+        }
+        baseRows = Math.max(baseRows, r + t * ed);
+      }
+      return baseRows < 0 && -D[dIdx]! + X * (dOff / t + dSelf) < 0;
+    };
     for (let k = 1; ; k++) {
       // the doses that matter: [0, X], X = min(lowest crossing so far, cap); modes beyond the bound at X cannot cross below it
       const xMax = Math.min(this.xStar, cap);
       const k2 = k * k;
       if (k2 > cutAt(xMax)) break;
+      if (diagonalR && k % 4 === 0 && decaysBeyond(k2, xMax)) break;
       if (k > MAX_FAST_MODES) return { kind: 'fallback', why: `more than ${MAX_FAST_MODES} modes below the proven bound` };
       this.modes = k;
       // X = k'² G' Q'ᵀ (S×n): (D'_c + R'/k'²) X = Q'ᵀ
