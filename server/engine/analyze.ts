@@ -6,7 +6,7 @@
 import { practicalChecks, type PracticalChecks, type Warning } from './checks.js';
 import { determinant, solveInPlace } from './linalg/dense.js';
 import { buildModel, type ScaledModel } from './model.js';
-import { scanModes, type BranchBest, type ScanOptions } from './scan.js';
+import { scanModes, scanState, type BranchBest, type ScanOptions } from './scan.js';
 import { leadingEigenpair } from './spectrum.js';
 import type { Mixture } from './types.js';
 
@@ -260,6 +260,21 @@ export function analyze(mix: Mixture, options: ScanOptions = {}): AnalysisResult
       evaluations: scan.evaluations,
     },
   };
+}
+
+/**
+ * The state of a mixture alone, equal to `analyze(mix).state` (docs/model.md §5),
+ * with as few eigenvalues as proofs allow (`scanState` in scan.ts: Routh–Hurwitz
+ * and the small-gain bound prove `stable` mode by mode; eigenvalues only where a
+ * mode may grow). `fast: false` runs the general scan (the reference).
+ *
+ * @param mix all values SI (see types.ts)
+ * @throws EngineInputError for malformed input; EngineDomainError outside the model
+ * @example stateOf(mixture) // 'stable'
+ */
+export function stateOf(mix: Mixture, options: { fast?: boolean } = {}): State {
+  const model = buildModel(mix);
+  return scanState(model, mix.chamber.walls, { earlyExit: options.fast !== false });
 }
 
 /** Round-off-level components to exactly 0 (|x| < 1e-13 of the leading one). */

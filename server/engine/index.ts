@@ -10,7 +10,7 @@
  * better-sqlite3, zod or mathjs (a lint rule and a test enforce it).
  */
 export * from './types.js';
-export { analyze, determinantIndex } from './analyze.js';
+export { analyze, determinantIndex, stateOf } from './analyze.js';
 export type { AnalysisResult, CompositionEntry, Criteria, Criterion, FastestMode, State } from './analyze.js';
 export { practicalChecks } from './checks.js';
 export type { PracticalChecks, Warning } from './checks.js';

@@ -23,6 +23,7 @@
  * relative bracket of 1e-10 (the fastest wavenumber to better than 1e-6), and
  * for discrete chambers the integer modes on both sides are evaluated.
  */
+import { gershgorinBelow, ModeBounds, routhBelow, routhScratch, spectrumReal, type RouthScratch } from './bounds.js';
 import { solveInPlace } from './linalg/dense.js';
 import { eigenvalues } from './linalg/eigen.js';
 import type { ScaledModel } from './model.js';
@@ -127,6 +128,13 @@ export interface ScanOptions {
   maxExhaustive?: number;
   /** Grid points per decade of k' (default 24). */
   perDecade?: number;
+  /**
+   * Skip the eigenvalues of an allowed mode (and a whole refinement or grid
+   * stage) when a proven bound shows it cannot change any reported value
+   * (bounds.ts, docs/model.md §4). Default true; false is the reference path.
+   * The answer is the same either way; only `evaluations` and `proven` differ.
+   */
+  earlyExit?: boolean;
 }
 
 /** The best mode of one branch. k is scaled; index is n for a discrete chamber, null for the continuum. */
@@ -150,6 +158,8 @@ export interface ScanResult {
   longWaveLimit: boolean;
   evaluations: number;
   unconverged: number;
+  /** Allowed modes whose eigenvalues were not needed: a bound proved they change nothing (0 without early exits). */
+  proven: number;
 }
 
 interface Bound {
@@ -244,14 +254,99 @@ function cutoff(b: Bound, fRef: number, model: ScaledModel): number {
 type Branch = 'maxRe' | 'maxReal' | 'maxComplex';
 const BRANCHES: Branch[] = ['maxRe', 'maxReal', 'maxComplex'];
 
+/** What the scan must get right: every reported value (`full`), or only the state (`state`: the sign and type of the overall best). */
+type Goal = 'full' | 'state';
+
+/** Largest number of allowed modes checked one by one before a stage is skipped (beyond it the stage just runs). */
+const PROOF_BUDGET = 4000;
+/** … and of those, how many may need J'(k) itself (a Routh or disc check, about a tenth of an eigen solve each). */
+const JACOBIAN_BUDGET = 100;
+
 class Tracker {
   evaluations = 0;
   unconverged = 0;
+  proven = 0;
+  /** J'(k) built for a proof (Routh, discs) */
+  jacobians = 0;
   best: Record<Branch, { spec: ModeSpectrum; index: number | null } | null> = { maxRe: null, maxReal: null, maxComplex: null };
+  private readonly routh: RouthScratch;
   constructor(
     private readonly model: ScaledModel,
     private readonly discrete: boolean,
-  ) {}
+    private readonly bounds: ModeBounds | null = null,
+    private readonly goal: Goal = 'full',
+    /** state goal: modes below this are proven stable already */
+    private readonly stableBelow = 1,
+  ) {
+    this.routh = routhScratch(model.M);
+  }
+
+  /**
+   * The value a skipped mode must provably stay below, and whether it must
+   * also be proven to have only real eigenvalues (no complex pair found yet, so
+   * any pair would be the oscillatory branch's first). Null: no skip possible.
+   */
+  private target(): { value: number; realOnly: boolean } | null {
+    const re = this.best.maxRe;
+    if (this.goal === 'state') {
+      // a mode below the best cannot change it; a stable one cannot make the state unstable
+      return { value: re !== null && re.spec.maxRe > 0 ? re.spec.maxRe : 0, realOnly: false };
+    }
+    const real = this.best.maxReal;
+    const cx = this.best.maxComplex;
+    if (re === null || real === null) return null;
+    let value = Math.min(re.spec.maxRe, real.spec.maxReal);
+    if (cx !== null) value = Math.min(value, cx.spec.maxComplex);
+    return Number.isFinite(value) ? { value, realOnly: cx === null } : null;
+  }
+
+  /**
+   * Whether allowed mode k provably cannot change any tracked best (bounds.ts):
+   * every eigenvalue has Re λ below each branch's best (with margins), by the
+   * small-gain bound or, on J'(k) itself, by Routh–Hurwitz; when no complex
+   * pair has been found, the Gershgorin discs must also prove all eigenvalues
+   * real.
+   */
+  irrelevant(k: number): boolean {
+    if (this.bounds === null) return false;
+    if (this.goal === 'state' && k < this.stableBelow) return true; // proven stable: cannot make the state unstable or beat a growing best
+    const t = this.target();
+    if (t === null) return false;
+    if (!t.realOnly && this.bounds.provesBelow(k, t.value)) return true;
+    if (this.model.M < 2) return false;
+    this.jacobians++;
+    const J = this.bounds.jacobianAt(k);
+    if (J === null) return false;
+    if (t.realOnly && !spectrumReal(J, this.model.M)) return false;
+    if (t.realOnly && this.bounds.provesBelow(k, t.value)) return true;
+    return gershgorinBelow(J, this.model.M, t.value) || routhBelow(J, this.model.M, t.value, this.routh);
+  }
+
+  /**
+   * Whether every allowed mode n in [from, to] is irrelevant now: checked one
+   * by one until the small-gain tail bound covers the rest (at most
+   * PROOF_BUDGET modes; otherwise false).
+   */
+  allIrrelevant(from: number, to: number): boolean {
+    if (this.bounds === null || to < from) return this.bounds !== null;
+    const t = this.target();
+    if (t === null) return false;
+    const start = this.jacobians;
+    for (let n = from, checked = 0; n <= to; n++, checked++) {
+      if (!t.realOnly && this.bounds.provesTailBelow(n, t.value)) return true;
+      if (checked >= PROOF_BUDGET || this.jacobians - start >= JACOBIAN_BUDGET || !this.irrelevant(n)) return false;
+    }
+    return true;
+  }
+
+  /** Offer allowed mode n, unless a bound proves it changes nothing. */
+  offerMode(n: number): void {
+    if (this.irrelevant(n)) {
+      this.proven++;
+      return;
+    }
+    this.offer(this.eval(n));
+  }
 
   eval(k: number): ModeSpectrum {
     const s = modeSpectrum(this.model, k);
@@ -329,15 +424,75 @@ function logGrid(lo: number, hi: number, perDecade: number): number[] {
  * @returns the best modes (scaled k'), the rigorous scan bound and bookkeeping
  */
 export function scanModes(model: ScaledModel, walls: Walls, options: ScanOptions = {}): ScanResult {
+  return scan(model, walls, options, 'full');
+}
+
+/** The state a scan reports: `stable` unless the overall best grows, then the type of that eigenvalue (docs/model.md §5). */
+export type ScanState = 'stable' | 'stationary' | 'oscillatory';
+
+/**
+ * The state alone (stable / stationary / oscillatory), equal to what
+ * `scanModes` gives (`overall.value > 0`, then `overall.im > 0`) but with fewer
+ * eigenvalues (docs/model.md §4–§5):
+ *
+ *  - first a proof of `stable` with no eigenvalues at all: in a sealed or
+ *    periodic chamber every allowed mode n = 1, 2, … is shown to have
+ *    Re λ < 0 by the small-gain bound or, failing that, by Routh–Hurwitz on
+ *    J'(n), until the small-gain tail bound covers every higher mode; in an
+ *    unbounded chamber by the one inequality of `provesStableEverywhere`;
+ *  - otherwise the general scan, in which an allowed mode proven stable, or
+ *    proven below the growth already found, takes no eigenvalues (the
+ *    fastest growing mode decides the type).
+ *
+ * `earlyExit: false` is the general scan itself (the reference).
+ */
+export function scanState(model: ScaledModel, walls: Walls, options: ScanOptions = {}): ScanState {
+  let stableBelow = 1;
+  if (options.earlyExit !== false && model.M > 0) {
+    const bounds = new ModeBounds(model);
+    if (bounds.usable) {
+      if (walls === 'unbounded') {
+        if (bounds.provesStableEverywhere()) return 'stable';
+      } else {
+        stableBelow = firstUnprovenMode(model, bounds);
+        if (stableBelow === Infinity) return 'stable';
+      }
+    }
+  }
+  const o = scan(model, walls, options, 'state', stableBelow).overall;
+  return o.value > 0 ? (o.im > 0 ? 'oscillatory' : 'stationary') : 'stable';
+}
+
+/**
+ * The first allowed mode n ≥ 1 not proven stable (small gain, then Gershgorin
+ * and Routh–Hurwitz on J'(n)), or Infinity when the small-gain tail bound
+ * covers every mode from some n on and all below it are proven.
+ */
+function firstUnprovenMode(model: ScaledModel, bounds: ModeBounds): number {
+  const routh = routhScratch(model.M);
+  for (let n = 1; n <= PROOF_BUDGET; n++) {
+    if (bounds.provesTailBelow(n, 0)) return Infinity;
+    if (bounds.provesBelow(n, 0)) continue;
+    const J = model.M < 2 ? null : bounds.jacobianAt(n);
+    if (J === null || !(gershgorinBelow(J, model.M, 0) || routhBelow(J, model.M, 0, routh))) return n;
+  }
+  return PROOF_BUDGET + 1;
+}
+
+/** `stableBelow`: allowed modes n < stableBelow are already proven stable (state goal only). */
+function scan(model: ScaledModel, walls: Walls, options: ScanOptions, goal: Goal, stableBelow = 1): ScanResult {
   const maxExhaustive = options.maxExhaustive ?? 200;
   const perDecade = options.perDecade ?? 24;
   const discrete = walls !== 'unbounded';
-  const t = new Tracker(model, discrete);
+  const bounds = discrete && options.earlyExit !== false ? new ModeBounds(model) : null;
+  const t = new Tracker(model, discrete, bounds !== null && bounds.usable ? bounds : null, goal, stableBelow);
   const bound = gershgorinBound(model);
   let longWaveLimit = false;
   let kHi: number;
 
-  const refine = (lo: number, hi: number, branch: Branch, offerAt: (k: number) => void) => {
+  const refine = (lo: number, hi: number, branch: Branch, offerAt: (k: number) => void, candidates?: [number, number]) => {
+    // a refinement that can only offer irrelevant modes changes nothing: not run
+    if (candidates !== undefined && t.allIrrelevant(candidates[0], candidates[1])) return;
     const cache = new Map<number, number>();
     const fn = (u: number) => {
       const hit = cache.get(u);
@@ -350,7 +505,8 @@ export function scanModes(model: ScaledModel, walls: Walls, options: ScanOptions
     offerAt(Math.exp(u));
   };
 
-  const gridSearch = (ks: number[], offerAt: (k: number) => void) => {
+  // candidates(lo, hi): the allowed modes a refinement of [lo, hi] can offer (discrete only)
+  const gridSearch = (ks: number[], offerAt: (k: number) => void, candidates?: (lo: number, hi: number) => [number, number]) => {
     const specs = ks.map((k) => t.eval(k));
     for (const s of specs) offerAt(s.k);
     for (const b of BRANCHES) {
@@ -358,7 +514,7 @@ export function scanModes(model: ScaledModel, walls: Walls, options: ScanOptions
       for (const i of localMaxima(vals, b === 'maxRe' ? 4 : 2)) {
         const lo = ks[Math.max(0, i - 1)]!;
         const hi = ks[Math.min(ks.length - 1, i + 1)]!;
-        if (hi > lo) refine(lo, hi, b, offerAt);
+        if (hi > lo) refine(lo, hi, b, offerAt, candidates?.(lo, hi));
       }
     }
     return specs;
@@ -370,14 +526,16 @@ export function scanModes(model: ScaledModel, walls: Walls, options: ScanOptions
     kHi = Math.sqrt(cutoff(bound, first.maxRe, model));
     const nHi = Math.max(1, Math.floor(kHi));
     const nEx = Math.min(nHi, maxExhaustive);
-    for (let n = 2; n <= nEx; n++) t.offer(t.eval(n));
-    if (nHi > nEx) {
+    for (let n = 2; n <= nEx; n++) t.offerMode(n);
+    // the grid stage offers only modes in [nEx, nHi]; when every one is proven irrelevant it cannot change anything
+    if (nHi > nEx && !t.allIrrelevant(nEx, nHi)) {
       const offerInt = (k: number) => {
         for (const n of new Set([Math.floor(k), Math.ceil(k)])) {
-          if (n >= nEx && n <= nHi) t.offer(t.eval(n));
+          if (n >= nEx && n <= nHi) t.offerMode(n);
         }
       };
-      gridSearch(logGrid(nEx, nHi, perDecade), offerInt);
+      const candidates = (lo: number, hi: number): [number, number] => [Math.max(nEx, Math.floor(lo * (1 - 1e-12))), Math.min(nHi, Math.ceil(hi * (1 + 1e-12)))];
+      gridSearch(logGrid(nEx, nHi, perDecade), offerInt, candidates);
     }
   } else {
     // Continuum. The k → 0 limit: J' → 0 when R' is invertible (f → 0); otherwise
@@ -438,5 +596,6 @@ export function scanModes(model: ScaledModel, walls: Walls, options: ScanOptions
     longWaveLimit,
     evaluations: t.evaluations,
     unconverged: t.unconverged,
+    proven: t.proven,
   };
 }
