@@ -12,7 +12,7 @@ import Fastify, { type FastifyInstance, type FastifyServerOptions } from 'fastif
 import { jsonSchemaTransform, type ZodTypeProvider } from 'fastify-type-provider-zod';
 import type { ZodType } from 'zod';
 import { calibrationService, type CalibrationService } from '../calibrate/service.js';
-import { defaultPoolSize, WorkerPool, WorkTimedOutError } from '../jobs/pool.js';
+import { defaultPoolSize, WorkCancelledError, WorkerPool } from '../jobs/pool.js';
 import { JobRegistry } from '../jobs/registry.js';
 import type { TaskInput, TaskKind, TaskOutput } from '../jobs/tasks.js';
 import { DomainError } from '../shelf/errors.js';
@@ -105,12 +105,20 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   app.decorate('pool', pool);
   app.decorate('jobs', jobs);
   const requestLimitMs = (config.requestTimeLimit ?? 120) * 1000;
-  app.decorate('compute', <K extends TaskKind>(kind: K, input: TaskInput<K>) =>
-    pool.run(kind, input, { timeLimitMs: requestLimitMs }).catch((e: unknown) => {
-      if (e instanceof WorkTimedOutError) throw new DomainError('time-limit', `the computation ${e.message} (the service's limit for a request): ask for less`);
+  // the request's limit counts from the request, queueing included (a queued task is dropped at it)
+  app.decorate('compute', async <K extends TaskKind>(kind: K, input: TaskInput<K>) => {
+    const limit = new AbortController();
+    const timer = setTimeout(() => limit.abort(), requestLimitMs);
+    try {
+      return await pool.run(kind, input, { signal: limit.signal, lane: 'request' });
+    } catch (e) {
+      if (e instanceof WorkCancelledError && limit.signal.aborted)
+        throw new DomainError('time-limit', `the computation was stopped after the service's limit for a request, ${requestLimitMs / 1000} s: ask for less`);
       throw e;
-    }),
-  );
+    } finally {
+      clearTimeout(timer);
+    }
+  });
   app.addHook('onClose', async () => {
     jobs.close();
     await pool.close();

@@ -13,6 +13,10 @@
  *   with the worker's stack), so the one error handler answers as it would have.
  * - Workers start when work arrives, up to `size`, and stay for the next task;
  *   an idle worker does not keep the process alive. `close()` terminates all.
+ * - Two lanes: `job` tasks (plans) may occupy at most `jobWorkers` workers at
+ *   once (default size − 1, at least 1), so with two or more workers a request
+ *   that waits for its answer (an analysis, a fit) always finds one free of
+ *   long jobs; `request` tasks (the default) may use any worker.
  *
  * The worker file sits next to this module: `worker.js` when this module is
  * compiled JavaScript, else `worker-tsx.mjs`, which registers the tsx loader
@@ -50,6 +54,8 @@ export interface RunOptions {
   onStart?: () => void;
   /** The task's progress, as the worker posts it (at most about ten a second, and the end). */
   onProgress?: (fraction: number, stage: string) => void;
+  /** `job` for long work started by a request that does not wait (at most `jobWorkers` at once); default `request` */
+  lane?: 'job' | 'request';
 }
 
 interface Task {
@@ -86,6 +92,8 @@ export interface PoolOptions {
   size?: number;
   /** smallest interval between two progress messages of a task, ms (default 100: about ten a second) */
   progressIntervalMs?: number;
+  /** workers `job` tasks may occupy at once (default size − 1, at least 1) */
+  jobWorkers?: number;
 }
 
 /** Rebuild an error thrown in a worker as the class the error handler knows. */
@@ -105,6 +113,7 @@ export function rebuildError(e: SerializedError): Error {
 
 export class WorkerPool {
   readonly size: number;
+  readonly jobWorkers: number;
   private readonly slots: Slot[] = [];
   private readonly queue: Task[] = [];
   private nextId = 1;
@@ -116,6 +125,7 @@ export class WorkerPool {
     const size = o.size ?? defaultPoolSize();
     if (!(Number.isInteger(size) && size >= 1)) throw new Error(`pool size must be a whole number ≥ 1, got ${size}`);
     this.size = size;
+    this.jobWorkers = Math.min(size, Math.max(1, o.jobWorkers ?? size - 1));
     this.progressIntervalMs = Math.max(0, o.progressIntervalMs ?? 100);
   }
 
@@ -150,12 +160,16 @@ export class WorkerPool {
 
   private pump(): void {
     while (this.queue.length > 0 && !this.closed) {
+      // the first queued task its lane lets run: a job waits while jobWorkers workers hold jobs
+      const jobsBusy = this.slots.filter((s) => s.task?.options.lane === 'job').length;
+      const next = this.queue.findIndex((t) => t.options.lane !== 'job' || jobsBusy < this.jobWorkers);
+      if (next < 0) return;
       let slot = this.slots.find((s) => s.task === null);
       if (!slot) {
         if (this.slots.length >= this.size) return;
         slot = this.spawn();
       }
-      const task = this.queue.shift()!;
+      const task = this.queue.splice(next, 1)[0]!;
       slot.task = task;
       task.slot = slot;
       slot.worker.ref();

@@ -44,7 +44,7 @@ export interface Job<R = unknown> {
 /** What a job's work function gets: pass `runOptions` to `pool.run`; `signal` aborts on cancel. */
 export interface JobContext {
   signal: AbortSignal;
-  runOptions: RunOptions & { signal: AbortSignal; timeLimitMs: number };
+  runOptions: RunOptions & { signal: AbortSignal; timeLimitMs: number; lane: 'job' };
 }
 
 export type JobEvent = { type: 'progress' | 'end'; job: Job };
@@ -121,6 +121,7 @@ export class JobRegistry {
     const ctx: JobContext = {
       signal: abort.signal,
       runOptions: {
+        lane: 'job',
         signal: abort.signal,
         timeLimitMs: limitMs,
         onStart: () => {

@@ -140,6 +140,22 @@ describe('plans as jobs', () => {
     expect((await app.inject({ method: 'GET', url: '/api/plans' })).json().total).toBe(plansBefore + 1);
   });
 
+  it('with two workers one stays free of jobs: a second job waits, and an analysis is answered meanwhile', async () => {
+    const a = (await app.inject({ method: 'POST', url: '/api/plans', payload: longPlan })).json();
+    const b = (await app.inject({ method: 'POST', url: '/api/plans', payload: longPlan })).json();
+    await until(app, a.id, ['running']);
+    expect((await job(app, b.id)).state).toBe('queued');
+    const r = await app.inject({ method: 'POST', url: '/api/analyze', payload: { species: planRequest.base, chemicals: planRequest.chemicals, chamber: planRequest.chamber } });
+    expect(r.statusCode).toBe(200);
+    expect(r.json().state).toBe('stable');
+    expect((await job(app, a.id)).state).toBe('running');
+    expect((await job(app, b.id)).state).toBe('queued');
+    // cancelling the first lets the second start
+    await app.inject({ method: 'DELETE', url: `/api/jobs/${a.id}` });
+    expect((await until(app, b.id, ['running'])).state).toBe('running');
+    expect((await app.inject({ method: 'DELETE', url: `/api/jobs/${b.id}` })).json().state).toBe('cancelled');
+  });
+
   it('a queued job is cancelled before it starts', async () => {
     const one = await demoApp({ workers: 1 });
     try {
