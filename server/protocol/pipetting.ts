@@ -234,18 +234,23 @@ export function planBench(components: Component[], samples: SampleSpec[], o: Pip
   const aim = Math.max(2 * below, V / 10, o.minVolume);
   const decisions: BenchPlan['working'] = [];
   const working = new Map<string, number>();
-  for (const id of chemicalIds) {
+  /** The rule for one chemical at the working concentration w (null: none possible). */
+  const decide = (id: string, w: number | null) => {
     const c = comp.get(id)!;
     const cMax = Math.max(0, ...samples.map((s) => s.conc.get(id) ?? 0));
-    if (!(cMax > 0)) continue;
-    const stockPerTube = (cMax * V) / c.stock;
-    const w = workingConcentration(cMax, V, aim, c.stock);
     const set = c.hazards ?? null;
     const wStock = c.stockMassFraction ?? null;
     const M = c.molarMass ?? null;
     const stockBand = set && wStock !== null ? classify(set, wStock) : null;
     const workBand = set && w !== null && M ? classify(set, (w * M) / WATER_DENSITY_25C) : null;
-    const decision = decideWorking(stockPerTube, below, stockBand, workBand, w !== null);
+    return decideWorking((cMax * V) / c.stock, below, stockBand, workBand, w !== null);
+  };
+  for (const id of chemicalIds) {
+    const c = comp.get(id)!;
+    const cMax = Math.max(0, ...samples.map((s) => s.conc.get(id) ?? 0));
+    if (!(cMax > 0)) continue;
+    const w = workingConcentration(cMax, V, aim, c.stock);
+    const decision = decide(id, w);
     decisions.push({ chemical: id, decision, code: null });
     if (decision.make && w !== null) working.set(id, w);
   }
@@ -264,10 +269,18 @@ export function planBench(components: Component[], samples: SampleSpec[], o: Pip
       let bumped = false;
       for (const [id, w] of working) {
         const up = nextUp125(w);
-        if (up <= comp.get(id)!.stock / 2) {
+        if (up > comp.get(id)!.stock / 2) continue;
+        // the stronger solution must still be worth making (its band may now be the stock's): the rule again, at up
+        const d = decide(id, up);
+        const entry = decisions.find((x) => x.chemical === id)!;
+        if (d.make) {
           working.set(id, up);
-          bumped = true;
+          entry.decision = d;
+        } else {
+          working.delete(id);
+          entry.decision = { ...d, reason: `${d.reason} (a working solution weak enough to be classified below the stock does not fit the tubes)` };
         }
+        bumped = true;
       }
       if (!bumped) {
         // the stocks themselves: the last resort, and the message says what would fix it

@@ -194,6 +194,21 @@ describe('the working-dilution rule in a plan', () => {
     expect(small.working[0]!.decision).toMatchObject({ make: true, volumeRule: true, bandRule: null });
   });
 
+  it('a working solution that does not fit is made one round step stronger, and the rule is judged again at that concentration', () => {
+    // a 50 % w/w stock (17.6 M, taken as given): 200 mM is 1.14 µL per tube; W1 at 2 M (10 µL) leaves 100 − 85 − 10 − 1 = 4 µL
+    // for the master mix, below the base's 5 µL, so W1 is made at 5 M (4 µL): 5000 × 0.0340147 / 997.047 = 17.06 % w/w, Eye Dam. 1
+    const comps: Component[] = [
+      { id: 'base', label: 'base', stock: 4e15, stockText: 'x', per: 'particles' },
+      { id: 'dop', label: 'dopant', stock: 1e15, stockText: 'x', per: 'particles' },
+      peroxide({ stock: 17600, stockMassFraction: 0.5 }),
+    ];
+    const samples: SampleSpec[] = [0, 8.5e14].map((x) => ({ name: `d${x}`, role: x ? 'series' : 'control', dose: x, conc: new Map([['base', 2e14], ['dop', x], ['fuel', 200]]), usesMasterMix: true }));
+    const plan = planBench(comps, samples, o, ['base'], 'dop', ['fuel']);
+    expect(plan.preparations.find((p) => p.kind === 'working')!.nominal).toBe(5000);
+    expect(plan.working[0]!.decision.reason).toMatch(/17\.1 % w\/w: H318 Eye Dam\. 1, Danger/);
+    expect(plan.tubes[1]!.volumes[col(plan, /^W1$/)]! / UL).toBeCloseTo(4, 12);
+  });
+
   it('a working solution that does not fit the tube is made stronger, and if none fits the stock is used and the reason says so', () => {
     // dopant 85 µL at the top dose; the base 5 µL: with 10 µL of W1 only 4 µL would be left for the master mix
     const comps: Component[] = [
