@@ -624,7 +624,7 @@ export interface SheetGas {
 
 /** A dose as the sheet prints it: particles per mL, four figures (1.433 × 10⁸ particles/mL). */
 const pm = (x: number) => fmtAmount(perMl(x));
-const stateWords: Record<State, string> = { stable: 'stable (nothing grows)', stationary: 'stationary (clusters or bands that grow in place)', oscillatory: 'oscillatory (travelling or pulsating patterns)' };
+const stateWords: Record<State, string> = { stable: 'stable: nothing grows', stationary: 'stationary: clusters or bands that grow in place', oscillatory: 'oscillatory: travelling or pulsating patterns' };
 
 /** Build the sheet model. @throws InputError, SheetNotFitError (422: what is impossible and what would fix it) */
 export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
@@ -750,26 +750,26 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     const onPath = t.kind === 'series' || t.kind === 'no-dopant';
     if (onPath && x > 0 && cand.dosePath?.length) {
       const iv = cand.dosePath.find((v) => x > v.from && x <= v.to);
-      if (!iv) flags.push('above the dose cap: the dose path does not reach it (from the analysis at this dose)');
+      if (!iv) flags.push('above the dose cap: not on the dose path (the analysis at this dose)');
       else if (iv.state !== a.state) {
         state = iv.state;
-        flags.push(`at a change of state: the dose path gives ${iv.state}, the analysis at this very dose ${a.state}`);
+        flags.push(`at a change of state: dose path ${iv.state}, analysis at this dose ${a.state}`);
       }
     }
-    if (!onPath) flags.push(t.kind === 'no-fuel' ? 'control: the mixture without its pipetted fuel, analysed as such (the activities that run on the fuel off)' : 'control: the dopant alone with the fuel, analysed as such');
+    if (!onPath) flags.push(t.kind === 'no-fuel' ? 'control: its own mixture, without the fuel (fuel-driven activities off)' : 'control: its own mixture, the dopant alone with the fuel');
     let withinBand = false;
     if (onPath && band && x > 0) {
       const lo = band.p05;
       const hi = band.p95 ?? Infinity;
       if (lo !== null && x >= lo && x <= hi) {
         withinBand = true;
-        flags.push(`within the 5–95 % band of the ${plan.request.boundary} threshold (${pm(lo)} to ${band.p95 === null ? 'above the dose cap' : pm(band.p95)}): either side is plausible`);
+        flags.push('in the 5–95 % band of the threshold: either side is plausible');
       }
     }
     let earlierInstability = false;
     if (onPath && onset && onset.density < threshold * (1 - 1e-5) && x >= onset.density && x < threshold) {
       earlierInstability = true;
-      flags.push(`turns ${onset.state} from ${pm(onset.density)} (first onset), below the ${plan.request.boundary} threshold (${pm(threshold)}): not the boundary the plan asked for`);
+      flags.push(`turns ${onset.state} first (first onset ${pm(onset.density)}), below the ${plan.request.boundary} threshold: not the boundary asked for`);
     }
     const grows = state !== 'stable' && a.growthTime !== null;
     return {
@@ -994,10 +994,23 @@ function hazardBlocks(h: HazardEntry): Block[] {
   return blocks;
 }
 
+/** The gas table: tubes whose figures print the same share one row (codes listed), so ten identical rows are one. */
+function gasRows(perTube: SheetGas['perTube']): { cells: string[]; code?: string }[] {
+  const rows = new Map<string, { tubes: string[]; cells: string[] }>();
+  for (const x of perTube) {
+    const rest = [x.gas, a(x.moles), a(x.volume), pct(x.fractionOfHeadspace), pct(x.fractionOfChamber), [x.ventTube ? 'leave the tube open or vented' : null, x.ventChamber ? 'use an open or vented chamber, or less fuel' : null].filter(Boolean).join('; ') || 'nothing beyond the general cautions'];
+    const key = rest.join('\u0000');
+    const row = rows.get(key) ?? { tubes: [], cells: rest };
+    row.tubes.push(x.tube);
+    rows.set(key, row);
+  }
+  return [...rows.values()].map((r) => (r.tubes.length === 1 ? { code: r.tubes[0]!, cells: [r.tubes[0]!, ...r.cells] } : { cells: [r.tubes.join(', '), ...r.cells] }));
+}
+
 const expectedText = (o: TubeOutcome) =>
   o.state === null
     ? 'not predicted'
-    : [stateWords[o.state], o.growthTime ? `grows in about ${a(o.growthTime)}` : null, o.wavelength ? `wavelength ${a(o.wavelength)}` : null, o.oscillationPeriod ? `period ${a(o.oscillationPeriod)}` : null].filter(Boolean).join('; ');
+    : [o.state, o.growthTime ? `grows in about ${a(o.growthTime)}` : null, o.wavelength ? `wavelength ${a(o.wavelength)}` : null, o.oscillationPeriod ? `period ${a(o.oscillationPeriod)}` : null].filter(Boolean).join('; ');
 
 /** The ordered sections of a sheet: the one source of the HTML and Markdown renderings (render.ts). */
 export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[]): Section[] {
@@ -1066,7 +1079,11 @@ export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[])
           return { code: t.code, cells: [t.code, t.sample, t.dose ? a(t.dose) : '—', expectedText(o), o.flags.length ? o.flags.join('; ') : '—'] };
         }),
       ),
-      { kind: 'paragraph', muted: true, text: 'Expected from the dose path (the state) and the analysis at each tube’s delivered dose (growth time, wavelength, period); a flag marks a dose within the uncertainty band of the boundary, an instability before the one asked for, or a control analysed as its own mixture.' },
+      {
+        kind: 'paragraph',
+        muted: true,
+        text: `Expected from the dose path (the state) and the analysis at each tube’s delivered dose (growth time, wavelength, period): ${Object.values(stateWords).join('; ')}. ${p.band ? `The band: the ${sh.plan.boundary} threshold lies between ${q(p.band.p05)} (5 %) and ${q(p.band.p95)} (95 %) in the Monte Carlo draws.` : 'No band: the plan ran without Monte Carlo draws.'}${p.firstOnset && !p.threshold.anyDose ? ` First onset: ${p.firstOnset.state} from ${a(p.firstOnset.dose)}; the ${sh.plan.boundary} threshold is ${a(p.threshold)}.` : ''}`,
+      },
     ],
   });
   sections.push({
@@ -1113,7 +1130,7 @@ export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[])
     gasBlocks.push(
       table(
         [
-          { id: 'tube', label: 'tube' },
+          { id: 'tube', label: 'tubes' },
           { id: 'gas', label: 'gas' },
           { id: 'moles', label: 'up to', numeric: true },
           { id: 'volume', label: `volume at ${a(g.temperature)}`, numeric: true },
@@ -1121,10 +1138,7 @@ export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[])
           { id: 'chamber', label: 'of the chamber', numeric: true },
           { id: 'do', label: 'what to do' },
         ],
-        g.perTube.map((x) => ({
-          code: x.tube,
-          cells: [x.tube, x.gas, a(x.moles), a(x.volume), pct(x.fractionOfHeadspace), pct(x.fractionOfChamber), [x.ventTube ? 'leave the tube open or vented' : null, x.ventChamber ? 'use an open or vented chamber, or less fuel' : null].filter(Boolean).join('; ') || 'nothing beyond the general cautions'],
-        })),
+        gasRows(g.perTube),
       ),
     );
     gasBlocks.push({

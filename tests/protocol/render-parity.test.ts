@@ -64,7 +64,7 @@ describe('every text of the model appears in HTML and Markdown', () => {
     const osc = swim.json.outcomes.filter((o: { state: string }) => o.state === 'oscillatory');
     expect(osc.length).toBeGreaterThan(0);
     for (const o of osc) expect(o.oscillationPeriod).not.toBeNull();
-    expect(swim.md).toMatch(/oscillatory \(travelling or pulsating patterns\); grows in about [\d.]+ s; wavelength [\d.]+ mm; period [\d.]+ s/);
+    expect(swim.md).toMatch(/\| oscillatory; grows in about [\d.]+ s; wavelength [\d.]+ mm; period [\d.]+ s \|/);
     const cat = three(id, { candidate: 'catalase-e3' });
     expect(cat.status).toBe(200);
     expect(cat.json.prediction.band.p95).toBeNull();

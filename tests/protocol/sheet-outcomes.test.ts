@@ -62,7 +62,7 @@ describe('expected outcome per tube', () => {
       const o = sheet.outcomes.find((z) => z.tube === t.code)!;
       if (within) expect(o.withinBand).toBe(true);
       if (outside) expect(o.withinBand).toBe(false);
-      expect(o.flags.some((f) => f.startsWith('within the 5–95 % band'))).toBe(o.withinBand);
+      expect(o.flags.some((f) => f.startsWith('in the 5–95 % band of the threshold'))).toBe(o.withinBand);
     }
     // the 2 × dose (3.2e8 /mL) lies above the 95 % point (3.0e8 /mL): not flagged; the 1 × dose is
     expect(sheet.outcomes.find((o) => o.tube === 'D8')!.withinBand).toBe(false);
@@ -72,7 +72,7 @@ describe('expected outcome per tube', () => {
   it('the no-fuel control is expected stable: without fuel nothing drives the activities (docs/model.md §3: J = −k²D)', () => {
     const cf = sheet.outcomes.find((o) => o.tube === 'CF')!;
     expect(cf.state).toBe('stable');
-    expect(cf.flags.join(' ')).toMatch(/without its pipetted fuel/);
+    expect(cf.flags.join(' ')).toMatch(/without the fuel \(fuel-driven activities off\)/);
     // the dopant alone at 1 × with fuel: B07 is self-attracting (demo shelf), so it clusters on its own
     expect(sheet.outcomes.find((o) => o.tube === 'CA')!.state).toBe('stationary');
   });
@@ -92,7 +92,7 @@ describe('expected outcome per tube', () => {
         seen++;
         expect(o.state).toBe('oscillatory');
         expect(o.oscillationPeriod).not.toBeNull();
-        expect(o.flags.join(' ')).toMatch(/turns oscillatory from .* \(first onset\), below the stationary threshold/);
+        expect(o.flags.join(' ')).toMatch(/turns oscillatory first \(first onset .* particles\/mL\), below the stationary threshold/);
       }
     }
     expect(seen).toBeGreaterThan(0);
@@ -140,6 +140,10 @@ describe('gas per tube', () => {
     }
     const cautions = sheet.sections.find((s) => s.id === 'gas')!.blocks.filter((b) => b.kind === 'caution');
     expect(cautions.length).toBe(1);
+    // the ten tubes' figures print the same: one row of the table names them all
+    const tb = sheet.sections.find((s) => s.id === 'gas')!.blocks.find((b) => b.kind === 'table')!;
+    if (tb.kind !== 'table') throw new Error('no table');
+    expect(tb.rows.map((r) => r.cells[0])).toEqual(['C0, D1, D2, D3, D4, D5, D6, D7, D8, CA']);
   });
 
   it('a closed chamber (closedChamber) gets a prominent caution in every rendering', () => {
