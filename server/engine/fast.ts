@@ -146,6 +146,8 @@ export class RankOneDose {
   private J0s = new Float64Array(0);
   /** per active mode: every dose below this is proven stable by a Gershgorin bound (no Hurwitz count needed) */
   private settled = new Float64Array(0);
+  /** per active mode: 0 polynomials not made yet, 1 made, 2 not finite */
+  private ready = new Uint8Array(0);
   private Ws = new Float64Array(0);
   // work
   private A = new Float64Array(0);
@@ -205,6 +207,9 @@ export class RankOneDose {
     this.modeN = grow(this.modeN, c, (l) => new Int32Array(l));
     this.xk = grow(this.xk, c, (l) => new Float64Array(l));
     this.settled = grow(this.settled, c, (l) => new Float64Array(l));
+    const ready = new Uint8Array(c);
+    ready.set(this.ready.subarray(0, Math.min(this.ready.length, c)));
+    this.ready = ready;
     this.p0 = grow(this.p0, c * stride, (l) => new Float64Array(l));
     this.q = grow(this.q, c * stride, (l) => new Float64Array(l));
     this.J0s = grow(this.J0s, c * n * n, (l) => new Float64Array(l));
@@ -469,23 +474,20 @@ export class RankOneDose {
       // keep Ĵ₀ and w for the eigenvalues of a growing mode (second tier)
       this.J0s.set(J.subarray(0, n * n), a * n * n);
       this.Ws.set(w.subarray(0, n), a * n);
-      // p₀ and q: det(λ − Ĵ(x)) = p₀(λ) − x q(λ)
-      const c0 = charPoly(J, n, this.cp);
-      const off = a * stride;
-      for (let t = 0; t < stride; t++) this.p0[off + t] = c0[t]!;
-      const xs = Math.min(cap, xk);
-      for (let j = 0; j < n; j++) J[dIdx * n + j]! += xs * w[j]!;
-      const c1 = charPoly(J, n, this.cp);
-      for (let t = 0; t < stride; t++) this.q[off + t] = (this.p0[off + t]! - c1[t]!) / xs;
-      for (let t = 0; t < stride; t++) if (!Number.isFinite(this.p0[off + t]!) || !Number.isFinite(this.q[off + t]!)) return { kind: 'fallback', why: 'non-finite characteristic polynomial' };
-      const h = hurwitzUnstable(this.p0.subarray(off, off + stride), this.routh);
-      if (h === null) return { kind: 'fallback', why: 'degenerate Routh table at dose 0' };
-      if (h > 0) {
-        baseUnstable = true;
-        // det(−Ĵ₀) = p₀(0) < 0: an odd number of growing real eigenvalues
-        if (this.p0[off + n]! < 0) baseStationary = true;
-      }
+      this.ready[a] = 0;
       this.active = a + 1;
+      // dose 0: a mode a bound proves stable there needs no polynomial yet (they are made when a dose needs them)
+      if (settled <= 0) {
+        if (!this.poly(a)) return { kind: 'fallback', why: 'non-finite characteristic polynomial' };
+        const off = a * stride;
+        const h = hurwitzUnstable(this.p0.subarray(off, off + stride), this.routh);
+        if (h === null) return { kind: 'fallback', why: 'degenerate Routh table at dose 0' };
+        if (h > 0) {
+          baseUnstable = true;
+          // det(−Ĵ₀) = p₀(0) < 0: an odd number of growing real eigenvalues
+          if (this.p0[off + n]! < 0) baseStationary = true;
+        }
+      }
       if (xk < this.xStar) {
         this.xStar = xk;
         this.kStar = k;
@@ -500,6 +502,33 @@ export class RankOneDose {
   }
 
   /**
+   * p₀ and q of active mode a (det(λ − Ĵ(x)) = p₀(λ) − x q(λ)), made on first use from Ĵ₀ and w:
+   * p₀ = charPoly(Ĵ₀), q = (p₀ − charPoly(Ĵ(x_s)))/x_s with x_s = min(cap, x_k). False when not finite.
+   */
+  private poly(a: number): boolean {
+    if (this.ready[a] === 1) return true;
+    if (this.ready[a] === 2) return false;
+    const n = this.n;
+    const stride = n + 1;
+    const J = this.J;
+    J.set(this.J0s.subarray(a * n * n, (a + 1) * n * n));
+    const c0 = charPoly(J, n, this.cp);
+    const off = a * stride;
+    for (let t = 0; t < stride; t++) this.p0[off + t] = c0[t]!;
+    const xs = Math.min(this.cap, this.xk[a]!);
+    const dIdx = n - 1;
+    for (let j = 0; j < n; j++) J[dIdx * n + j]! += xs * this.Ws[a * n + j]!;
+    const c1 = charPoly(J, n, this.cp);
+    let finite = true;
+    for (let t = 0; t < stride; t++) {
+      this.q[off + t] = (this.p0[off + t]! - c1[t]!) / xs;
+      if (!Number.isFinite(this.p0[off + t]!) || !Number.isFinite(this.q[off + t]!)) finite = false;
+    }
+    this.ready[a] = finite ? 1 : 2;
+    return finite;
+  }
+
+  /**
    * Whether every mode is stable at dose x (Hurwitz count 0 for each mode the bounds did not settle);
    * false when some mode grows, null when a Routh table is degenerate. Valid for 0 ≤ x ≤ cap.
    */
@@ -510,6 +539,7 @@ export class RankOneDose {
     this.checked++;
     for (let a = 0; a < this.active; a++) {
       if (x < this.settled[a]!) continue;
+      if (!this.poly(a)) return null;
       const off = a * stride;
       for (let t = 0; t < stride; t++) coef[t] = this.p0[off + t]! - x * this.q[off + t]!;
       const h = hurwitzUnstable(coef, this.routh);
@@ -574,6 +604,7 @@ export class RankOneDose {
     const dIdx = n - 1;
     for (let a = 0; a < this.active; a++) {
       if (x < this.settled[a]!) continue;
+      if (!this.poly(a)) return null;
       const off = a * stride;
       for (let t = 0; t < stride; t++) coef[t] = this.p0[off + t]! - x * this.q[off + t]!;
       if (boundary === 'stationary' && coef[n]! < 0) return true;
