@@ -5,8 +5,11 @@
  *   work = candidates × (1 + Monte Carlo draws + fuel-sweep levels) × modes
  *
  * `modes` is the number of allowed modes the base mixture's own scan evaluates
- * (`scanModes(...).evaluations`, docs/model.md §4): one scan of the base, a
- * moment to compute, that says how dear every later scan of a doped sample is.
+ * on the general path (`scanModes(..., { earlyExit: false }).evaluations`,
+ * docs/model.md §4): one scan of the base, a moment to compute, that says how
+ * dear every later scan of a doped sample is. The general path, not the early
+ * exits: a bound that proves the base stable mode by mode says nothing of the
+ * doped samples, and the count must not change when the exits improve.
  * A dose search scans many doses, so the product is a measure of work, not a
  * count of eigenproblems. A state map (at most 80 × 80 cells) is not counted.
  */
@@ -22,9 +25,9 @@ import { InputError } from '../shelf/errors.js';
  */
 export const WORK_BUDGET = 250_000_000;
 
-/** The allowed modes the base mixture's own scan evaluates (at least 1). */
+/** The allowed modes the base mixture's own general scan evaluates (at least 1). */
 export function baseModes(base: Mixture): number {
-  return Math.max(1, scanModes(buildModel(base), base.chamber.walls).evaluations);
+  return Math.max(1, scanModes(buildModel(base), base.chamber.walls, { earlyExit: false }).evaluations);
 }
 
 export interface WorkRequest {

@@ -1,7 +1,7 @@
 /** Stored plans: same numbers later after the shelf changes; rerun from the current shelf; list, names, notes. */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { App } from '../../server/http/app.js';
-import { WORK_BUDGET } from '../../server/jobs/budget.js';
+import { baseModes, WORK_BUDGET } from '../../server/jobs/budget.js';
 import { freshApp, speciesRecord } from '../helpers/app.js';
 import { postPlan } from '../helpers/plans.js';
 
@@ -182,8 +182,9 @@ describe('candidates "all" on a shelf of more than 500 species', () => {
 
   it('refuses work above the budget with a 400 that names the numbers, before any job', async () => {
     const chamber = { walls: 'sealed', length: '20 mm', depth: '100 um' };
-    // the modes the base's own scan evaluates, as POST /api/analyze reports them for the same sample
-    const modes = (await big.inject({ method: 'POST', url: '/api/analyze', payload: { species: request.base, chemicals: request.chemicals, chamber } })).json().scan.evaluations;
+    // the modes the base's own general scan evaluates, for the base mixture as POST /api/analyze builds it from the shelf
+    const mixture = (await big.inject({ method: 'POST', url: '/api/analyze', payload: { species: request.base, chemicals: request.chemicals, chamber } })).json().mixture;
+    const modes = baseModes(mixture);
     expect(modes).toBeGreaterThan(1);
     // the most draws that fit (607 × (1 + draws) × modes ≤ the budget), and one more
     const fits = Math.floor(WORK_BUDGET / (607 * modes)) - 1;
