@@ -70,6 +70,15 @@ describe('every text of the model appears in HTML and Markdown', () => {
     expect(cat.json.prediction.band.p95).toBeNull();
     expectParity(cat.json.sections, cat.html, cat.md);
     expect(cat.md).toContain('above the dose cap');
+    // the enzyme's hazards by form (seeds/demo-species-hazards.json, from memory): the powder as a respiratory
+    // sensitiser with the dust precautions, in both renderings
+    const enzyme = cat.json.hazards.find((h: { chemical: string }) => h.chemical === 'catalase-e3');
+    const powder = enzyme.asHandled.find((x: { form: string }) => x.form === 'powder');
+    expect(powder.classification.statements.map((st: { code: string }) => st.code)).toContain('H334');
+    for (const text of [cat.md, cat.html]) {
+      expect(text).toContain('powder, if you make the stock from it');
+      expect(text).toContain('P261 Avoid breathing dust.');
+    }
   });
 
   it('an any-dose candidate with explicit doses', async () => {
