@@ -1,6 +1,8 @@
 /**
  * Markdown and HTML escaping of every text field a user or the shelf puts on a sheet (docs/model.md §11): species
- * and chemical names, the plan's name, the buffer, the operator, a stock's description. Each carries every line
+ * and chemical names, the plan's name, the buffer, the operator, a stock's description, and the hazard data's
+ * texts (source, handling, storage, disposal, incompatibilities, author, a band's statement and a precautionary
+ * statement). Each carries every line
  * ending (CR, LF, CRLF, U+2028, U+2029), table pipes, backticks, emphasis, link and heading syntax and raw HTML.
  * The check: the sheet made with these texts has exactly the lines, headings and table rows of the same sheet made
  * with plain texts (a lone CR used to end a table row and open a heading), and every text is still all there.
@@ -22,6 +24,11 @@ async function sheetWith(text: string, prefix: string) {
     const put = await app.inject({ method: 'PUT', url: `/api/${kind}/${id}`, payload: { baseRevision: cur.revision, record: { ...cur.typed, name: `${prefix}${id} ${text}` } } });
     expect(put.statusCode).toBe(200);
   }
+  // the hazard data's own texts (source, notes, a band's statement text and a precautionary statement)
+  const hz = (await app.inject({ method: 'GET', url: '/api/chemicals/h2o2/hazards' })).json().current;
+  const bands = hz.body.bands.map((b: { text: string; precautionary: string[] }) => ({ ...b, text: `${b.text} ${text}`.slice(0, 500), precautionary: [...b.precautionary, `P000 ${text}`] }));
+  const hazards = { ...hz.body, bands, source: text, handling: text, storage: text, disposal: text, incompatibilities: text };
+  expect((await app.inject({ method: 'PUT', url: '/api/chemicals/h2o2/hazards', payload: { baseVersion: hz.version, hazards, author: text.slice(0, 100) } })).statusCode).toBe(200);
   const plan = (await postPlan(app, { ...planRequest, name: `${prefix}${text}`, uncertainty: undefined })).json();
   const options = {
     buffer: `- ${text.slice(0, 90)}`,
@@ -69,6 +76,10 @@ describe('escaping every text field', () => {
     expect(s.stocks.find((x) => x.id === 'ptj-1um-b07')!.described.startsWith('+ E\r')).toBe(true);
     expect(s.hazards.map((h) => h.name)).toContain(`h2o2 ${EVIL}`);
     expect(s.title).toContain(EVIL);
+    const h = s.hazards.find((x) => x.chemical === 'h2o2')!;
+    expect([h.source, h.handling, h.storage, h.disposal, h.incompatibilities]).toEqual([EVIL, EVIL, EVIL, EVIL, EVIL]);
+    expect(h.verify).toContain('E\r# cr heading');
+    expect(h.asHandled[0]!.classification.precautionary).toContain(`P000 ${EVIL}`);
   });
 
   it('Markdown: the same lines, headings, table rows and pipes per row as the plain sheet; no line is broken out of', () => {
