@@ -26,17 +26,25 @@
  *
  * The stationary threshold is x* = min_k x_k over the allowed modes, certified
  * only when every mode is stable (count 0) at each scan dose below x* (the same
- * log grid the general search samples) and at x*(1 − 10⁻⁶): a growing complex
- * pair below x* (a Hopf crossing first), a degenerate Routh table, or anything
- * else unproven makes the caller fall back to the general path.
+ * log grid the general search samples) and at x*(1 − 10⁻⁶) (`verdict`). When a
+ * mode grows below x* (a Hopf crossing first) the second tier (`search`) runs
+ * the general search's scan doses and bisection on the exact predicate
+ * `pastExact`: past x* always; below it per mode p(0; x) < 0, the Hurwitz
+ * count, Descartes' rule of signs, and only then the mode's own eigenvalues.
+ * Anything unproven (a degenerate table at dose 0, the eigen solver not
+ * converging, too many modes) makes the caller fall back to the general path.
  *
- * **Which modes.** Only modes k' = 1 … n_hi need work, n_hi from the scan's
- * proven bound (scan.ts, docs/model.md §4) at the largest dose (the bound grows
- * with x), with f_ref = 0: beyond it Re λ ≤ −k'² d + C̄ < 0 for every dose in
- * [0, cap]. Of those, a mode whose Gershgorin bound on Ĵ (the smaller of the
- * row and column forms; each is a maximum of functions affine in x, hence
- * convex, so its maximum over [0, cap] is at an end) is negative at both ends
- * is stable at every dose and needs no work at all.
+ * **Which modes.** Modes k' = 1, 2, … up to the scan's proven bound (scan.ts,
+ * docs/model.md §4) with f_ref = 0, on the Gershgorin rows of S⁻¹J'S with
+ * S = diag(1, …, 1, t) (t balances the dopant's row against the base's), at the
+ * largest dose that matters: the cap at first, then the lowest x_k found so far
+ * (a mode beyond the bound at X cannot cross below X). With R' diagonal the
+ * enumeration also stops where a bound that falls with k' proves every higher
+ * mode stable. A mode whose Gershgorin bound on Ĵ (rows, columns, or scaled
+ * rows; each a maximum of functions affine in x, hence convex) is negative on
+ * [0, X] needs no work at all; every other mode keeps the dose below which such
+ * a bound proves it stable (no Hurwitz count there) and makes its polynomials
+ * on first use.
  *
  * Everything is in the engine's scaled units (length ℓ = 1/k₁, time ℓ²/max D,
  * one concentration unit per chemical as in buildModel, with the dopant taken at
@@ -44,7 +52,14 @@
  *
  * A `RankOneDose` owns its work arrays and reuses them from one call to the
  * next (one per candidate, across all its Monte Carlo draws): the loops over
- * modes and doses allocate nothing.
+ * modes and doses allocate no arrays (only small typed-array views, and the
+ * eigenvalues of a growing mode inside ml-matrix).
+ *
+ * @example
+ *   const f = new RankOneDose();
+ *   if (f.prepare(base, dopant, cap, 'stationary').kind === 'stable') {
+ *     const v = f.verdict(48); // { kind: 'threshold', dose, mode } | { kind: 'none-below-cap' } | fallback
+ *   }
  */
 import { charPoly, charPolyScratch, hurwitzUnstable, type CharPolyScratch } from './linalg/charpoly.js';
 import { solveInPlace } from './linalg/dense.js';
