@@ -121,6 +121,78 @@ export function bisect(pred: (x: number) => boolean, lo: number, hi: number, rel
 
 class Undecided extends Error {}
 
+/**
+ * The number of distinct real roots in (0, ∞) of the polynomial with descending coefficients c[0 … n]
+ * (c[0] ≠ 0, c[n] ≠ 0), by Sturm's theorem: p₀ = p, p₁ = p′, p_{i+1} = −rem(p_{i−1}, p_i); the count is
+ * the sign changes of the sequence at 0 (the constant terms) less those at +∞ (the leading
+ * coefficients). Null when it cannot be trusted: a remainder whose every coefficient is within
+ * 10⁻¹⁰ of its dividend's scale before the sequence ends (a repeated root, or nearly), or a
+ * non-finite value, or p(0) = 0. `work` holds (n + 1)² numbers, `deg` n + 1.
+ * @example sturmPositiveRoots(Float64Array.of(1, -3, 2), new Float64Array(9), new Int32Array(3)) // 2: (λ − 1)(λ − 2)
+ */
+export function sturmPositiveRoots(c: ArrayLike<number>, work: Float64Array, deg: Int32Array): number | null {
+  const n = c.length - 1;
+  if (n < 1) return 0;
+  if (c[n] === 0 || c[0] === 0) return null;
+  const w = n + 1;
+  // row i holds p_i with degree deg[i], coefficients descending from index 0
+  for (let t = 0; t <= n; t++) work[t] = c[t]!;
+  deg[0] = n;
+  for (let t = 0; t < n; t++) work[w + t] = (n - t) * c[t]!;
+  deg[1] = n - 1;
+  let rows = 2;
+  while (deg[rows - 1]! > 0) {
+    const a = (rows - 2) * w;
+    const b = (rows - 1) * w;
+    const da = deg[rows - 2]!;
+    const db = deg[rows - 1]!;
+    const r = rows * w;
+    // remainder of p_a by p_b (long division, in place on a copy of p_a)
+    for (let t = 0; t <= da; t++) work[r + t] = work[a + t]!;
+    let scale = 0;
+    for (let t = 0; t <= da; t++) scale = Math.max(scale, Math.abs(work[a + t]!));
+    const lead = work[b]!;
+    for (let t = 0; t + db <= da; t++) {
+      const f = work[r + t]! / lead;
+      for (let u = 0; u <= db; u++) work[r + t + u]! -= f * work[b + u]!;
+      work[r + t] = 0;
+    }
+    // the remainder has degree < db: its coefficients sit at r + da − db + 1 … r + da; negate and shift to the front
+    const rd = db - 1;
+    let first = -1;
+    const tiny = 1e-10 * scale;
+    for (let t = 0; t <= rd; t++) {
+      const v = -work[r + da - rd + t]!;
+      if (!Number.isFinite(v)) return null;
+      work[r + t] = v;
+      if (first < 0 && Math.abs(v) > tiny) first = t;
+    }
+    if (first < 0) return null; // p_a and p_b share a root (to rounding): not trusted
+    if (first > 0) {
+      for (let t = 0; t <= rd - first; t++) work[r + t] = work[r + t + first]!;
+    }
+    deg[rows] = rd - first;
+    rows++;
+  }
+  let at0 = 0;
+  let atInf = 0;
+  let s0 = 0;
+  let sInf = 0;
+  for (let i = 0; i < rows; i++) {
+    const v0 = work[i * w + deg[i]!]!;
+    const vInf = work[i * w]!;
+    if (v0 !== 0) {
+      const sg = v0 > 0 ? 1 : -1;
+      if (s0 !== 0 && sg !== s0) at0++;
+      s0 = sg;
+    }
+    const sg = vInf > 0 ? 1 : -1;
+    if (sInf !== 0 && sg !== sInf) atInf++;
+    sInf = sg;
+  }
+  return at0 - atInf;
+}
+
 export type FastVerdict =
   /** the first crossing: a real eigenvalue of mode `mode` crosses zero at `dose` (m⁻³); stable at every certified dose below */
   | { kind: 'threshold'; dose: number; mode: number }
@@ -174,6 +246,8 @@ export class RankOneDose {
   private coef = new Float64Array(0);
   private routh = new Float64Array(0);
   private cp: CharPolyScratch = charPolyScratch(1);
+  private sturm = new Float64Array(0);
+  private sturmDeg = new Int32Array(0);
 
   private size(n: number, S: number, Sf: number): void {
     if (this.D.length < n) {
@@ -182,6 +256,8 @@ export class RankOneDose {
       this.w = new Float64Array(n);
       this.coef = new Float64Array(n + 1);
       this.routh = new Float64Array(3 * (Math.floor(n / 2) + 2));
+      this.sturm = new Float64Array((n + 1) * (n + 1));
+      this.sturmDeg = new Int32Array(n + 1);
     }
     if (this.cp.n !== n) this.cp = charPolyScratch(n);
     if (this.P.length < n * S) {
@@ -637,6 +713,10 @@ export class RankOneDose {
           last = c;
         }
         if (changes === 0) continue;
+        // Sturm: how many distinct positive real roots; none means the growth is a complex pair
+        const roots = sturmPositiveRoots(coef, this.sturm, this.sturmDeg);
+        if (roots === 0) continue;
+        if (roots !== null && roots > 0) return true;
       }
       const J = this.J;
       J.set(this.J0s.subarray(a * n * n, (a + 1) * n * n));

@@ -13,7 +13,7 @@
  */
 import { determinant, Matrix } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import { fastInapplicable, RankOneDose } from '../../server/engine/fast.js';
+import { fastInapplicable, RankOneDose, sturmPositiveRoots } from '../../server/engine/fast.js';
 import { doseCap, dosePath, findDose, pastBoundary, screen, thresholdBand, withDose, type DoseOptions } from '../../server/engine/planner.js';
 import { Random } from '../../server/engine/random.js';
 import type { Coupling, Mixture, Species, Walls } from '../../server/engine/types.js';
@@ -72,6 +72,32 @@ function fuelCase(rng: Random): { base: Mixture; dopant: Species } {
 }
 
 const FAST_METHODS = new Set(['rank-one-determinant', 'hurwitz-search']);
+
+describe("Sturm's theorem: distinct positive real roots", () => {
+  it('counts the positive roots of polynomials built from chosen roots and complex pairs (Vieta expansion)', () => {
+    const rng = new Random(17);
+    const expand = (c: number[], q: number[]) => {
+      const d = new Array<number>(c.length + q.length - 1).fill(0);
+      c.forEach((v, i) => q.forEach((w, j) => (d[i + j]! += v * w)));
+      return d;
+    };
+    for (let trial = 0; trial < 2000; trial++) {
+      const roots = Array.from({ length: Math.floor(rng.uniform() * 4) }, () => rng.between(-3, 3));
+      let c = [1];
+      for (const r of roots) c = expand(c, [1, -r]);
+      for (let i = Math.floor(rng.uniform() * 3); i > 0; i--) {
+        const a = rng.between(-2, 2);
+        const b = rng.between(0.01, 2);
+        c = expand(c, [1, -2 * a, a * a + b * b]); // the pair a ± ib
+      }
+      if (c.length < 2) continue;
+      const got = sturmPositiveRoots(Float64Array.from(c), new Float64Array(c.length ** 2), new Int32Array(c.length));
+      expect(got).toBe(roots.filter((r) => r > 0).length);
+    }
+    // a double root is not trusted
+    expect(sturmPositiveRoots(Float64Array.of(1, -2, 1), new Float64Array(9), new Int32Array(3))).toBeNull();
+  });
+});
 
 describe('the affine determinant (hand Jacobian, ml-matrix determinant)', () => {
   it('det(−J(x)) / det(−J(0)) = 1 − x/x_k at the crossing modes, for one, two and three chemicals', () => {
