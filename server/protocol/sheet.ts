@@ -19,7 +19,7 @@ import { DIMENSIONS } from '../units/index.js';
 import { VERSION } from '../version.js';
 import { DEFAULT_VENT_FRACTION, gasRoute, molarVolume, tubeGas } from './gas.js';
 import { hazardsFor, PICTOGRAMS, type HazardForm, type HazardLookup, type HazardReport } from './hazards.js';
-import { pipettingJson, pipettingSections, planPipetting, tubeList, type Component, type PipettingJson, type SampleSpec } from './pipetting.js';
+import { pipettingJson, pipettingSections, planPipetting, tubeList, type Component, type PipettingJson, type SampleKind, type SampleSpec } from './pipetting.js';
 import { fmtAmount, formatNumber, table, type Block, type Section } from './sections.js';
 
 /** "0, 1e6 1/mL,1e7 1/mL" → ["0", "1e6 1/mL", "1e7 1/mL"], for the CLI flag and the query parameter (read and bounded by the schema). */
@@ -323,8 +323,8 @@ export function sheetWarnings(ws: SubjectWarning[], species: Set<string>, chemic
 
 // ------------------------------------------------------------------ preparing the liquids
 
-/** The kinds of tube on a sheet: how each one's expected outcome is computed. */
-export type TubeKind = 'no-dopant' | 'series' | 'no-fuel' | 'dopant-alone';
+/** The kinds of tube on a sheet (pipetting.ts): how each one's expected outcome is computed. */
+export type TubeKind = SampleKind;
 
 const NO_FUEL = 'control: no fuel (dopant at 1 ×)';
 const DOPANT_ALONE = 'control: dopant alone (1 ×, with fuel)';
@@ -704,7 +704,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
 
   // Tubes (pipetting.ts): one code per sample, a letter per replicate; the dose the rounded volumes deliver.
   const bench = pip.bench;
-  const tubesSi = tubeList(bench).map((t, i) => ({ code: t.code, sample: t.name, kind: t.kind as TubeKind, planned: t.plannedDose?.si ?? null, delivered: t.deliveredDose?.si ?? null, tubes: t.lids, conc: bench.tubes[i]!.delivered }));
+  const tubesSi = tubeList(bench).map((t, i) => ({ code: t.code, sample: t.name, kind: t.kind, planned: t.plannedDose?.si ?? null, delivered: t.deliveredDose?.si ?? null, tubes: t.lids, conc: bench.tubes[i]!.delivered }));
   const tubes: SheetTube[] = tubesSi.map((t) => ({ code: t.code, sample: t.sample, kind: t.kind, replicates: t.tubes.length, tubes: t.tubes, plannedDose: t.planned === null ? null : perMl(t.planned), dose: t.delivered === null ? null : perMl(t.delivered) }));
 
   // Expected outcome of each tube (docs/model.md §11).
