@@ -532,6 +532,9 @@ export function notFitSheet(ctx: SheetContext, req: SheetRequest, err: DomainErr
       options.length
         ? { kind: 'list', items: options.map((x) => x.text) }
         : { kind: 'paragraph', text: 'no single change tried (a larger sample volume up to 10 mL, one stock up to 1000 × more concentrated, fewer doses) makes it fit: change several options, or the plan.' },
+      ...(err.code === 'impossible-volumes' && options.length
+        ? [{ kind: 'paragraph' as const, muted: true, text: 'Each change listed was tried alone and makes every tube fit; a suggestion in the reason above that is not listed here was not confirmed.' }]
+        : []),
     ],
   };
   return {
