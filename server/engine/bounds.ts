@@ -496,53 +496,54 @@ export function gershgorinBelow(J: Float64Array, M: number, target: number): boo
  * (`discsDisjoint`), or of a diagonal similarity W⁻¹JW found by a greedy
  * search: while two discs overlap, the larger one's weight w_i is multiplied
  * by 4, which divides its radius by 4 and multiplies the entries of column i
- * in the other radii by 4 (up to 12·M steps). Gershgorin's theorem holds for
+ * in the other radii by 4 (up to 4·M steps). Gershgorin's theorem holds for
  * every similar matrix, so pairwise disjoint discs of any W⁻¹JW, each widened
  * by 1e-8·max|J_ij|·max w/min w, prove every eigenvalue real (each disc is
  * centred on the real axis and holds exactly one eigenvalue; Varga,
  * *Geršgorin and His Circles*, on isolating an eigenvalue by diagonal scaling);
  * failing that, by counting real roots (`realByRootCount`).
  */
-export function spectrumReal(J: Float64Array, M: number): boolean {
+export function spectrumReal(J: Float64Array, M: number, scratch?: RouthScratch): boolean {
   if (discsDisjoint(J, M)) return true;
   const sigma = maxAbsEntry(J);
   if (!(sigma > 0) || !Number.isFinite(sigma)) return false;
   const w = new Float64Array(M).fill(1);
-  const radius = new Float64Array(M);
-  const order: number[] = [];
-  for (let step = 0; step <= 12 * M; step++) {
-    let wMax = 1;
-    let wMin = 1;
+  const off = new Float64Array(M); // Σ_{n≠m} |J_mn| w_n / w_m, kept up to date
+  for (let m = 0; m < M; m++) {
+    let r = 0;
+    for (let n = 0; n < M; n++) if (n !== m) r += Math.abs(J[m * M + n]!);
+    off[m] = r;
+  }
+  let spread = 1;
+  for (let step = 0; step <= 4 * M; step++) {
+    const eta = PROOF_MARGIN * sigma * spread * M;
+    // an overlapping pair, if any
+    let big = -1;
+    for (let a = 0; a < M && big < 0; a++) {
+      const ca = J[a * M + a]!;
+      const ra = off[a]! + eta;
+      for (let b = a + 1; b < M; b++) {
+        if (Math.abs(ca - J[b * M + b]!) <= ra + off[b]! + eta) {
+          big = off[a]! >= off[b]! ? a : b;
+          break;
+        }
+      }
+    }
+    if (big < 0) return true;
+    // w_big × 4: its own radius / 4, column big's share of every other radius × 4
+    for (let m = 0; m < M; m++) if (m !== big) off[m]! += (3 * Math.abs(J[m * M + big]!) * w[big]!) / w[m]!;
+    off[big]! /= 4;
+    w[big]! *= 4;
+    let wMax = 0;
+    let wMin = Infinity;
     for (let m = 0; m < M; m++) {
       wMax = Math.max(wMax, w[m]!);
       wMin = Math.min(wMin, w[m]!);
     }
-    const eta = PROOF_MARGIN * sigma * (wMax / wMin) * M;
-    for (let m = 0; m < M; m++) {
-      let r = 0;
-      for (let n = 0; n < M; n++) if (n !== m) r += (Math.abs(J[m * M + n]!) * w[n]!) / w[m]!;
-      radius[m] = r + eta;
-    }
-    order.length = 0;
-    for (let m = 0; m < M; m++) order.push(m);
-    order.sort((i, j) => J[i * M + i]! - radius[i]! - (J[j * M + j]! - radius[j]!));
-    // the first overlap in order of left ends, if any
-    let a = -1;
-    let b = -1;
-    let reachIdx = order[0]!;
-    for (let q = 1; q < M && a < 0; q++) {
-      const m = order[q]!;
-      if (!(J[m * M + m]! - radius[m]! > J[reachIdx * M + reachIdx]! + radius[reachIdx]!)) {
-        a = reachIdx;
-        b = m;
-      } else if (J[m * M + m]! + radius[m]! > J[reachIdx * M + reachIdx]! + radius[reachIdx]!) reachIdx = m;
-    }
-    if (a < 0) return true;
-    const big = radius[a]! >= radius[b]! ? a : b;
-    w[big]! *= 4;
-    if (!(wMax / wMin < 1e12)) break;
+    spread = wMax / wMin;
+    if (!(spread < 1e12)) break;
   }
-  return realByRootCount(J, M, sigma);
+  return realByRootCount(J, M, sigma, scratch ?? routhScratch(M));
 }
 
 /**
@@ -555,8 +556,8 @@ export function spectrumReal(J: Float64Array, M: number): boolean {
  * sign counts only when |p(x)| exceeds 1e-8 (1 + |x|)ⁿ, far above the rounding
  * of the coefficients and of Horner's rule; otherwise nothing is proven.
  */
-function realByRootCount(J: Float64Array, M: number, sigma: number): boolean {
-  const a = new Float64Array(M * M);
+function realByRootCount(J: Float64Array, M: number, sigma: number, scratch: RouthScratch): boolean {
+  const a = scratch.shifted;
   for (let i = 0; i < M * M; i++) a[i] = J[i]! / sigma;
   const discs: { c: number; lo: number; hi: number }[] = [];
   for (let m = 0; m < M; m++) {
@@ -566,7 +567,7 @@ function realByRootCount(J: Float64Array, M: number, sigma: number): boolean {
     discs.push({ c, lo: c - r - PROOF_MARGIN, hi: c + r + PROOF_MARGIN });
   }
   discs.sort((x, y) => x.lo - y.lo);
-  const coeffs = charPoly(a, M);
+  const coeffs = charPoly(a, M, scratch.poly);
   const sign = (x: number): number => {
     let p = 0;
     for (let i = 0; i <= M; i++) p = p * x + coeffs[i]!;

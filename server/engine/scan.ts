@@ -317,7 +317,7 @@ class Tracker {
     this.jacobians++;
     const J = this.bounds.jacobianAt(k);
     if (J === null) return false;
-    if (t.realOnly && !spectrumReal(J, this.model.M)) return false;
+    if (t.realOnly && !spectrumReal(J, this.model.M, this.routh)) return false;
     if (t.realOnly && this.bounds.provesBelow(k, t.value)) return true;
     return gershgorinBelow(J, this.model.M, t.value) || routhBelow(J, this.model.M, t.value, this.routh);
   }
