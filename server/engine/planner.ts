@@ -157,9 +157,10 @@ interface Evaluation {
   state: State;
 }
 
-function evaluate(mix: Mixture): Evaluation {
+/** One mode scan; `earlyExit: false` (from `fast: false`) is the general scan without the proven early exits of scan.ts. */
+function evaluate(mix: Mixture, earlyExit = true): Evaluation {
   const model = buildModel(mix);
-  const scan = scanModes(model, mix.chamber.walls);
+  const scan = scanModes(model, mix.chamber.walls, { earlyExit });
   const t = model.timeUnit;
   return {
     any: scan.overall.value / t,
@@ -193,9 +194,9 @@ function measure(e: Evaluation, boundary: Boundary): number {
   return boundary === 'stationary' ? e.real : boundary === 'oscillatory' ? e.complex : boundary === 'any' ? e.any : -e.any;
 }
 
-/** Whether a mixture is past the boundary. */
-export function pastBoundary(mix: Mixture, boundary: Boundary): boolean {
-  return past(evaluate(mix), boundary);
+/** Whether a mixture is past the boundary (`general`: the mode scan without its early exits). */
+export function pastBoundary(mix: Mixture, boundary: Boundary, general = false): boolean {
+  return past(evaluate(mix, !general), boundary);
 }
 
 
@@ -388,12 +389,17 @@ function infeasible(d: Species, cap: DoseSearch['cap'], reason: ReasonCode, o: D
  * @example findDose(base, dopant, { boundary: 'stationary', dosing: 'add' }).threshold?.density
  */
 export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch {
+  return searchDose(base, d, o, fastWanted(o));
+}
+
+/** findDose with the fast exact paths of fast.ts on or off (`o.fast: false` also turns off the scan's early exits). */
+function searchDose(base: Mixture, d: Species, o: DoseOptions, useFast: boolean): DoseSearch {
   const relTol = o.relTol ?? 1e-6;
   const cap = doseCap(base, d, o);
   let evaluations = 0;
   const at = (x: number) => {
     evaluations++;
-    return evaluate(withDose(base, d, x, o.dosing));
+    return evaluate(withDose(base, d, x, o.dosing), o.fast !== false);
   };
   const pred = (x: number) => past(at(x), o.boundary);
   const V = sphereVolume(d.radius);
@@ -416,7 +422,7 @@ export function findDose(base: Mixture, d: Species, o: DoseOptions): DoseSearch 
   // false when the base grows below the boundary (stationary, a growing pair): only the second tier applies
   let certifiable = false;
   const fb = o.boundary as 'stationary' | 'any';
-  if (fastWanted(o) && cap.density > 0 && fastInapplicable(base, d, o.dosing, o.boundary) === null) {
+  if (useFast && cap.density > 0 && fastInapplicable(base, d, o.dosing, o.boundary) === null) {
     validateMixture(withDose(base, d, cap.density, o.dosing));
     const f = new RankOneDose();
     const b = f.prepare(base, d, cap.density, fb);
@@ -617,7 +623,7 @@ export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
   let evaluations = 0;
   const at = (x: number) => {
     evaluations++;
-    return evaluate(withDose(base, d, x, o.dosing));
+    return evaluate(withDose(base, d, x, o.dosing), o.fast !== false);
   };
   const n = o.scanPoints ?? 48;
   // The fast facts (docs/model.md §6 "Fast exact paths"): a base proven stable, and a certified first stationary crossing x*.
@@ -901,7 +907,8 @@ export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: Unce
       if (threshold === 0 && !tier2) already++;
     } else {
       verdict = null;
-      const r = findDose(b, dd, { ...drawOptions, fast: false });
+      // the general per-draw search (with the scan's proven early exits unless `fast: false`)
+      const r = searchDose(b, dd, drawOptions, false);
       if (r.reason === 'base-already-past') {
         already++;
         threshold = 0;
@@ -911,7 +918,7 @@ export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: Unce
     doses.forEach((x, j) => {
       // the fast facts where they prove it, else the spectrum
       const known = fast && threshold !== null && (verdict || tier2) ? (verdict ? fast.pastAt(x, verdict) : x <= fast.cap ? fast.pastExact(x, o.boundary as 'stationary' | 'any') : null) : null;
-      if (known ?? pastBoundary(withDose(b, dd, x, o.dosing), o.boundary)) crossedAt[j]!++;
+      if (known ?? pastBoundary(withDose(b, dd, x, o.dosing), o.boundary, o.fast === false)) crossedAt[j]!++;
     });
     hooks.progress?.(i + 1);
   }
