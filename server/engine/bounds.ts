@@ -128,28 +128,110 @@ export class ModeBounds {
    * when D'_c + R'/k'² is singular. The same matrix as model.ts `jacobian`, up
    * to rounding (the inverse is formed explicitly here).
    */
+  /** X = (D'_c + R'/k'²)⁻¹ Q'ᵀ (S×M) into this.X; false when singular. */
+  private responseAt(k: number): boolean {
+    const { M, S, X } = this;
+    const k2 = k * k;
+    if (S === 0) return true;
+    if (S === 1) {
+      const a = this.dc1 + this.r1 / k2;
+      if (!(a !== 0)) return false;
+      for (let m = 0; m < M; m++) X[m] = this.model.Q[m]! / a;
+      return true;
+    }
+    if (!Number.isFinite(this.gNorm(k))) return false; // leaves (D'_c + R'/k'²)⁻¹ in this.inv
+    const inv = this.inv;
+    const Q = this.model.Q;
+    for (let s = 0; s < S; s++) {
+      for (let m = 0; m < M; m++) {
+        let acc = 0;
+        for (let t = 0; t < S; t++) acc += inv[s * S + t]! * Q[m * S + t]!;
+        X[s * M + m] = acc;
+      }
+    }
+    return true;
+  }
+
+  /** Whether `structuredRouthBelow` applies: no crowding (𝔇' diagonal) and one or two chemicals. */
+  get structured(): boolean {
+    return !this.crowding && (this.S === 1 || this.S === 2) && this.M >= 2;
+  }
+
+  /**
+   * Routh–Hurwitz proof that every eigenvalue of J'(k') has Re λ < target, as
+   * `routhBelow` but with the characteristic polynomial taken from the
+   * structure instead of a Hessenberg reduction (O(M²), J' not formed): with
+   * 𝔇' diagonal, J' − fI = diag(a) − P'X, a_m = −k'²D'_m − f, and
+   * det(λI − J' + fI) = Π_m(λ − a_m) · det(I_S + X(λI − diag a)⁻¹P')
+   * (Weinstein–Aronszajn). For S = 1 that is Π(λ − a_m) + Σ_m c_m Π_{n≠m}(λ − a_n)
+   * with c_m = X_m P'_m; for S = 2, det(I + W) = 1 + tr W + det W with
+   * W = Σ_m y_m z_mᵀ/(λ − a_m) (y_m = X_{·m}, z_m = P'_{m·}) and, by
+   * Cauchy–Binet, det W = Σ_{m<n} (y_m × y_n)(z_m × z_n)/((λ − a_m)(λ − a_n)).
+   * The products over all but one or two factors are built by one pass over
+   * m. The margin is 1e-6 of σ ≥ max|J'_ij| (k'² max D'_m + max_m Σ_s|P'_ms| max|X|).
+   * Only for `structured` models.
+   */
+  structuredRouthBelow(k: number, target: number, w: RouthScratch): boolean {
+    if (!(target > -Infinity) || !this.structured) return false;
+    if (!this.responseAt(k)) return false;
+    const { M, S, X } = this;
+    const P = this.model.P;
+    const k2 = k * k;
+    let xMax = 0;
+    for (let i = 0; i < S * M; i++) xMax = Math.max(xMax, Math.abs(X[i]!));
+    const sigma = k2 * this.diffMax + this.pRowMax * xMax;
+    if (!Number.isFinite(sigma)) return false;
+    const f = target > 0 ? target - ROUTH_MARGIN * sigma : Math.min(target - ROUTH_MARGIN * sigma, -ROUTH_MARGIN * sigma);
+    // polynomials in descending coefficients, all of length M + 1, right-aligned (index M is the
+    // constant term), packed in one buffer: A = Π_{l≤j}(λ − a_l) at 0, T = Σ_{m≤j} t_m Π_{l≤j,l≠m}
+    // at L; for S = 2 the four F_q = Σ_{m≤j} α_q,m Π_{l≤j,l≠m} of the Cauchy–Binet expansion at
+    // 2L … 5L and E = the pair sum at 6L
+    const L = M + 1;
+    if (w.structured.length < 7 * L) w.structured = new Float64Array(7 * L);
+    const buf = w.structured;
+    buf.fill(0, 0, 7 * L);
+    buf[M] = 1;
+    for (let m = 0; m < M; m++) {
+      const a = -k2 * this.model.diffusion[m * M + m]! - f;
+      const y0 = X[m]!;
+      const z0 = P[m * S]!;
+      if (S === 2) {
+        const y1 = X[M + m]!;
+        const z1 = P[m * S + 1]!;
+        // E += β_m F_{j−1} (the pairs (n, m) with n < m), before F and A move on
+        timesLinear(buf, 6 * L, M, a);
+        addScaled(buf, 6 * L, 2 * L, M, y1 * z1); // α = y0 z0, β = y1 z1
+        addScaled(buf, 6 * L, 3 * L, M, -y1 * z0); // α = y0 z1, β = y1 z0 (minus)
+        addScaled(buf, 6 * L, 4 * L, M, -y0 * z1); // α = y1 z0, β = y0 z1 (minus)
+        addScaled(buf, 6 * L, 5 * L, M, y0 * z0); // α = y1 z1, β = y0 z0
+        timesLinear(buf, 2 * L, M, a);
+        addScaled(buf, 2 * L, 0, M, y0 * z0);
+        timesLinear(buf, 3 * L, M, a);
+        addScaled(buf, 3 * L, 0, M, y0 * z1);
+        timesLinear(buf, 4 * L, M, a);
+        addScaled(buf, 4 * L, 0, M, y1 * z0);
+        timesLinear(buf, 5 * L, M, a);
+        addScaled(buf, 5 * L, 0, M, y1 * z1);
+        timesLinear(buf, L, M, a);
+        addScaled(buf, L, 0, M, y0 * z0 + y1 * z1);
+      } else {
+        timesLinear(buf, L, M, a);
+        addScaled(buf, L, 0, M, y0 * z0);
+      }
+      timesLinear(buf, 0, M, a);
+    }
+    const coeffs = w.poly.out;
+    for (let i = 0; i <= M; i++) coeffs[i] = buf[i]! + buf[L + i]! + (S === 2 ? buf[6 * L + i]! : 0);
+    return hurwitzUnstable(coeffs, w.table) === 0;
+  }
+
   jacobianAt(k: number): Float64Array | null {
     const { M, S, J, X } = this;
     const k2 = k * k;
     const D = this.model.diffusion;
     for (let i = 0; i < M * M; i++) J[i] = -k2 * D[i]!;
     if (S === 0) return J;
-    if (S === 1) {
-      const a = this.dc1 + this.r1 / k2;
-      if (!(a !== 0)) return null;
-      for (let m = 0; m < M; m++) X[m] = this.model.Q[m]! / a;
-    } else {
-      if (!Number.isFinite(this.gNorm(k))) return null; // leaves (D'_c + R'/k'²)⁻¹ in this.inv
-      const inv = this.inv;
-      const Q = this.model.Q;
-      for (let s = 0; s < S; s++) {
-        for (let m = 0; m < M; m++) {
-          let acc = 0;
-          for (let t = 0; t < S; t++) acc += inv[s * S + t]! * Q[m * S + t]!;
-          X[s * M + m] = acc;
-        }
-      }
-    }
+    if (!this.responseAt(k)) return null;
     const P = this.model.P;
     for (let m = 0; m < M; m++) {
       for (let n = 0; n < M; n++) {
@@ -373,6 +455,18 @@ export class ModeBounds {
 /** Ten times the scan's growth resolution (1e-12 of the scale): a proven-negative value is never rounded up to 0. */
 const RESOLUTION_MARGIN = 1e-11;
 
+/** p ← p·(λ − a) for the right-aligned polynomial at buf[at … at + M] (degree < M). */
+function timesLinear(buf: Float64Array, at: number, M: number, a: number): void {
+  for (let i = 0; i < M; i++) buf[at + i] = buf[at + i + 1]! - a * buf[at + i]!;
+  buf[at + M] = -a * buf[at + M]!;
+}
+
+/** p ← p + c·q for right-aligned polynomials at buf[to …] and buf[from …]. */
+function addScaled(buf: Float64Array, to: number, from: number, M: number, c: number): void {
+  if (c === 0) return;
+  for (let i = 0; i <= M; i++) buf[to + i]! += c * buf[from + i]!;
+}
+
 /** Relative margin (of max |J'_ij|) by which a Routh–Hurwitz proof must clear its target: covers the coefficients' rounding up to double roots. */
 export const ROUTH_MARGIN = 1e-6;
 
@@ -388,10 +482,12 @@ export interface RouthScratch {
   shifted: Float64Array;
   poly: CharPolyScratch;
   table: Float64Array;
+  /** the structured polynomials of `structuredRouthBelow` (7·(M + 1)) */
+  structured: Float64Array;
 }
 
 export function routhScratch(M: number): RouthScratch {
-  return { shifted: new Float64Array(M * M), poly: charPolyScratch(M), table: new Float64Array(3 * (Math.floor(M / 2) + 2)) };
+  return { shifted: new Float64Array(M * M), poly: charPolyScratch(M), table: new Float64Array(3 * (Math.floor(M / 2) + 2)), structured: new Float64Array(7 * (M + 1)) };
 }
 
 /**

@@ -315,6 +315,7 @@ class Tracker {
     if (!t.realOnly && this.bounds.provesBelow(k, t.value)) return true;
     if (this.model.M < 2) return false;
     this.jacobians++;
+    if (!t.realOnly && this.bounds.structured) return this.bounds.structuredRouthBelow(k, t.value, this.routh);
     const J = this.bounds.jacobianAt(k);
     if (J === null) return false;
     if (t.realOnly && !spectrumReal(J, this.model.M, this.routh)) return false;
@@ -473,6 +474,10 @@ function firstUnprovenMode(model: ScaledModel, bounds: ModeBounds): number {
   for (let n = 1; n <= PROOF_BUDGET; n++) {
     if (bounds.provesTailBelow(n, 0)) return Infinity;
     if (bounds.provesBelow(n, 0)) continue;
+    if (bounds.structured) {
+      if (bounds.structuredRouthBelow(n, 0, routh)) continue;
+      return n;
+    }
     const J = model.M < 2 ? null : bounds.jacobianAt(n);
     if (J === null || !(gershgorinBelow(J, model.M, 0) || routhBelow(J, model.M, 0, routh))) return n;
   }

@@ -153,7 +153,7 @@ describe('stateOf', () => {
 describe('the proofs behind the exits (hand Jacobian, ml-matrix eigenvalues)', () => {
   it('small gain, tail, Routh–Hurwitz, Gershgorin and the realness proofs hold for the true spectrum', () => {
     const rng = new Random(9105);
-    const counts = { below: 0, tail: 0, routh: 0, gershgorin: 0, discs: 0, real: 0, everywhere: 0 };
+    const counts = { below: 0, tail: 0, routh: 0, structured: 0, sameVerdict: 0, gershgorin: 0, discs: 0, real: 0, everywhere: 0 };
     for (let t = 0; t < 100; t++) {
       const walls = WALLS[t % 3]!;
       // the later draws: unbounded, every chemical lost at a rate, constant activities (where the one inequality applies)
@@ -179,6 +179,18 @@ describe('the proofs behind the exits (hand Jacobian, ml-matrix eigenvalues)', (
           if (routhBelow(J, model.M, f, w)) {
             counts.routh++;
             expect(top.re).toBeLessThan(f);
+          }
+          const structured = b.structuredRouthBelow(k, f, w);
+          if (structured) {
+            counts.structured++;
+            expect(top.re).toBeLessThan(f);
+          }
+          if (b.structured) {
+            // the structured polynomial and the Hessenberg one give the same verdict away from the margins
+            if (Math.abs(top.re - f) > 1e-4 * maxAbsEntry(J)) {
+              expect(structured).toBe(routhBelow(J, model.M, f, w));
+              counts.sameVerdict++;
+            }
           }
           if (gershgorinBelow(J, model.M, f)) {
             counts.gershgorin++;
