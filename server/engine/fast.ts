@@ -247,6 +247,14 @@ export class RankOneDose {
   private routh = new Float64Array(0);
   private cp: CharPolyScratch = charPolyScratch(1);
   private sturm = new Float64Array(0);
+  private hA = new Float64Array(0);
+  private hB = new Float64Array(0);
+  private hC = new Float64Array(0);
+  private hE = new Float64Array(0);
+  private hG = new Float64Array(0);
+  private hD = new Float64Array(0);
+  /** per active mode: 0 not yet asked, 1 proven free of Hopf crossings, 2 not proven */
+  private hopf = new Uint8Array(0);
   private sturmDeg = new Int32Array(0);
 
   private size(n: number, S: number, Sf: number): void {
@@ -257,6 +265,13 @@ export class RankOneDose {
       this.coef = new Float64Array(n + 1);
       this.routh = new Float64Array(3 * (Math.floor(n / 2) + 2));
       this.sturm = new Float64Array((n + 1) * (n + 1));
+      const half = Math.floor(n / 2) + 1;
+      this.hA = new Float64Array(half);
+      this.hB = new Float64Array(half);
+      this.hC = new Float64Array(half);
+      this.hE = new Float64Array(half);
+      this.hG = new Float64Array(2 * half);
+      this.hD = new Float64Array(2 * half);
       this.sturmDeg = new Int32Array(n + 1);
     }
     if (this.cp.n !== n) this.cp = charPolyScratch(n);
@@ -301,6 +316,9 @@ export class RankOneDose {
     const ready = new Uint8Array(c);
     ready.set(this.ready.subarray(0, Math.min(this.ready.length, c)));
     this.ready = ready;
+    const hopf = new Uint8Array(c);
+    hopf.set(this.hopf.subarray(0, Math.min(this.hopf.length, c)));
+    this.hopf = hopf;
     this.p0 = grow(this.p0, c * stride, (l) => new Float64Array(l));
     this.q = grow(this.q, c * stride, (l) => new Float64Array(l));
     this.J0s = grow(this.J0s, c * n * n, (l) => new Float64Array(l));
@@ -566,6 +584,7 @@ export class RankOneDose {
       this.J0s.set(J.subarray(0, n * n), a * n * n);
       this.Ws.set(w.subarray(0, n), a * n);
       this.ready[a] = 0;
+      this.hopf[a] = 0;
       this.active = a + 1;
       // dose 0: a mode a bound proves stable there needs no polynomial yet (they are made when a dose needs them)
       if (settled <= 0) {
@@ -620,6 +639,61 @@ export class RankOneDose {
   }
 
   /**
+   * Whether mode a provably never has a root on the imaginary axis away from 0 at any dose x ≥ 0
+   * (no Hopf crossing), so that its count of growing roots changes only where its determinant does,
+   * at x_k: stable on [0, x_k) when stable at 0. With p(iω; x) = p₀(iω) − x q(iω), p₀(iω) = A + iB and
+   * q(iω) = C + iE, a root iω at some dose needs A − xC = B − xE = 0, hence A E − B C = 0. A, C are even
+   * in ω and B, E odd, so A E − B C = ω g(ω²); by Sturm's theorem, g with no positive root (and
+   * g(0) ≠ 0) proves the mode free of Hopf crossings. Not proven (false) when Sturm cannot be trusted.
+   */
+  private hopfFree(a: number): boolean {
+    if (this.hopf[a] !== 0) return this.hopf[a] === 1;
+    this.hopf[a] = 2;
+    if (!this.poly(a)) return false;
+    const n = this.n;
+    const stride = n + 1;
+    const off = a * stride;
+    // ascending in s = ω²: Ā_m = (−1)^m P_2m, B̄_m = (−1)^m P_2m+1 with P_j the coefficient of λ^j
+    const half = Math.floor(n / 2) + 1;
+    const A = this.hA;
+    const B = this.hB;
+    const C = this.hC;
+    const E = this.hE;
+    for (let m = 0; m < half; m++) {
+      const sg = m % 2 === 0 ? 1 : -1;
+      const j0 = 2 * m;
+      const j1 = 2 * m + 1;
+      A[m] = j0 <= n ? sg * this.p0[off + n - j0]! : 0;
+      C[m] = j0 <= n ? sg * this.q[off + n - j0]! : 0;
+      B[m] = j1 <= n ? sg * this.p0[off + n - j1]! : 0;
+      E[m] = j1 <= n ? sg * this.q[off + n - j1]! : 0;
+    }
+    const g = this.hG;
+    const len = 2 * half - 1;
+    g.fill(0, 0, len);
+    for (let i = 0; i < half; i++) for (let j = 0; j < half; j++) g[i + j]! += A[i]! * E[j]! - B[i]! * C[j]!;
+    let big = 0;
+    for (let i = 0; i < len; i++) big = Math.max(big, Math.abs(g[i]!));
+    if (!(big > 0) || !Number.isFinite(big)) return false;
+    let top = len - 1;
+    while (top > 0 && Math.abs(g[top]!) <= 1e-13 * big) top--;
+    if (Math.abs(g[0]!) <= 1e-13 * big) return false; // a root at s = 0: not proven
+    if (top === 0) {
+      this.hopf[a] = 1;
+      return true;
+    }
+    // descending for Sturm
+    const d = this.hD.subarray(0, top + 1);
+    for (let i = 0; i <= top; i++) d[i] = g[top - i]!;
+    const roots = sturmPositiveRoots(d, this.sturm, this.sturmDeg);
+    if (roots === 0) {
+      this.hopf[a] = 1;
+      return true;
+    }
+    return false;
+  }
+
+  /**
    * Whether every mode is stable at dose x (Hurwitz count 0 for each mode the bounds did not settle);
    * false when some mode grows, null when a Routh table is degenerate. Valid for 0 ≤ x ≤ cap.
    */
@@ -630,6 +704,7 @@ export class RankOneDose {
     this.checked++;
     for (let a = 0; a < this.active; a++) {
       if (x < this.settled[a]!) continue;
+      if (x < this.xk[a]! && this.hopfFree(a)) continue;
       if (!this.poly(a)) return null;
       const off = a * stride;
       for (let t = 0; t < stride; t++) coef[t] = this.p0[off + t]! - x * this.q[off + t]!;
