@@ -351,7 +351,11 @@ function attemptPlan(
       const topDopant = top.draws.find((d) => d.component === dopantId);
       const dop = comp.get(dopantId)!;
       const per = dop.per === 'mol' ? (x: number) => `${(x / 1000).toPrecision(3)} mol/L` : (x: number) => `${(x * 1e-6).toPrecision(3)} particles/mL`;
-      const fixes: string[] = [`a larger sample volume (at least ${fmtUl(roundUp(need * 1.05))})`];
+      // every draw is c V / stock, so a larger sample helps only with the fixed volumes (minimums, rounding): where the
+      // stocks themselves, undiluted, would fill a tube (Σ c / stock ≥ 1), no sample volume fits it
+      const undiluted = Math.max(...mmTubes.map((t) => [...t.s.conc].reduce((a, [id, c]) => a + (c > 0 && comp.has(id) ? c / comp.get(id)!.stock : 0), 0)));
+      const fixes: string[] = undiluted < 1 ? [`a larger sample volume (at least ${fmtUl(roundUp(need * 1.05))})`] : [];
+      const noVolume = undiluted < 1 ? '' : ` No sample volume helps: undiluted, the stocks alone would fill ${Math.round(undiluted * 100)} % of any tube.`;
       // a more concentrated dopant stock helps only when the fullest tube takes it from the stock itself: a draw from a
       // dilution is there because the stock volume is small, and a stronger stock would not shrink it
       if (topDopant && topDopant.from === stockKey(dopantId)) {
@@ -363,7 +367,7 @@ function attemptPlan(
       const raised = top.draws.filter((d) => d.volume <= roundUpToPipette(o.minVolume) * (1 + 1e-9));
       if (raised.length > 0 && o.minVolume > UL * (1 + 1e-9)) fixes.push(`a smaller minimum volume to pipette (now ${fmtUl(o.minVolume)}; ${raised.length} of that tube's volumes are raised to it)`);
       const drawText = top.draws.map((d) => `${fmtUl(d.volume)} of ${d.from === stockKey(d.component) ? `the ${comp.get(d.component)!.label} stock` : d.from.startsWith('working') ? `the ${comp.get(d.component)!.label} working solution` : `a ${comp.get(d.component)!.label} dilution`}`).join(', ');
-      throw new Impossible(`the components need ${fmtUl(need)} in a ${fmtUl(V)} tube (the fullest tube, ${top.s.name}, takes ${drawText}, beside the base species' ${fmtUl(baseInTube)} and one minimum volume of buffer). Use ${fixes.join(', ')}, or fewer or lower doses.`);
+      throw new Impossible(`the components need ${fmtUl(need)} in a ${fmtUl(V)} tube (the fullest tube, ${top.s.name}, takes ${drawText}, beside the base species' ${fmtUl(baseInTube)} and one minimum volume of buffer).${noVolume} Use ${fixes.join(', ')}, or fewer or lower doses.`);
     }
     mmNeed = p * nMm * ov;
     // each base into the master mix so that p of it carries the tube's share (C₁V₁ = C₂V₂ with the mix's own volume)

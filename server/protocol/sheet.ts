@@ -465,6 +465,8 @@ export class SheetNotFitError extends DomainError {
   }
 }
 
+/** The densest packing of equal spheres, π/(3√2) ≈ 0.7405 (Kepler's conjecture, proved by Hales): no stock of them is denser. */
+const DENSEST_PACKING = Math.PI / (3 * Math.SQRT2);
 const NICE_VOLUMES_UL = [10, 20, 25, 50, 100, 150, 200, 250, 300, 400, 500, 750, 1000, 1500, 2000, 5000, 10000];
 const STOCK_FACTORS = [2, 5, 10, 20, 50, 100, 1000];
 
@@ -483,10 +485,21 @@ function optionsThatFit(ctx: SheetContext, req: SheetRequest): FitOption[] {
   const now = req.sampleVolume?.value ?? 100 * UL;
   const v = NICE_VOLUMES_UL.map((x) => x * UL).find((x) => x > now * (1 + 1e-9) && fits({ sampleVolume: x }));
   if (v !== undefined) out.push({ option: 'sampleVolume', value: `${formatNumber(v / UL)} uL`, text: `a sample volume of ${formatNumber(v / UL)} µL (now ${formatNumber(now / UL)} µL): every tube then fits` });
-  // one stock more concentrated (the stock as the sheet would read it, × the smallest factor that fits)
+  // one stock more concentrated (the stock as the sheet would read it, × the smallest factor that fits), among the
+  // stocks that can exist: no mass fraction above 1, no suspension denser than equal spheres can pack
   const probe = liquids(ctx, req);
+  const canExist = (c: Component, f: number) => {
+    if (c.per === 'mol') return c.stockMassFraction === null || c.stockMassFraction === undefined || c.stockMassFraction * f <= 1;
+    const rec = ctx.speciesRecord(c.id);
+    if (!rec) return true;
+    try {
+      return (c.stock * f) / numberDensity(rec, { volumeFraction: { si: 1, sd: 0, unit: null, input: 1 } }).value <= DENSEST_PACKING;
+    } catch {
+      return true;
+    }
+  };
   for (const c of probe.components) {
-    const f = STOCK_FACTORS.find((k) => fits({ stockScale: { id: c.id, factor: k } }));
+    const f = STOCK_FACTORS.find((k) => canExist(c, k) && fits({ stockScale: { id: c.id, factor: k } }));
     if (f === undefined) continue;
     const conc = c.per === 'mol' ? `${formatNumber((c.stock * f) / 1000)} mol/L` : `${formatNumber(c.stock * f * 1e-6)} particles/mL`;
     const was = c.per === 'mol' ? `${formatNumber(c.stock / 1000)} mol/L` : `${formatNumber(c.stock * 1e-6)} particles/mL`;
@@ -531,7 +544,7 @@ export function notFitSheet(ctx: SheetContext, req: SheetRequest, err: DomainErr
       { kind: 'heading', text: 'What would fix it' },
       options.length
         ? { kind: 'list', items: options.map((x) => x.text) }
-        : { kind: 'paragraph', text: 'no single change tried (a larger sample volume up to 10 mL, one stock up to 1000 × more concentrated, fewer doses) makes it fit: change several options, or the plan.' },
+        : { kind: 'paragraph', text: 'no single change tried (a larger sample volume up to 10 mL, one stock up to 1000 × more concentrated where such a stock can exist, fewer doses) makes it fit: change several options, or the plan.' },
       ...(err.code === 'impossible-volumes' && options.length
         ? [{ kind: 'paragraph' as const, muted: true, text: 'Each change listed was tried alone and makes every tube fit; a suggestion in the reason above that is not listed here was not confirmed.' }]
         : []),

@@ -275,7 +275,10 @@ describe('serial dilutions and plans that do not fit', () => {
     expect((err as DomainError).code).toBe('impossible-volumes');
     const msg = (err as Error).message;
     expect(msg).toMatch(/need .* µL in a 100 µL tube/);
-    expect(msg).toMatch(/larger sample volume \(at least .* µL\)/);
+    // every draw is c V / stock: at the top dose the stocks alone, undiluted, take 2e14/2e14 (dopant) + 2e14/1e15
+    // (base) + 200/9790 (fuel) = 1.22 of the tube, whatever its volume, so no sample volume is offered
+    expect(msg).not.toMatch(/larger sample volume/);
+    expect(msg).toMatch(/No sample volume helps: undiluted, the stocks alone would fill 122 % of any tube/);
     // the dopant at 2e14 m⁻³ = 2e8/mL is too dilute for a 2e14 m⁻³ dose in 100 µL
     const m = /a dopant stock of at least ([\d.e+]+) particles\/mL \(now 2\.00e\+8 particles\/mL/.exec(msg);
     expect(m).not.toBeNull();
@@ -283,6 +286,20 @@ describe('serial dilutions and plans that do not fit', () => {
     // and that stock does fit
     const fixed = setup(Number(m![1]) * 1e6, [0, 1e14, 2e14]);
     expect(() => planBench(fixed.comps, fixed.samples, o, ['base'], 'dop', ['fuel'])).not.toThrow();
+  });
+
+  it('a larger sample volume is offered where the fixed volumes are what does not fit (the stocks alone fill less than the tube)', () => {
+    // 10 µL samples of the demo shape: undiluted the top dose takes 2 × 1.594e14/1.194e15 + 1.92e14/1.194e15 + 200/9790
+    // = 0.4482 of the tube, but W1 (at least 1 µL), the 1 µL minimum buffer and the rounding do not fit in 10 µL
+    const { comps, samples } = demo();
+    let msg = '';
+    try {
+      planBench(comps, samples, { ...o, sampleVolume: 10 * UL }, ['base'], 'dop', ['fuel']);
+    } catch (e) {
+      msg = (e as Error).message;
+    }
+    expect(msg).toMatch(/larger sample volume \(at least .* µL\)/);
+    expect(msg).not.toMatch(/No sample volume helps/);
   });
 
   it('when the fullest tube takes its dopant from a dilution, no stock is offered as the fix (a stronger stock would not shrink it); a raised minimum is named', () => {

@@ -72,6 +72,24 @@ describe('a plan whose volumes do not fit', () => {
     expect(sv).toMatchObject({ option: 'sampleVolume', value: '20 uL', text: 'a sample volume of 20 µL (now 10 µL): every tube then fits' });
   });
 
+  it('no stock is offered that cannot exist (denser than spheres pack), and no sample volume where none can help', async () => {
+    // the demo beads: radius 1 µm (demo shelf), 4/3 π (1e-6 m)³ = 4.18879e-18 m³ = 4.18879e-12 mL each; the densest
+    // packing of equal spheres is π/(3√2) = 0.74048 (Kepler's conjecture, proved by Hales 2005), so no stock of them
+    // holds more than 0.74048 / 4.18879e-12 = 1.768e11 particles/mL. 1000 × the threshold (1.433e8 /mL, this plan)
+    // is 1.43e11 /mL in the tube, which only a stock above that bound could deliver with room for the rest.
+    const bound = Math.PI / (3 * Math.SQRT2) / ((4 / 3) * Math.PI * 1e-12);
+    const r = (await post('json', { doseFactors: [0, 1, 1000] })).json() as NotFitSheet;
+    expect(r.code).toBe('impossible-volumes');
+    for (const o of r.options.filter((x) => x.option.startsWith('stocks.ptj'))) expect(Number.parseFloat(o.value)).toBeLessThanOrEqual(bound);
+    expect(r.options.map((o) => o.option)).not.toContain('stocks.ptj-1um-b07');
+    // nor a sample volume: undiluted, the top dose alone is 1.433e11 / 1.194e9 = 120 tubes' worth of stock
+    expect(r.reasons.join(' ')).not.toMatch(/larger sample volume/);
+    expect(r.reasons.join(' ')).toMatch(/No sample volume helps/);
+    // the too-dilute stock likewise: the reason no longer asks for a larger sample
+    const d = (await post('json', tooDilute)).json() as NotFitSheet;
+    expect(d.reasons.join(' ')).not.toMatch(/larger sample volume/);
+  });
+
   it('HTML (the page link) and Markdown: the explanation as a page, 422', async () => {
     const html = await post('html', tooSmall);
     expect(html.statusCode).toBe(422);
