@@ -137,7 +137,7 @@ export function decideWorking(stockPerTube: number, below: number, stockBand: Cl
   const ul = (v: number) => `${Number((v / UL).toPrecision(3))} µL`;
   const parts: string[] = [];
   if (volumeRule) parts.push(`${ul(stockPerTube)} of stock per tube is below ${ul(below)}`);
-  const bands = (c: Classification | null) => (c && c.statements.length ? c.statements.map((x) => `${x.code} ${x.hazardClass}`).join(', ') + (c.signal ? `, ${c.signal}` : '') : 'no hazard statement under the shelf\u2019s bands');
+  const bands = (c: Classification | null) => (c && c.statements.length ? c.statements.map((x) => `${x.code} ${x.hazardClass}`).join(', ') + (c.signal ? `, ${c.signal}` : '') : `below the classification limits of the shelf\u2019s hazard data${c && c.version !== null ? `, version ${c.version}` : ''}`);
   const pc = (c: Classification) => `${Number((c.massFraction * 100).toPrecision(3))} % w/w`;
   if (bandRule === true) parts.push(`the stock (${pc(stockBand!)}: ${bands(stockBand)}) is classified above it (${pc(workingBand!)}: ${bands(workingBand)})`);
   const reason = !possible

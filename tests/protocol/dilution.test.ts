@@ -111,7 +111,11 @@ describe('round concentrations and the working-dilution rule (common practice)',
     expect(both.reason).toMatch(/below 5 µL/);
     expect(both.reason).toMatch(/H318 Eye Dam\. 1, Danger.*H319 Eye Irrit\. 2, Warning/);
     // 10.2 µL per tube, stock above the working solution: the band rule alone
-    expect(decideWorking(ul(10.2), ul(5), stock, classify(set, 0.0341), true)).toMatchObject({ make: true, volumeRule: false, bandRule: true });
+    const bandOnly = decideWorking(ul(10.2), ul(5), stock, classify(set, 0.0341, { version: 1 }), true);
+    expect(bandOnly).toMatchObject({ make: true, volumeRule: false, bandRule: true });
+    // a working solution below every band is said to be below the limits of the shelf's data, never "no hazard"
+    expect(bandOnly.reason).toMatch(/\(3\.41 % w\/w: below the classification limits of the shelf’s hazard data, version 1\)/);
+    expect(bandOnly.reason).not.toMatch(/no hazard/);
     // both sides of the volume limit, without hazard data: the bands cannot be compared, and the reason says so
     expect(decideWorking(ul(4.9), ul(5), null, null, true)).toMatchObject({ make: true, volumeRule: true, bandRule: null });
     const at5 = decideWorking(ul(5), ul(5), null, null, true);
@@ -124,23 +128,7 @@ describe('round concentrations and the working-dilution rule (common practice)',
 
 describe('hydrogen peroxide bands: CLP Annex VI, index 008-003-00-9 (from memory), against seeds/demo-hazards.json', () => {
   const set = hazardSetSchema.parse(JSON.parse(readFileSync('seeds/demo-hazards.json', 'utf8')).h2o2);
-  const codes = (w: number) => classify(set, w).statements.map((s) => `${s.code} ${s.hazardClass}`).sort();
-  // the limits from memory (source above), each tested just below and at the limit
-  it.each([
-    [0.049, []],
-    [0.05, ['H319 Eye Irrit. 2']],
-    [0.079, ['H319 Eye Irrit. 2']],
-    [0.08, ['H318 Eye Dam. 1']],
-    [0.349, ['H318 Eye Dam. 1']],
-    [0.35, ['H315 Skin Irrit. 2', 'H318 Eye Dam. 1', 'H335 STOT SE 3']],
-    [0.499, ['H315 Skin Irrit. 2', 'H318 Eye Dam. 1', 'H335 STOT SE 3']],
-    [0.5, ['H272 Ox. Liq. 2', 'H314 Skin Corr. 1B', 'H335 STOT SE 3']],
-    [0.699, ['H272 Ox. Liq. 2', 'H314 Skin Corr. 1B', 'H335 STOT SE 3']],
-    [0.7, ['H271 Ox. Liq. 1', 'H314 Skin Corr. 1A', 'H335 STOT SE 3']],
-  ])('mass fraction %s', (w, expected) => {
-    expect(codes(w)).toEqual([...expected].sort());
-  });
-
+  // each limit on both sides: tests/protocol/hazards.test.ts and tests/references/clp-h2o2.test.ts (one table each is enough)
   it('the concentrations a default sheet handles: 30 % stock, the 2 M working solution, the 200 mM sample', () => {
     // stock 30 % w/w: Eye Dam. 1 (8–50 %), Danger
     expect(classify(set, 0.3)).toMatchObject({ signal: 'Danger', statements: [{ code: 'H318' }] });
