@@ -1,6 +1,8 @@
 /**
- * `npm run bench`: how long one analysis takes, for the examples and for
- * random mixtures of growing size. Prints figures; asserts nothing.
+ * `npm run bench:engine`: how long one analysis takes, for the examples and for
+ * random mixtures of growing size, and the general eigen solver on dense
+ * matrices; human-readable figures (`npm run bench` prints the JSON lines of
+ * the issue-11 workloads). Prints figures; asserts nothing.
  */
 import { readdirSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';

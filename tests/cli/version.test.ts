@@ -4,8 +4,9 @@
  * and the compiled package runs on its own: the build (tsconfig.build.json) is
  * emitted into a scratch copy of the package that has no TypeScript sources,
  * so bin/brink.js can only run dist/, and that copy analyses an example, seeds
- * a database (migrations/ and seeds/ found from dist/) and serves its pages
- * (web/) on 127.0.0.1. No timings here: `npm run bench` and DEVELOPERS.md
+ * a database (migrations/ and seeds/ found from dist/), serves its pages
+ * (web/) on 127.0.0.1 and runs a plan as a job in its worker threads
+ * (dist/server/jobs/worker.js). No timings here: `npm run bench` and DEVELOPERS.md
  * report how fast it starts.
  */
 import { spawn, spawnSync } from 'node:child_process';
@@ -15,6 +16,8 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../../server/cli.js';
 import { PACKAGE_ROOT, VERSION } from '../../server/version.js';
+import { freshApp } from '../helpers/app.js';
+import { planRequest, postPlan } from '../helpers/plans.js';
 
 const root = new URL('../../', import.meta.url).pathname;
 const pkg = JSON.parse(readFileSync(join(root, 'package.json'), 'utf8')) as { version: string };
@@ -92,7 +95,7 @@ describe('the compiled package', () => {
     expect(existsSync(db)).toBe(true);
   });
 
-  it('serves its pages (web/) and reports the version on 127.0.0.1', async () => {
+  it('serves its pages (web/), reports the version and runs a plan job in its workers, on 127.0.0.1', async () => {
     const p = spawn(process.execPath, [join(copy, 'bin/brink.js'), 'serve', '--db', join(copy, 'served.sqlite'), '--port', '0', '--host', '127.0.0.1'], { stdio: ['ignore', 'pipe', 'pipe'] });
     try {
       const url = await new Promise<string>((resolve, reject) => {
@@ -116,6 +119,28 @@ describe('the compiled package', () => {
       const health = (await (await fetch(`${url}api/health`)).json()) as { version: string; species: number };
       expect(health.version).toBe(pkg.version);
       expect(health.species).toBeGreaterThan(0);
+
+      // a plan runs as a job in the worker threads, which load dist/server/jobs/worker.js: the same answer as the
+      // sources give in process (the reference here is the TypeScript path of the same request)
+      const posted = await fetch(`${url}api/plans`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(planRequest) });
+      expect(posted.status).toBe(202);
+      let job = (await posted.json()) as { id: string; state: string; result?: { planId: number }; error?: unknown };
+      for (let i = 0; !['done', 'failed', 'cancelled', 'timed-out'].includes(job.state); i++) {
+        if (i > 600) throw new Error('the job did not end within 60 s');
+        await new Promise((r) => setTimeout(r, 100));
+        job = (await (await fetch(`${url}api/jobs/${job.id}`)).json()) as typeof job;
+      }
+      expect(job.state, JSON.stringify(job.error)).toBe('done');
+      const plan = (await (await fetch(`${url}api/plans/${job.result!.planId}`)).json()) as { result: { candidates: { species: string; threshold: unknown; band: unknown }[] } };
+      const app = await freshApp({ demo: true });
+      try {
+        const fromSources = (await postPlan(app, planRequest)).json() as typeof plan;
+        const pick = (p: typeof plan) => p.result.candidates.map((c) => ({ species: c.species, threshold: c.threshold, band: c.band }));
+        expect(pick(plan)).toEqual(pick(fromSources));
+        expect(plan.result.candidates.length).toBe(planRequest.candidates.length);
+      } finally {
+        await app.close();
+      }
     } finally {
       const exited = new Promise((res) => p.once('exit', res));
       p.kill('SIGTERM');
