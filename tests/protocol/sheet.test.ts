@@ -136,7 +136,8 @@ describe('bench sheet', () => {
     expect(bad.json().problems[0].path).toBe('sampleVolume');
     const impossible = await app.inject({ method: 'POST', url: `/api/plans/${planId}/sheet?format=json`, payload: { stocks: { 'ptj-1um-b07': { massConcentration: '0.05 mg/mL' } } } });
     expect(impossible.statusCode).toBe(422);
-    expect(impossible.json().message).toMatch(/would fit|larger sample volume/);
+    // 200 × more dilute than the shelf's stock: more dilute than the top doses, so only a stronger stock fixes it
+    expect(impossible.json().message).toMatch(/No sample volume helps.*Use a Pt Janus 1 um, batch TS-PtJ-1\.0-B07 stock of at least/);
     const cannot = await app.inject({ method: 'GET', url: `/api/plans/${planId}/sheet?format=json&candidate=catb-0.22-l04` });
     expect(cannot.statusCode).toBe(422);
     expect(cannot.json()).toMatchObject({ error: 'domain', code: 'candidate-infeasible', fits: false });
