@@ -258,6 +258,14 @@ export function planBench(components: Component[], samples: SampleSpec[], o: Pip
   for (let attempt = 0; ; attempt++) {
     try {
       const plan = attemptPlan(comp, components, samples, o, baseIds, dopantId, chemicalIds, working);
+      // the reason in the words of each working solution as made (the rounded volumes move it off the round value;
+      // its mass fraction as made is what the hazards section bands); kept as judged if the rule reads otherwise there
+      for (const d of decisions) {
+        const made = plan.preparations.find((p) => p.kind === 'working' && p.component === d.chemical)?.contents.get(d.chemical);
+        if (!d.decision.make || made === undefined) continue;
+        const again = decide(d.chemical, made);
+        if (again.make) d.decision = again;
+      }
       plan.working = decisions.map((d) => ({ ...d, code: plan.preparations.find((p) => p.kind === 'working' && p.component === d.chemical)?.code ?? null }));
       plan.workingBelow = below;
       return plan;

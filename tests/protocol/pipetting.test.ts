@@ -173,6 +173,18 @@ describe('the compact pipetting plan of a default sheet', () => {
 });
 
 describe('the working-dilution rule in a plan', () => {
+  it('the reason gives the working solution as made, the concentration the hazards section bands', () => {
+    // one dose fewer: 9 samples with fuel × 3 × 1.1 × 10 µL = 297 µL of W1; stock 297 × 2/9.79 = 60.67 → 61 µL, buffer
+    // 61 × (9.79/2 − 1) = 237.6 → 240 µL (5 µL steps); as made 9790 × 61/301 = 1984.0 mM →
+    // 1984.0 × 0.0340147 / 997.047 = 6.769 % w/w (the nominal 2 M would be 6.823 %)
+    const { comps, samples } = demo();
+    const plan = planBench(comps, samples.filter((x) => x.name !== 'dose 1.6 ×'), o, ['base'], 'dop', ['fuel']);
+    const w = plan.preparations.find((p) => p.code === 'W1')!;
+    expect(w.transfers.map((t) => Number((t.volume / UL).toFixed(4)))).toEqual([61, 240]);
+    expect(plan.handled.find((h) => h.where === 'working')!.massFraction! * 100).toBeCloseTo(6.769, 3);
+    expect(plan.working[0]!.decision.reason).toMatch(/is classified above it \(6\.77 % w\/w: H319 Eye Irrit\. 2, Warning\)/);
+  });
+
   it('the band rule alone: 1 mL samples at 100 mM take 10.2 µL of 30 % stock, yet a 1 M working solution (3.4 %, unclassified) is made', () => {
     const comps: Component[] = [{ id: 'dop', label: 'dopant', stock: 1e16, stockText: 'x', per: 'particles' }, peroxide()];
     const samples: SampleSpec[] = [0, 1e14].map((x) => ({ name: `d${x}`, role: x ? 'series' : 'control', dose: x, conc: new Map([['dop', x], ['fuel', 100]]), usesMasterMix: false }));
@@ -205,7 +217,10 @@ describe('the working-dilution rule in a plan', () => {
     const samples: SampleSpec[] = [0, 8.5e14].map((x) => ({ name: `d${x}`, role: x ? 'series' : 'control', dose: x, conc: new Map([['base', 2e14], ['dop', x], ['fuel', 200]]), usesMasterMix: true }));
     const plan = planBench(comps, samples, o, ['base'], 'dop', ['fuel']);
     expect(plan.preparations.find((p) => p.kind === 'working')!.nominal).toBe(5000);
-    expect(plan.working[0]!.decision.reason).toMatch(/17\.1 % w\/w: H318 Eye Dam\. 1, Danger/);
+    // as made: 2 samples × 3 × 1.1 × 4 µL = 26.4 µL; stock 26.4 × 5/17.6 = 7.5 µL, buffer 7.5 × (17.6/5 − 1) = 18.9 → 19 µL;
+    // 17600 × 7.5/26.5 = 4981.1 mM → 4981.1 × 0.0340147 / 997.047 = 16.99 % w/w, still Eye Dam. 1 (8–50 %)
+    expect(plan.preparations.find((p) => p.kind === 'working')!.transfers.map((t) => Number((t.volume / UL).toFixed(4)))).toEqual([7.5, 19]);
+    expect(plan.working[0]!.decision.reason).toMatch(/\(17 % w\/w: H318 Eye Dam\. 1, Danger\)/);
     expect(plan.tubes[1]!.volumes[col(plan, /^W1$/)]! / UL).toBeCloseTo(4, 12);
   });
 
