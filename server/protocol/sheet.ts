@@ -225,7 +225,7 @@ export function speciesStock(sp: SpeciesRecord, o: z.output<typeof stockSchema> 
   }
 }
 
-const per = (x: number) => `${x === 0 ? 0 : (x * 1e-6).toPrecision(3)} particles/mL`;
+const per = (x: number) => `${x === 0 ? 0 : formatNumber(Number((x * 1e-6).toPrecision(3)))} particles/mL`;
 
 /** One `dose-above-cap` warning for each dose of the series above the plan's dose cap (a relative 1e-9 for rounding). */
 export function aboveCap(cand: CandidateResult, series: number[]): Sheet['warnings'] {
@@ -408,7 +408,7 @@ function liquids(ctx: SheetContext, req: SheetRequest, tweak: Tweak = {}) {
   const withFuel = (m: Map<string, number>) => new Map([...m, ...fuelConc]);
   const replace = dosing === 'replace';
   const specs: SampleSpec[] = series.map((x) => ({
-    name: x === 0 ? 'dose 0 (control: no dopant)' : `dose ${(x / ref).toPrecision(3)} ×`,
+    name: x === 0 ? 'dose 0 (control: no dopant)' : `dose ${formatNumber(Number((x / ref).toPrecision(3)))} ×`,
     role: x === 0 ? 'control' : 'series',
     kind: x === 0 ? 'no-dopant' : 'series',
     dose: x,
@@ -722,6 +722,13 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   const bench = pip.bench;
   const tubesSi = tubeList(bench).map((t, i) => ({ code: t.code, sample: t.name, kind: t.kind, planned: t.plannedDose?.si ?? null, delivered: t.deliveredDose?.si ?? null, tubes: t.lids, conc: bench.tubes[i]!.delivered }));
   const tubes: SheetTube[] = tubesSi.map((t) => ({ code: t.code, sample: t.sample, kind: t.kind, replicates: t.tubes.length, tubes: t.tubes, plannedDose: t.planned === null ? null : perMl(t.planned), dose: t.delivered === null ? null : perMl(t.delivered) }));
+  // Two doses of the series that the rounded volumes deliver alike are one dose at the bench: say so.
+  const series = tubesSi.filter((t) => t.kind === 'series' && t.delivered !== null);
+  for (let i = 1; i < series.length; i++) {
+    const [p, c] = [series[i - 1]!, series[i]!];
+    if (Math.abs(c.delivered! - p.delivered!) <= 1e-9 * Math.max(c.delivered!, p.delivered!))
+      warnings.push({ code: 'same-delivered-dose', message: `tubes ${p.code} and ${c.code} deliver the same dose after rounding (${per(c.delivered!)}, planned ${per(p.planned!)} and ${per(c.planned!)}): they are one dose at the bench; use a larger sample volume or a more dilute dopant stock to tell them apart.` });
+  }
 
   // Expected outcome of each tube (docs/model.md §11).
   const mixtureOf = (t: (typeof tubesSi)[number]): Mixture => {
@@ -973,6 +980,13 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
 const a = fmtAmount;
 /** A band quantile: null means it lies above the dose cap (engine/planner.ts), not that it is unknown. */
 const q = (x: Amount | null | undefined) => (x ? a(x) : 'above the dose cap');
+/** Where the band puts the threshold, in words that read right when a quantile lies above the dose cap. */
+function bandSentence(boundary: string, b: { p05: Amount | null; p95: Amount | null }): string {
+  const head = `The band: in the Monte Carlo draws the ${boundary} threshold`;
+  if (b.p05 && b.p95) return `${head} lies between ${a(b.p05)} (5 %) and ${a(b.p95)} (95 %).`;
+  if (b.p05) return `${head} is above ${a(b.p05)} in 95 % of the draws (the 5 % point); its 95 % point lies above the dose cap.`;
+  return `${head} lies above the dose cap at both its 5 % and 95 % points.`;
+}
 const pct = (f: number | null) => (f === null ? '—' : f >= 1 ? `${formatNumber(Number(f.toPrecision(2)))} ×` : `${formatNumber(Number((100 * f).toPrecision(2)))} %`);
 
 function hazardBlocks(h: HazardEntry): Block[] {
@@ -1098,7 +1112,7 @@ export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[])
       {
         kind: 'paragraph',
         muted: true,
-        text: `Expected from the dose path (the state) and the analysis at each tube’s delivered dose (growth time, wavelength, period): ${Object.values(stateWords).join('; ')}. ${p.band ? `The band: the ${sh.plan.boundary} threshold lies between ${q(p.band.p05)} (5 %) and ${q(p.band.p95)} (95 %) in the Monte Carlo draws.` : 'No band: the plan ran without Monte Carlo draws.'}${p.firstOnset && !p.threshold.anyDose ? ` First onset: ${p.firstOnset.state} from ${a(p.firstOnset.dose)}; the ${sh.plan.boundary} threshold is ${a(p.threshold)}.` : ''}`,
+        text: `Expected from the dose path (the state) and the analysis at each tube’s delivered dose (growth time, wavelength, period): ${Object.values(stateWords).join('; ')}. ${p.band ? bandSentence(sh.plan.boundary, p.band) : 'No band: the plan ran without Monte Carlo draws.'}${p.firstOnset && !p.threshold.anyDose ? ` First onset: ${p.firstOnset.state} from ${a(p.firstOnset.dose)}; the ${sh.plan.boundary} threshold is ${a(p.threshold)}.` : ''}`,
       },
     ],
   });

@@ -4,27 +4,17 @@
  * service on 127.0.0.1 only): the Run button starts the job, the page shows its progress
  * and a Cancel button, and Cancel ends the job as cancelled with no plan stored.
  */
-import { existsSync } from 'node:fs';
-import { chromium, type Browser } from 'playwright-core';
+import type { Browser } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { App } from '../../server/http/app.js';
-import { freshApp } from '../helpers/app.js';
+import { startBrowserApp } from '../helpers/browser.js';
 
-const CHROMIUM = '/usr/bin/chromium';
 let app: App;
 let browser: Browser;
 let base = '';
 
 beforeAll(async () => {
-  if (!existsSync(CHROMIUM)) throw new Error(`${CHROMIUM} is missing: install Debian's chromium (apt-get install -y chromium), as .ci/run does`);
-  app = await freshApp({ demo: true });
-  await app.listen({ port: 0, host: '127.0.0.1' });
-  const addr = app.server.address();
-  base = `http://127.0.0.1:${typeof addr === 'object' && addr ? addr.port : 0}`;
-  browser = await chromium.launch({
-    executablePath: CHROMIUM,
-    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run', '--disable-quic'],
-  });
+  ({ app, browser, base } = await startBrowserApp());
 }, 60_000);
 
 afterAll(async () => {

@@ -6,33 +6,24 @@
  * (tests/helpers/plans.ts planRequest) prints on one A4 page. The service
  * listens on 127.0.0.1 only.
  */
-import { existsSync, writeFileSync } from 'node:fs';
+import { writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { chromium, type Browser } from 'playwright-core';
+import type { Browser } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { App } from '../../server/http/app.js';
-import { freshApp } from '../helpers/app.js';
+import { startBrowserApp } from '../helpers/browser.js';
 import { planRequest, postPlan } from '../helpers/plans.js';
 
 /** Pages of a PDF: its page objects (/Type /Page, not /Pages). */
 const pdfPages = (pdf: Buffer) => (pdf.toString('latin1').match(/\/Type\s*\/Page[^s]/g) ?? []).length;
 
-const CHROMIUM = '/usr/bin/chromium';
 let app: App;
 let browser: Browser;
 let base = '';
 
 beforeAll(async () => {
-  if (!existsSync(CHROMIUM)) throw new Error(`${CHROMIUM} is missing: install Debian's chromium (apt-get install -y chromium), as .ci/run does`);
-  app = await freshApp({ demo: true });
-  await app.listen({ port: 0, host: '127.0.0.1' });
-  const addr = app.server.address();
-  base = `http://127.0.0.1:${typeof addr === 'object' && addr ? addr.port : 0}`;
-  browser = await chromium.launch({
-    executablePath: CHROMIUM,
-    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run', '--disable-quic'],
-  });
+  ({ app, browser, base } = await startBrowserApp());
 }, 60_000);
 
 afterAll(async () => {
