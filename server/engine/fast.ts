@@ -200,6 +200,14 @@ export type FastVerdict =
   | { kind: 'none-below-cap' }
   | { kind: 'fallback'; why: string };
 
+/** The stationary threshold from monotonicity (`stationaryThreshold`). */
+export type StationaryVerdict =
+  /** first dose with a real eigenvalue ≥ 0 at mode `mode`: the determinant crossing x_k, or (`interior`) a root that reached the positive real axis earlier, bisected; every dose below `certifiedBelow` is proven not past */
+  | { kind: 'threshold'; dose: number; mode: number; interior: boolean; certifiedBelow: number }
+  /** no mode has a real eigenvalue ≥ 0 at the cap, hence at no dose below it */
+  | { kind: 'none-below-cap' }
+  | { kind: 'fallback'; why: string };
+
 /** The fast path for one candidate; `prepare` for each (base, dopant) draw, then `verdict`, `stableAt`, `pastAt`. */
 export class RankOneDose {
   /** species (base + the dopant, last) */
@@ -244,6 +252,15 @@ export class RankOneDose {
   private M0 = new Float64Array(0);
   private y = new Float64Array(0);
   private coef = new Float64Array(0);
+  private coefView = new Float64Array(0);
+  // the structured polynomials of `stationary`: per set U of chemicals, B⁰_U and B¹_U (descending), and work
+  private B0 = new Float64Array(0);
+  private B1 = new Float64Array(0);
+  private CU = new Float64Array(0);
+  private eW = new Float64Array(0);
+  private gU = new Float64Array(0);
+  private rowB = new Float64Array(0);
+  private rowD = new Float64Array(0);
   private routh = new Float64Array(0);
   private cp: CharPolyScratch = charPolyScratch(1);
   private sturm = new Float64Array(0);
@@ -330,7 +347,11 @@ export class RankOneDose {
    * base's own side (dose 0). The caller has checked `fastInapplicable` is null. Mixtures must be valid
    * (the planner validates the nominal one; Monte Carlo draws keep validity).
    */
-  prepare(base: Mixture, d: Species, cap: number, boundary: 'stationary' | 'any'): FastBase {
+  /**
+   * The scaled coefficients of `d` added to `base` with doses up to `cap` (the first half of `prepare`): n, S, D, P, Q
+   * (the dopant's row per unit dose), R, Dc, c*. Null when done, else why the fast path cannot serve.
+   */
+  private setup(base: Mixture, d: Species, cap: number): string | null {
     this.verdictCache = null;
     this.checked = 0;
     this.active = 0;
@@ -340,7 +361,6 @@ export class RankOneDose {
     this.cap = cap;
     const Mb = base.species.length;
     const n = Mb + 1;
-    const dIdx = Mb;
     const Sf = base.chemicals.length;
     const lin = linearise(base);
     this.size(n, 0, Sf);
@@ -352,7 +372,7 @@ export class RankOneDose {
     for (const c of d.couplings) {
       let s = 0;
       while (s < Sf && base.chemicals[s]!.id !== c.chemical) s++;
-      if (s === Sf) return { kind: 'fallback', why: `unknown chemical "${c.chemical}"` };
+      if (s === Sf) return `unknown chemical "${c.chemical}"`;
       muD[s]! += c.mobility;
       if (c.activity !== null && c.activity.kind === 'constant') alphaD[s]! += c.activity.rate;
     }
@@ -368,7 +388,7 @@ export class RankOneDose {
       }
       if (keep) kept[S++] = s;
     }
-    if (S === 0) return { kind: 'fallback', why: 'no chemical moves a particle' };
+    if (S === 0) return 'no chemical moves a particle';
     this.S = S;
     this.n = n;
     this.size(n, S, Sf);
@@ -407,8 +427,21 @@ export class RankOneDose {
         Q[m * S + si] = (alpha * tau) / (cs[si]! * ell * ell * ell);
       }
     }
-    for (let i = 0; i < n * S; i++) if (!Number.isFinite(P[i]!) || !Number.isFinite(Q[i]!)) return { kind: 'fallback', why: 'overflow' };
-    for (let i = 0; i < S * S; i++) if (!Number.isFinite(this.R[i]!)) return { kind: 'fallback', why: 'overflow' };
+    for (let i = 0; i < n * S; i++) if (!Number.isFinite(P[i]!) || !Number.isFinite(Q[i]!)) return 'overflow';
+    for (let i = 0; i < S * S; i++) if (!Number.isFinite(this.R[i]!)) return 'overflow';
+    return null;
+  }
+
+  prepare(base: Mixture, d: Species, cap: number, boundary: 'stationary' | 'any'): FastBase {
+    const why = this.setup(base, d, cap);
+    if (why !== null) return { kind: 'fallback', why };
+    const Mb = base.species.length;
+    const n = Mb + 1;
+    const dIdx = Mb;
+    const S = this.S;
+    const D = this.D;
+    const P = this.P;
+    const Q = this.Q;
 
     // The scan's proven bound (docs/model.md §4) at the cap, f_ref = 0: beyond it every mode decays at every dose.
     let dmin = Infinity;
@@ -854,6 +887,387 @@ export class RankOneDose {
       if (e instanceof Undecided) return { kind: 'fallback', why: 'the eigen solver did not converge at a growing mode' };
       throw e;
     }
+  }
+
+  /**
+   * Whether the monic polynomial `coef` (descending, degree n) has no root in [0, ∞): true proven
+   * (p(0) > 0 and Descartes' rule of signs, else Sturm's count of positive roots, finds none), false
+   * when it has one (p(0) ≤ 0, or Sturm counts one), null when Sturm cannot be trusted.
+   */
+  private noRootOnHalfLine(coef: Float64Array): boolean | null {
+    const n = this.n;
+    const c0 = coef[n]!;
+    if (!(c0 > 0)) return c0 <= 0 ? false : null;
+    let changes = 0;
+    let last = 0;
+    for (let t = 0; t <= n; t++) {
+      const c = coef[t]!;
+      if (c === 0) continue;
+      if (last !== 0 && (c > 0) !== (last > 0)) changes++;
+      last = c;
+    }
+    if (changes === 0) return true;
+    const roots = sturmPositiveRoots(coef, this.sturm, this.sturmDeg);
+    return roots === null ? null : roots === 0;
+  }
+
+  /** The coefficients of p(λ; x) = p₀(λ) − x q(λ) of active mode a in `coefView` (its polynomials made). */
+  private atDose(a: number, x: number): Float64Array {
+    const stride = this.n + 1;
+    if (this.coefView.length !== stride) this.coefView = this.coef.subarray(0, stride);
+    const c = this.coefView;
+    const off = a * stride;
+    for (let t = 0; t < stride; t++) c[t] = this.p0[off + t]! - x * this.q[off + t]!;
+    return c;
+  }
+
+  /**
+   * The stationary threshold from the monotonicity of the stationary boundary (docs/model.md §6 "Fast exact
+   * paths"): valid after `prepare` returned 'stable', or 'unsettled' and `pastExact(0, 'stationary')` false.
+   *
+   * A mode whose p₀ = p(·; 0) has no root in [0, ∞) keeps that property at every dose below the first x at which
+   * p(·; x) = p₀ − x q has one: if p(λ₁; x₁) = 0 with λ₁ ≥ 0, then q(λ₁) = p₀(λ₁)/x₁ > 0, so p(λ₁; x) < 0 for every
+   * x > x₁ and the monic p(·; x) has a root in (λ₁, ∞). So "some mode has a real eigenvalue ≥ 0" is monotone in
+   * the dose, and one test per mode decides it on a whole interval: no root of p(·; y) in [0, ∞) (p(0; y) > 0 and
+   * Descartes' rule of signs, else Sturm's count) proves none at any dose ≤ y. The candidate threshold is x* = min x_k
+   * (the determinant crossing, past which that mode stays past); each mode is tested at x*(1 − 10⁻⁶) (the cap when
+   * x* is above it), and a mode with a root there (a complex pair that reached the positive real axis, two real
+   * roots, earlier) has its own first dose bisected on the same exact predicate to `relTol` (at most 10⁻⁶), which
+   * becomes the candidate. No growing complex pair matters: the stationary boundary counts real eigenvalues only.
+   * `certifiedBelow`: every dose below it is proven not past. Fallback when a test cannot be trusted.
+   */
+  stationaryThreshold(relTol: number): StationaryVerdict {
+    const cap = this.cap;
+    let best = this.xStar <= cap ? this.xStar : Infinity;
+    let mode = this.kStar;
+    let interior = false;
+    let below = best <= cap ? best * (1 - BELOW_THRESHOLD) : cap;
+    if (best <= cap && !(best >= cap * FLOOR)) return { kind: 'fallback', why: 'threshold below the search floor' };
+    const tol = Math.min(relTol, BELOW_THRESHOLD);
+    for (let a = 0; a < this.active; a++) {
+      if (!this.poly(a)) return { kind: 'fallback', why: 'non-finite characteristic polynomial' };
+      this.checked++;
+      const base = this.noRootOnHalfLine(this.atDose(a, 0));
+      if (base !== true) return { kind: 'fallback', why: 'a mode of the base is not proven free of real roots ≥ 0' };
+      const y = best <= cap ? best * (1 - BELOW_THRESHOLD) : cap;
+      if (y < this.settled[a]!) continue;
+      this.checked++;
+      const r = this.noRootOnHalfLine(this.atDose(a, y));
+      if (r === true) continue;
+      if (r === null) return { kind: 'fallback', why: "Sturm's sequence not trusted" };
+      // a real root ≥ 0 already at y: this mode's own first dose, bisected on the exact (monotone) predicate
+      let undecided = false;
+      const hasRoot = (x: number) => {
+        this.checked++;
+        const h = this.noRootOnHalfLine(this.atDose(a, x));
+        if (h === null) undecided = true;
+        return h !== true;
+      };
+      const lo = Math.max(this.settled[a]!, cap * FLOOR);
+      if (hasRoot(lo) || undecided) return { kind: 'fallback', why: 'a real root ≥ 0 at the search floor' };
+      let l = lo;
+      let h = y;
+      for (let it = 0; it < 200 && h - l > tol * h; it++) {
+        const mid = l > 0 && h / l > 4 ? Math.sqrt(l * h) : 0.5 * (l + h);
+        if (hasRoot(mid)) h = mid;
+        else l = mid;
+      }
+      if (undecided) return { kind: 'fallback', why: "Sturm's sequence not trusted" };
+      best = h;
+      below = l;
+      mode = this.modeN[a]!;
+      interior = true;
+    }
+    if (!(best <= cap)) return { kind: 'none-below-cap' };
+    return { kind: 'threshold', dose: best, mode, interior, certifiedBelow: below };
+  }
+
+  /**
+   * One draw's stationary threshold straight from the structured characteristic polynomials (docs/model.md §6
+   * "Fast exact paths"), without forming any mode's matrix: `prepare`, `stationaryThreshold` and the polynomials
+   * in one pass for a chamber whose R' is diagonal (no saturating turnover couples two chemicals) with at most
+   * three chemicals kept; anything else, or anything unproven, answers fallback (the caller takes `prepare`).
+   *
+   * With G' = diag(g_s), g_s(k') = 1/(k'² D'_c,s + R'_ss), the mode's Ĵ = −𝔇' − P' G' Q'ᵀ and (Weinstein–Aronszajn,
+   * then Cauchy–Binet twice)
+   *
+   *     det(λ − Ĵ) = Σ_U (Π_{s∈U} g_s) Σ_{|W| = |U|} det Q'[W, U] det P'[W, U] Π_{m∉W} (λ + D'_m)
+   *
+   * over the sets U of chemicals and W of species. The products Π_{m∉W}(λ + D'_m) have positive coefficients and
+   * do not depend on the mode, and det P'[W, U] is x times a constant when W holds the dopant: so each mode's
+   * p(λ; x) = Σ_U g_U(k') (B⁰_U(λ) + x B¹_U(λ)) costs O(2^S n) from polynomials made once per draw.
+   * The modes: k' = 1, 2, … while some chemical s has k'² D'_c,s + R'_ss ≤ Σ_t F̄_st(X), F̄_st = Σ_m |Q'_ms P'_mt|/D'_m
+   * (the dopant's row at the largest dose X that matters); beyond, ‖G' Q'ᵀ(λ + 𝔇')⁻¹ P'‖∞ < 1 for every real λ ≥ 0,
+   * so no real eigenvalue ≥ 0 at any dose in [0, X] (small gain). Then the base's side (each p(·; 0) with no root in
+   * [0, ∞), else a root: base-past), x* = min x_k = min p(0; 0)/q(0), and the monotone test of `stationaryThreshold`.
+   */
+  stationary(base: Mixture, d: Species, cap: number, relTol: number): StationaryVerdict | { kind: 'base-past' } {
+    const why = this.setup(base, d, cap);
+    if (why !== null) return { kind: 'fallback', why };
+    const n = this.n;
+    const S = this.S;
+    if (S > 3) return { kind: 'fallback', why: 'more than three chemicals' };
+    const R = this.R;
+    const Dc = this.Dc;
+    for (let s = 0; s < S; s++) {
+      if (!(Dc[s]! > 0) || !(R[s * S + s]! >= 0)) return { kind: 'fallback', why: 'a chemical without a positive diffusivity or loss' };
+      for (let t = 0; t < S; t++) if (s !== t && R[s * S + t] !== 0) return { kind: 'fallback', why: 'R is not diagonal' };
+    }
+    const D = this.D;
+    const P = this.P;
+    const Q = this.Q;
+    const dIdx = n - 1;
+    const stride = n + 1;
+    const nU = 1 << S;
+    if (this.B0.length < nU * stride) {
+      this.B0 = new Float64Array(nU * stride);
+      this.B1 = new Float64Array(nU * stride);
+      this.CU = new Float64Array(nU * stride);
+    }
+    if (this.eW.length < stride) this.eW = new Float64Array(stride);
+    const B0 = this.B0;
+    const B1 = this.B1;
+    B0.fill(0, 0, nU * stride);
+    B1.fill(0, 0, nU * stride);
+    const e = this.eW;
+    // Π_{m∉W}(λ + D'_m), ascending in e, added (times wgt) into the descending basis row of U
+    const addProduct = (skip0: number, skip1: number, skip2: number, row: Float64Array, u: number, wgt: number) => {
+      let deg = 0;
+      e[0] = 1;
+      for (let m = 0; m < n; m++) {
+        if (m === skip0 || m === skip1 || m === skip2) continue;
+        const dm = D[m]!;
+        e[deg + 1] = e[deg]!;
+        for (let j = deg; j > 0; j--) e[j] = e[j - 1]! + dm * e[j]!;
+        e[0] = dm * e[0]!;
+        deg++;
+      }
+      const off = u * stride;
+      for (let j = 0; j <= deg; j++) row[off + n - j]! += wgt * e[j]!;
+    };
+    addProduct(-1, -1, -1, B0, 0, 1);
+    const pq = (m: number, s: number, which: Float64Array) => which[m * S + s]!;
+    for (let u = 1; u < nU; u++) {
+      const cs: number[] = [];
+      for (let s = 0; s < S; s++) if (u & (1 << s)) cs.push(s);
+      const r = cs.length;
+      if (r === 1) {
+        const s = cs[0]!;
+        for (let m = 0; m < n; m++) {
+          const wgt = pq(m, s, Q) * pq(m, s, P);
+          if (wgt !== 0) addProduct(m, -1, -1, m === dIdx ? B1 : B0, u, wgt);
+        }
+      } else if (r === 2) {
+        const [s, t] = cs as [number, number];
+        for (let m = 0; m < n; m++)
+          for (let l = m + 1; l < n; l++) {
+            const dq = pq(m, s, Q) * pq(l, t, Q) - pq(m, t, Q) * pq(l, s, Q);
+            const dp = pq(m, s, P) * pq(l, t, P) - pq(m, t, P) * pq(l, s, P);
+            if (dq * dp !== 0) addProduct(m, l, -1, m === dIdx || l === dIdx ? B1 : B0, u, dq * dp);
+          }
+      } else {
+        const det3 = (a: Float64Array, m: number, l: number, o: number) =>
+          pq(m, 0, a) * (pq(l, 1, a) * pq(o, 2, a) - pq(l, 2, a) * pq(o, 1, a)) -
+          pq(m, 1, a) * (pq(l, 0, a) * pq(o, 2, a) - pq(l, 2, a) * pq(o, 0, a)) +
+          pq(m, 2, a) * (pq(l, 0, a) * pq(o, 1, a) - pq(l, 1, a) * pq(o, 0, a));
+        for (let m = 0; m < n; m++)
+          for (let l = m + 1; l < n; l++)
+            for (let o = l + 1; o < n; o++) {
+              const w3 = det3(Q, m, l, o) * det3(P, m, l, o);
+              if (w3 !== 0) addProduct(m, l, o, m === dIdx || l === dIdx || o === dIdx ? B1 : B0, u, w3);
+            }
+      }
+    }
+    for (let i = 0; i < nU * stride; i++) if (!Number.isFinite(B0[i]!) || !Number.isFinite(B1[i]!)) return { kind: 'fallback', why: 'overflow' };
+    // the small-gain mode bound: row sums of F̄ for the base and per unit dose of the dopant
+    const rowB = this.rowB.length >= S ? this.rowB : (this.rowB = new Float64Array(S));
+    const rowD = this.rowD.length >= S ? this.rowD : (this.rowD = new Float64Array(S));
+    for (let s = 0; s < S; s++) {
+      let b = 0;
+      let dd = 0;
+      for (let t = 0; t < S; t++) {
+        for (let m = 0; m < dIdx; m++) b += Math.abs(Q[m * S + s]! * P[m * S + t]!) / D[m]!;
+        dd += Math.abs(Q[dIdx * S + s]! * P[dIdx * S + t]!) / D[dIdx]!;
+      }
+      rowB[s] = b;
+      rowD[s] = dd;
+    }
+    if (this.gU.length < nU) this.gU = new Float64Array(nU);
+    this.stS = S;
+    this.stU = nU;
+    if (this.coefView.length !== stride) this.coefView = this.coef.subarray(0, stride);
+    // pass 0: the base's side, modes up to the bound at dose 0 (blocks of modes at once, `clearModes`)
+    this.combine(0);
+    const base0 = this.clearModes(1, this.modeBound(0), 0);
+    if (base0 === false) return { kind: 'base-past' };
+    if (base0 === null) return { kind: 'fallback', why: "Sturm's sequence not trusted at dose 0" };
+    // pass 1: the determinant crossings x_k = −p(0; 0)/∂ₓp(0), modes up to the bound at min(x*, cap)
+    let xStar = Infinity;
+    let kStar = 0;
+    const gU = this.gU;
+    let k = 1;
+    for (; k <= this.modeBound(Math.min(xStar, cap)); k++) {
+      if (k > MAX_FAST_MODES) return { kind: 'fallback', why: `more than ${MAX_FAST_MODES} modes below the proven bound` };
+      this.modeWeights(k, k);
+      let c0 = 0;
+      let c1 = 0;
+      for (let u = 0; u < nU; u++) {
+        c0 += gU[u]! * B0[u * stride + n]!;
+        c1 += gU[u]! * B1[u * stride + n]!;
+      }
+      // p(0; x) = c0 + x c1 with c0 > 0 (pass 0): a crossing at x_k = −c0/c1 when c1 < 0
+      if (c1 < 0 && -c0 / c1 < xStar) {
+        xStar = -c0 / c1;
+        kStar = k;
+      }
+    }
+    this.modes = k - 1;
+    this.xStar = xStar;
+    this.kStar = kStar;
+    // pass 2: the monotone test of `stationaryThreshold` at x*(1 − 10⁻⁶) (the cap when x* is above it), by blocks
+    this.stBest = xStar <= cap ? xStar : Infinity;
+    if (this.stBest <= cap && !(this.stBest >= cap * FLOOR)) return { kind: 'fallback', why: 'threshold below the search floor' };
+    this.stMode = kStar;
+    this.stInterior = false;
+    this.stBelow = this.stBest <= cap ? this.stBest * (1 - BELOW_THRESHOLD) : cap;
+    this.stTol = Math.min(relTol, BELOW_THRESHOLD);
+    this.stY = this.stBest <= cap ? this.stBest * (1 - BELOW_THRESHOLD) : cap;
+    this.combine(this.stY);
+    const r = this.clearModes(1, this.modeBound(Math.min(this.stBest, cap)), 2);
+    if (r !== true) return { kind: 'fallback', why: this.stWhy };
+    if (!(this.stBest <= cap)) return { kind: 'none-below-cap' };
+    return { kind: 'threshold', dose: this.stBest, mode: this.stMode, interior: this.stInterior, certifiedBelow: this.stBelow };
+  }
+
+  // state of `stationary` between its helpers
+  private stS = 0;
+  private stU = 0;
+  private stY = 0;
+  private stBest = Infinity;
+  private stMode = 0;
+  private stInterior = false;
+  private stBelow = 0;
+  private stTol = 0;
+  private stWhy = '';
+
+  /** The last mode that the small-gain bound does not clear at doses [0, X] (`stationary`). */
+  private modeBound(X: number): number {
+    const S = this.stS;
+    let m = 0;
+    for (let s = 0; s < S; s++) m = Math.max(m, (this.rowB[s]! + X * this.rowD[s]! - this.R[s * S + s]!) / this.Dc[s]!);
+    return m > 0 ? Math.floor(Math.sqrt(m)) + 1 : 0;
+  }
+
+  /** gU[U] = Π_{s∈U} g_s with g_s = 1/(k² D'_c,s + R'_ss), k = ka or kb per chemical by the bits of `vertex` (ka = kb: one mode). */
+  private modeWeights(ka: number, kb: number, vertex = 0): void {
+    const S = this.stS;
+    const gU = this.gU;
+    gU[0] = 1;
+    for (let s = 0; s < S; s++) {
+      const k = (vertex >> s) & 1 ? ka : kb;
+      const g = 1 / (k * k * this.Dc[s]! + this.R[s * S + s]!);
+      const bit = 1 << s;
+      for (let u = 0; u < bit; u++) gU[u | bit] = gU[u]! * g;
+    }
+  }
+
+  /** CU = B⁰ + y B¹ (per set U): p(·; y) of a mode is Σ_U g_U CU_U. */
+  private combine(y: number): void {
+    const len = this.stU * (this.n + 1);
+    for (let i = 0; i < len; i++) this.CU[i] = this.B0[i]! + y * this.B1[i]!;
+  }
+
+  /** p(·; y) of the mode whose weights are in gU, from CU, into coefView. */
+  private modePoly(): Float64Array {
+    const stride = this.n + 1;
+    const nU = this.stU;
+    const c = this.coefView;
+    for (let t = 0; t < stride; t++) {
+      let acc = 0;
+      for (let u = 0; u < nU; u++) acc += this.gU[u]! * this.CU[u * stride + t]!;
+      c[t] = acc;
+    }
+    return c;
+  }
+
+  /**
+   * Whether every mode in [ka, kb] has no real root ≥ 0 at the dose of CU. A block is cleared at once when at
+   * each vertex of the box of (g_s) over the block every coefficient is positive: each coefficient is
+   * multilinear in the g_s (so its minimum over the box is at a vertex) and g_s falls with k', and a polynomial
+   * with positive coefficients has no root in [0, ∞). Else halves, down to one mode and its exact test.
+   * `pass` 0: a root means false (the base is past); 2: a root means a crossing below the candidate, bisected
+   * (`bisectMode`), and the block goes on at the new dose. Null when unproven (`stWhy`).
+   */
+  private clearModes(ka: number, kb: number, pass: 0 | 2): boolean | null {
+    if (kb < ka) return true;
+    const stride = this.n + 1;
+    const nU = this.stU;
+    let clear = true;
+    for (let v = 0; v < 1 << this.stS && clear; v++) {
+      this.modeWeights(ka, kb, v);
+      for (let t = 1; t < stride; t++) {
+        let acc = 0;
+        for (let u = 0; u < nU; u++) acc += this.gU[u]! * this.CU[u * stride + t]!;
+        if (!(acc > 0)) {
+          clear = false;
+          break;
+        }
+      }
+    }
+    this.checked++;
+    if (clear) return true;
+    if (kb > ka) {
+      const mid = (ka + kb) >> 1;
+      const left = this.clearModes(ka, mid, pass);
+      if (left !== true) return left;
+      // a crossing found on the left lowers the dose: the right half is tested there, up to the bound at it
+      return this.clearModes(mid + 1, pass === 2 ? Math.min(kb, this.modeBound(Math.min(this.stBest, this.cap))) : kb, pass);
+    }
+    this.modeWeights(ka, ka);
+    const r = this.noRootOnHalfLine(this.modePoly());
+    if (r === true) return true;
+    if (r === null) {
+      this.stWhy = "Sturm's sequence not trusted";
+      return null;
+    }
+    if (pass === 0) return false;
+    return this.bisectMode(ka);
+  }
+
+  /** Mode k has a real root ≥ 0 at stY: its own first dose, bisected on the exact (monotone) predicate; then CU at the new dose. */
+  private bisectMode(k: number): boolean | null {
+    this.modeWeights(k, k);
+    const hasRoot = (x: number): boolean | null => {
+      this.checked++;
+      this.combine(x);
+      const h = this.noRootOnHalfLine(this.modePoly());
+      return h === null ? null : !h;
+    };
+    const cap = this.cap;
+    const floorRoot = hasRoot(cap * FLOOR);
+    if (floorRoot !== false) {
+      this.stWhy = floorRoot === null ? "Sturm's sequence not trusted" : 'a real root ≥ 0 at the search floor';
+      return null;
+    }
+    let l = cap * FLOOR;
+    let h = this.stY;
+    for (let it = 0; it < 200 && h - l > this.stTol * h; it++) {
+      const mid = l > 0 && h / l > 4 ? Math.sqrt(l * h) : 0.5 * (l + h);
+      const at = hasRoot(mid);
+      if (at === null) {
+        this.stWhy = "Sturm's sequence not trusted";
+        return null;
+      }
+      if (at) h = mid;
+      else l = mid;
+    }
+    this.stBest = h;
+    this.stBelow = l;
+    this.stMode = k;
+    this.stInterior = true;
+    this.stY = h * (1 - BELOW_THRESHOLD);
+    this.combine(this.stY);
+    return true;
   }
 
   /** The crossing dose of each mode the bounds did not settle (m⁻³; +∞ when its determinant never changes sign), for checks. */

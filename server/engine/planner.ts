@@ -30,7 +30,7 @@
 import { analyze, stateOf, type AnalysisResult, type State } from './analyze.js';
 import { missingConcentrationWarnings, sphereVolume, type Warning } from './checks.js';
 import { stationaryDoseClosedForm } from './dose.js';
-import { bisect, fastInapplicable, RankOneDose, type FastVerdict } from './fast.js';
+import { bisect, fastInapplicable, RankOneDose, type FastVerdict, type StationaryVerdict } from './fast.js';
 import { buildModel, linearise, validateMixture } from './model.js';
 import { Random } from './random.js';
 import { scanModes } from './scan.js';
@@ -876,16 +876,33 @@ export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: Unce
     const dd = perturbSpecies(d, ...posSigned(new Random(streamSeed(u.seed, i, d.id))));
     let threshold: number | null = null;
     let verdict: FastVerdict | null = null;
+    let sv: StationaryVerdict | null = null;
+    // sv from `stationary` (no per-mode matrices kept: a dose in its last bracket goes to the general path)
+    let structured = false;
     let tier2 = false;
     if (fast && !(fastDraws === 0 && fastTries >= GIVE_UP_AFTER)) {
       fastTries++;
       const cap = doseCap(b, dd, o).density;
       if (cap > 0) {
         const fb = o.boundary as 'stationary' | 'any';
-        const p = fast.prepare(b, dd, cap, fb);
-        const pastAtZero = p.kind === 'base-past' ? true : p.kind === 'unsettled' ? fast.pastExact(0, fb) : null;
-        if (pastAtZero === true) threshold = 0;
-        else if (p.kind === 'stable' || pastAtZero === false) {
+        // the stationary boundary straight from the structured polynomials (fast.ts `stationary`), else `prepare`
+        const st = fb === 'stationary' ? fast.stationary(b, dd, cap, drawOptions.relTol!) : null;
+        if (st?.kind === 'base-past') threshold = 0;
+        else if (st && st.kind !== 'fallback') {
+          sv = st;
+          structured = true;
+          threshold = st.kind === 'threshold' ? st.dose : Infinity;
+        }
+        const p = threshold !== null ? null : fast.prepare(b, dd, cap, fb);
+        const pastAtZero = p === null ? null : p.kind === 'base-past' ? true : p.kind === 'unsettled' ? fast.pastExact(0, fb) : null;
+        if (p === null) {
+          // decided above
+        } else if (pastAtZero === true) threshold = 0;
+        else if (fb === 'stationary' && (p.kind === 'stable' || pastAtZero === false) && (sv = fast.stationaryThreshold(drawOptions.relTol!)).kind !== 'fallback') {
+          // the stationary boundary is monotone in the dose: one exact test per mode (docs/model.md §6)
+          threshold = sv.kind === 'threshold' ? sv.dose : Infinity;
+        } else if (p.kind === 'stable' || pastAtZero === false) {
+          sv = null;
           verdict = p.kind === 'stable' ? fast.verdict(drawOptions.scanPoints!) : null;
           if (verdict?.kind === 'threshold') threshold = verdict.dose;
           else if (verdict?.kind === 'none-below-cap') threshold = Infinity;
@@ -907,6 +924,7 @@ export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: Unce
       if (threshold === 0 && !tier2) already++;
     } else {
       verdict = null;
+      sv = null;
       // the general per-draw search (with the scan's proven early exits unless `fast: false`)
       const r = searchDose(b, dd, drawOptions, false);
       if (r.reason === 'base-already-past') {
@@ -917,7 +935,22 @@ export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: Unce
     thresholds.push(threshold);
     doses.forEach((x, j) => {
       // the fast facts where they prove it, else the spectrum
-      const known = fast && threshold !== null && (verdict || tier2) ? (verdict ? fast.pastAt(x, verdict) : x <= fast.cap ? fast.pastExact(x, o.boundary as 'stationary' | 'any') : null) : null;
+      const known =
+        fast && sv && sv.kind !== 'fallback' && x >= 0 && x <= fast.cap
+          ? sv.kind === 'none-below-cap' || x < sv.certifiedBelow
+            ? false
+            : x > sv.dose
+              ? true
+              : structured
+                ? null
+                : fast.pastExact(x, 'stationary')
+          : fast && threshold !== null && (verdict || tier2)
+            ? verdict
+              ? fast.pastAt(x, verdict)
+              : x <= fast.cap
+                ? fast.pastExact(x, o.boundary as 'stationary' | 'any')
+                : null
+            : null;
       if (known ?? pastBoundary(withDose(b, dd, x, o.dosing), o.boundary, o.fast === false)) crossedAt[j]!++;
     });
     hooks.progress?.(i + 1);

@@ -213,6 +213,52 @@ describe('fast and general paths agree (seeded random mixtures)', () => {
   }, 60_000);
 });
 
+describe('the stationary threshold from the structured polynomials (RankOneDose.stationary, docs/model.md §6)', () => {
+  // Reference: the general path (fast: false: a mode scan with ml-matrix eigenvalues at every dose, bisected to 1e-8).
+  const draws: { name: string; make: (rng: Random) => { base: Mixture; dopant: Species } }[] = [
+    { name: 'one chemical, mixed signs', make: (rng) => randomCase(rng, { S: 1, M: 4 }) },
+    { name: 'two chemicals', make: (rng) => randomCase(rng, { S: 2, M: 4 }) },
+    { name: 'three chemicals, periodic', make: (rng) => randomCase(rng, { S: 3, M: 3, walls: 'periodic' }) },
+    { name: 'fuel and product (growing pairs, roots that reach the positive axis before the determinant crossing)', make: fuelCase },
+  ];
+  for (const { name, make } of draws) {
+    it(`${name}: base past, threshold and none-below-cap as the general search finds them`, () => {
+      const rng = new Random(name.length * 104729);
+      const kinds = new Map<string, number>();
+      for (let i = 0; i < 14; i++) {
+        const { base, dopant } = make(rng);
+        const o: DoseOptions = { boundary: 'stationary', dosing: 'add', relTol: 1e-8 };
+        const cap = doseCap(base, dopant, o).density;
+        const f = new RankOneDose();
+        const v = f.stationary(base, dopant, cap, 1e-8);
+        const kind = v.kind === 'threshold' && v.interior ? 'interior' : v.kind;
+        kinds.set(kind, (kinds.get(kind) ?? 0) + 1);
+        if (v.kind === 'fallback') continue;
+        const g = findDose(base, dopant, { ...o, fast: false });
+        if (v.kind === 'base-past') expect(g.reason).toBe('base-already-past');
+        else if (v.kind === 'none-below-cap') expect(g.feasible).toBe(false);
+        else {
+          expect(g.feasible).toBe(true);
+          expect(rel(v.dose, g.threshold!.density)).toBeLessThan(1e-6);
+          // certified: the general predicate is not past just below, past just above
+          expect(pastBoundary(withDose(base, dopant, v.certifiedBelow * (1 - 1e-6), 'add'), 'stationary', true)).toBe(false);
+          expect(pastBoundary(withDose(base, dopant, v.dose * (1 + 1e-5), 'add'), 'stationary', true)).toBe(true);
+        }
+      }
+      expect((kinds.get('threshold') ?? 0) + (kinds.get('interior') ?? 0)).toBeGreaterThan(1);
+      expect(kinds.get('fallback') ?? 0).toBeLessThan(3);
+      if (name.startsWith('fuel')) expect(kinds.get('interior') ?? 0).toBeGreaterThan(0);
+    }, 60_000);
+  }
+
+  it('a saturating base that couples two chemicals (R not diagonal) answers fallback', () => {
+    const rng = new Random(77);
+    const { base, dopant } = randomCase(rng, { S: 2, M: 3, baseSaturating: true });
+    const v = new RankOneDose().stationary(base, dopant, doseCap(base, dopant, { boundary: 'stationary', dosing: 'add' }).density, 1e-6);
+    expect(v).toEqual({ kind: 'fallback', why: 'R is not diagonal' });
+  });
+});
+
 describe('Monte Carlo bands and dose paths', () => {
   it('bands: the same draws, alreadyPast, feasibleFraction and probabilities; quantiles within the per-draw tolerance', () => {
     const rng = new Random(2026);
