@@ -295,11 +295,12 @@ describe('serial dilutions and plans that do not fit', () => {
     expect(msg).not.toMatch(/larger sample volume/);
     expect(msg).toMatch(/No sample volume helps: undiluted, the stocks alone would fill 122 % of any tube/);
     // the dopant at 2e14 m⁻³ = 2e8/mL is too dilute for a 2e14 m⁻³ dose in 100 µL
-    const m = /a dopant stock of at least ([\d.e+]+) particles\/mL \(now 2\.00e\+8 particles\/mL/.exec(msg);
+    const m = /a dopant stock of at least ([\d.]+) × 10([⁰¹²³⁴⁵⁶⁷⁸⁹]+) particles\/mL \(now 2 × 10⁸ particles\/mL/.exec(msg);
     expect(m).not.toBeNull();
-    expect(Number(m![1])).toBeGreaterThan(2e8);
+    const least = Number(m![1]) * 10 ** Number([...m![2]!].map((c) => '⁰¹²³⁴⁵⁶⁷⁸⁹'.indexOf(c)).join(''));
+    expect(least).toBeGreaterThan(2e8);
     // and that stock does fit
-    const fixed = setup(Number(m![1]) * 1e6, [0, 1e14, 2e14]);
+    const fixed = setup(least * 1e6, [0, 1e14, 2e14]);
     expect(() => planBench(fixed.comps, fixed.samples, o, ['base'], 'dop', ['fuel'])).not.toThrow();
   });
 

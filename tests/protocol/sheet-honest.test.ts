@@ -133,16 +133,16 @@ describe('dose factors above the dose cap', () => {
     const above = (cap: number) => chooseSeries(cand(cap), req).seriesWarnings.filter((w) => w.code === 'dose-above-cap').map((w) => w.message);
     const justAbove = above(1.6e12 * 1.001);
     expect(justAbove.length).toBe(1);
-    expect(justAbove[0]).toMatch(/the dose 2\.00e\+6 particles\/mL/);
+    expect(justAbove[0]).toMatch(/the dose 2 × 10⁶ particles\/mL/);
     const justBelow = above(1.6e12 * 0.999);
     expect(justBelow.length).toBe(2);
-    expect(justBelow[0]).toMatch(/the dose 1\.60e\+6 particles\/mL/);
+    expect(justBelow[0]).toMatch(/the dose 1\.6 × 10⁶ particles\/mL/);
     expect(above(2e12 * 1.001)).toEqual([]);
   });
   it('and for given dose factors', () => {
     const r = chooseSeries(cand(1.5e12), sheetRequestSchema.parse({ doseFactors: [0, 1, 1.4, 1.6] }));
     // 1.4e12 is under the cap 1.5e12; 1.6e12 is over
     expect(r.seriesWarnings.map((w) => w.code)).toEqual(['dose-above-cap']);
-    expect(r.seriesWarnings[0]!.message).toMatch(/1\.60e\+6 particles\/mL/);
+    expect(r.seriesWarnings[0]!.message).toMatch(/1\.6 × 10⁶ particles\/mL/);
   });
 });
