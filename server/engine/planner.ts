@@ -629,11 +629,13 @@ export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
   // The fast facts (docs/model.md §6 "Fast exact paths"): a base proven stable, and a certified first stationary crossing x*.
   let fastStable = false;
   let fastVerdict: FastVerdict | null = null;
+  let fastAny: RankOneDose | null = null;
   if (fastWanted(o) && cap > 0 && fastInapplicable(base, d, o.dosing, 'any') === null) {
     validateMixture(withDose(base, d, cap, o.dosing));
     const f = new RankOneDose();
     if (f.prepare(base, d, cap, 'any').kind === 'stable') {
       fastStable = true;
+      fastAny = f;
       const v = f.verdict(n);
       if (v.kind !== 'fallback') fastVerdict = v;
     }
@@ -691,8 +693,17 @@ export function dosePath(base: Mixture, d: Species, o: DoseOptions): DosePath {
       resolve(floor, sf, samples[0]!.x, s0, 0);
     }
   } else push(0, s0);
+  // leaving 'stable' means some mode grows: decided exactly by the Hurwitz counts of the fast path where it was prepared
+  // (docs/model.md §6), a mode scan only where a Routh table is degenerate
+  const leaves = (sa: State) => (y: number) => {
+    if (sa === 'stable' && fastAny !== null && y <= cap) {
+      const s = fastAny.stableAt(y);
+      if (s !== null) return !s;
+    }
+    return stateAt(y) !== sa;
+  };
   function resolve(a: number, sa: State, b: number, sb: State, depth: number): void {
-    const c = bisect((y) => stateAt(y) !== sa, a, b, relTol);
+    const c = bisect(leaves(sa), a, b, relTol);
     const sc = c === b ? sb : stateAt(c);
     push(c, sc);
     if (sc !== sb && depth < 8 && c < b) resolve(c, sc, b, sb, depth + 1);
