@@ -94,6 +94,8 @@ export interface PoolOptions {
   progressIntervalMs?: number;
   /** workers `job` tasks may occupy at once (default size − 1, at least 1) */
   jobWorkers?: number;
+  /** niceness of the worker threads (Linux; default 10, 0 to keep the main thread's): the HTTP thread gets the CPU first */
+  nice?: number;
 }
 
 /** Rebuild an error thrown in a worker as the class the error handler knows. */
@@ -120,6 +122,7 @@ export class WorkerPool {
   private closed = false;
   private readonly file = workerFile();
   private readonly progressIntervalMs: number;
+  private readonly nice: number;
 
   constructor(o: PoolOptions = {}) {
     const size = o.size ?? defaultPoolSize();
@@ -127,6 +130,7 @@ export class WorkerPool {
     this.size = size;
     this.jobWorkers = Math.min(size, Math.max(1, o.jobWorkers ?? size - 1));
     this.progressIntervalMs = Math.max(0, o.progressIntervalMs ?? 100);
+    this.nice = Math.min(19, Math.max(0, Math.round(o.nice ?? 10)));
   }
 
   /** How many workers exist, how many are computing, and how many tasks wait. */
@@ -184,7 +188,7 @@ export class WorkerPool {
   }
 
   private spawn(): Slot {
-    const workerData: WorkerData = { progressIntervalMs: this.progressIntervalMs, ...(this.file.entry ? { entry: this.file.entry } : {}) };
+    const workerData: WorkerData = { progressIntervalMs: this.progressIntervalMs, nice: this.nice, ...(this.file.entry ? { entry: this.file.entry } : {}) };
     const worker = new Worker(this.file.url, { workerData });
     const slot: Slot = { worker, task: null };
     worker.unref();

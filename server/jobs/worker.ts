@@ -5,6 +5,8 @@
  * (at most one per `progressIntervalMs`, default 100 ms, plus every fraction 1), then `done` with
  * the output or `failed` with the error's name, message, stack and fields.
  */
+import { readlinkSync } from 'node:fs';
+import { setPriority } from 'node:os';
 import { parentPort, workerData } from 'node:worker_threads';
 import { LOADERS, type TaskKind, type TaskProgress } from './tasks.js';
 
@@ -33,10 +35,28 @@ export type FromWorker =
 /** What the pool gives a new worker: the progress interval, and (from TypeScript source) the entry worker-tsx.mjs imports. */
 export interface WorkerData {
   progressIntervalMs: number;
+  /** niceness of this thread (0–19; default 10): long work yields the CPU to the thread that answers requests */
+  nice?: number;
   entry?: string;
 }
 
 const interval = (workerData as WorkerData | null)?.progressIntervalMs ?? 100;
+
+/**
+ * Lower this thread's scheduling priority, so that on a busy machine the main thread (HTTP) gets the CPU first and
+ * the service keeps answering while jobs compute. On Linux a thread has its own id (/proc/thread-self → "pid/task/tid")
+ * and setpriority(PRIO_PROCESS, tid) sets that thread's nice value alone; elsewhere this is skipped (returns null).
+ */
+export function niceThisThread(nice: number): number | null {
+  try {
+    const tid = Number(readlinkSync('/proc/thread-self').split('/').pop());
+    if (!Number.isInteger(tid) || tid <= 0) return null;
+    setPriority(tid, nice);
+    return tid;
+  } catch {
+    return null;
+  }
+}
 
 export function serializeError(e: unknown): SerializedError {
   if (!(e instanceof Error)) return { name: 'Error', message: String(e) };
@@ -64,6 +84,7 @@ async function task(kind: TaskKind) {
 
 const port = parentPort;
 if (port) {
+  niceThisThread((workerData as WorkerData | null)?.nice ?? 10);
   port.on('message', async (m: ToWorker) => {
     let last = -Infinity;
     const progress = (fraction: number, stage: string) => {
