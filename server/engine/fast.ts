@@ -1101,36 +1101,22 @@ export class RankOneDose {
     const base0 = this.clearModes(1, this.modeBound(0), 0);
     if (base0 === false) return { kind: 'base-past' };
     if (base0 === null) return { kind: 'fallback', why: "Sturm's sequence not trusted at dose 0" };
-    // pass 1: the determinant crossings x_k = −p(0; 0)/∂ₓp(0), modes up to the bound at min(x*, cap)
-    let xStar = Infinity;
-    let kStar = 0;
-    const gU = this.gU;
-    let k = 1;
-    for (; k <= this.modeBound(Math.min(xStar, cap)); k++) {
-      if (k > MAX_FAST_MODES) return { kind: 'fallback', why: `more than ${MAX_FAST_MODES} modes below the proven bound` };
-      this.modeWeights(k, k);
-      let c0 = 0;
-      let c1 = 0;
-      for (let u = 0; u < nU; u++) {
-        c0 += gU[u]! * B0[u * stride + n]!;
-        c1 += gU[u]! * B1[u * stride + n]!;
-      }
-      // p(0; x) = c0 + x c1 with c0 > 0 (pass 0): a crossing at x_k = −c0/c1 when c1 < 0
-      if (c1 < 0 && -c0 / c1 < xStar) {
-        xStar = -c0 / c1;
-        kStar = k;
-      }
-    }
-    this.modes = k - 1;
-    this.xStar = xStar;
-    this.kStar = kStar;
+    // pass 1: the determinant crossings x_k = −p(0; 0)/∂ₓp(0), modes up to the bound at min(x*, cap), by blocks (`lowestCrossing`)
+    const top = this.modeBound(cap);
+    if (top > MAX_FAST_MODES) return { kind: 'fallback', why: `more than ${MAX_FAST_MODES} modes below the proven bound` };
+    this.xStar = Infinity;
+    this.kStar = 0;
+    this.lowestCrossing(1, top);
+    const xStar = this.xStar;
+    const kStar = this.kStar;
+    this.modes = this.modeBound(Math.min(xStar, cap));
     // pass 2: the monotone test of `stationaryThreshold` at x*(1 − 10⁻⁶) (the cap when x* is above it), by blocks
     this.stBest = xStar <= cap ? xStar : Infinity;
     if (this.stBest <= cap && !(this.stBest >= cap * FLOOR)) return { kind: 'fallback', why: 'threshold below the search floor' };
     this.stMode = kStar;
     this.stInterior = false;
     this.stBelow = this.stBest <= cap ? this.stBest * (1 - BELOW_THRESHOLD) : cap;
-    this.stTol = Math.min(relTol, BELOW_THRESHOLD);
+    this.stTol = relTol / 10;
     this.stY = this.stBest <= cap ? this.stBest * (1 - BELOW_THRESHOLD) : cap;
     this.combine(this.stY);
     const r = this.clearModes(1, this.modeBound(Math.min(this.stBest, cap)), 2);
@@ -1149,6 +1135,47 @@ export class RankOneDose {
   private stBelow = 0;
   private stTol = 0;
   private stWhy = '';
+
+  /**
+   * The lowest determinant crossing x_k = c₀/(−c₁) over modes [ka, kb] (c₀ = p(0; 0) > 0, c₁ = ∂ₓp(0)) into xStar, kStar:
+   * c₀ and c₁ are multilinear in the g_s, so over a block min c₀ / max(−c₁) at the vertices of the box of (g_s) bounds
+   * every x_k in it from below; a block whose bound is not below the lowest so far, or where −c₁ ≤ 0 throughout
+   * (no crossing), is skipped; else halves, down to one mode. Modes beyond the bound at min(x*, cap) are not visited.
+   */
+  private lowestCrossing(ka: number, kb: number): void {
+    kb = Math.min(kb, this.modeBound(Math.min(this.xStar, this.cap)));
+    if (kb < ka) return;
+    const n = this.n;
+    const stride = n + 1;
+    const nU = this.stU;
+    let minC0 = Infinity;
+    let maxN1 = -Infinity;
+    const vertices = ka === kb ? 1 : 1 << this.stS;
+    for (let v = 0; v < vertices; v++) {
+      this.modeWeights(ka, kb, v);
+      let c0 = 0;
+      let c1 = 0;
+      for (let u = 0; u < nU; u++) {
+        c0 += this.gU[u]! * this.B0[u * stride + n]!;
+        c1 += this.gU[u]! * this.B1[u * stride + n]!;
+      }
+      minC0 = Math.min(minC0, c0);
+      maxN1 = Math.max(maxN1, -c1);
+    }
+    if (!(maxN1 > 0)) return;
+    if (ka === kb) {
+      const xk = minC0 / maxN1;
+      if (xk < this.xStar) {
+        this.xStar = xk;
+        this.kStar = ka;
+      }
+      return;
+    }
+    if (minC0 > 0 && minC0 / maxN1 >= this.xStar) return;
+    const mid = (ka + kb) >> 1;
+    this.lowestCrossing(ka, mid);
+    this.lowestCrossing(mid + 1, kb);
+  }
 
   /** The last mode that the small-gain bound does not clear at doses [0, X] (`stationary`). */
   private modeBound(X: number): number {
@@ -1244,12 +1271,27 @@ export class RankOneDose {
       return h === null ? null : !h;
     };
     const cap = this.cap;
-    const floorRoot = hasRoot(cap * FLOOR);
+    // a lower end from Descartes' rule: each coefficient of p(·; x) is affine in x, so every one is positive (no root
+    // in [0, ∞)) below x_D = min over the falling ones of −p₀_t/∂ₓp_t (when all are positive at dose 0)
+    const stride = this.n + 1;
+    const nU = this.stU;
+    let xD = Infinity;
+    for (let t = 1; t < stride; t++) {
+      let c0 = 0;
+      let c1 = 0;
+      for (let u = 0; u < nU; u++) {
+        c0 += this.gU[u]! * this.B0[u * stride + t]!;
+        c1 += this.gU[u]! * this.B1[u * stride + t]!;
+      }
+      if (!(c0 > 0)) xD = 0;
+      else if (c1 < 0) xD = Math.min(xD, -c0 / c1);
+    }
+    let l = Math.max(cap * FLOOR, Math.min(xD * (1 - 1e-9), this.stY * 0.5));
+    const floorRoot = hasRoot(l);
     if (floorRoot !== false) {
       this.stWhy = floorRoot === null ? "Sturm's sequence not trusted" : 'a real root ≥ 0 at the search floor';
       return null;
     }
-    let l = cap * FLOOR;
     let h = this.stY;
     for (let it = 0; it < 200 && h - l > this.stTol * h; it++) {
       const mid = l > 0 && h / l > 4 ? Math.sqrt(l * h) : 0.5 * (l + h);
