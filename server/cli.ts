@@ -4,6 +4,7 @@
  *   brink analyze <mixture.json> [--format json|text]      linear stability of one sample
  *   brink screen <request.json> [--format json|text]       smallest dose of each candidate (no database)
  *   brink fit <msd|kinetics|drift> <file> [options]        coefficients from raw measurements
+ *   brink fit quantal <file> [--link …] [--scale …]        quantal dose–response (ED50) from dose, tubes, responded
  *   brink sheet <plan-id> [--db PATH] [options]            the bench sheet of a stored plan
  *   brink serve [--db PATH] [--port N] [--host H]          the web service
  *   brink seed [--reset] [--yes] [--db PATH]               load the demo shelf
@@ -23,6 +24,7 @@ import { MixtureFileError, parseMixture } from './schema/mixture.js';
 import { parseScreenRequest, screenOutput } from './schema/screen.js';
 import { screen, screenWarnings } from './engine/planner.js';
 import { progressBar } from './jobs/progress-bar.js';
+import { parseQuantalOptions, runQuantalFit } from './calibrate/quantal.js';
 import { FIT_METHODS, parseFitOptions, runFit, type FitMethod } from './calibrate/run.js';
 import { InputError } from './shelf/errors.js';
 import { seedDemoShelf } from './shelf/seed.js';
@@ -60,6 +62,8 @@ usage:
                 tracks are recognised by a first column named track, or --tracks; then
                 --max-lag 5s  --lags 16  --unweighted (ordinary least squares, for comparison)
       kinetics: --particles DENSITY | --enzyme CONCENTRATION   (per-particle maximal turnover)
+  brink fit quantal <file.csv|file.json> [--link logit|probit|cloglog] [--scale log10|linear]
+                columns dose [unit], tubes, responded: the 50 % dose (ED50) by maximum likelihood
   brink sheet <plan-id> [--db PATH] [--candidate ID] [--format html|md|json] [--paper A4|Letter] [--out FILE]
               [--sample-volume 100uL] [--replicates 3] [--min-volume 1uL] [--overage 0.1] [--buffer NAME] [--options FILE]
               [--doses "0,1e6 1/mL,1e7 1/mL"] (the dopant doses themselves; needed when any dose crosses)
@@ -287,10 +291,21 @@ function cmdFit(args: string[], io: Io): number {
       'max-lag': { type: 'string' },
       lags: { type: 'string' },
       unweighted: { type: 'boolean', default: false },
+      link: { type: 'string' },
+      scale: { type: 'string' },
     },
   });
   const [method, file] = positionals;
-  if (positionals.length !== 2 || !FIT_METHODS.includes(method as FitMethod)) throw new UsageError('usage: brink fit <msd|kinetics|drift> <file.csv|file.json> [options]');
+  if (method === 'quantal' && positionals.length === 2) {
+    const text = readText(file!);
+    const data: unknown = /\.json$/i.test(file!) ? parseJson(text, file!) : text;
+    const raw: Record<string, unknown> = {};
+    if (values.link !== undefined) raw.link = values.link;
+    if (values.scale !== undefined) raw.scale = values.scale;
+    io.out(JSON.stringify(runQuantalFit(data, parseQuantalOptions(raw)), null, 2) + '\n');
+    return 0;
+  }
+  if (positionals.length !== 2 || !FIT_METHODS.includes(method as FitMethod)) throw new UsageError('usage: brink fit <msd|kinetics|drift|quantal> <file.csv|file.json> [options]');
   const text = readText(file!);
   const data: unknown = /\.json$/i.test(file!) ? parseJson(text, file!) : text;
   const raw: Record<string, unknown> = {};

@@ -8,6 +8,7 @@
  * To run a new kind of work off the event loop: add its input and output to
  * `Tasks` and a loader to `LOADERS`; then `pool.run(kind, input, options)`.
  */
+import type { QuantalFitOptions, runQuantalFit } from '../calibrate/quantal.js';
 import type { FitMethod, FitOptions, runFit } from '../calibrate/run.js';
 import type { AnalysisResult } from '../engine/analyze.js';
 import type { Mixture, Species } from '../engine/types.js';
@@ -24,6 +25,8 @@ export interface Tasks {
   analyze: { input: { mixture: Mixture }; output: AnalysisResult };
   /** A calibration fit from raw data (calibrate/run.ts; the options already parsed). */
   fit: { input: { method: FitMethod; data: unknown; options: FitOptions[FitMethod] }; output: ReturnType<typeof runFit> };
+  /** A quantal dose–response fit from a table (calibrate/quantal.ts; the options already parsed). */
+  quantal: { input: { data: unknown; options: QuantalFitOptions }; output: ReturnType<typeof runQuantalFit> };
 }
 
 export type TaskKind = keyof Tasks;
@@ -43,5 +46,9 @@ export const LOADERS: { [K in TaskKind]: () => Promise<TaskFunction<K>> } = {
   fit: async () => {
     const { runFit } = await import('../calibrate/run.js');
     return (input) => runFit(input.method, input.data, input.options);
+  },
+  quantal: async () => {
+    const { runQuantalFit } = await import('../calibrate/quantal.js');
+    return (input) => runQuantalFit(input.data, input.options);
   },
 };

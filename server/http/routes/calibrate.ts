@@ -2,6 +2,7 @@
  * Calibration:
  *
  *   POST /api/fits/msd | /kinetics | /drift     fit raw data, store nothing     { data, options? }
+ *   POST /api/fits/quantal                      quantal dose–response (dose [unit], tubes, responded)   { data, options?: { link, scale } }
  *   POST /api/fits/stokes-einstein              D, D_r, τ_r from radius and temperature
  *   POST /api/species/:id/measurements          store raw data with its fit     { method, data, options?, fileName?, author?, note? }
  *   GET  /api/species/:id/measurements          a species' measurements
@@ -21,6 +22,7 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
+import { parseQuantalOptions } from '../../calibrate/quantal.js';
 import { FIT_METHODS, parseFitOptions, type FitMethod } from '../../calibrate/run.js';
 import { stokesEinstein, stokesEinsteinDebye, waterViscosity } from '../../engine/transport.js';
 import { quantity } from '../../schema/mixture.js';
@@ -41,6 +43,15 @@ export const calibrateRoutes: FastifyPluginAsync = async (base) => {
       handler: async (req) => app.compute('fit', { method, data: req.body.data, options: parseFitOptions(method, req.body.options) }),
     });
   }
+
+  app.post('/api/fits/quantal', {
+    schema: {
+      tags,
+      summary: 'Quantal dose–response by maximum likelihood (columns dose [unit], tubes, responded; options.link logit|probit|cloglog, options.scale log10|linear); nothing is stored',
+      body: z.strictObject({ data, options: z.unknown().optional() }),
+    },
+    handler: async (req) => app.compute('quantal', { data: req.body.data, options: parseQuantalOptions(req.body.options) }),
+  });
 
   app.post('/api/fits/stokes-einstein', {
     schema: {
