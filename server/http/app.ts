@@ -20,6 +20,8 @@ import { planService, type PlanService } from '../shelf/plans.js';
 import { measurementsRepository } from '../store/measurements.js';
 import { hazardsRepository, type HazardsRepository } from '../store/hazards.js';
 import { sheetService, type SheetService } from '../protocol/service.js';
+import { outcomesService, type OutcomesService } from '../protocol/outcomes.js';
+import { outcomesRepository } from '../store/outcomes.js';
 import { shelfService, type ShelfService } from '../shelf/service.js';
 import { plansRepository } from '../store/plans.js';
 import type { Db } from '../store/db.js';
@@ -29,6 +31,7 @@ import { analyzeRoutes } from './routes/analyze.js';
 import { calibrateRoutes } from './routes/calibrate.js';
 import { errorBody, jobRoutes } from './routes/jobs.js';
 import { protocolRoutes } from './routes/protocol.js';
+import { outcomeRoutes } from './routes/outcomes.js';
 import { hazardRoutes } from './routes/hazards.js';
 import { metaRoutes } from './routes/meta.js';
 import { planRoutes } from './routes/plans.js';
@@ -65,6 +68,8 @@ declare module 'fastify' {
     calibration: CalibrationService;
     hazards: HazardsRepository;
     sheets: SheetService;
+    /** outcomes of bench sheets and their dose–response fit (protocol/outcomes.ts) */
+    outcomes: OutcomesService;
     pool: WorkerPool;
     jobs: JobRegistry;
     /** run engine work in the pool while the request waits, within config.requestTimeLimit (a 422 time-limit past it) */
@@ -127,7 +132,9 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   app.decorate('plans', planService(shelf, plansRepo, { pool, jobs }));
   const hazards = hazardsRepository(db);
   app.decorate('hazards', hazards);
-  app.decorate('sheets', sheetService(plansRepo, shelf.repo, hazards));
+  const sheets = sheetService(plansRepo, shelf.repo, hazards);
+  app.decorate('sheets', sheets);
+  app.decorate('outcomes', outcomesService(plansRepo, sheets, outcomesRepository(db)));
   app.decorate('calibration', calibrationService(shelf, measurementsRepository(db)));
   if (config.closeDatabase) app.addHook('onClose', async () => db.close());
 
@@ -145,6 +152,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
         { name: 'jobs', description: 'Long work (plans) run off the request: state, progress, cancel' },
         { name: 'calibrate', description: 'Coefficients from raw measurements' },
         { name: 'bench sheet', description: 'Printable protocols for plans, with hazards as handled' },
+        { name: 'outcomes', description: 'What each tube did at the bench, and the empirical threshold (quantal dose–response)' },
         { name: 'meta', description: 'Service facts' },
       ],
     },
@@ -161,6 +169,7 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   await app.register(jobRoutes);
   await app.register(calibrateRoutes);
   await app.register(protocolRoutes);
+  await app.register(outcomeRoutes);
   await app.register(hazardRoutes);
   await app.ready();
   return app;

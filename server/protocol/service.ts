@@ -32,7 +32,7 @@ export function sheetService(plans: PlansRepository, shelf: ShelfRepository, haz
         if (rev.type === 'species') species.set(rev.id, rev.record as SpeciesRecord);
         else chemicals.set(rev.id, rev.record as ChemicalRecord);
       }
-      return buildSheet(
+      const sheet = buildSheet(
         {
           plan: { ...(plan as object), request: { boundary: (plan.request as { boundary: string }).boundary, dosing: (plan.request as { dosing?: string }).dosing ?? 'add' } } as unknown as { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string }; result: { candidates: CandidateResult[]; warnings?: { code: string; message: string }[] }; inputs: { base: Mixture; candidates: Species[] } },
           revisions: revs.map(({ r, rev }) => ({ role: r.role, id: rev.id, revision: rev.revision, revisionId: rev.revisionId })),
@@ -43,6 +43,8 @@ export function sheetService(plans: PlansRepository, shelf: ShelfRepository, haz
         },
         parsed.data,
       );
+      // the options as sent (units as typed), so a filled-in sheet entered back rebuilds the same tubes
+      return { ...sheet, request: { ...(rawOptions as Record<string, unknown> | undefined ?? {}), candidate: sheet.candidate.id } };
     },
     /** A sheet, or the explanation of one that does not fit, in one format: HTML and Markdown from its sections, JSON the model itself. */
     render(sheet: Sheet | NotFitSheet, format: SheetFormat, paper: 'A4' | 'Letter' = 'A4'): string {

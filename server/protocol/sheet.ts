@@ -138,6 +138,8 @@ export interface Sheet {
   hazards: HazardEntry[];
   safety: string[];
   sections: Section[];
+  /** the options this sheet was built with, as sent (sheetService.build): send them back with the filled-in observations */
+  request?: Record<string, unknown>;
 }
 
 export interface SheetContext {
@@ -594,6 +596,8 @@ export interface SheetTube {
   plannedDose: Amount | null;
   /** the dopant dose the pipetted volumes deliver */
   dose: Amount | null;
+  /** the same delivered dose in SI (m⁻³), unrounded: what outcomes entered for these tubes record */
+  doseSi: number | null;
 }
 
 /** What the sheet expects a tube to do, from the dose path and the analysis at the tube's delivered dose (docs/model.md §5, §6, §11). */
@@ -721,7 +725,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   // Tubes (pipetting.ts): one code per sample, a letter per replicate; the dose the rounded volumes deliver.
   const bench = pip.bench;
   const tubesSi = tubeList(bench).map((t, i) => ({ code: t.code, sample: t.name, kind: t.kind, planned: t.plannedDose?.si ?? null, delivered: t.deliveredDose?.si ?? null, tubes: t.lids, conc: bench.tubes[i]!.delivered }));
-  const tubes: SheetTube[] = tubesSi.map((t) => ({ code: t.code, sample: t.sample, kind: t.kind, replicates: t.tubes.length, tubes: t.tubes, plannedDose: t.planned === null ? null : perMl(t.planned), dose: t.delivered === null ? null : perMl(t.delivered) }));
+  const tubes: SheetTube[] = tubesSi.map((t) => ({ code: t.code, sample: t.sample, kind: t.kind, replicates: t.tubes.length, tubes: t.tubes, plannedDose: t.planned === null ? null : perMl(t.planned), dose: t.delivered === null ? null : perMl(t.delivered), doseSi: t.delivered }));
   // Two doses of the series that the rounded volumes deliver alike are one dose at the bench: say so.
   const series = tubesSi.filter((t) => t.kind === 'series' && t.delivered !== null);
   for (let i = 1; i < series.length; i++) {
