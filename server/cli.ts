@@ -6,6 +6,7 @@
  *   brink fit <msd|kinetics|drift> <file> [options]        coefficients from raw measurements
  *   brink fit quantal <file> [--link …] [--scale …]        quantal dose–response (ED50) from dose, tubes, responded
  *   brink sheet <plan-id> [--db PATH] [options]            the bench sheet of a stored plan
+ *   brink outcomes <plan-id> [file] [--db PATH] [options]  what each tube did: show, record (CSV/JSON), --dose-response
  *   brink serve [--db PATH] [--port N] [--host H]          the web service
  *   brink seed [--reset] [--yes] [--db PATH]               load the demo shelf
  *   brink help                                             the usage text (USAGE below has every option)
@@ -31,7 +32,10 @@ import { seedDemoShelf } from './shelf/seed.js';
 import { DatabaseTooNewError, openDatabase } from './store/db.js';
 import { hazardsRepository } from './store/hazards.js';
 import { plansRepository } from './store/plans.js';
-import { shelfRepository, NotFoundError } from './store/shelf.js';
+import { shelfRepository, NotFoundError, StaleRevisionError } from './store/shelf.js';
+import { outcomesRepository } from './store/outcomes.js';
+import { outcomesService, readCsvEntry, readJsonEntry } from './protocol/outcomes.js';
+import { QUANTAL_LINKS, type QuantalLink } from './engine/fit/quantal.js';
 import { sheetService } from './protocol/service.js';
 import { SheetNotFitError, splitDoses } from './protocol/sheet.js';
 import { DomainError } from './shelf/errors.js';
@@ -70,6 +74,13 @@ usage:
               [--operator NAME] [--tube-volume 1.5mL] [--chamber-volume 10uL] [--closed-chamber]
                                                      the bench sheet of a stored plan; a plan that does not fit
                                                      prints why and what would fix it, and exits 2
+  brink outcomes <plan-id> [--db PATH] [--candidate ID]   the outcomes entered for a plan (current and every revision)
+  brink outcomes <plan-id> <file.csv|file.json> [--db PATH] [sheet options as for brink sheet]
+              [--author NAME] [--note TEXT] [--base-revision N]
+                                                     record what each tube did (CSV: tube, state, onset [min],
+                                                     length [um], notes; or JSON, or the filled-in sheet JSON)
+  brink outcomes <plan-id> --dose-response [--candidate ID] [--revision N] [--link logit|probit|cloglog] [--scale log10|linear]
+                                                     the empirical threshold: a quantal fit of the tubes that crossed
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
   brink seed [--reset] [--yes] [--db PATH]             load the demo shelf; --reset empties the database first
   brink help                                         this text
@@ -328,35 +339,23 @@ function cmdFit(args: string[], io: Io): number {
   return 0;
 }
 
-function cmdSheet(args: string[], io: Io): number {
-  const { values, positionals } = parseArgs({
-    args,
-    allowPositionals: true,
-    options: {
-      db: { type: 'string', default: defaults().db },
-      candidate: { type: 'string' },
-      format: { type: 'string', default: 'html' },
-      paper: { type: 'string', default: 'A4' },
-      out: { type: 'string' },
-      'sample-volume': { type: 'string' },
-      replicates: { type: 'string' },
-      'min-volume': { type: 'string' },
-      overage: { type: 'string' },
-      buffer: { type: 'string' },
-      options: { type: 'string' },
-      doses: { type: 'string' },
-      operator: { type: 'string' },
-      'tube-volume': { type: 'string' },
-      'chamber-volume': { type: 'string' },
-      'closed-chamber': { type: 'boolean' },
-    },
-  });
-  const id = Number(positionals[0]);
-  if (positionals.length !== 1 || !Number.isInteger(id) || id < 1) throw new UsageError('usage: brink sheet <plan-id> [--db PATH] [--candidate ID] [--format html|md|json] …');
-  const format = values.format;
-  if (format !== 'html' && format !== 'md' && format !== 'json') throw new UsageError(`--format: expected html, md or json, got "${format}"`);
-  if (values.paper !== 'A4' && values.paper !== 'Letter') throw new UsageError(`--paper: expected A4 or Letter, got "${values.paper}"`);
-  if (!existsSync(values.db)) throw new UsageError(`no database at ${values.db} (use --db PATH or BRINK_DB)`);
+/** The sheet's options as `brink sheet` and `brink outcomes` take them (flags over an --options file). */
+const SHEET_FLAGS = {
+  candidate: { type: 'string' },
+  'sample-volume': { type: 'string' },
+  replicates: { type: 'string' },
+  'min-volume': { type: 'string' },
+  overage: { type: 'string' },
+  buffer: { type: 'string' },
+  options: { type: 'string' },
+  doses: { type: 'string' },
+  operator: { type: 'string' },
+  'tube-volume': { type: 'string' },
+  'chamber-volume': { type: 'string' },
+  'closed-chamber': { type: 'boolean' },
+} as const;
+
+function sheetOptionsFrom(values: { [K in keyof typeof SHEET_FLAGS]?: (typeof SHEET_FLAGS)[K]['type'] extends 'boolean' ? boolean : string }): Record<string, unknown> {
   const opts: Record<string, unknown> = values.options ? (readJson(values.options) as Record<string, unknown>) : {};
   if (values.candidate) opts.candidate = values.candidate;
   if (values['sample-volume']) opts.sampleVolume = values['sample-volume'];
@@ -369,6 +368,86 @@ function cmdSheet(args: string[], io: Io): number {
   if (values['tube-volume']) opts.tubeVolume = values['tube-volume'];
   if (values['chamber-volume']) opts.chamberVolume = values['chamber-volume'];
   if (values['closed-chamber']) opts.closedChamber = true;
+  return opts;
+}
+
+/**
+ * `brink outcomes <plan-id>`: the current outcomes and their history; with a file (CSV: tube, state, onset [min],
+ * length [um], notes; or JSON: the entry form or a filled-in sheet) records them as the next revision; with
+ * --dose-response, the empirical threshold.
+ */
+function cmdOutcomes(args: string[], io: Io): number {
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    options: {
+      db: { type: 'string', default: defaults().db },
+      ...SHEET_FLAGS,
+      author: { type: 'string' },
+      note: { type: 'string' },
+      'base-revision': { type: 'string' },
+      'dose-response': { type: 'boolean', default: false },
+      revision: { type: 'string' },
+      link: { type: 'string' },
+      scale: { type: 'string' },
+    },
+  });
+  const id = Number(positionals[0]);
+  const usage = 'usage: brink outcomes <plan-id> [file.csv|file.json] [--db PATH] [--candidate ID] [sheet options] [--author NAME] [--note TEXT] [--base-revision N] | --dose-response [--link logit|probit|cloglog] [--scale log10|linear] [--revision N]';
+  if (positionals.length < 1 || positionals.length > 2 || !Number.isInteger(id) || id < 1) throw new UsageError(usage);
+  if (!existsSync(values.db)) throw new UsageError(`no database at ${values.db} (use --db PATH or BRINK_DB)`);
+  const db = openDatabase(values.db);
+  try {
+    const plans = plansRepository(db);
+    const outcomes = outcomesService(plans, sheetService(plans, shelfRepository(db), hazardsRepository(db)), outcomesRepository(db));
+    if (values['dose-response']) {
+      if (positionals.length !== 1) throw new UsageError(usage);
+      const link = values.link ?? 'logit';
+      const scale = values.scale ?? 'log10';
+      if (!QUANTAL_LINKS.includes(link as QuantalLink)) throw new UsageError(`--link: expected logit, probit or cloglog, got "${link}"`);
+      if (scale !== 'log10' && scale !== 'linear') throw new UsageError(`--scale: expected log10 or linear, got "${scale}"`);
+      const revision = values.revision === undefined ? undefined : Number(values.revision);
+      if (revision !== undefined && !(Number.isInteger(revision) && revision >= 1)) throw new UsageError(`--revision: expected a whole number ≥ 1, got "${values.revision}"`);
+      io.out(JSON.stringify(outcomes.doseResponse(id, { link: link as QuantalLink, scale, ...(values.candidate ? { candidate: values.candidate } : {}), ...(revision !== undefined ? { revision } : {}) }), null, 2) + '\n');
+      return 0;
+    }
+    if (positionals.length === 1) {
+      io.out(JSON.stringify(outcomes.list(id, values.candidate), null, 2) + '\n');
+      return 0;
+    }
+    const file = positionals[1]!;
+    const base = values['base-revision'] === undefined ? undefined : Number(values['base-revision']);
+    if (base !== undefined && !(Number.isInteger(base) && base >= 0)) throw new UsageError(`--base-revision: expected a whole number ≥ 0, got "${values['base-revision']}"`);
+    const sheet = sheetOptionsFrom(values);
+    const q = { ...(Object.keys(sheet).length > 0 ? { sheet } : {}), ...(values.author ? { author: values.author } : {}), ...(values.note ? { note: values.note } : {}), ...(base !== undefined ? { baseRevision: base } : {}) };
+    const text = readText(file);
+    const entry = /\.json$/i.test(file) ? readJsonEntry(parseJson(text, file), q) : readCsvEntry(text, q);
+    io.out(JSON.stringify(outcomes.record(id, entry), null, 2) + '\n');
+    return 0;
+  } finally {
+    db.close();
+  }
+}
+
+function cmdSheet(args: string[], io: Io): number {
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    options: {
+      db: { type: 'string', default: defaults().db },
+      format: { type: 'string', default: 'html' },
+      paper: { type: 'string', default: 'A4' },
+      out: { type: 'string' },
+      ...SHEET_FLAGS,
+    },
+  });
+  const id = Number(positionals[0]);
+  if (positionals.length !== 1 || !Number.isInteger(id) || id < 1) throw new UsageError('usage: brink sheet <plan-id> [--db PATH] [--candidate ID] [--format html|md|json] …');
+  const format = values.format;
+  if (format !== 'html' && format !== 'md' && format !== 'json') throw new UsageError(`--format: expected html, md or json, got "${format}"`);
+  if (values.paper !== 'A4' && values.paper !== 'Letter') throw new UsageError(`--paper: expected A4 or Letter, got "${values.paper}"`);
+  if (!existsSync(values.db)) throw new UsageError(`no database at ${values.db} (use --db PATH or BRINK_DB)`);
+  const opts = sheetOptionsFrom(values);
   const db = openDatabase(values.db);
   const write = (text: string) => {
     if (values.out) {
@@ -407,6 +486,8 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
         return cmdFit(rest, io);
       case 'sheet':
         return cmdSheet(rest, io);
+      case 'outcomes':
+        return cmdOutcomes(rest, io);
       case 'screen':
         return cmdScreen(rest, io);
       case 'serve':
@@ -443,7 +524,7 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
       io.err(`${(e as Error).message}: choose another --port\n`);
       return 2;
     }
-    if (e instanceof NotFoundError) {
+    if (e instanceof NotFoundError || e instanceof StaleRevisionError) {
       io.err(`${e.message}\n`);
       return 2;
     }

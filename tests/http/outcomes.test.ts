@@ -94,7 +94,7 @@ describe('entering outcomes', () => {
 
   it('400 naming the row and field: unknown code, duplicate, bad state, negative time, a stable tube with a pattern, bad sheet options', async () => {
     const before = outcomesRepository(app.db).history(planId).length;
-    const post = (payload: unknown) => app.inject({ method: 'POST', url: `${url()}?baseRevision=2`, payload });
+    const post = (payload: unknown) => app.inject({ method: 'POST', url: `${url()}?baseRevision=2`, payload: payload as object });
     const cases: [unknown, string, RegExp][] = [
       [{ tubes: [{ tube: 'D9a', state: 'stable' }] }, 'tubes[0].tube', /unknown tube code "D9a": this sheet \(candidate ptj-1um-b07, 3 replicates\) has C0a/],
       [{ tubes: [{ tube: 'D1a', state: 'stable' }, { tube: 'D1a', state: 'stable' }] }, 'tubes[1].tube', /entered twice \(also at tubes\[0\]\)/],
