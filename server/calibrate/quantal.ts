@@ -53,7 +53,7 @@ export function runQuantalFit(data: unknown, options: QuantalFitOptions): Quanta
   if (t.columns.length < 3) throw new InputError([{ path: 'line 1', message: `expected three columns (dose [unit], tubes, responded), got ${t.columns.length}` }]);
   const [doseCol, tubesCol, respCol] = t.columns as [(typeof t.columns)[0], (typeof t.columns)[0], (typeof t.columns)[0]];
   let factor = 1;
-  let unit = '';
+  let unit = `${doseCol.name} (as in the file)`;
   if (doseCol.unit !== null) {
     try {
       const dim = dimensionOfUnit(doseCol.unit);
@@ -87,7 +87,7 @@ export function runQuantalFit(data: unknown, options: QuantalFitOptions): Quanta
     if (e instanceof EngineInputError) throw new InputError([{ path: e.path, message: e.reason }]);
     throw e;
   }
-  if (doseCol.unit === null) fit.notes.push(`the dose column has no unit: doses are taken as they stand (${doseCol.name} as in the file)`);
+  if (doseCol.unit === null) fit.notes.push(`the dose column has no unit: doses are taken as they stand (${unit})`);
   const e = fit.parameters.ed50;
   const inFile =
     doseCol.unit !== null

@@ -333,7 +333,7 @@ export function fitQuantal(dose: number[], tubes: number[], responded: number[],
   const nResp = groups.reduce((a, g) => a + g.y, 0);
   const doseUnitLabel = unit === '' ? '(dose unit)' : unit;
   const at = (d: number) => (unit === '' ? `${d}` : `${d} ${unit}`);
-  const slopeUnit = scale === 'log10' ? 'per decade of dose' : `1/${doseUnitLabel}`;
+  const slopeUnit = scale === 'log10' ? 'per decade of dose' : doseUnitLabel.startsWith('1/') && !/[ *]/.test(doseUnitLabel.slice(2)) ? doseUnitLabel.slice(2) : /[ /*]/.test(doseUnitLabel) ? `1/(${doseUnitLabel})` : `1/${doseUnitLabel}`;
 
   const noFit = (stop: QuantalStop, message: string, separation: QuantalFit['separation'] = null, bracket?: { from: number | null; to: number | null }): QuantalFit => ({
     method: 'quantal',
