@@ -158,7 +158,7 @@ const COLUMN_NAMES: Record<string, 'tube' | 'state' | 'onset' | 'length' | 'note
 export function readCsvEntry(text: string, query: QueryMeta = {}): OutcomeEntry {
   let records: { record: string[]; info: { lines: number } }[];
   try {
-    records = parse(text, { info: true, skip_empty_lines: true, trim: true, relax_column_count: true, comment: '#' }) as never;
+    records = parse(text, { bom: true, info: true, skip_empty_lines: true, trim: true, relax_column_count: true }) as never;
   } catch (e) {
     const err = e as { lines?: number; message: string };
     throw new InputError([{ path: err.lines ? `line ${err.lines}` : 'csv', message: err.message }]);

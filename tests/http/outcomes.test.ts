@@ -121,7 +121,7 @@ describe('entering outcomes', () => {
 
   it('CSV: columns by name with units in brackets, sheet options and the base revision in the query; errors name line and column', async () => {
     const csv = (text: string, q = '') => app.inject({ method: 'POST', url: `${url()}?candidate=ptj-1um-b07&replicates=2${q}`, payload: text, headers: { 'content-type': 'text/csv' } });
-    const good = ['tube, state, onset [min], length [um], notes', 'C0a, stable, , , ', 'D1a, stable, , , "clear, uniform"', 'D8b, stationary, 12, 400, bands at the walls', 'D4a, unclear, , , bubbles'].join('\n');
+    const good = '\uFEFF' + ['tube, state, onset [min], length [um], notes', 'C0a, stable, , , ', 'D1a, stable, , , "clear, uniform"', 'D8b, stationary, 12, 400, bands at the walls #2', 'D4a, unclear, , , bubbles'].join('\n');
     const r = await csv(good, '&author=a%20technician%20(invented)&baseRevision=2');
     expect(r.statusCode, r.body).toBe(201);
     const set = r.json();
@@ -130,6 +130,7 @@ describe('entering outcomes', () => {
     expect(set.sheetOptions).toEqual({ candidate: 'ptj-1um-b07', replicates: 2 });
     const d8 = set.tubes.find((t: { tube: string }) => t.tube === 'D8b');
     expect(d8.onsetTime).toBe(720);
+    expect(d8.notes).toBe('bands at the walls #2'); // a # in a note is text, and a spreadsheet's byte-order mark is skipped
     expect(d8.patternLength).toBeCloseTo(4e-4, 15);
     expect(set.tubes.find((t: { tube: string }) => t.tube === 'D1a').notes).toBe('clear, uniform');
     expect(set.tubes.map((t: { tube: string }) => t.tube)).toEqual(['C0a', 'D1a', 'D4a', 'D8b']);

@@ -524,7 +524,7 @@ export function fitQuantal(dose: number[], tubes: number[], responded: number[],
       [V00, V01],
       [V01, V11],
     ],
-    deviance: D,
+    deviance: Math.max(0, D), // a perfect fit can round to −1e-16
     nullDeviance,
     dof,
     points: k,
