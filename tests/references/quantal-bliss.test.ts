@@ -7,8 +7,9 @@
  * Data: log10 dose (CS₂ mg/L) 1.6907 … 1.8839, beetles 59 … 60, killed 6 … 60.
  * Maximum-likelihood estimates, from memory (the table recalled, not re-read), each confirmed independently
  * before it was kept here: by maximising the binomial log-likelihood with a general-purpose optimiser (SciPy's
- * Nelder–Mead then BFGS) and taking the standard errors from the expected information Σ n (dπ/dη)²/(π(1−π)) x xᵀ
- * — the figures below agree with that computation to the digits given:
+ * Nelder–Mead then BFGS, outside the repository; and here, in the first test, ml-levenberg-marquardt on the
+ * deviance) and taking the standard errors from the expected information Σ n (dπ/dη)²/(π(1−π)) x xᵀ — the
+ * figures below agree with both computations to the digits given:
  *   logit    β₁ = −60.72 (SE 5.18), β₂ = 34.27 (SE 2.91), deviance 11.23
  *   probit   β₁ = −34.94 (SE 2.65), β₂ = 19.73 (SE 1.49), deviance 10.12
  *   cloglog  β₁ = −39.57 (SE 3.24), β₂ = 22.04 (SE 1.80), deviance 3.45
@@ -22,6 +23,7 @@ import { main } from '../../server/cli.js';
 import { fitQuantal, type QuantalLink } from '../../server/engine/fit/quantal.js';
 import type { App } from '../../server/http/app.js';
 import { freshApp } from '../helpers/app.js';
+import { expectedInformationSe, lmReference } from '../helpers/quantal-reference.js';
 
 const log10Dose = [1.6907, 1.7242, 1.7552, 1.7842, 1.8113, 1.8369, 1.861, 1.8839];
 const beetles = [59, 60, 62, 56, 63, 59, 62, 60];
@@ -38,6 +40,15 @@ const PUBLISHED: Record<QuantalLink, { b1: string; se1: string; b2: string; se2:
 const as = (x: number, published: string) => x.toFixed(published.split('.')[1]?.length ?? 0);
 
 describe('Bliss (1935) beetle mortality, Dobson & Barnett (2008) §7.3', () => {
+  it('the recalled figures are those of an independent fit (ml-levenberg-marquardt on the deviance, expected information by hand)', () => {
+    for (const link of ['logit', 'probit', 'cloglog'] as const) {
+      const r = lmReference(link, log10Dose, beetles, killed, [0, 1]);
+      const [se1, se2] = expectedInformationSe(link, log10Dose, beetles, r.intercept, r.slope);
+      const p = PUBLISHED[link];
+      expect([as(r.intercept, p.b1), as(se1, p.se1), as(r.slope, p.b2), as(se2, p.se2), as(r.deviance, p.deviance)], link).toEqual([p.b1, p.se1, p.b2, p.se2, p.deviance]);
+    }
+  });
+
   for (const link of ['logit', 'probit', 'cloglog'] as const) {
     it(`${link}: coefficients, standard errors and deviance as published (log10 dose given, linear scale)`, () => {
       const f = fitQuantal(log10Dose, beetles, killed, { link, scale: 'linear' });

@@ -7,43 +7,10 @@
  * - the special functions against handbook values (Abramowitz & Stegun, tables 26.1 and 26.8; from memory);
  * - separation, a single dose, zero doses on the log10 scale, and the ED50 intervals.
  */
-import { levenbergMarquardt } from 'ml-levenberg-marquardt';
 import { describe, expect, it } from 'vitest';
 import { chiSquareUpper, fitQuantal, lnGamma, normalCdf, normalQuantile, type QuantalLink } from '../../../server/engine/fit/quantal.js';
 import { Random } from '../../../server/engine/random.js';
-
-/**
- * Φ(z) written out independently of brink's route (which goes through the incomplete gamma function): for |z| ≤ 2
- * the Maclaurin series of erf, erf(t) = 2/√π Σ (−1)ⁿ t²ⁿ⁺¹/(n!(2n+1)); in the tails Laplace's continued fraction
- * for Mills' ratio, Φ(−x) = φ(x)/(x + 1/(x + 2/(x + 3/(x + …)))), x > 2, evaluated from 300 terms upward.
- */
-function phi(z: number): number {
-  if (Math.abs(z) <= 2) return phiSeries(z);
-  const x = Math.abs(z);
-  let cf = x;
-  for (let k = 300; k >= 1; k--) cf = x + k / cf;
-  const tail = Math.exp(-0.5 * x * x) / Math.sqrt(2 * Math.PI) / cf;
-  return z < 0 ? tail : 1 - tail;
-}
-
-function phiSeries(z: number): number {
-  const t = z / Math.SQRT2;
-  let term = t;
-  let sum = t;
-  for (let n = 1; n < 400; n++) {
-    term *= (-t * t) / n;
-    const add = term / (2 * n + 1);
-    sum += add;
-    if (Math.abs(add) < 1e-18 * Math.abs(sum)) break;
-  }
-  return 0.5 * (1 + (2 / Math.sqrt(Math.PI)) * sum);
-}
-
-const INVERSE: Record<QuantalLink, (eta: number) => [number, number]> = {
-  logit: (e) => [1 / (1 + Math.exp(-e)), 1 / (1 + Math.exp(e))],
-  probit: (e) => [phi(e), phi(-e)],
-  cloglog: (e) => [1 - Math.exp(-Math.exp(e)), Math.exp(-Math.exp(e))],
-};
+import { INVERSE, lmReference, phi } from '../../helpers/quantal-reference.js';
 
 /** A binomial deviate by counting uniforms. */
 function binomial(rng: Random, n: number, p: number): number {
@@ -62,28 +29,6 @@ function dataset(rng: Random, link: QuantalLink) {
   const n = x.map(() => 8 + Math.floor(rng.uniform() * 30));
   const y = x.map((xi, i) => binomial(rng, n[i]!, INVERSE[link](g50 + slope * (xi - x50))[0]));
   return { dose: x.map((v) => 10 ** v), x, n, y };
-}
-
-/** The maximum-likelihood estimate by Levenberg–Marquardt on the signed deviance residuals, η = a + b (x − x̄). */
-function lmReference(link: QuantalLink, x: number[], n: number[], y: number[], start: [number, number]) {
-  const xm = x.reduce((s, v) => s + v, 0) / x.length;
-  const ylog = (a: number, m: number) => (a === 0 ? 0 : a * Math.log(a / m));
-  const residual = ([a, b]: number[]) => (i: number) => {
-    const [pi, piC] = INVERSE[link](a! + b! * (x[i]! - xm));
-    const d = 2 * (ylog(y[i]!, n[i]! * pi) + ylog(n[i]! - y[i]!, n[i]! * piC));
-    return Math.sign(y[i]! - n[i]! * pi) * Math.sqrt(Math.max(d, 0));
-  };
-  const r = levenbergMarquardt({ x: x.map((_, i) => i), y: x.map(() => 0) }, residual, {
-    initialValues: start,
-    maxIterations: 400,
-    errorTolerance: 1e-14,
-    improvementThreshold: 1e-12,
-    gradientDifference: 1e-7,
-    centralDifference: true,
-    damping: 1e-3,
-  });
-  const [a, b] = r.parameterValues as [number, number];
-  return { intercept: a - b * xm, slope: b, deviance: r.parameterError };
 }
 
 describe('against ml-levenberg-marquardt on seeded data (50 sets per link)', () => {
