@@ -371,9 +371,10 @@ export function outcomesService(plans: PlansRepository, sheets: SheetService, re
         // a filled-in sheet: the rebuilt tubes must be the ones it printed (same codes, same delivered doses)
         const rebuilt = new Map(sheet.tubes.map((t) => [t.code, t]));
         const problems: Problem[] = [];
-        entry.printed.forEach((p, i) => {
-          const r = rebuilt.get(p?.code);
-          if (!r) problems.push({ path: `tubes[${i}].code`, message: `the sheet printed tube ${JSON.stringify(p?.code)}, which its options (request) do not rebuild: send the options it was printed with as "sheet"` });
+        entry.printed.forEach((raw, i) => {
+          const p = (raw !== null && typeof raw === 'object' ? raw : {}) as Partial<Sheet['tubes'][number]>;
+          const r = typeof p.code === 'string' ? rebuilt.get(p.code) : undefined;
+          if (!r) problems.push({ path: `tubes[${i}].code`, message: `the sheet printed tube ${JSON.stringify(p.code ?? null)}, which its options (request) do not rebuild: send the options it was printed with as "sheet"` });
           else if ((p.dose?.value ?? null) !== (r.dose?.value ?? null))
             problems.push({ path: `tubes[${i}].dose`, message: `tube ${p.code} was printed with ${p.dose?.value ?? 'no'} particles/mL, its options rebuild ${r.dose?.value ?? 'none'}: the plan or the options differ from the printed sheet's` });
         });

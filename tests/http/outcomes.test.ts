@@ -160,6 +160,9 @@ describe('entering outcomes', () => {
     const e = await app.inject({ method: 'POST', url: `${url()}?baseRevision=4`, payload: edited });
     expect(e.statusCode).toBe(400);
     expect(e.json().problems[0].path).toMatch(/^tubes\[\d+\]\.dose$/);
+    const garbage = await app.inject({ method: 'POST', url: `${url()}?baseRevision=4`, payload: { ...filled, tubes: [null, 5] } });
+    expect(garbage.statusCode).toBe(400);
+    expect(garbage.json().problems[0].path).toBe('tubes[0].code');
     const noRequest = { ...filled, request: undefined };
     const n = await app.inject({ method: 'POST', url: `${url()}?baseRevision=4`, payload: noRequest });
     expect(n.statusCode).toBe(400);
