@@ -232,7 +232,7 @@ async function cmdRestore(args: string[], io: Io): Promise<number> {
   const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { db: { type: 'string', default: defaults().db }, yes: { type: 'boolean', default: false } } });
   if (positionals.length !== 1) throw new UsageError('usage: brink restore <file> [--db PATH] [--yes]');
   const file = positionals[0]!;
-  const check = inspectBackup(file); // before asking: a bad backup is refused at once
+  const check = await inspectBackup(file); // before asking: a bad backup is refused at once
   const what = `${file} (schema version ${check.schemaVersion}, integrity ok; ${check.species} species, ${check.chemicals} chemicals, ${check.plans} plans)`;
   if (existsSync(values.db)) {
     const ok = values.yes || (await confirm(`This replaces ${values.db} by the backup ${what}; the current file is kept beside it. Continue? [y/N] `));

@@ -106,20 +106,31 @@ export async function backupDatabase(dbPath: string, dest: string): Promise<Back
   return { ...check, pages, bytes: statSync(dest).size };
 }
 
-/** Inspect a backup file without changing it. */
-export function inspectBackup(file: string): BackupCheck {
-  if (!existsSync(file)) throw new BackupError(`no backup at ${file}`);
+/**
+ * Open a backup read-only for `fn`. Reading a file in WAL mode makes SQLite create an empty -wal
+ * and a -shm beside it, which a read-only connection cannot remove: those made here are removed.
+ */
+function readBackup<T>(file: string, fn: (db: Database.Database) => T | Promise<T>): Promise<T> {
+  const had = ['-wal', '-shm'].filter((x) => existsSync(file + x));
   let db: Database.Database;
   try {
     db = new Database(file, { readonly: true, fileMustExist: true });
   } catch (e) {
     throw new BackupError(`cannot open ${file}: ${(e as Error).message}`);
   }
-  try {
-    return checkBrinkDatabase(db, file);
-  } finally {
+  const tidy = () => {
     db.close();
-  }
+    if (had.length === 0 && existsSync(`${file}-wal`) && statSync(`${file}-wal`).size === 0) for (const x of ['-wal', '-shm']) rmSync(file + x, { force: true });
+  };
+  return Promise.resolve()
+    .then(() => fn(db))
+    .finally(tidy);
+}
+
+/** Inspect a backup file without changing it. */
+export async function inspectBackup(file: string): Promise<BackupCheck> {
+  if (!existsSync(file)) throw new BackupError(`no backup at ${file}`);
+  return readBackup(file, (db) => checkBrinkDatabase(db, file));
 }
 
 /**
@@ -163,16 +174,11 @@ export interface RestoreResult extends BackupCheck {
  * other process has the database open. Nothing is replaced when a check fails.
  */
 export async function restoreDatabase(file: string, dbPath: string, now = new Date()): Promise<RestoreResult> {
-  const check = inspectBackup(file);
+  const check = await inspectBackup(file);
   assertNotInUse(dbPath);
   const staging = `${dbPath}.restoring`;
   for (const f of [staging, `${staging}-wal`, `${staging}-shm`]) rmSync(f, { force: true });
-  const src = new Database(file, { readonly: true, fileMustExist: true });
-  try {
-    await copyAll(src, staging);
-  } finally {
-    src.close();
-  }
+  await readBackup(file, (src) => copyAll(src, staging));
   let migrated: number[] = [];
   try {
     // open migrates (an older backup is brought to this brink's schema) in the staged copy, before anything is replaced
