@@ -153,6 +153,8 @@ export function assertNotInUse(dbPath: string): void {
       if (/^SQLITE_(BUSY|LOCKED)/.test(code)) {
         throw new BackupError(`${dbPath} is in use by another process (is brink serve running on it?): stop it, then restore`);
       }
+      // a file too damaged to be read cannot be served either: it is kept aside like any other
+      if (/^SQLITE_(NOTADB|CORRUPT)/.test(code)) return;
       throw new BackupError(`cannot lock ${dbPath}: ${(e as Error).message}`);
     }
   } finally {

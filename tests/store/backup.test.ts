@@ -119,6 +119,15 @@ describe('restore checks the backup first', () => {
     expect(keys(join(d, 'brink.sqlite'))).toEqual(['current']);
   });
 
+  it('restores over a file that is no database any more (what a restore is for), keeping it aside', async () => {
+    const d = dir();
+    writeSync(openSync(join(d, 'brink.sqlite'), 'w'), 'overwritten by mistake '.repeat(300));
+    make(join(d, 'b.sqlite'), 'b');
+    const r = await restoreDatabase(join(d, 'b.sqlite'), join(d, 'brink.sqlite'));
+    expect(keys(join(d, 'brink.sqlite'))).toEqual(['b']);
+    expect(existsSync(r.keptAs!)).toBe(true);
+  });
+
   it('restores into a path where there was no database (nothing to keep)', async () => {
     const d = dir();
     make(join(d, 'b.sqlite'), 'b');
