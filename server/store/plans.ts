@@ -73,19 +73,19 @@ export function plansRepository(db: Db) {
   const toRow = (r: Raw): PlanRow => {
     const h = history(r.id);
     return {
-    id: r.id,
-    name: r.name,
-    notes: r.notes,
-    author: r.author,
-    createdAt: r.created_at,
-    updatedAt: r.updated_at,
-    rerunOf: r.rerun_of,
-    revision: h.length > 0 ? h[h.length - 1]!.revision : 0,
-    history: h,
-    request: JSON.parse(r.request),
-    inputs: JSON.parse(r.inputs),
-    result: JSON.parse(r.result),
-    revisions: (st.links.all(r.id) as { revision_id: number; role: 'base' | 'candidate' | 'chemical' }[]).map((l) => ({ revisionId: l.revision_id, role: l.role })),
+      id: r.id,
+      name: r.name,
+      notes: r.notes,
+      author: r.author,
+      createdAt: r.created_at,
+      updatedAt: r.updated_at,
+      rerunOf: r.rerun_of,
+      revision: h.length > 0 ? h[h.length - 1]!.revision : 0,
+      history: h,
+      request: JSON.parse(r.request),
+      inputs: JSON.parse(r.inputs),
+      result: JSON.parse(r.result),
+      revisions: (st.links.all(r.id) as { revision_id: number; role: 'base' | 'candidate' | 'chemical' }[]).map((l) => ({ revisionId: l.revision_id, role: l.role })),
     };
   };
   return {
