@@ -95,5 +95,5 @@ describe('backup and restore', () => {
     expect(list.total).toBe(inBackup.size + 8); // and the 8 demo species
     expect(again.output()).not.toMatch(/loaded the demo shelf/);
     expect(await again.stop()).toBe(0);
-  }, 120_000);
+  }, 240_000);
 });

@@ -72,5 +72,5 @@ describe('two processes on one file racing edits', () => {
     } finally {
       await Promise.all([a.stop(), b.stop()]);
     }
-  }, 180_000);
+  }, 300_000);
 });
