@@ -43,7 +43,7 @@ const count = (db: Database.Database, table: string, where = '1') =>
  * Check an open database as a brink backup: integrity, schema version not newer than the code,
  * migrations the same as the code's. Throws BackupError otherwise.
  */
-export function checkBrinkDatabase(db: Database.Database, label: string, migrations: Migration[] = loadMigrations()): BackupCheck {
+export function checkBrinkDatabase(db: Database.Database, label: string, migrations: Migration[] = loadMigrations(), o: { schema?: boolean } = {}): BackupCheck {
   let problems: string[];
   try {
     problems = (db.pragma('integrity_check') as { integrity_check: string }[]).map((r) => r.integrity_check);
@@ -56,12 +56,17 @@ export function checkBrinkDatabase(db: Database.Database, label: string, migrati
   const version = schemaVersion(db);
   if (version === 0) throw new BackupError(`${label} is not a brink database (no schema_migrations table)`);
   const latest = migrations.length;
+  if (o.schema === false) return counts(db, version); // a copy of any brink database may be taken
   if (version > latest) throw new BackupError(`${label} is at schema version ${version}, newer than this brink understands (${latest}): restore it with a newer brink`);
   const names = db.prepare('SELECT version, name FROM schema_migrations ORDER BY version').all() as { version: number; name: string }[];
   for (const { version: v, name } of names) {
     const ours = migrations[v - 1];
     if (!ours || ours.name !== name) throw new BackupError(`${label} has migration ${v} "${name}", this brink's is "${ours?.name ?? 'none'}": it is not a database of this brink`);
   }
+  return counts(db, version);
+}
+
+function counts(db: Database.Database, version: number): BackupCheck {
   return { integrity: 'ok', schemaVersion: version, species: count(db, 'shelf_items', "type = 'species'"), chemicals: count(db, 'shelf_items', "type = 'chemical'"), plans: count(db, 'plans') };
 }
 
@@ -94,7 +99,7 @@ export async function backupDatabase(dbPath: string, dest: string): Promise<Back
   let check: BackupCheck;
   const copy = new Database(partial);
   try {
-    check = checkBrinkDatabase(copy, `the backup of ${dbPath}`);
+    check = checkBrinkDatabase(copy, `the backup of ${dbPath}`, undefined, { schema: false });
     copy.pragma('journal_mode = DELETE'); // one self-contained file
   } catch (e) {
     copy.close();

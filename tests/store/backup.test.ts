@@ -150,4 +150,14 @@ describe('backup', () => {
     expect(c.pragma('journal_mode', { simple: true })).toBe('delete');
     c.close();
   });
+
+  it('copies a database of a newer brink too (a copy checks integrity only; restoring it is what is refused)', async () => {
+    const d = dir();
+    make(join(d, 'new.sqlite'), 'x');
+    const db = new Database(join(d, 'new.sqlite'));
+    db.prepare('INSERT INTO schema_migrations (version, name, applied_at) VALUES (?, ?, ?)').run(loadMigrations().length + 1, 'future', 'then');
+    db.close();
+    expect((await backupDatabase(join(d, 'new.sqlite'), join(d, 'copy.sqlite'))).schemaVersion).toBe(loadMigrations().length + 1);
+    await expect(restoreDatabase(join(d, 'copy.sqlite'), join(d, 'other.sqlite'))).rejects.toThrow(/newer than this brink/);
+  });
 });
