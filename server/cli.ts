@@ -9,6 +9,8 @@
  *   brink outcomes <plan-id> [file] [--db PATH] [options]  what each tube did: show, record (CSV/JSON), --dose-response
  *   brink serve [--db PATH] [--port N] [--host H]          the web service
  *   brink seed [--reset] [--yes] [--db PATH]               load the demo shelf
+ *   brink backup <file> [--db PATH]                        online backup, also while the service runs
+ *   brink restore <file> [--db PATH] [--yes]               check a backup, keep the old file, put the backup in place
  *   brink help                                             the usage text (USAGE below has every option)
  *   brink --version | version                              the version (bin/brink.js answers it before loading this file)
  *
@@ -29,6 +31,7 @@ import { parseQuantalOptions, runQuantalFit } from './calibrate/quantal.js';
 import { FIT_METHODS, parseFitOptions, runFit, type FitMethod } from './calibrate/run.js';
 import { InputError } from './shelf/errors.js';
 import { seedDemoShelf } from './shelf/seed.js';
+import { BackupError, backupDatabase, inspectBackup, restoreDatabase } from './store/backup.js';
 import { DatabaseTooNewError, openDatabase } from './store/db.js';
 import { hazardsRepository } from './store/hazards.js';
 import { plansRepository } from './store/plans.js';
@@ -38,7 +41,7 @@ import { outcomesService, readCsvEntry, readJsonEntry } from './protocol/outcome
 import { QUANTAL_LINKS, type QuantalLink } from './engine/fit/quantal.js';
 import { sheetService } from './protocol/service.js';
 import { SheetNotFitError, splitDoses } from './protocol/sheet.js';
-import { DomainError } from './shelf/errors.js';
+import { DomainError, ImportConflictError } from './shelf/errors.js';
 import { VERSION } from './version.js';
 
 export interface Io {
@@ -83,6 +86,9 @@ usage:
                                                      the empirical threshold: a quantal fit of the tubes that crossed
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
   brink seed [--reset] [--yes] [--db PATH]             load the demo shelf; --reset empties the database first
+  brink backup <file> [--db PATH]                      copy the database to a new file (safe while brink serve runs)
+  brink restore <file> [--db PATH] [--yes]             replace the database by a backup: checks it first, keeps the
+                                                     old file as <db>.before-restore-<time>; refused while in use
   brink help                                         this text
   brink --version | version                          the version
 
@@ -223,6 +229,40 @@ async function cmdSeed(args: string[], io: Io): Promise<number> {
   } finally {
     db.close();
   }
+  return 0;
+}
+
+async function cmdBackup(args: string[], io: Io): Promise<number> {
+  const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { db: { type: 'string', default: defaults().db } } });
+  if (positionals.length !== 1) throw new UsageError('usage: brink backup <file> [--db PATH]');
+  const r = await backupDatabase(values.db, positionals[0]!);
+  io.out(
+    `backed up ${values.db} to ${positionals[0]}: ${r.bytes} bytes, schema version ${r.schemaVersion}, integrity ok; ` +
+      `${r.species} species, ${r.chemicals} chemicals, ${r.plans} plans\n`,
+  );
+  return 0;
+}
+
+async function cmdRestore(args: string[], io: Io): Promise<number> {
+  const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { db: { type: 'string', default: defaults().db }, yes: { type: 'boolean', default: false } } });
+  if (positionals.length !== 1) throw new UsageError('usage: brink restore <file> [--db PATH] [--yes]');
+  const file = positionals[0]!;
+  const check = await inspectBackup(file); // before asking: a bad backup is refused at once
+  const what = `${file} (schema version ${check.schemaVersion}, integrity ok; ${check.species} species, ${check.chemicals} chemicals, ${check.plans} plans)`;
+  if (existsSync(values.db)) {
+    const ok = values.yes || (await confirm(`This replaces ${values.db} by the backup ${what}; the current file is kept beside it. Continue? [y/N] `));
+    if (!ok) {
+      io.err(values.yes || process.stdin.isTTY ? 'not restored\n' : 'refusing to restore without --yes (no terminal to ask)\n');
+      return 2;
+    }
+  }
+  const r = await restoreDatabase(file, values.db);
+  io.out(
+    `restored ${values.db} from ${what}` +
+      (r.migrated.length > 0 ? `; migrated to schema version ${r.migrated[r.migrated.length - 1]} (${r.migrated.join(', ')})` : '') +
+      (r.keptAs ? `; the previous database is kept as ${r.keptAs}` : '') +
+      '\n',
+  );
   return 0;
 }
 
@@ -494,6 +534,10 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
         return await cmdServe(rest);
       case 'seed':
         return await cmdSeed(rest, io);
+      case 'backup':
+        return await cmdBackup(rest, io);
+      case 'restore':
+        return await cmdRestore(rest, io);
       case 'version':
       case '--version':
         io.out(`${VERSION}\n`);
@@ -512,7 +556,7 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
       io.err(`invalid mixture:\n${e.problems.map((p) => `  ${p}`).join('\n')}\n`);
       return 2;
     }
-    if (e instanceof UsageError || e instanceof EngineInputError || e instanceof DatabaseTooNewError) {
+    if (e instanceof UsageError || e instanceof EngineInputError || e instanceof DatabaseTooNewError || e instanceof BackupError || e instanceof ImportConflictError) {
       io.err(`${e.message}\n`);
       return 2;
     }

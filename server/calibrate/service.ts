@@ -197,9 +197,12 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
         fields.push(`couplings[${req.chemical}].mobility`);
       }
       const record = parseRecord('species', typed, ['record']);
-      const rev = shelf.edit('species', m.species, req.baseRevision, record, { author, note: `applied measurement ${m.id} (${m.method})${sdCaveat}` });
-      repo.recordApplication(m.id, rev.revisionId, fields);
-      return rev;
+      // the revision and the record of where it came from, together or not at all
+      return shelf.repo.transaction(() => {
+        const rev = shelf.edit('species', m.species, req.baseRevision, record, { author, note: `applied measurement ${m.id} (${m.method})${sdCaveat}` });
+        repo.recordApplication(m.id, rev.revisionId, fields);
+        return rev;
+      });
     },
 
     forSpecies: (key: string) => {

@@ -8,12 +8,14 @@
  * | 409 `stale-revision` | an edit based on an old revision; `current` is the current one |
  * | 409 `stale-version` | hazard data written on an old version; `current` is the current one |
  * | 409 `duplicate` | create with an id that exists; `existing` is its current revision |
+ * | 409 `import-conflict` | an import entry would overwrite a newer edit; `conflicts` lists each, nothing written |
+ * | 409 `busy` | another process held the database's write lock past the busy timeout; nothing written, `retryAfter` s |
  * | 422 `domain` | well-formed but outside what brink can answer (`code` says why) |
  * | 5xx `internal` | anything else; the text is logged, not sent |
  */
 import type { FastifyError, FastifyReply, FastifyRequest } from 'fastify';
 import { EngineDomainError, EngineInputError } from '../engine/types.js';
-import { DomainError, InputError, type Problem } from '../shelf/errors.js';
+import { DomainError, ImportConflictError, InputError, type Problem } from '../shelf/errors.js';
 import { StaleVersionError } from '../store/errors.js';
 import { DuplicateError, NotFoundError, StaleRevisionError } from '../store/shelf.js';
 
@@ -33,6 +35,16 @@ function invalid(reply: FastifyReply, problems: Problem[], where?: string) {
   return reply.code(400).send({ error: 'invalid-input', message: lines.join('; '), ...(where ? { in: where } : {}), problems });
 }
 
+/**
+ * SQLite could not get a lock in time: SQLITE_BUSY (and its extended codes, e.g. _SNAPSHOT,
+ * _RECOVERY, _TIMEOUT) or SQLITE_LOCKED. better-sqlite3 throws a SqliteError whose `code` is the
+ * extended code's name. The transaction was rolled back: the request may simply be sent again.
+ */
+export function isDatabaseBusy(err: unknown): boolean {
+  const code = (err as { code?: unknown } | null)?.code;
+  return err instanceof Error && err.name === 'SqliteError' && typeof code === 'string' && /^SQLITE_(BUSY|LOCKED)(_|$)/.test(code);
+}
+
 export function errorHandler(this: unknown, err: FastifyError | Error, req: FastifyRequest, reply: FastifyReply) {
   if (err instanceof RequestValidationError) return invalid(reply, err.problems, err.part);
   const v = (err as FastifyError).validation;
@@ -46,6 +58,13 @@ export function errorHandler(this: unknown, err: FastifyError | Error, req: Fast
   if (err instanceof StaleRevisionError) return reply.code(409).send({ error: 'stale-revision', message: err.message, current: err.current });
   if (err instanceof StaleVersionError) return reply.code(409).send({ error: 'stale-version', message: err.message, current: err.current });
   if (err instanceof DuplicateError) return reply.code(409).send({ error: 'duplicate', message: err.message, existing: err.existing });
+  if (err instanceof ImportConflictError) return reply.code(409).send({ error: 'import-conflict', message: err.message, conflicts: err.conflicts });
+  if (isDatabaseBusy(err)) {
+    req.log.warn({ code: (err as { code: string }).code }, 'database busy');
+    // (a job's error goes through errorBody in routes/jobs.ts, whose stand-in reply has no headers)
+    if (typeof reply.header === 'function') reply.header('retry-after', '1');
+    return reply.code(409).send({ error: 'busy', message: 'the database is busy with another writer (another brink process on the same file?); nothing was written: send the request again', retryAfter: 1 });
+  }
   if (err instanceof DomainError || err instanceof EngineDomainError) {
     return reply.code(422).send({ error: 'domain', code: err.code, message: err.message });
   }

@@ -21,3 +21,33 @@ export class DomainError extends Error {
     super(message);
   }
 }
+
+/** One entry of an import that would overwrite a newer edit. */
+export interface ImportConflict {
+  /** where in the document: `species[3]`, `chemicals[0]` */
+  path: string;
+  type: 'chemical' | 'species';
+  id: string;
+  /** the revision the entry was exported at; null for an export made before entries carried it */
+  exportedRevision: number | null;
+  /** the item's current revision on this shelf */
+  currentRevision: number;
+}
+
+/** An import refused because entries would overwrite newer edits (→ HTTP 409 `import-conflict`; nothing was written). */
+export class ImportConflictError extends Error {
+  override readonly name = 'ImportConflictError';
+  constructor(readonly conflicts: ImportConflict[]) {
+    super(
+      `${conflicts.length} ${conflicts.length === 1 ? 'entry' : 'entries'} of the import would overwrite ${conflicts.length === 1 ? 'an edit it does not know' : 'edits they do not know'}, so nothing was imported: ` +
+        conflicts
+          .map((c) =>
+            c.exportedRevision === null
+              ? `${c.path} (${c.type} "${c.id}") differs from the shelf's revision ${c.currentRevision} and carries no exported revision to show it is based on it`
+              : `${c.path} (${c.type} "${c.id}") was exported at revision ${c.exportedRevision}, the shelf is at revision ${c.currentRevision}`,
+          )
+          .join('; ') +
+        '. Export again and redo the changes, or import with overwrite=true to replace what the shelf has now (it stays in the history).',
+    );
+  }
+}

@@ -1,6 +1,6 @@
 /** The demo shelf (seeds/demo-shelf.json, invented): loaded into a new database once. */
 import { readFileSync } from 'node:fs';
-import type { Db } from '../store/db.js';
+import { writeTransaction, type Db } from '../store/db.js';
 import { shelfRepository } from '../store/shelf.js';
 import { shelfService } from './service.js';
 import { hazardsRepository } from '../store/hazards.js';
@@ -28,16 +28,19 @@ export function seedDemoShelf(db: Db) {
   };
   seedHazards(DEMO_HAZARDS, repo.chemical, hazardSetSchema);
   seedHazards(DEMO_SPECIES_HAZARDS, repo.species, speciesHazardSetSchema);
-  db.prepare('INSERT INTO app_meta (key, value) VALUES (?, ?) ON CONFLICT (key) DO UPDATE SET value = excluded.value').run(MARK, new Date().toISOString());
+  writeTransaction(db, () => db.prepare('INSERT INTO app_meta (key, value) VALUES (?, ?) ON CONFLICT (key) DO UPDATE SET value = excluded.value').run(MARK, new Date().toISOString()));
   return summary;
 }
 
 /** Seed on the first run only: never again once done, even if the shelf is later emptied of active items. */
 export function ensureDemoShelf(db: Db): boolean {
-  const done = db.prepare('SELECT value FROM app_meta WHERE key = ?').get(MARK);
-  if (done) return false;
-  const repo = shelfRepository(db);
-  if (repo.count('species') + repo.count('chemical') > 0) return false;
-  seedDemoShelf(db);
-  return true;
+  // one write transaction: two processes starting on one new file seed it once
+  return writeTransaction(db, () => {
+    const done = db.prepare('SELECT value FROM app_meta WHERE key = ?').get(MARK);
+    if (done) return false;
+    const repo = shelfRepository(db);
+    if (repo.count('species') + repo.count('chemical') > 0) return false;
+    seedDemoShelf(db);
+    return true;
+  });
 }

@@ -22,12 +22,17 @@ import {
   type ShelfType,
   type SpeciesRecord,
 } from '../schema/shelf.js';
-import type { Revision, ShelfRepository, WriteMeta } from '../store/shelf.js';
+import { sameContent, type Revision, type ShelfRepository, type WriteMeta } from '../store/shelf.js';
 import { DIMENSIONS } from '../units/index.js';
-import { InputError, type Problem } from './errors.js';
+import { ImportConflictError, InputError, type ImportConflict, type Problem } from './errors.js';
 
 export const SHELF_FORMAT = 'brink-shelf';
-export const SHELF_FORMAT_VERSION = 1;
+/**
+ * 2: each entry carries `revision`, the revision it was exported at (an import refuses to overwrite
+ * a newer one unless asked to); 1: without it (still imported, see importShelf).
+ */
+export const SHELF_FORMAT_VERSION = 2;
+const READABLE_FORMAT_VERSIONS = [1, 2] as const;
 
 type AnyRecord = ChemicalRecord | SpeciesRecord;
 
@@ -97,7 +102,7 @@ export function shelfService(repo: ShelfRepository) {
         }
         return out.sort((a, b) => (a.id < b.id ? -1 : a.id > b.id ? 1 : 0));
       };
-      const entry = (r: Revision<AnyRecord>) => ({ ...(toTypedRecord(r.record) as Record<string, unknown>), ...(r.retired ? { retired: true } : {}) });
+      const entry = (r: Revision<AnyRecord>) => ({ ...(toTypedRecord(r.record) as Record<string, unknown>), ...(r.retired ? { retired: true } : {}), revision: r.revision });
       return {
         format: SHELF_FORMAT,
         version: SHELF_FORMAT_VERSION,
@@ -111,20 +116,31 @@ export function shelfService(repo: ShelfRepository) {
      * Import a shelf document: every entry is validated first and every problem
      * reported by its path; only then is anything written, in one transaction.
      * New ids are created, changed ones get a new revision, identical ones are left alone.
+     *
+     * An entry carries the revision it was exported at (`revision`, format version 2). When the
+     * item has changed since (its current revision is higher) and the entry differs from it, the
+     * import would undo that edit: unless `options.overwrite`, nothing is written and every such
+     * entry is listed (ImportConflictError → 409 import-conflict). An entry without `revision`
+     * (an export of format version 1, or a hand-written file such as the demo shelf) cannot show
+     * what it was based on: it conflicts whenever its item exists and differs. Revision numbers
+     * are those of the shelf the export came from; into another database they are compared as
+     * numbers all the same (an entry exported at a revision at or above the item's here revises it).
+     * Identical entries are never conflicts; with overwrite, the new revision's note names the
+     * revision it replaced.
      */
-    importShelf(doc: unknown, meta: WriteMeta) {
+    importShelf(doc: unknown, meta: WriteMeta, options: { overwrite?: boolean } = {}) {
       const problems: Problem[] = [];
       const envelope = z
         .strictObject({
           format: z.literal(SHELF_FORMAT),
-          version: z.literal(SHELF_FORMAT_VERSION),
+          version: z.union(READABLE_FORMAT_VERSIONS.map((v) => z.literal(v))),
           exportedAt: z.string().optional(),
           chemicals: z.array(z.unknown()).default([]),
           species: z.array(z.unknown()).default([]),
         })
         .safeParse(doc);
       if (!envelope.success) throw new InputError(issueList(envelope.error));
-      const parsed: { type: ShelfType; record: AnyRecord; retired: boolean; index: number }[] = [];
+      const parsed: { type: ShelfType; record: AnyRecord; retired: boolean; revision: number | null; index: number }[] = [];
       // ids declared in the document, valid entries or not (so one bad chemical does not cascade)
       const declared = new Set<string>();
       for (const raw of envelope.data.chemicals) if (typeof (raw as { id?: unknown })?.id === 'string') declared.add((raw as { id: string }).id);
@@ -132,6 +148,7 @@ export function shelfService(repo: ShelfRepository) {
       const take = (type: ShelfType, list: unknown[], name: string) => {
         list.forEach((raw, i) => {
           let retired = false;
+          let revision: number | null = null;
           let body = raw;
           if (raw !== null && typeof raw === 'object' && 'retired' in raw) {
             const { retired: flag, ...rest } = raw as Record<string, unknown>;
@@ -139,11 +156,17 @@ export function shelfService(repo: ShelfRepository) {
             retired = flag === true;
             body = rest;
           }
+          if (body !== null && typeof body === 'object' && 'revision' in body) {
+            const { revision: r, ...rest } = body as Record<string, unknown>;
+            if (typeof r !== 'number' || !Number.isInteger(r) || r < 1) problems.push({ path: `${name}[${i}].revision`, message: 'the revision it was exported at: a whole number from 1' });
+            else revision = r;
+            body = rest;
+          }
           try {
             const record = parseRecord(type, body, [name, i]);
             if (seen[type].has(record.id)) problems.push({ path: `${name}[${i}].id`, message: `duplicate id "${record.id}" in this import` });
             seen[type].add(record.id);
-            parsed.push({ type, record, retired, index: i });
+            parsed.push({ type, record, retired, revision, index: i });
           } catch (e) {
             if (e instanceof InputError) problems.push(...e.problems);
             else throw e;
@@ -157,11 +180,26 @@ export function shelfService(repo: ShelfRepository) {
         if (p.type === 'species') problems.push(...referenceProblems(p.record as SpeciesRecord, exists, `species[${p.index}].`));
       });
       if (problems.length > 0) throw new InputError(problems);
-      const summary = { created: 0, revised: 0, unchanged: 0 };
+      const summary = { created: 0, revised: 0, unchanged: 0, overwritten: 0 };
+      // the check and the writes under one write lock (BEGIN IMMEDIATE): no edit slips in between
       repo.transaction(() => {
+        const conflicts: ImportConflict[] = [];
+        const replaced = new Map<(typeof parsed)[number], number>();
         for (const p of parsed) {
-          const outcome = repo.upsert(p.type, p.record.id, { ...fields(p.type, p.record), retired: p.retired }, meta);
+          const cur = repo.get(p.type, p.record.id);
+          if (!cur || sameContent(cur, { ...fields(p.type, p.record), retired: p.retired })) continue;
+          if (p.revision !== null && cur.revision <= p.revision) continue;
+          replaced.set(p, cur.revision);
+          const path = `${p.type === 'chemical' ? 'chemicals' : 'species'}[${p.index}]`;
+          conflicts.push({ path, type: p.type, id: p.record.id, exportedRevision: p.revision, currentRevision: cur.revision });
+        }
+        if (conflicts.length > 0 && !options.overwrite) throw new ImportConflictError(conflicts);
+        for (const p of parsed) {
+          const over = replaced.get(p);
+          const note = over === undefined ? meta.note : `${meta.note ?? 'import'}; replaced revision ${over}, newer than the export (${p.revision === null ? 'no exported revision' : `exported at ${p.revision}`}), by overwrite`;
+          const outcome = repo.upsert(p.type, p.record.id, { ...fields(p.type, p.record), retired: p.retired }, { ...meta, note: note ?? null });
           summary[outcome]++;
+          if (over !== undefined) summary.overwritten++;
         }
       });
       return summary;

@@ -12,6 +12,24 @@ export type Db = Database.Database;
 /** migrations/ at the package root (found the same way from server/ and dist/server/). */
 export const MIGRATIONS_DIR = packagePath('migrations');
 
+/**
+ * How long a connection waits for another one's write lock before SQLITE_BUSY (→ HTTP 409 `busy`).
+ * Write transactions are short (one revision, one import), so a wait this long is rare.
+ */
+export const BUSY_TIMEOUT_MS = 5000;
+
+/**
+ * Run `fn` as a write transaction that starts with BEGIN IMMEDIATE: the write lock is taken
+ * first (waiting up to the busy timeout), so the reads inside see the latest data and the write
+ * that follows can never fail with SQLITE_BUSY_SNAPSHOT, as a deferred transaction's read-then-
+ * write does at once, without waiting, when another process committed in between (sqlite.org,
+ * "Result and Error Codes", SQLITE_BUSY_SNAPSHOT; "BEGIN TRANSACTION", IMMEDIATE). Nested
+ * calls become savepoints of the outer transaction (better-sqlite3).
+ */
+export function writeTransaction<T>(db: Database.Database, fn: () => T): T {
+  return db.transaction(fn).immediate();
+}
+
 /** The database file was written by a newer brink than this one. */
 export class DatabaseTooNewError extends Error {
   override readonly name = 'DatabaseTooNewError';
@@ -58,14 +76,19 @@ export function migrate(db: Db, migrations: Migration[] = loadMigrations()): num
   const latest = migrations.length === 0 ? 0 : migrations[migrations.length - 1]!.version;
   if (current > latest) throw new DatabaseTooNewError(current, latest);
   const record = db.prepare('INSERT INTO schema_migrations (version, name, applied_at) VALUES (?, ?, ?)');
+  const versionNow = db.prepare('SELECT COALESCE(MAX(version), 0) AS v FROM schema_migrations');
   const applied: number[] = [];
   for (const m of migrations) {
     if (m.version <= current) continue;
-    db.transaction(() => {
+    // IMMEDIATE, and the version read again inside: two processes opening one new file at once
+    // apply each migration once (the second waits for the lock, then finds it done)
+    const done = db.transaction(() => {
+      if ((versionNow.get() as { v: number }).v >= m.version) return false;
       db.exec(m.sql);
       record.run(m.version, m.name, new Date().toISOString());
-    })();
-    applied.push(m.version);
+      return true;
+    }).immediate();
+    if (done) applied.push(m.version);
   }
   return applied;
 }
@@ -80,14 +103,16 @@ export function schemaVersion(db: Db): number {
 /**
  * Open (creating if needed) a database and migrate it.
  * Pragmas: WAL journal (file databases), foreign keys on, 5 s busy timeout.
+ * Every write transaction of brink starts with BEGIN IMMEDIATE (`writeTransaction`).
  */
 export function openDatabase(path: string, options: { migrations?: Migration[] } = {}): Db {
   if (path !== ':memory:') mkdirSync(dirname(path), { recursive: true });
   const db = new Database(path);
   try {
+    // the busy timeout first: switching to WAL takes a lock another process may hold for a moment
+    db.pragma(`busy_timeout = ${BUSY_TIMEOUT_MS}`);
     if (path !== ':memory:') db.pragma('journal_mode = WAL');
     db.pragma('foreign_keys = ON');
-    db.pragma('busy_timeout = 5000');
     migrate(db, options.migrations);
   } catch (e) {
     db.close();

@@ -4,7 +4,7 @@
  * the highest is current; a write names the version it was based on (0 for the first) and is refused
  * with `StaleVersionError` (409) when another write came first.
  */
-import type { Db } from './db.js';
+import { writeTransaction, type Db } from './db.js';
 import { StaleVersionError } from './errors.js';
 
 /** What a hazard set is about: a chemical (0004) or a species (0005). */
@@ -58,7 +58,7 @@ function versions(db: Db, kind: HazardKind) {
     },
     /** Write a new version; `baseVersion` (0 for the first; null: no check, the seed) guards against lost updates. */
     write<B>(id: string, baseVersion: number | null, body: B, meta: { author?: string; note?: string | null } = {}): StoredHazardSet<B> {
-      return db.transaction(() => {
+      return writeTransaction(db, () => {
         const cur = api.current<B>(id);
         const curVersion = cur?.version ?? 0;
         if (baseVersion !== null && baseVersion !== curVersion) {
@@ -66,7 +66,7 @@ function versions(db: Db, kind: HazardKind) {
         }
         st.insert.run(id, curVersion + 1, JSON.stringify(body), meta.author ?? 'anonymous', meta.note ?? null, new Date().toISOString());
         return api.current<B>(id)!;
-      })();
+      });
     },
   };
   return api;

@@ -1,5 +1,5 @@
 /** Stored raw measurements and their applications to species revisions. */
-import type { Db } from './db.js';
+import { writeTransaction, type Db } from './db.js';
 import { NotFoundError } from './shelf.js';
 
 export interface Measurement {
@@ -53,8 +53,10 @@ export function measurementsRepository(db: Db) {
   });
   return {
     create(m: { species: string; method: Measurement['method']; options: unknown; data: unknown; fileName: string | null; fit: unknown; author: string; note: string | null }): Measurement {
-      const info = st.insert.run(m.species, m.method, JSON.stringify(m.options), JSON.stringify(m.data), m.fileName, JSON.stringify(m.fit), m.author, m.note, new Date().toISOString());
-      return this.get(Number(info.lastInsertRowid));
+      return writeTransaction(db, () => {
+        const info = st.insert.run(m.species, m.method, JSON.stringify(m.options), JSON.stringify(m.data), m.fileName, JSON.stringify(m.fit), m.author, m.note, new Date().toISOString());
+        return this.get(Number(info.lastInsertRowid));
+      });
     },
     get(id: number): Measurement {
       const r = st.get.get(id) as Raw | undefined;
@@ -65,7 +67,7 @@ export function measurementsRepository(db: Db) {
       return (st.bySpecies.all(key) as Raw[]).map(toM);
     },
     recordApplication(id: number, revisionId: number, fields: string[]): void {
-      st.apply.run(id, revisionId, JSON.stringify(fields), new Date().toISOString());
+      writeTransaction(db, () => st.apply.run(id, revisionId, JSON.stringify(fields), new Date().toISOString()));
     },
   };
 }

@@ -3,10 +3,11 @@
  * over prepared statements. Bodies are JSON documents validated by the caller
  * (server/schema/shelf.ts); this layer only stores, versions and finds them.
  *
- * Every write is a synchronous transaction. Nothing is ever deleted: retiring
+ * Every write is a synchronous BEGIN IMMEDIATE transaction (db.ts writeTransaction) that reads
+ * the current revision and writes the next one under the write lock. Nothing is ever deleted: retiring
  * is a revision with `retired = 1`, restoring one with `retired = 0`.
  */
-import type { Db } from './db.js';
+import { writeTransaction, type Db } from './db.js';
 
 export type ItemType = 'chemical' | 'species';
 export type Action = 'create' | 'edit' | 'retire' | 'restore' | 'import';
@@ -35,12 +36,12 @@ export class NotFoundError extends Error {
   override readonly name = 'NotFoundError';
 }
 
-/** An edit based on a revision that is no longer current. */
-export class StaleRevisionError extends Error {
+/** An edit based on a revision that is no longer current (`current`: a shelf item's, or a plan's name and notes). */
+export class StaleRevisionError<C = Revision> extends Error {
   override readonly name = 'StaleRevisionError';
   constructor(
     message: string,
-    readonly current: Revision,
+    readonly current: C,
   ) {
     super(message);
   }
@@ -109,6 +110,11 @@ export interface WriteMeta {
   at?: string;
 }
 
+/** Whether a write of these fields would change nothing (same record, status, name and kind). */
+export function sameContent(cur: Revision, fields: { kind: string | null; name: string; record: unknown; retired: boolean }): boolean {
+  return JSON.stringify(cur.record) === JSON.stringify(fields.record) && cur.retired === fields.retired && cur.name === fields.name && cur.kind === fields.kind;
+}
+
 /** The repository over one database. */
 export function shelfRepository(db: Db) {
   const st = {
@@ -147,7 +153,7 @@ export function shelfRepository(db: Db) {
     const at = meta.at ?? new Date().toISOString();
     const author = meta.author ?? 'anonymous';
     const body = JSON.stringify(fields.record);
-    return db.transaction(() => {
+    return writeTransaction(db, () => {
       const item = st.item.get(type, key) as { id: number; current_revision: number; retired: number } | undefined;
       if (!item) {
         if (action !== 'create' && action !== 'import') throw new NotFoundError(`no ${type} "${key}" on the shelf`);
@@ -167,7 +173,7 @@ export function shelfRepository(db: Db) {
       st.insertRevision.run(item.id, next, action, fields.retired ? 1 : 0, body, author, meta.note ?? null, at);
       st.updateItem.run(next, fields.retired ? 1 : 0, fields.kind, fields.name, item.id);
       return mustGet<B>(type, key);
-    })();
+    });
   }
 
   return {
@@ -224,32 +230,38 @@ export function shelfRepository(db: Db) {
 
     /** A new revision with a new record; `baseRevision` guards against lost updates (null: unguarded, for import). */
     edit<B>(type: ItemType, key: string, baseRevision: number | null, fields: { kind: string | null; name: string; record: B }, meta: WriteMeta = {}, action: Action = 'edit'): Revision<B> {
-      const cur = mustGet<B>(type, key);
-      return write(type, key, action, { ...fields, retired: cur.retired }, meta, baseRevision);
+      return writeTransaction(db, () => {
+        const cur = mustGet<B>(type, key);
+        return write(type, key, action, { ...fields, retired: cur.retired }, meta, baseRevision);
+      });
     },
 
     /** Create or revise from an import; unchanged when the record and status are the same. */
     upsert<B>(type: ItemType, key: string, fields: { kind: string | null; name: string; record: B; retired: boolean }, meta: WriteMeta = {}): 'created' | 'revised' | 'unchanged' {
-      const cur = get<B>(type, key);
-      if (!cur) {
+      return writeTransaction(db, () => {
+        const cur = get<B>(type, key);
+        if (!cur) {
+          write(type, key, 'import', fields, meta, null);
+          return 'created';
+        }
+        if (sameContent(cur, fields)) return 'unchanged';
         write(type, key, 'import', fields, meta, null);
-        return 'created';
-      }
-      if (JSON.stringify(cur.record) === JSON.stringify(fields.record) && cur.retired === fields.retired && cur.name === fields.name && cur.kind === fields.kind) return 'unchanged';
-      write(type, key, 'import', fields, meta, null);
-      return 'revised';
+        return 'revised';
+      });
     },
 
     /** Retire (hide from pickers, keep readable) or restore. */
     setRetired<B>(type: ItemType, key: string, retired: boolean, baseRevision: number | null, meta: WriteMeta = {}): Revision<B> {
-      const cur = mustGet<B>(type, key);
-      if (cur.retired === retired) return cur;
-      return write(type, key, retired ? 'retire' : 'restore', { kind: cur.kind, name: cur.name, record: cur.record, retired }, meta, baseRevision);
+      return writeTransaction(db, () => {
+        const cur = mustGet<B>(type, key);
+        if (cur.retired === retired) return cur;
+        return write(type, key, retired ? 'retire' : 'restore', { kind: cur.kind, name: cur.name, record: cur.record, retired }, meta, baseRevision);
+      });
     },
 
-    /** Run several writes atomically (better-sqlite3 transactions nest as savepoints). */
+    /** Run several writes atomically, under the write lock from the start (BEGIN IMMEDIATE; nested ones are savepoints). */
     transaction<T>(fn: () => T): T {
-      return db.transaction(fn)();
+      return writeTransaction(db, fn);
     },
   };
 }

@@ -14,9 +14,11 @@ async function app(demoShelf = false) {
   apps.push(a);
   return a;
 }
+/** A document without its time and the entries' exported revisions (numbered by each database: 2 in one, 1 in a fresh one). */
 const without = (doc: Record<string, unknown>) => {
   const { exportedAt: _e, ...rest } = doc;
-  return rest;
+  const strip = (list: unknown) => (list as { revision?: number }[]).map(({ revision: _r, ...x }) => x);
+  return { ...rest, chemicals: strip(rest.chemicals), species: strip(rest.species) };
 };
 
 describe('shelf export and import', () => {
@@ -29,17 +31,19 @@ describe('shelf export and import', () => {
     const b = await app(false);
     const imp = await b.inject({ method: 'POST', url: '/api/shelf/import', payload: first });
     expect(imp.statusCode).toBe(200);
-    expect(imp.json()).toEqual({ created: 11, revised: 0, unchanged: 0 });
+    expect(imp.json()).toEqual({ created: 11, revised: 0, unchanged: 0, overwritten: 0 });
     const second = (await b.inject({ method: 'GET', url: '/api/shelf/export' })).json();
     expect(without(second)).toEqual(without(first));
     // importing the same document again changes nothing
-    expect((await b.inject({ method: 'POST', url: '/api/shelf/import', payload: first })).json()).toEqual({ created: 0, revised: 0, unchanged: 11 });
+    expect((await b.inject({ method: 'POST', url: '/api/shelf/import', payload: first })).json()).toEqual({ created: 0, revised: 0, unchanged: 11, overwritten: 0 });
   });
 
   it('the demo shelf file imports and exports back as written', async () => {
     const a = await app(true);
     const out = (await a.inject({ method: 'GET', url: '/api/shelf/export' })).json();
-    const byId = (list: { id: string }[]) => Object.fromEntries(list.map((x) => [x.id, x]));
+    // each entry carries the revision it was exported at (1 here), which the hand-written file has not
+    expect(new Set([...out.species, ...out.chemicals].map((x: { revision: number }) => x.revision))).toEqual(new Set([1]));
+    const byId = (list: { id: string; revision?: number }[]) => Object.fromEntries(list.map(({ revision: _r, ...x }) => [x.id, x]));
     expect(byId(out.species)).toEqual(byId(demo.species.map((s: Record<string, unknown>) => JSON.parse(JSON.stringify(s, (k, v) => (k === 'product' && v === null ? null : v))))));
     expect(byId(out.chemicals)).toEqual(byId(demo.chemicals));
   });
@@ -72,11 +76,76 @@ describe('shelf export and import', () => {
 
   it('an import revises changed items and keeps their history', async () => {
     const a = await app(true);
-    const doc = JSON.parse(JSON.stringify(demo));
+    const doc = (await a.inject({ method: 'GET', url: '/api/shelf/export' })).json();
     doc.species[0].diffusivity = { value: '0.25 um^2/s', sd: '0.02 um^2/s' };
-    expect((await a.inject({ method: 'POST', url: '/api/shelf/import', payload: doc })).json()).toEqual({ created: 0, revised: 1, unchanged: 10 });
+    expect((await a.inject({ method: 'POST', url: '/api/shelf/import', payload: doc })).json()).toEqual({ created: 0, revised: 1, unchanged: 10, overwritten: 0 });
     const h = (await a.inject({ method: 'GET', url: `/api/species/${doc.species[0].id}/revisions` })).json();
     expect(h.revisions.map((x: { action: string }) => x.action)).toEqual(['import', 'import']);
-    expect(h.revisions[0].record.diffusivity.input).toBe('0.22 um^2/s');
+    expect(h.revisions[1].record.diffusivity.input).toBe('0.25 um^2/s');
+    expect(h.revisions[0].record.diffusivity.input).not.toBe('0.25 um^2/s');
+  });
+
+  it('an old export does not undo a newer edit: 409 per entry, nothing written, unless overwrite=true', async () => {
+    const a = await app(true);
+    const old = (await a.inject({ method: 'GET', url: '/api/shelf/export' })).json();
+    const b07 = old.species.findIndex((s: { id: string }) => s.id === 'ptj-1um-b07');
+    const h2o2 = old.chemicals.findIndex((c: { id: string }) => c.id === 'h2o2');
+    // a colleague edits two items after the export
+    const sp = (await a.inject({ method: 'GET', url: '/api/species/ptj-1um-b07' })).json();
+    expect((await a.inject({ method: 'PUT', url: '/api/species/ptj-1um-b07', payload: { baseRevision: 1, record: { ...sp.typed, radius: '1.1 um' } } })).statusCode).toBe(200);
+    const ch = (await a.inject({ method: 'GET', url: '/api/chemicals/h2o2' })).json();
+    expect((await a.inject({ method: 'PUT', url: '/api/chemicals/h2o2', payload: { baseRevision: 1, record: { ...ch.typed, lossRate: '1e-5 1/s' } } })).statusCode).toBe(200);
+    // the old file, with a new item and an edit of an untouched one, is imported
+    const doc = JSON.parse(JSON.stringify(old));
+    doc.species.push({ ...doc.species[b07], id: 'ptj-new', name: 'a new batch (invented)', revision: undefined });
+    doc.species[0].name = doc.species[0].id === 'ptj-1um-b07' ? doc.species[0].name : `${doc.species[0].name} (renamed)`;
+    const r = await a.inject({ method: 'POST', url: '/api/shelf/import', payload: doc });
+    expect(r.statusCode).toBe(409);
+    const body = r.json();
+    expect(body.error).toBe('import-conflict');
+    expect(body.conflicts).toEqual([
+      { path: `chemicals[${h2o2}]`, type: 'chemical', id: 'h2o2', exportedRevision: 1, currentRevision: 2 },
+      { path: `species[${b07}]`, type: 'species', id: 'ptj-1um-b07', exportedRevision: 1, currentRevision: 2 },
+    ]);
+    expect(body.message).toMatch(/was exported at revision 1, the shelf is at revision 2/);
+    // all or nothing: the new item is not there, the edits stand
+    expect((await a.inject({ method: 'GET', url: '/api/species/ptj-new' })).statusCode).toBe(404);
+    expect((await a.inject({ method: 'GET', url: '/api/species/ptj-1um-b07' })).json()).toMatchObject({ revision: 2 });
+    // asked to, the import replaces the newer edits, as new revisions that say so; the history keeps them
+    const forced = await a.inject({ method: 'POST', url: '/api/shelf/import?overwrite=true', payload: doc });
+    expect(forced.statusCode).toBe(200);
+    expect(forced.json()).toMatchObject({ created: 1, overwritten: 2 });
+    const h = (await a.inject({ method: 'GET', url: '/api/species/ptj-1um-b07/revisions' })).json().revisions;
+    expect(h.map((x: { revision: number; action: string }) => [x.revision, x.action])).toEqual([
+      [1, 'import'],
+      [2, 'edit'],
+      [3, 'import'],
+    ]);
+    expect(h[2].note).toMatch(/replaced revision 2, newer than the export \(exported at 1\), by overwrite/);
+    expect(h[2].record.radius.input).toBe(h[0].record.radius.input);
+    // an entry exported at the current revision is an ordinary edit
+    const fresh = (await a.inject({ method: 'GET', url: '/api/shelf/export' })).json();
+    fresh.species[b07].radius = '1.2 um';
+    expect((await a.inject({ method: 'POST', url: '/api/shelf/import', payload: fresh })).json()).toMatchObject({ revised: 1, overwritten: 0 });
+  });
+
+  it('an entry without an exported revision (format 1, the demo file) conflicts when its item exists and differs', async () => {
+    const a = await app(true);
+    const doc = JSON.parse(JSON.stringify(demo));
+    expect(doc.version).toBe(1);
+    // unchanged entries are no conflict: the demo file imports again as "unchanged"
+    expect((await a.inject({ method: 'POST', url: '/api/shelf/import', payload: doc })).json()).toEqual({ created: 0, revised: 0, unchanged: 11, overwritten: 0 });
+    doc.species[0].diffusivity = { value: '0.25 um^2/s', sd: '0.02 um^2/s' };
+    const r = await a.inject({ method: 'POST', url: '/api/shelf/import', payload: doc });
+    expect(r.statusCode).toBe(409);
+    expect(r.json().conflicts).toEqual([{ path: 'species[0]', type: 'species', id: doc.species[0].id, exportedRevision: null, currentRevision: 1 }]);
+    expect(r.json().message).toMatch(/carries no exported revision/);
+    expect((await a.inject({ method: 'POST', url: '/api/shelf/import?overwrite=true', payload: doc })).json()).toEqual({ created: 0, revised: 1, unchanged: 10, overwritten: 1 });
+    // a bad exported revision is a 400 naming the field
+    const bad = (await a.inject({ method: 'GET', url: '/api/shelf/export' })).json();
+    bad.species[1].revision = 0;
+    const b = await a.inject({ method: 'POST', url: '/api/shelf/import', payload: bad });
+    expect(b.statusCode).toBe(400);
+    expect(b.json().problems).toEqual([{ path: 'species[1].revision', message: 'the revision it was exported at: a whole number from 1' }]);
   });
 });

@@ -68,11 +68,37 @@ describe('plans', () => {
     const list = (await app.inject({ method: 'GET', url: '/api/plans' })).json();
     expect(list.total).toBe(2);
     expect(list.items[0].id).toBeGreaterThan(list.items[1].id);
-    const r = await app.inject({ method: 'PATCH', url: `/api/plans/${id}`, payload: { name: 'renamed', notes: 'try 0.5x and 2x around the threshold' } });
-    expect(r.json()).toMatchObject({ name: 'renamed', notes: 'try 0.5x and 2x around the threshold' });
+    expect(list.items[0].revision).toBe(1);
+    const r = await app.inject({ method: 'PATCH', url: `/api/plans/${id}`, payload: { baseRevision: 1, name: 'renamed', notes: 'try 0.5x and 2x around the threshold', author: 'a student (invented)' } });
+    expect(r.json()).toMatchObject({ name: 'renamed', notes: 'try 0.5x and 2x around the threshold', revision: 2 });
     expect(r.json().result).toEqual(stored.result);
     expect(() => app.db.prepare('UPDATE plans SET result = ? WHERE id = ?').run('{}', id)).toThrow(/immutable/);
     expect(() => app.db.prepare('DELETE FROM plans').run()).toThrow(/never deleted/);
+  });
+
+  it('names and notes are revisions: PATCH needs the current revision, the history keeps every one', async () => {
+    const now = (await app.inject({ method: 'GET', url: `/api/plans/${id}` })).json();
+    expect(now).toMatchObject({ name: 'renamed', revision: 2 });
+    expect(now.history.map((h: { revision: number; name: string; author: string }) => [h.revision, h.name, h.author])).toEqual([
+      [1, request.name, 'anonymous'],
+      [2, 'renamed', 'a student (invented)'],
+    ]);
+    // a second client still at revision 1 is refused with the current name and notes
+    const stale = await app.inject({ method: 'PATCH', url: `/api/plans/${id}`, payload: { baseRevision: 1, notes: 'an older idea' } });
+    expect(stale.statusCode).toBe(409);
+    expect(stale.json()).toMatchObject({ error: 'stale-revision', current: { revision: 2, name: 'renamed', notes: 'try 0.5x and 2x around the threshold' } });
+    expect(stale.json().message).toMatch(/now at revision 2/);
+    // only the notes: the name is kept
+    const notes = (await app.inject({ method: 'PATCH', url: `/api/plans/${id}`, payload: { baseRevision: 2, notes: 'ordered more B07' } })).json();
+    expect(notes).toMatchObject({ name: 'renamed', notes: 'ordered more B07', revision: 3 });
+    // the same text again writes nothing
+    expect((await app.inject({ method: 'PATCH', url: `/api/plans/${id}`, payload: { baseRevision: 3, notes: 'ordered more B07' } })).json().revision).toBe(3);
+    expect((await app.inject({ method: 'PATCH', url: `/api/plans/${id}`, payload: { name: 'no base' } })).statusCode).toBe(400);
+    expect((await app.inject({ method: 'PATCH', url: '/api/plans/999', payload: { baseRevision: 1, name: 'x' } })).statusCode).toBe(404);
+    // below the API: the name cannot be changed without a revision, and revisions cannot be rewritten
+    expect(() => app.db.prepare("UPDATE plans SET name = 'sneaky' WHERE id = ?").run(id)).toThrow(/only by a new revision/);
+    expect(() => app.db.prepare("UPDATE plan_text_revisions SET name = 'sneaky'").run()).toThrow(/immutable/);
+    expect(() => app.db.prepare('DELETE FROM plan_text_revisions').run()).toThrow(/immutable/);
   });
 
   it('errors: bad boundary, unknown candidate, unknown plan, candidate in the base', async () => {

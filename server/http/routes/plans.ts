@@ -3,8 +3,9 @@
  *
  *   POST  /api/plans              start a screening request as a job (202; the job stores the plan when done)
  *   GET   /api/plans              list (newest first)
- *   GET   /api/plans/:id          the stored request, inputs, revisions and results
- *   PATCH /api/plans/:id          rename / annotate { name?, notes? }
+ *   GET   /api/plans/:id          the stored request, inputs, revisions and results; name, notes, their revision and history
+ *   PATCH /api/plans/:id          rename / annotate { baseRevision, name?, notes?, author? }: a new revision
+ *                                 of the name and notes, 409 stale-revision when baseRevision is not the current
  *   POST  /api/plans/:id/rerun    the same request on the current shelf as a job: a new plan
  *
  * Validation, unknown ids and the work budget (server/jobs/budget.ts) answer 400 / 404 before a
@@ -52,11 +53,20 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
   });
   app.get('/api/plans/:id', { schema: { tags, summary: 'A stored plan with the numbers it was computed with', params }, handler: async (req) => app.plans.get(req.params.id) });
   app.patch('/api/plans/:id', {
-    schema: { tags, summary: 'Rename a plan or change its notes (results never change)', params, body: z.strictObject({ name: z.string().min(1).max(200).optional(), notes: z.string().max(5000).optional() }) },
-    handler: async (req) => {
-      const cur = app.plans.get(req.params.id);
-      return app.plans.rename(req.params.id, req.body.name ?? cur.name, req.body.notes ?? cur.notes);
+    schema: {
+      tags,
+      summary: 'Rename a plan or change its notes: a new revision of them (results never change), refused with 409 if baseRevision is not the current one',
+      description:
+        "The plan's GET shows `revision` (of its name and notes) and `history` (every name and notes it has had, oldest first). Send that revision as baseRevision; an absent name or notes is kept. When someone else changed them first, the answer is 409 stale-revision with `current` (their revision, name, notes, author). Sending what is already there writes nothing.",
+      params,
+      body: z.strictObject({
+        baseRevision: z.number().int().min(1),
+        name: z.string().min(1).max(200).optional(),
+        notes: z.string().max(5000).optional(),
+        author: z.string().min(1).max(200).optional(),
+      }),
     },
+    handler: async (req) => app.plans.rename(req.params.id, req.body.baseRevision, { name: req.body.name, notes: req.body.notes }, req.body.author),
   });
   app.post('/api/plans/:id/rerun', {
     schema: { tags, summary: 'Start a job that runs the same request on the current shelf: a new plan that points back to this one', params },

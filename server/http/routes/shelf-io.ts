@@ -12,10 +12,12 @@ export const shelfIoRoutes: FastifyPluginAsync = async (base) => {
   app.post('/api/shelf/import', {
     schema: {
       tags: ['shelf'],
-      summary: 'Import a shelf document: all or nothing; every bad entry is reported by its path',
-      querystring: z.strictObject({ author: z.string().min(1).max(200).optional() }),
+      summary: 'Import a shelf document: all or nothing; every bad entry is reported by its path; an entry that would undo a newer edit is refused (409) unless overwrite=true',
+      description:
+        'Each entry of an export carries `revision`, the revision it was exported at. If an item has a newer revision here and the entry differs from it, importing would undo that edit: the answer is 409 import-conflict listing every such entry (`conflicts`: path, type, id, exportedRevision, currentRevision) and nothing is written. `overwrite=true` imports them anyway (as new revisions whose note names the one replaced; history keeps both). Entries without `revision` (exports of format version 1, hand-written files) conflict whenever their item exists and differs. Identical entries are left alone; new ids are created. The answer counts created, revised, unchanged and overwritten (revised over a newer edit).',
+      querystring: z.strictObject({ author: z.string().min(1).max(200).optional(), overwrite: z.enum(['true', 'false']).default('false') }),
       body: z.unknown(),
     },
-    handler: async (req) => app.shelf.importShelf(req.body, { author: req.query.author ?? 'import', note: 'shelf import' }),
+    handler: async (req) => app.shelf.importShelf(req.body, { author: req.query.author ?? 'import', note: 'shelf import' }, { overwrite: req.query.overwrite === 'true' }),
   });
 };
