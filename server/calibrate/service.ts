@@ -112,7 +112,8 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
       });
     },
 
-    apply(measurementId: number, req: ApplyRequest) {
+    /** `note`: words added to the revision's note (who the client said the author was, when a token names another) */
+    apply(measurementId: number, req: ApplyRequest, note: string | null = null) {
       const m = repo.get(measurementId);
       const fit = m.fit as FitResult;
       const cur = shelf.repo.mustGet<SpeciesRecord>('species', m.species);
@@ -197,7 +198,7 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
         fields.push(`couplings[${req.chemical}].mobility`);
       }
       const record = parseRecord('species', typed, ['record']);
-      const rev = shelf.edit('species', m.species, req.baseRevision, record, { author, note: `applied measurement ${m.id} (${m.method})${sdCaveat}` });
+      const rev = shelf.edit('species', m.species, req.baseRevision, record, { author, note: `applied measurement ${m.id} (${m.method})${sdCaveat}${note ? `; ${note}` : ''}` });
       repo.recordApplication(m.id, rev.revisionId, fields);
       return rev;
     },

@@ -24,6 +24,8 @@ import { shelfService, type ShelfService } from '../shelf/service.js';
 import { plansRepository } from '../store/plans.js';
 import type { Db } from '../store/db.js';
 import { shelfRepository } from '../store/shelf.js';
+import { tokensRepository } from '../store/tokens.js';
+import { registerAccess, type AccessConfig } from './access.js';
 import { errorHandler, RequestValidationError } from './errors.js';
 import { analyzeRoutes } from './routes/analyze.js';
 import { calibrateRoutes } from './routes/calibrate.js';
@@ -55,6 +57,8 @@ export interface AppConfig {
   /** jobs held in memory (default 200), and how long an ended job stays readable, s (default 3600) */
   maxJobs?: number;
   keepJobs?: number;
+  /** access control, Host allow-list and security headers (server/http/access.ts); default: loopback names, tokens required once one exists */
+  access?: AccessConfig;
 }
 
 declare module 'fastify' {
@@ -92,6 +96,8 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
 
   // The database: decorate, and close with the app when it belongs to the app.
   app.decorate('db', db);
+  // Who may send what, and the security headers: hooks on the root, before any route exists (access.ts).
+  await registerAccess(app, { tokens: tokensRepository(db), ...(config.access ? { config: config.access } : {}) });
   const shelf = shelfService(shelfRepository(db));
   app.decorate('shelf', shelf);
   // engine work off the event loop: a pool of worker threads, and jobs for the long work (server/jobs/)

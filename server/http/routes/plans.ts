@@ -5,7 +5,7 @@
  *   GET   /api/plans              list (newest first)
  *   GET   /api/plans/:id          the stored request, inputs, revisions and results
  *   PATCH /api/plans/:id          rename / annotate { name?, notes? }
- *   POST  /api/plans/:id/rerun    the same request on the current shelf as a job: a new plan
+ *   POST  /api/plans/:id/rerun    the same request on the current shelf as a job: a new plan   {}
  *
  * Validation, unknown ids and the work budget (server/jobs/budget.ts) answer 400 / 404 before a
  * job starts; the job (GET /api/jobs/:id) then carries the plan's id, or the error it ended with.
@@ -40,7 +40,7 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
       (req as unknown as { sent: unknown }).sent = JSON.parse(JSON.stringify(req.body ?? null));
       done();
     },
-    handler: async (req, reply) => accepted(reply, app.plans.start((req as unknown as { sent: unknown }).sent)),
+    handler: async (req, reply) => accepted(reply, app.plans.start((req as unknown as { sent: unknown }).sent, req.accessHolder)),
   });
   app.get('/api/plans', {
     schema: {
@@ -59,7 +59,13 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
     },
   });
   app.post('/api/plans/:id/rerun', {
-    schema: { tags, summary: 'Start a job that runs the same request on the current shelf: a new plan that points back to this one', params },
-    handler: async (req, reply) => accepted(reply, app.plans.rerun(req.params.id)),
+    schema: {
+      tags,
+      summary: 'Start a job that runs the same request on the current shelf: a new plan that points back to this one',
+      description: 'Send `{}` with content-type application/json (or a bearer token): a body-less POST is refused, since a page of another site could send one.',
+      params,
+      body: z.strictObject({}).optional(),
+    },
+    handler: async (req, reply) => accepted(reply, app.plans.rerun(req.params.id, req.accessHolder)),
   });
 };
