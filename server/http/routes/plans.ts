@@ -64,7 +64,7 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
       summary: 'Start a job that runs the same request on the current shelf: a new plan that points back to this one',
       description: 'Send `{}` with content-type application/json (or a bearer token): a body-less POST is refused, since a page of another site could send one.',
       params,
-      body: z.strictObject({}).optional(),
+      body: z.strictObject({}).nullish(),
     },
     handler: async (req, reply) => accepted(reply, app.plans.rerun(req.params.id, req.accessHolder)),
   });

@@ -82,7 +82,7 @@ export const shelfItemRoutes: FastifyPluginAsync<{ type: ShelfType; path: string
         tags,
         summary: retired ? `Retire a ${noun}: hidden from lists, still readable, never deleted` : `Restore a retired ${noun}`,
         params,
-        body: z.strictObject({ baseRevision: z.number().int().min(1).optional(), ...meta }).optional(),
+        body: z.strictObject({ baseRevision: z.number().int().min(1).optional(), ...meta }).nullish(),
       },
       handler: async (req) => {
         const b = req.body ?? {};
