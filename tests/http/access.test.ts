@@ -203,7 +203,7 @@ describe('with tokens: every write needs one, and its holder is the author', () 
 
   it("a plan's author is the holder (the author given goes into its notes); a rerun's is its own holder", async () => {
     const req = { base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }], chemicals: { h2o2: '200 mM' }, chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' }, boundary: 'stationary', candidates: ['ptj-1um-b07'], author: 'x (invented)', notes: 'first try' };
-    const withToken = (t: string) => ({ inject: (o: { method: 'GET' | 'POST' | 'DELETE'; url: string; payload?: unknown }) => app.inject({ ...o, headers: bearer(t) }) });
+    const withToken = (t: string) => ({ inject: (o: { method: 'GET' | 'POST' | 'DELETE'; url: string; payload?: unknown }) => app.inject({ ...o, payload: o.payload as object, headers: bearer(t) }) });
     expect((await postPlan(app, req)).statusCode).toBe(401);
     const p = await postPlan(withToken(ada), req);
     expect(p.statusCode).toBe(201);
