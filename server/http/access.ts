@@ -5,9 +5,11 @@
  *
  * On every request (onRequest, before the body is read):
  *
- * 1. **Host allow-list** (DNS rebinding): the `Host` header must name localhost, 127.0.0.1 or [::1]
- *    at the port the service listens on, or an entry of `allowedHosts` (`name` at any port, or
- *    `name:port`); `'*'` serves any Host. Otherwise 421 `misdirected`.
+ * 1. **Host allow-list** (DNS rebinding): the `Host` header must name localhost, 127.0.0.1 or [::1],
+ *    or an entry of `allowedHosts` (`name` at any port, or `name:port`); `'*'` serves any Host.
+ *    Otherwise 421 `misdirected`. The loopback names match at any port: what defeats a rebound
+ *    name is the name itself (the attacker's page sends its own), and a page of another local
+ *    port is another origin, held off by the rules on writes below and by CORS on reads.
  * 2. **Bearer token**: an `Authorization: Bearer <token>` header is always checked: unknown → 401
  *    `invalid-token`, revoked → 401 `revoked-token`; a valid one names its holder
  *    (`req.accessHolder`), who becomes the author of what the request writes (`authorship`).
@@ -32,6 +34,8 @@
  * scripts (the pages' scripts are files under web/; the bench sheet's one inline <style> is
  * allowed by its hash), framing refused (frame-ancestors 'none', X-Frame-Options DENY), nosniff,
  * no referrer. No HSTS: the service speaks plain HTTP; a TLS proxy in front sets its own.
+ * The API reference (/api/docs, Swagger UI) is the one exception: its script adds <style>
+ * elements, so its answers allow inline styles (never inline scripts).
  */
 import { createHash } from 'node:crypto';
 import fastifyHelmet from '@fastify/helmet';
@@ -55,7 +59,7 @@ declare module 'fastify' {
   }
 }
 
-/** The loopback names served by default, at the port the service listens on. */
+/** The loopback names served by default (at any port). */
 export const LOOPBACK_HOSTS = ['localhost', '127.0.0.1', '[::1]'] as const;
 
 /** Whether an address to listen on is a loopback one (127.0.0.0/8, ::1, localhost). */
@@ -81,7 +85,7 @@ export function parseHost(value: string): HostPort | null {
   return { name: m[1]!, port };
 }
 
-type Entry = { name: string; port: number | null | 'listen' };
+type Entry = HostPort;
 
 /** The sheet's inline style for each paper, allowed by its hash (the sheet stays one self-contained file). */
 function sheetStyleHashes(): string[] {
@@ -106,30 +110,19 @@ const isApiRead = (url: string) => url.startsWith('/api/') && !url.startsWith('/
 export async function registerAccess(app: FastifyInstance, o: { tokens: TokensRepository; config?: AccessConfig }): Promise<void> {
   const cfg = o.config ?? {};
   const anyHost = cfg.allowedHosts === '*';
-  const entries: Entry[] = LOOPBACK_HOSTS.map((name) => ({ name, port: 'listen' as const }));
+  const entries: Entry[] = LOOPBACK_HOSTS.map((name) => ({ name, port: null }));
   for (const raw of anyHost ? [] : (cfg.allowedHosts as string[] | undefined) ?? []) {
     const h = parseHost(raw);
     if (!h) throw new Error(`allowed hosts: "${raw}" is not a host name, optionally with :port`);
     entries.push(h);
   }
-  const listenPort = (): number | null => {
-    const a = app.server.listening ? app.server.address() : null;
-    return typeof a === 'object' && a ? a.port : null;
-  };
   const allowed = (h: HostPort | null, defaultPort: number): boolean => {
     if (anyHost) return true;
     if (!h) return false;
     const port = h.port ?? defaultPort;
-    return entries.some((e) => {
-      if (e.name !== h.name) return false;
-      if (e.port === null) return true;
-      if (e.port === 'listen') {
-        const lp = listenPort();
-        return lp === null || lp === port;
-      }
-      return e.port === port;
-    });
+    return entries.some((e) => e.name === h.name && (e.port === null || e.port === port));
   };
+  const docsCsp = (csp: string) => csp.replace(/style-src [^;]*/, "style-src 'self' 'unsafe-inline'");
   const accessOn = () => Boolean(cfg.requireToken || cfg.tokenForReads) || o.tokens.activeCount() > 0;
 
   await app.register(fastifyHelmet, {
@@ -151,6 +144,11 @@ export async function registerAccess(app: FastifyInstance, o: { tokens: TokensRe
     },
     frameguard: { action: 'deny' },
     strictTransportSecurity: false,
+  });
+
+  app.addHook('onSend', async (req, reply) => {
+    const csp = reply.getHeader('content-security-policy');
+    if (typeof csp === 'string' && req.url.startsWith('/api/docs')) reply.header('content-security-policy', docsCsp(csp));
   });
 
   app.decorateRequest('accessHolder', null);
