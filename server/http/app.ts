@@ -153,6 +153,9 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
         { name: 'bench sheet', description: 'Printable protocols for plans, with hazards as handled' },
         { name: 'meta', description: 'Service facts' },
       ],
+      // a shared service wants `Authorization: Bearer <token>` on writes (reads too by its setting); open on loopback without tokens
+      components: { securitySchemes: { bearer: { type: 'http', scheme: 'bearer', description: 'An access token from `brink token create <holder>`: needed for every write when the service has tokens or listens beyond loopback, for reads too with --require-token-for-reads' } } },
+      security: [{}, { bearer: [] }],
     },
     transform: jsonSchemaTransform,
   });
