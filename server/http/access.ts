@@ -104,8 +104,22 @@ function refuse(reply: FastifyReply, status: number, error: string, message: str
   return reply.code(status).send({ error, message });
 }
 
-/** Whether a read is of lab data (the API), not a page, its files or the API reference. */
-const isApiRead = (url: string) => url.startsWith('/api/') && !url.startsWith('/api/docs');
+/**
+ * Whether a read is of lab data (the API), not a page, its files or the API reference. Judged by the
+ * route the router matched (it decodes the path: `/%61pi/species` is `/api/species`); a path no route
+ * matches, by its decoded form.
+ */
+function isApiRead(req: FastifyRequest): boolean {
+  let path = req.routeOptions.url;
+  if (path === undefined) {
+    try {
+      path = decodeURIComponent(req.url.split('?')[0]!);
+    } catch {
+      return true;
+    }
+  }
+  return path.startsWith('/api/') && !path.startsWith('/api/docs');
+}
 
 export async function registerAccess(app: FastifyInstance, o: { tokens: TokensRepository; config?: AccessConfig }): Promise<void> {
   const cfg = o.config ?? {};
@@ -194,7 +208,7 @@ export async function registerAccess(app: FastifyInstance, o: { tokens: TokensRe
       }
       return;
     }
-    if (cfg.tokenForReads && isApiRead(req.url)) {
+    if (cfg.tokenForReads && isApiRead(req)) {
       return refuse(reply, 401, 'token-required', 'this service needs an access token for reads too: send "Authorization: Bearer <token>"');
     }
   });
