@@ -157,6 +157,19 @@ describe('a service that wants a token for reads and writes, in the browser', ()
     expect(stored.json().author).toBe('Ada (invented)');
     // the one 401 is the first load, before the page asked; nothing else
     expect((await problems()).filter((p) => !/^HTTP 401: .*\/api\/species\?limit=500$/.test(p))).toEqual([]);
+
+    // the same tab's Planner: no second question; a plan runs (its progress by polling, since an
+    // event stream cannot carry the header) and its bench sheet link opens the sheet fetched with the token
+    await page.goto(`${base}/planner`);
+    await page.waitForSelector('#base option', { state: 'attached' });
+    await page.fill('#samples', '0');
+    await page.click('#run');
+    await page.waitForFunction(() => /plan \d+ stored/.test(document.getElementById('status')?.textContent ?? ''), undefined, { timeout: 50_000 });
+    expect(asked).toHaveLength(1);
+    const [sheet] = await Promise.all([page.context().waitForEvent('page'), page.click('#results a')]);
+    await sheet.waitForFunction(() => document.title.startsWith('Bench sheet'), undefined, { timeout: 20_000 });
+    expect(await sheet.$eval('h2', (h) => getComputedStyle(h).borderBottomStyle)).toBe('solid');
+    await sheet.close();
     await page.close();
-  }, 60_000);
+  }, 90_000);
 });
