@@ -3,7 +3,7 @@
  * shelf on the first run, build the app, listen, and shut down gracefully on
  * SIGINT / SIGTERM.
  */
-import { isLoopback } from './http/access.js';
+import { isLoopback, LOOPBACK_HOSTS } from './http/access.js';
 import { buildApp, type App } from './http/app.js';
 import { tokensRepository } from './store/tokens.js';
 import { ensureDemoShelf } from './shelf/seed.js';
@@ -74,7 +74,8 @@ export async function serve(o: ServeOptions): Promise<{ app: App; url: string }>
   // a specific address or name to listen on is a name clients use: served too (not the wildcards 0.0.0.0 and ::)
   const wildcard = ['0.0.0.0', '::', '[::]'].includes(o.host.trim());
   const bindName = o.host.includes(':') && !o.host.startsWith('[') ? `[${o.host}]` : o.host;
-  const allowedHosts: string[] | '*' = hostsRaw.includes('*') ? '*' : [...hostsRaw, ...(!loopback && !wildcard ? [bindName] : [])];
+  const listed = (LOOPBACK_HOSTS as readonly string[]).includes(bindName.toLowerCase()) || hostsRaw.includes(bindName);
+  const allowedHosts: string[] | '*' = hostsRaw.includes('*') ? '*' : [...hostsRaw, ...(!wildcard && !listed ? [bindName] : [])];
   if (ensureDemoShelf(db)) log(`loaded the demo shelf into ${o.dbPath}`);
   const workers = o.workers ?? envNumber('BRINK_WORKERS', true);
   const jobTimeLimit = o.jobTimeLimit ?? envNumber('BRINK_JOB_TIME_LIMIT', false);
@@ -93,7 +94,7 @@ export async function serve(o: ServeOptions): Promise<{ app: App; url: string }>
     : active > 0
       ? `a token is required for writes (${active} active; open again on loopback if all are revoked)`
       : 'open to this machine (loopback, no tokens)';
-  log(`access: ${access}; host names served: ${allowedHosts === '*' ? 'any' : ['localhost', '127.0.0.1', '[::1]', ...allowedHosts].join(', ')}`);
+  log(`access: ${access}; host names served: ${allowedHosts === '*' ? 'any' : [...LOOPBACK_HOSTS, ...allowedHosts].join(', ')}`);
   let closing = false;
   const stop = (signal: string) => {
     if (closing) return;
