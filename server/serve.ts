@@ -95,6 +95,7 @@ export async function serve(o: ServeOptions): Promise<{ app: App; url: string }>
       ? `a token is required for writes (${active} active; open again on loopback if all are revoked)`
       : 'open to this machine (loopback, no tokens)';
   log(`access: ${access}; host names served: ${allowedHosts === '*' ? 'any' : [...LOOPBACK_HOSTS, ...allowedHosts].join(', ')}`);
+  if (wildcard && allowedHosts !== '*' && allowedHosts.length === 0) log('  (other machines reach it by a name or address: add those with --allowed-hosts, or they get 421)');
   let closing = false;
   const stop = (signal: string) => {
     if (closing) return;
