@@ -10,7 +10,7 @@ export default tseslint.config(
   ...tseslint.configs.recommended,
   {
     files: ['web/**/*.js'],
-    languageOptions: { globals: { document: 'readonly', fetch: 'readonly', Node: 'readonly', window: 'readonly' } },
+    languageOptions: { globals: { document: 'readonly', fetch: 'readonly', Node: 'readonly', window: 'readonly', Option: 'readonly', URL: 'readonly', setTimeout: 'readonly', EventSource: 'readonly', sessionStorage: 'readonly' } },
   },
   {
     files: ['bin/**/*.js'],

@@ -7,7 +7,8 @@
  *   brink fit quantal <file> [--link …] [--scale …]        quantal dose–response (ED50) from dose, tubes, responded
  *   brink sheet <plan-id> [--db PATH] [options]            the bench sheet of a stored plan
  *   brink outcomes <plan-id> [file] [--db PATH] [options]  what each tube did: show, record (CSV/JSON), --dose-response
- *   brink serve [--db PATH] [--port N] [--host H]          the web service
+ *   brink serve [--db PATH] [--port N] [--host H] …      the web service (access: --require-token, --require-token-for-reads, --allowed-hosts)
+ *   brink token create <holder> | list | revoke <id|prefix> [--db PATH]   access tokens of the service
  *   brink seed [--reset] [--yes] [--db PATH]               load the demo shelf
  *   brink backup <file> [--db PATH]                        online backup, also while the service runs
  *   brink restore <file> [--db PATH] [--yes]               check a backup, keep the old file, put the backup in place
@@ -33,6 +34,7 @@ import { InputError } from './shelf/errors.js';
 import { seedDemoShelf } from './shelf/seed.js';
 import { BackupError, backupDatabase, inspectBackup, restoreDatabase } from './store/backup.js';
 import { DatabaseTooNewError, openDatabase } from './store/db.js';
+import { TokenError, tokensRepository } from './store/tokens.js';
 import { hazardsRepository } from './store/hazards.js';
 import { plansRepository } from './store/plans.js';
 import { shelfRepository, NotFoundError, StaleRevisionError } from './store/shelf.js';
@@ -85,6 +87,17 @@ usage:
   brink outcomes <plan-id> --dose-response [--candidate ID] [--revision N] [--link logit|probit|cloglog] [--scale log10|linear]
                                                      the empirical threshold: a quantal fit of the tubes that crossed
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
+              [--require-token] [--require-token-for-reads] [--allowed-hosts NAMES]
+                                                     open on loopback; beyond it (e.g. --host 0.0.0.0) only with
+                                                     access control: a token in the database, or --require-token
+                                                     (env BRINK_REQUIRE_TOKEN=1). With tokens every write needs
+                                                     "Authorization: Bearer <token>"; reads too with
+                                                     --require-token-for-reads (BRINK_REQUIRE_TOKEN_FOR_READS=1).
+                                                     --allowed-hosts "brink.lab,10.0.0.5:3080" (BRINK_ALLOWED_HOSTS):
+                                                     Host names served besides localhost, 127.0.0.1, [::1]; "*" any
+  brink token create <holder> [--db PATH]            a new access token: the secret is printed once (stdout)
+  brink token list [--db PATH] [--format text|json]  tokens: id, prefix, holder, created, revoked
+  brink token revoke <id|prefix> [--db PATH]         revoke a token (refused from then on; never deleted)
   brink seed [--reset] [--yes] [--db PATH]             load the demo shelf; --reset empties the database first
   brink backup <file> [--db PATH]                      copy the database to a new file (safe while brink serve runs)
   brink restore <file> [--db PATH] [--yes]             replace the database by a backup: checks it first, keeps the
@@ -192,12 +205,68 @@ function parsePort(text: string): number {
 
 async function cmdServe(args: string[]): Promise<number> {
   const d = defaults();
-  const { values } = parseArgs({ args, options: { db: { type: 'string', default: d.db }, port: { type: 'string', default: d.port }, host: { type: 'string', default: d.host } } });
-  const { serve } = await import('./serve.js');
-  await serve({ dbPath: values.db, port: parsePort(values.port), host: values.host });
+  const { values } = parseArgs({
+    args,
+    options: {
+      db: { type: 'string', default: d.db },
+      port: { type: 'string', default: d.port },
+      host: { type: 'string', default: d.host },
+      'require-token': { type: 'boolean' },
+      'require-token-for-reads': { type: 'boolean' },
+      'allowed-hosts': { type: 'string' },
+    },
+  });
+  const { serve, hostList } = await import('./serve.js');
+  await serve({
+    dbPath: values.db,
+    port: parsePort(values.port),
+    host: values.host,
+    ...(values['require-token'] ? { requireToken: true } : {}),
+    ...(values['require-token-for-reads'] ? { tokenForReads: true } : {}),
+    ...(values['allowed-hosts'] !== undefined ? { allowedHosts: hostList(values['allowed-hosts']) } : {}),
+  });
   return await new Promise<number>(() => {
     /* runs until a signal closes the server (serve.ts exits the process) */
   });
+}
+
+function cmdToken(args: string[], io: Io): number {
+  const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { db: { type: 'string', default: defaults().db }, format: { type: 'string', default: 'text' } } });
+  const [sub, ...rest] = positionals;
+  const usage = 'usage: brink token create <holder> | brink token list | brink token revoke <id|prefix>   [--db PATH]';
+  if (sub === 'create' ? rest.length !== 1 : sub === 'revoke' ? rest.length !== 1 : sub === 'list' ? rest.length !== 0 : true) throw new UsageError(usage);
+  if (sub !== 'create' && !existsSync(values.db)) throw new UsageError(`no database at ${values.db} (use --db PATH or BRINK_DB)`);
+  const db = openDatabase(values.db);
+  try {
+    const tokens = tokensRepository(db);
+    if (sub === 'create') {
+      const { secret, token } = tokens.create(rest[0]!);
+      // the secret alone on stdout (TOKEN=$(brink token create ada)); what it is on stderr
+      io.out(`${secret}\n`);
+      io.err(
+        `token ${token.id} for ${token.holder} (${token.prefix}…) created in ${values.db}.\n` +
+          'This is the only time the secret is shown: only its hash is kept. Clients send it as the header\n' +
+          '  Authorization: Bearer <token>\n' +
+          'From now on every write to a service on this database needs a token.\n',
+      );
+    } else if (sub === 'revoke') {
+      const t = tokens.revoke(rest[0]!);
+      io.out(`revoked token ${t.id} (${t.prefix}…, ${t.holder}) at ${t.revokedAt}\n`);
+    } else {
+      const list = tokens.list();
+      if (values.format === 'json') io.out(JSON.stringify(list, null, 2) + '\n');
+      else if (values.format !== 'text') throw new UsageError(`--format: expected text or json, got "${values.format}"`);
+      else if (list.length === 0) io.out('no tokens: a service on this database is open on loopback and refuses to listen beyond it\n');
+      else {
+        const rows = [['id', 'prefix', 'holder', 'created', 'revoked'], ...list.map((t) => [String(t.id), `${t.prefix}…`, t.holder, t.createdAt, t.revokedAt ?? '—'])];
+        const w = rows[0]!.map((_, i) => Math.max(...rows.map((r) => r[i]!.length)));
+        io.out(rows.map((r) => r.map((c, i) => (i === r.length - 1 ? c : c.padEnd(w[i]!))).join('  ')).join('\n') + '\n');
+      }
+    }
+  } finally {
+    db.close();
+  }
+  return 0;
 }
 
 async function confirm(question: string): Promise<boolean> {
@@ -538,6 +607,8 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
         return await cmdBackup(rest, io);
       case 'restore':
         return await cmdRestore(rest, io);
+      case 'token':
+        return cmdToken(rest, io);
       case 'version':
       case '--version':
         io.out(`${VERSION}\n`);
@@ -556,7 +627,7 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
       io.err(`invalid mixture:\n${e.problems.map((p) => `  ${p}`).join('\n')}\n`);
       return 2;
     }
-    if (e instanceof UsageError || e instanceof EngineInputError || e instanceof DatabaseTooNewError || e instanceof BackupError || e instanceof ImportConflictError) {
+    if (e instanceof UsageError || e instanceof EngineInputError || e instanceof DatabaseTooNewError || e instanceof BackupError || e instanceof ImportConflictError || e instanceof TokenError || (e instanceof Error && e.name === 'AccessRefusedError')) {
       io.err(`${e.message}\n`);
       return 2;
     }

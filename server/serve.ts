@@ -3,7 +3,9 @@
  * shelf on the first run, build the app, listen, and shut down gracefully on
  * SIGINT / SIGTERM.
  */
+import { isLoopback, LOOPBACK_HOSTS } from './http/access.js';
 import { buildApp, type App } from './http/app.js';
+import { tokensRepository } from './store/tokens.js';
 import { ensureDemoShelf } from './shelf/seed.js';
 import { openDatabase } from './store/db.js';
 
@@ -16,7 +18,30 @@ export interface ServeOptions {
   workers?: number;
   /** the longest a job may compute, s (default env BRINK_JOB_TIME_LIMIT, else 600) */
   jobTimeLimit?: number;
+  /** every write needs a token even while the database holds none (default env BRINK_REQUIRE_TOKEN=1); always on beyond loopback */
+  requireToken?: boolean;
+  /** reads of the API need a token too (default env BRINK_REQUIRE_TOKEN_FOR_READS=1) */
+  tokenForReads?: boolean;
+  /** Host names served besides the loopback names, `name` or `name:port`, or ['*'] (default env BRINK_ALLOWED_HOSTS, comma-separated) */
+  allowedHosts?: string[];
 }
+
+/** The service was asked to listen beyond loopback without access control (exit status 2). */
+export class AccessRefusedError extends Error {
+  override readonly name = 'AccessRefusedError';
+}
+
+/** A yes/no setting from the environment: 1/true/yes or 0/false/no (or unset); anything else is refused at start-up. */
+export function envFlag(name: string): boolean | undefined {
+  const raw = process.env[name]?.trim().toLowerCase();
+  if (raw === undefined || raw === '') return undefined;
+  if (['1', 'true', 'yes'].includes(raw)) return true;
+  if (['0', 'false', 'no'].includes(raw)) return false;
+  throw new Error(`${name} must be 1 or 0 (true/false), got "${process.env[name]}"`);
+}
+
+/** A comma-separated list of host names (empty entries dropped). */
+export const hostList = (text: string) => text.split(',').map((h) => h.trim()).filter(Boolean);
 
 /** A positive number from the environment, or undefined; anything else is refused at start-up. */
 function envNumber(name: string, integer: boolean): number | undefined {
@@ -29,12 +54,33 @@ function envNumber(name: string, integer: boolean): number | undefined {
 
 export async function serve(o: ServeOptions): Promise<{ app: App; url: string }> {
   const log = o.log ?? ((l) => process.stdout.write(l + '\n'));
+  // Access: open on loopback; beyond it only with access control (a token in the database, or the setting)
+  const tokenForReads = o.tokenForReads ?? envFlag('BRINK_REQUIRE_TOKEN_FOR_READS') ?? false;
+  let requireToken = (o.requireToken ?? envFlag('BRINK_REQUIRE_TOKEN') ?? false) || tokenForReads;
   const db = openDatabase(o.dbPath);
+  const active = tokensRepository(db).activeCount();
+  const loopback = isLoopback(o.host);
+  if (!loopback) {
+    if (!requireToken && active === 0) {
+      db.close();
+      throw new AccessRefusedError(
+        `refusing to listen on ${o.host}, beyond this machine, without access control: anyone who can reach the port could write to the shelf. ` +
+          `Create a token first (brink token create <holder> --db ${o.dbPath}) or start with --require-token; or listen on 127.0.0.1 only.`,
+      );
+    }
+    requireToken = true; // beyond loopback, revoking the last token never opens the service
+  }
+  const hostsRaw = o.allowedHosts ?? (process.env.BRINK_ALLOWED_HOSTS !== undefined ? hostList(process.env.BRINK_ALLOWED_HOSTS) : []);
+  // a specific address or name to listen on is a name clients use: served too (not the wildcards 0.0.0.0 and ::)
+  const wildcard = ['0.0.0.0', '::', '[::]'].includes(o.host.trim());
+  const bindName = o.host.includes(':') && !o.host.startsWith('[') ? `[${o.host}]` : o.host;
+  const listed = (LOOPBACK_HOSTS as readonly string[]).includes(bindName.toLowerCase()) || hostsRaw.includes(bindName);
+  const allowedHosts: string[] | '*' = hostsRaw.includes('*') ? '*' : [...hostsRaw, ...(!wildcard && !listed ? [bindName] : [])];
   if (ensureDemoShelf(db)) log(`loaded the demo shelf into ${o.dbPath}`);
   const workers = o.workers ?? envNumber('BRINK_WORKERS', true);
   const jobTimeLimit = o.jobTimeLimit ?? envNumber('BRINK_JOB_TIME_LIMIT', false);
   const app = await buildApp({
-    config: { logger: { level: 'warn' }, closeDatabase: true, ...(workers !== undefined ? { workers } : {}), ...(jobTimeLimit !== undefined ? { jobTimeLimit } : {}) },
+    config: { logger: { level: 'warn' }, closeDatabase: true, access: { requireToken, tokenForReads, allowedHosts }, ...(workers !== undefined ? { workers } : {}), ...(jobTimeLimit !== undefined ? { jobTimeLimit } : {}) },
     db,
   });
   await app.listen({ port: o.port, host: o.host });
@@ -43,6 +89,13 @@ export async function serve(o: ServeOptions): Promise<{ app: App; url: string }>
   const shownHost = o.host.includes(':') ? `[${o.host}]` : o.host;
   const url = `http://${shownHost}:${port}/`;
   log(`brink is serving the shelf at ${url}  (API docs: ${url}api/docs, database: ${o.dbPath})`);
+  const access = requireToken
+    ? `a token is required for writes${tokenForReads ? ' and reads' : ''} (${active} active)`
+    : active > 0
+      ? `a token is required for writes (${active} active; open again on loopback if all are revoked)`
+      : 'open to this machine (loopback, no tokens)';
+  log(`access: ${access}; host names served: ${allowedHosts === '*' ? 'any' : [...LOOPBACK_HOSTS, ...allowedHosts].join(', ')}`);
+  if (wildcard && allowedHosts !== '*' && allowedHosts.length === 0) log('  (other machines reach it by a name or address: add those with --allowed-hosts, or they get 421)');
   let closing = false;
   const stop = (signal: string) => {
     if (closing) return;

@@ -1,7 +1,26 @@
 // Helpers shared by the pages: the API, values as typed, safe text.
-export async function api(path, options = {}) {
-  const r = await fetch(path, { ...options, headers: { 'content-type': 'application/json', ...(options.headers ?? {}) } });
+
+// A service shared by a lab asks for an access token (README: Running brink for a whole lab): the page asks
+// for it once, keeps it in this tab only (sessionStorage) and sends it as "Authorization: Bearer <token>".
+const TOKEN_KEY = 'brink-token';
+export const authHeaders = () => {
+  const t = sessionStorage.getItem(TOKEN_KEY);
+  return t ? { authorization: `Bearer ${t}` } : {};
+};
+function askToken(why) {
+  const t = window.prompt(`${why}\n\nYour access token (kept in this browser tab only):`);
+  if (!t || !t.trim()) return false;
+  sessionStorage.setItem(TOKEN_KEY, t.trim());
+  return true;
+}
+// JSON in and out; writes always declare a JSON body (the service refuses body-less or form-like writes)
+export async function api(path, options = {}, ask = true) {
+  const r = await fetch(path, { ...options, headers: { 'content-type': 'application/json', ...authHeaders(), ...(options.headers ?? {}) } });
   const body = r.headers.get('content-type')?.includes('json') ? await r.json() : await r.text();
+  if (r.status === 401 && ask) {
+    if (body?.error !== 'token-required') sessionStorage.removeItem(TOKEN_KEY);
+    if (askToken(body?.message ?? 'This service needs an access token.')) return api(path, options, false);
+  }
   if (!r.ok) throw new Error(body?.message ?? String(body));
   return body;
 }

@@ -112,7 +112,8 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
       });
     },
 
-    apply(measurementId: number, req: ApplyRequest) {
+    /** `note`: words added to the revision's note (who the client said the author was, when a token names another) */
+    apply(measurementId: number, req: ApplyRequest, note: string | null = null) {
       const m = repo.get(measurementId);
       const fit = m.fit as FitResult;
       const cur = shelf.repo.mustGet<SpeciesRecord>('species', m.species);
@@ -199,7 +200,7 @@ export function calibrationService(shelf: ShelfService, repo: MeasurementsReposi
       const record = parseRecord('species', typed, ['record']);
       // the revision and the record of where it came from, together or not at all
       return shelf.repo.transaction(() => {
-        const rev = shelf.edit('species', m.species, req.baseRevision, record, { author, note: `applied measurement ${m.id} (${m.method})${sdCaveat}` });
+        const rev = shelf.edit('species', m.species, req.baseRevision, record, { author, note: `applied measurement ${m.id} (${m.method})${sdCaveat}${note ? `; ${note}` : ''}` });
         repo.recordApplication(m.id, rev.revisionId, fields);
         return rev;
       });

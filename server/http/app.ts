@@ -26,6 +26,8 @@ import { shelfService, type ShelfService } from '../shelf/service.js';
 import { plansRepository } from '../store/plans.js';
 import type { Db } from '../store/db.js';
 import { shelfRepository } from '../store/shelf.js';
+import { tokensRepository } from '../store/tokens.js';
+import { registerAccess, type AccessConfig } from './access.js';
 import { errorHandler, RequestValidationError } from './errors.js';
 import { analyzeRoutes } from './routes/analyze.js';
 import { calibrateRoutes } from './routes/calibrate.js';
@@ -58,6 +60,8 @@ export interface AppConfig {
   /** jobs held in memory (default 200), and how long an ended job stays readable, s (default 3600) */
   maxJobs?: number;
   keepJobs?: number;
+  /** access control, Host allow-list and security headers (server/http/access.ts); default: loopback names, tokens required once one exists */
+  access?: AccessConfig;
 }
 
 declare module 'fastify' {
@@ -97,6 +101,8 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
 
   // The database: decorate, and close with the app when it belongs to the app.
   app.decorate('db', db);
+  // Who may send what, and the security headers: hooks on the root, before any route exists (access.ts).
+  await registerAccess(app, { tokens: tokensRepository(db), ...(config.access ? { config: config.access } : {}) });
   const shelf = shelfService(shelfRepository(db));
   app.decorate('shelf', shelf);
   // engine work off the event loop: a pool of worker threads, and jobs for the long work (server/jobs/)
@@ -155,6 +161,9 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
         { name: 'outcomes', description: 'What each tube did at the bench, and the empirical threshold (quantal dose–response)' },
         { name: 'meta', description: 'Service facts' },
       ],
+      // a shared service wants `Authorization: Bearer <token>` on writes (reads too by its setting); open on loopback without tokens
+      components: { securitySchemes: { bearer: { type: 'http', scheme: 'bearer', description: 'An access token from `brink token create <holder>`: needed for every write when the service has tokens or listens beyond loopback, for reads too with --require-token-for-reads' } } },
+      security: [{}, { bearer: [] }],
     },
     transform: jsonSchemaTransform,
   });

@@ -72,7 +72,8 @@ export type PlanRequestInput = z.input<typeof planRequestSchema>;
  * in the main thread, when it is done; the job's result is `{ planId }`.
  */
 export function planService(shelf: ShelfService, plans: PlansRepository, work: { pool: WorkerPool; jobs: JobRegistry }) {
-  function prepare(raw: PlanRequestInput, rerunOf: number | null) {
+  // holder: the holder of the request's access token (the author then; a different author in a new request goes into the notes)
+  function prepare(raw: PlanRequestInput, rerunOf: number | null, holder: string | null) {
     const parsed = planRequestSchema.safeParse(raw);
     if (!parsed.success) throw new Error('stored plan request no longer validates'); // validated before it was stored
     const req = parsed.data;
@@ -100,8 +101,8 @@ export function planService(shelf: ShelfService, plans: PlansRepository, work: {
       ];
       return plans.create({
         name,
-        notes: req.notes ?? '',
-        author: req.author ?? 'anonymous',
+        notes: holder !== null && rerunOf === null && req.author !== undefined && req.author !== holder ? [req.notes ?? '', `author given: ${req.author}`].filter(Boolean).join('\n') : (req.notes ?? ''),
+        author: holder ?? req.author ?? 'anonymous',
         request: raw,
         inputs: { base: built.mixture, candidates: built.candidates, warnings: built.warnings, shelfRevisions: built.revisions },
         result,
@@ -111,8 +112,8 @@ export function planService(shelf: ShelfService, plans: PlansRepository, work: {
     };
     return { req, name, input: { base: built.mixture, candidates: built.candidates, req }, store };
   }
-  function start(raw: PlanRequestInput, rerunOf: number | null): Job<{ planId: number }> {
-    const p = prepare(raw, rerunOf);
+  function start(raw: PlanRequestInput, rerunOf: number | null, holder: string | null): Job<{ planId: number }> {
+    const p = prepare(raw, rerunOf, holder);
     return work.jobs.start<{ planId: number }>(
       'plan',
       async (ctx) => {
@@ -125,15 +126,15 @@ export function planService(shelf: ShelfService, plans: PlansRepository, work: {
   }
   return {
     /** Validate, check the budget and start the plan as a job; `raw` is the request as sent. */
-    start(raw: unknown) {
+    start(raw: unknown, holder: string | null = null) {
       const parsed = planRequestSchema.safeParse(raw);
       if (!parsed.success) throw new InputError(issueList(parsed.error));
-      return start(raw as PlanRequestInput, null);
+      return start(raw as PlanRequestInput, null, holder);
     },
     /** A job computing a new plan from the same request on the current shelf. */
-    rerun(id: number) {
+    rerun(id: number, holder: string | null = null) {
       const old = plans.get(id);
-      return start(old.request as PlanRequestInput, id);
+      return start(old.request as PlanRequestInput, id, holder);
     },
     get: (id: number) => plans.get(id),
     list: (limit: number, offset: number) => plans.list(limit, offset),

@@ -1,12 +1,13 @@
 /** A fresh app over a fresh in-memory database (optionally with the demo shelf). */
+import type { AccessConfig } from '../../server/http/access.js';
 import { buildApp } from '../../server/http/app.js';
 import { seedDemoShelf } from '../../server/shelf/seed.js';
 import { openDatabase } from '../../server/store/db.js';
 
-export async function freshApp(options: { demo?: boolean } = {}) {
+export async function freshApp(options: { demo?: boolean; access?: AccessConfig } = {}) {
   const db = openDatabase(':memory:');
   if (options.demo) seedDemoShelf(db);
-  const app = await buildApp({ config: { closeDatabase: true }, db });
+  const app = await buildApp({ config: { closeDatabase: true, ...(options.access ? { access: options.access } : {}) }, db });
   return app;
 }
 

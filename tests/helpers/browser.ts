@@ -4,14 +4,15 @@
  */
 import { existsSync } from 'node:fs';
 import { chromium, type Browser } from 'playwright-core';
+import type { AccessConfig } from '../../server/http/access.js';
 import type { App } from '../../server/http/app.js';
 import { freshApp } from './app.js';
 
 export const CHROMIUM = '/usr/bin/chromium';
 
-export async function startBrowserApp(): Promise<{ app: App; browser: Browser; base: string }> {
+export async function startBrowserApp(access?: AccessConfig): Promise<{ app: App; browser: Browser; base: string }> {
   if (!existsSync(CHROMIUM)) throw new Error(`${CHROMIUM} is missing: install Debian's chromium (apt-get install -y chromium), as .ci/run does`);
-  const app = await freshApp({ demo: true });
+  const app = await freshApp({ demo: true, ...(access ? { access } : {}) });
   await app.listen({ port: 0, host: '127.0.0.1' });
   const addr = app.server.address();
   const base = `http://127.0.0.1:${typeof addr === 'object' && addr ? addr.port : 0}`;

@@ -34,7 +34,8 @@ export async function postPlan(
   payload: unknown,
   url = '/api/plans',
 ): Promise<PlanAnswer> {
-  const r = await app.inject({ method: 'POST', url, payload });
+  // a rerun has no fields: it sends {} (the service refuses a body-less POST, server/http/access.ts)
+  const r = await app.inject({ method: 'POST', url, payload: payload ?? {} });
   if (r.statusCode !== 202) return r;
   let job = r.json();
   for (let i = 0; !ENDED.has(job.state); i++) {

@@ -218,13 +218,13 @@ describe('plans as jobs', () => {
 
   it('a rerun is a job too: 202, and the new plan points back', async () => {
     const first = await postPlan(app, { ...planRequest, uncertainty: undefined });
-    const r = await app.inject({ method: 'POST', url: `/api/plans/${first.json().id}/rerun` });
+    const r = await app.inject({ method: 'POST', url: `/api/plans/${first.json().id}/rerun`, payload: {} });
     expect(r.statusCode).toBe(202);
     expect(r.headers.location).toBe(`/api/jobs/${r.json().id}`);
     const j = await until(app, r.json().id, ['done', 'failed', 'cancelled', 'timed-out']);
     expect(j.state).toBe('done');
     expect((await app.inject({ method: 'GET', url: `/api/plans/${j.result!.planId}` })).json().rerunOf).toBe(first.json().id);
-    expect((await app.inject({ method: 'POST', url: '/api/plans/9999/rerun' })).statusCode).toBe(404);
+    expect((await app.inject({ method: 'POST', url: '/api/plans/9999/rerun', payload: {} })).statusCode).toBe(404);
   });
 
   it('validation and unknown ids answer 400 before any job starts', async () => {

@@ -28,6 +28,7 @@ import { stokesEinstein, stokesEinsteinDebye, waterViscosity } from '../../engin
 import { quantity } from '../../schema/mixture.js';
 import { keySchema } from '../../schema/shelf.js';
 import { DIMENSIONS } from '../../units/index.js';
+import { authorship } from '../access.js';
 import { present } from './shelf-items.js';
 
 const data = z.union([z.string().max(5_000_000), z.record(z.string(), z.array(z.unknown()))]).describe('CSV text with a header row (units in brackets), or a JSON table of columns');
@@ -96,7 +97,8 @@ export const calibrateRoutes: FastifyPluginAsync = async (base) => {
       }),
     },
     handler: async (req, reply) => {
-      const m = app.calibration.record(req.params.id, req.body);
+      const by = authorship(req, req.body);
+      const m = app.calibration.record(req.params.id, { ...req.body, author: by.author, note: by.note ?? undefined });
       reply.code(201).header('location', `/api/measurements/${m.id}`);
       return m;
     },
@@ -125,6 +127,9 @@ export const calibrateRoutes: FastifyPluginAsync = async (base) => {
         author: z.string().min(1).max(200).optional(),
       }),
     },
-    handler: async (req) => present(app.calibration.apply(req.params.id, req.body)),
+    handler: async (req) => {
+      const by = authorship(req, { author: req.body.author });
+      return present(app.calibration.apply(req.params.id, { ...req.body, author: by.author }, by.note));
+    },
   });
 };

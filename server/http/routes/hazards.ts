@@ -15,6 +15,7 @@ import { z } from 'zod';
 import { hazardSetSchema, NO_HAZARD_DATA_SENTENCE, speciesHazardSetSchema } from '../../protocol/hazards.js';
 import { keySchema } from '../../schema/shelf.js';
 import type { HazardKind } from '../../store/hazards.js';
+import { authorship } from '../access.js';
 
 const meta = { author: z.string().min(1).max(200).optional(), note: z.string().max(2000).optional() };
 
@@ -58,7 +59,7 @@ export const hazardRoutes: FastifyPluginAsync = async (base) => {
       schema: { tags: ['shelf'], summary: k.put, params: z.object({ id: keySchema }), body: z.strictObject({ baseVersion: z.number().int().min(0), hazards: k.set, ...meta }) },
       handler: async (req) => {
         app.shelf.repo.mustGet(k.kind, req.params.id);
-        return app.hazards.of(k.kind).write(req.params.id, req.body.baseVersion, req.body.hazards, { author: req.body.author, note: req.body.note ?? null });
+        return app.hazards.of(k.kind).write(req.params.id, req.body.baseVersion, req.body.hazards, authorship(req, req.body));
       },
     });
   }

@@ -18,13 +18,17 @@ export const metaRoutes: FastifyPluginAsync = async (app) => {
     species: app.shelf.repo.count('species'),
   }));
   app.get('/api/schema/mixture', { schema: { tags: ['meta'], summary: 'JSON Schema of the mixture file' } }, async () => mixtureJsonSchema());
-  // The pages and their two shared files, read once at start-up.
+  // The pages, their scripts and the shared files, read once at start-up.
   const files: [string, string, string][] = [
     ['/', 'index.html', 'text/html; charset=utf-8'],
     ['/planner', 'planner.html', 'text/html; charset=utf-8'],
     ['/calibrate', 'calibrate.html', 'text/html; charset=utf-8'],
     ['/web/style.css', 'style.css', 'text/css; charset=utf-8'],
     ['/web/common.js', 'common.js', 'text/javascript; charset=utf-8'],
+    // each page's script is a file (the content security policy allows no inline script)
+    ['/web/shelf.js', 'shelf.js', 'text/javascript; charset=utf-8'],
+    ['/web/calibrate.js', 'calibrate.js', 'text/javascript; charset=utf-8'],
+    ['/web/planner.js', 'planner.js', 'text/javascript; charset=utf-8'],
   ];
   for (const [url, file, type] of files) {
     const body = readFileSync(join(WEB, file), 'utf8');

@@ -13,6 +13,7 @@
  * one is 409. Unknown tube codes, duplicates, bad states, negative times are 400 naming the row and field.
  */
 import type { FastifyPluginAsync } from 'fastify';
+import { authorship } from '../access.js';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { QUANTAL_LINKS, type QuantalLink } from '../../engine/fit/quantal.js';
@@ -59,7 +60,11 @@ export const outcomeRoutes: FastifyPluginAsync = async (base) => {
       if (doses !== undefined) sheet.doses = splitDoses(doses);
       if (closedChamber !== undefined) sheet.closedChamber = closedChamber === 'true';
       const q: QueryMeta = { ...(Object.keys(sheet).length > 0 ? { sheet } : {}), ...(author !== undefined ? { author } : {}), ...(note !== undefined ? { note } : {}), ...(baseRevision !== undefined ? { baseRevision } : {}) };
-      const entry = typeof req.body === 'string' ? readCsvEntry(req.body, q) : readJsonEntry(req.body, q);
+      const read = typeof req.body === 'string' ? readCsvEntry(req.body, q) : readJsonEntry(req.body, q);
+      // with a bearer token its holder is the author; an author given in the entry becomes part of the note
+      const by = authorship(req, { author: read.author, note: read.note });
+      const { author: _given, note: _note, ...rest } = read;
+      const entry = { ...rest, ...(by.author !== undefined ? { author: by.author } : {}), ...(by.note !== null ? { note: by.note } : {}) };
       const set = app.outcomes.record(req.params.id, entry);
       reply.code(201).header('location', `/api/plans/${req.params.id}/outcomes?candidate=${encodeURIComponent(set.candidate)}`);
       return set;

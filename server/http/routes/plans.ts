@@ -6,7 +6,7 @@
  *   GET   /api/plans/:id          the stored request, inputs, revisions and results; name, notes, their revision and history
  *   PATCH /api/plans/:id          rename / annotate { baseRevision, name?, notes?, author? }: a new revision
  *                                 of the name and notes, 409 stale-revision when baseRevision is not the current
- *   POST  /api/plans/:id/rerun    the same request on the current shelf as a job: a new plan
+ *   POST  /api/plans/:id/rerun    the same request on the current shelf as a job: a new plan   {}
  *
  * Validation, unknown ids and the work budget (server/jobs/budget.ts) answer 400 / 404 before a
  * job starts; the job (GET /api/jobs/:id) then carries the plan's id, or the error it ended with.
@@ -17,6 +17,7 @@ import { z } from 'zod';
 import { WORK_BUDGET } from '../../jobs/budget.js';
 import type { Job } from '../../jobs/registry.js';
 import { planRequestSchema } from '../../shelf/plans.js';
+import { authorship } from '../access.js';
 
 const params = z.object({ id: z.coerce.number().int().min(1) });
 
@@ -41,7 +42,7 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
       (req as unknown as { sent: unknown }).sent = JSON.parse(JSON.stringify(req.body ?? null));
       done();
     },
-    handler: async (req, reply) => accepted(reply, app.plans.start((req as unknown as { sent: unknown }).sent)),
+    handler: async (req, reply) => accepted(reply, app.plans.start((req as unknown as { sent: unknown }).sent, req.accessHolder)),
   });
   app.get('/api/plans', {
     schema: {
@@ -66,10 +67,16 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
         author: z.string().min(1).max(200).optional(),
       }),
     },
-    handler: async (req) => app.plans.rename(req.params.id, req.body.baseRevision, { name: req.body.name, notes: req.body.notes }, req.body.author),
+    handler: async (req) => app.plans.rename(req.params.id, req.body.baseRevision, { name: req.body.name, notes: req.body.notes }, authorship(req, { author: req.body.author }).author),
   });
   app.post('/api/plans/:id/rerun', {
-    schema: { tags, summary: 'Start a job that runs the same request on the current shelf: a new plan that points back to this one', params },
-    handler: async (req, reply) => accepted(reply, app.plans.rerun(req.params.id)),
+    schema: {
+      tags,
+      summary: 'Start a job that runs the same request on the current shelf: a new plan that points back to this one',
+      description: 'Send `{}` with content-type application/json (or a bearer token): a body-less POST is refused, since a page of another site could send one.',
+      params,
+      body: z.strictObject({}).nullish(),
+    },
+    handler: async (req, reply) => accepted(reply, app.plans.rerun(req.params.id, req.accessHolder)),
   });
 };

@@ -2,6 +2,7 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
+import { authorship } from '../access.js';
 
 export const shelfIoRoutes: FastifyPluginAsync = async (base) => {
   const app = base.withTypeProvider<ZodTypeProvider>();
@@ -18,6 +19,9 @@ export const shelfIoRoutes: FastifyPluginAsync = async (base) => {
       querystring: z.strictObject({ author: z.string().min(1).max(200).optional(), overwrite: z.enum(['true', 'false']).default('false') }),
       body: z.unknown(),
     },
-    handler: async (req) => app.shelf.importShelf(req.body, { author: req.query.author ?? 'import', note: 'shelf import' }, { overwrite: req.query.overwrite === 'true' }),
+    handler: async (req) => {
+      const by = authorship(req, { author: req.query.author, note: 'shelf import' });
+      return app.shelf.importShelf(req.body, { author: by.author ?? 'import', note: by.note }, { overwrite: req.query.overwrite === 'true' });
+    },
   });
 };

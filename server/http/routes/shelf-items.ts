@@ -14,6 +14,7 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import { chemicalRecordSchema, keySchema, speciesRecordSchema, toTypedRecord, type ShelfType } from '../../schema/shelf.js';
 import type { Revision } from '../../store/shelf.js';
+import { authorship } from '../access.js';
 
 const meta = { author: z.string().min(1).max(200).optional(), note: z.string().max(2000).optional() };
 
@@ -32,7 +33,7 @@ export const shelfItemRoutes: FastifyPluginAsync<{ type: ShelfType; path: string
   app.post(path, {
     schema: { tags, summary: `Add a ${noun} to the shelf (revision 1)`, body: z.strictObject({ record, ...meta }) },
     handler: async (req, reply) => {
-      const rev = app.shelf.create(type, req.body.record, { author: req.body.author, note: req.body.note ?? null });
+      const rev = app.shelf.create(type, req.body.record, authorship(req, req.body));
       reply.code(201).header('location', `${path}/${rev.id}`);
       return present(rev);
     },
@@ -69,7 +70,7 @@ export const shelfItemRoutes: FastifyPluginAsync<{ type: ShelfType; path: string
       params,
       body: z.strictObject({ baseRevision: z.number().int().min(1), record, ...meta }),
     },
-    handler: async (req) => present(app.shelf.edit(type, req.params.id, req.body.baseRevision, req.body.record, { author: req.body.author, note: req.body.note ?? null })),
+    handler: async (req) => present(app.shelf.edit(type, req.params.id, req.body.baseRevision, req.body.record, authorship(req, req.body))),
   });
 
   for (const [action, retired] of [
@@ -81,11 +82,11 @@ export const shelfItemRoutes: FastifyPluginAsync<{ type: ShelfType; path: string
         tags,
         summary: retired ? `Retire a ${noun}: hidden from lists, still readable, never deleted` : `Restore a retired ${noun}`,
         params,
-        body: z.strictObject({ baseRevision: z.number().int().min(1).optional(), ...meta }).optional(),
+        body: z.strictObject({ baseRevision: z.number().int().min(1).optional(), ...meta }).nullish(),
       },
       handler: async (req) => {
         const b = req.body ?? {};
-        return present(app.shelf.repo.setRetired(type, req.params.id, retired, b.baseRevision ?? null, { author: b.author, note: b.note ?? null }));
+        return present(app.shelf.repo.setRetired(type, req.params.id, retired, b.baseRevision ?? null, authorship(req, b)));
       },
     });
   }
