@@ -1,5 +1,5 @@
 /**
- * The next experiment (docs/model.md §10): the doses of the next n tubes that
+ * The next experiment (docs/model.md §12): the doses of the next n tubes that
  * most reduce the uncertainty of the threshold.
  *
  * Criterion: the expected posterior variance of log₁₀ of the threshold dose,

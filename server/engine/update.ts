@@ -1,5 +1,5 @@
 /**
- * The model update (docs/model.md §10): the bench's outcomes as data for the
+ * The model update (docs/model.md §12): the bench's outcomes as data for the
  * physics. All numbers SI; doses are number densities (m⁻³) of the dopant.
  *
  * Prior. The shelf's standard uncertainties, drawn as the planner draws them
@@ -322,7 +322,7 @@ function likOptions(o: LikelihoodOptions): Lik {
 
 const STATES: State[] = ['stable', 'stationary', 'oscillatory'];
 
-/** ln L(tubes | draw) up to a constant (docs/model.md §10), and the number of state mismatches. */
+/** ln L(tubes | draw) up to a constant (docs/model.md §12), and the number of state mismatches. */
 function logLikelihood(pred: Predictor, tubes: Tube[], l: Lik): { ll: number; mismatches: number } {
   let ll = 0;
   let mismatches = 0;
@@ -444,7 +444,7 @@ export interface UpdateOptions extends LikelihoodOptions {
   seed: number;
   /** importance sampling while its ESS ≥ minEss (default max(50, samples / 5)); else SMC */
   minEss?: number;
-  /** Metropolis moves per SMC stage (default 5) */
+  /** Metropolis sweeps per SMC stage (default 5; up to 4 × as many until 90 % of the particles have moved) */
   moves?: number;
   /** bound on likelihood evaluations by the SMC sampler (default 60 × samples) */
   maxEvaluations?: number;
@@ -513,7 +513,7 @@ function systematic(w: ArrayLike<number>, rng: Random): number[] {
 }
 
 /**
- * The posterior over the coefficients of `base` and candidate `d` given the tubes (docs/model.md §10):
+ * The posterior over the coefficients of `base` and candidate `d` given the tubes (docs/model.md §12):
  * importance sampling over the plan's draws, or SMC when their ESS is below `minEss`.
  */
 export function posterior(base: Mixture, d: Species, o: DoseOptions, tubes: Tube[], u: UpdateOptions): Posterior {
@@ -600,7 +600,10 @@ export function posterior(base: Mixture, d: Species, o: DoseOptions, tubes: Tube
     // moves: random walk Metropolis with the particles' covariance
     let accepted = 0;
     let tried = 0;
-    for (let m = 0; m < moves && evaluations + N <= budget; m++) {
+    // at least `moves` sweeps, more (up to 4 × moves) until 90 % of the particles have moved since the resampling
+    const moved = new Uint8Array(N);
+    let movedCount = 0;
+    for (let m = 0; (m < moves || (movedCount < 0.9 * N && m < 4 * moves)) && evaluations + N <= budget; m++) {
       const mean = new Float64Array(dim);
       for (const p of particles) for (let j = 0; j < dim; j++) mean[j]! += p.z[j]! / N;
       const cov = new Float64Array(dim * dim);
@@ -629,13 +632,17 @@ export function posterior(base: Mixture, d: Species, o: DoseOptions, tubes: Tube
         const logA = prior + phi * (q.ll - p.ll);
         if (Math.log(rng.uniform()) < logA) {
           acc++;
+          if (!moved[k]) {
+            moved[k] = 1;
+            movedCount++;
+          }
           return q;
         }
         return { ...p, index: k };
       });
       accepted += acc;
       tried += N;
-      progress(0.3 + 0.3 * phi, `sequential Monte Carlo, temperature ${phi.toPrecision(3)}, move ${m + 1} of ${moves}`);
+      progress(0.3 + 0.3 * phi, `sequential Monte Carlo, temperature ${phi.toPrecision(3)}, move ${m + 1}`);
     }
     const rate = tried > 0 ? accepted / tried : 0;
     acceptance.push(rate);
@@ -671,6 +678,13 @@ export interface Consistency {
   bestDrawProbability: number;
   /** posterior predictive p-value of T = −ln L (Gelman, Meng & Stern 1996) */
   predictiveP: number;
+  /**
+   * Prior predictive p-value (Box 1980, J. R. Stat. Soc. A 143:383): the share of outcome sets simulated from
+   * fresh prior draws at the same doses whose evidence Ẑ(y) = mean over the plan's draws of L(y | θ_i) is at
+   * most the observed one's, (1 + count)/(R + 1). Small when no coefficients the shelf's uncertainties allow
+   * explain the tubes, even where the posterior, pushed into a far tail, fits them.
+   */
+  priorPredictiveP: number;
   message: string;
 }
 
@@ -687,7 +701,27 @@ export function binomialTail(n: number, p: number, m: number): number {
   return Math.max(0, 1 - cdf);
 }
 
-function consistency(post: Posterior, seed: number, alpha: number): Consistency {
+/** Outcomes the bench would record at the tubes' doses if `pred` were true: misread with ε, onset and length with their errors. */
+function replicate(pred: Predictor, tubes: Tube[], l: Lik, rng: Random): Tube[] {
+  return tubes.map((t) => {
+    const s = pred.state(t.dose);
+    let seen: Tube['state'] = t.state;
+    if (t.state !== 'unclear') {
+      const v = rng.uniform();
+      seen = v < 1 - l.eps ? s : STATES.filter((x) => x !== s)[v < 1 - l.eps / 2 ? 0 : 1]!;
+    }
+    let onsetTime: number | null = null;
+    let patternLength: number | null = null;
+    if (s !== 'stable' && (t.onsetTime != null || t.patternLength != null)) {
+      const g = pred.growth(t.dose);
+      if (g && t.onsetTime != null) onsetTime = l.eFolds * g.time * Math.exp(l.onsetSd * rng.normal());
+      if (g && g.wavelength !== null && t.patternLength != null) patternLength = g.wavelength * Math.exp(l.lengthSd * rng.normal());
+    }
+    return { tube: t.tube, dose: t.dose, state: seen, onsetTime, patternLength };
+  });
+}
+
+function consistency(post: Posterior, seed: number, alpha: number, fresh: { base: Mixture; d: Species; o: DoseOptions }): Consistency {
   const l = post.lik;
   const stated = post.tubes.filter((t) => t.state !== 'unclear').length;
   const bestDrawProbability = binomialTail(stated, l.eps, post.best.mismatches);
@@ -699,37 +733,50 @@ function consistency(post: Posterior, seed: number, alpha: number): Consistency 
   let count = 0;
   for (let r = 0; r < R; r++) {
     const p = post.particles[picks[Math.floor(rng.uniform() * picks.length)]!]!;
-    const rep: Tube[] = post.tubes.map((t) => {
-      const s = p.pred.state(t.dose);
-      let seen: Tube['state'] = t.state;
-      if (t.state !== 'unclear') {
-        const v = rng.uniform();
-        seen = v < 1 - l.eps ? s : STATES.filter((x) => x !== s)[v < 1 - l.eps / 2 ? 0 : 1]!;
-      }
-      let onsetTime: number | null = null;
-      let patternLength: number | null = null;
-      if (s !== 'stable' && (t.onsetTime != null || t.patternLength != null)) {
-        const g = p.pred.growth(t.dose);
-        if (g && t.onsetTime != null) onsetTime = l.eFolds * g.time * Math.exp(l.onsetSd * rng.normal());
-        if (g && g.wavelength !== null && t.patternLength != null) patternLength = g.wavelength * Math.exp(l.lengthSd * rng.normal());
-      }
-      return { tube: t.tube, dose: t.dose, state: seen, onsetTime, patternLength };
-    });
+    const rep = replicate(p.pred, post.tubes, l, rng);
     const tObs = -logLikelihood(p.pred, post.tubes, l).ll;
     const tRep = -logLikelihood(p.pred, rep, l).ll;
     if (tRep >= tObs - 1e-12) extreme++;
     count++;
   }
   const predictiveP = count > 0 ? extreme / count : 1;
+  // prior predictive (states only): the evidence of the tubes over the plan's draws against outcome sets of fresh prior draws
+  const withState = post.tubes.filter((t) => t.state !== 'unclear');
+  const codes = post.prior.map((q) => Uint8Array.from(withState, (t) => STATES.indexOf(q.state(t.dose))));
+  const hit = Math.log(1 - l.eps);
+  const miss = Math.log(l.eps / 2);
+  const logEvidence = (ys: Uint8Array) => {
+    const ll = codes.map((c) => {
+      let a = 0;
+      for (let t = 0; t < ys.length; t++) a += c[t] === ys[t] ? hit : miss;
+      return a;
+    });
+    const m = Math.max(...ll);
+    return m + Math.log(ll.reduce((a, v) => a + Math.exp(v - m), 0) / ll.length);
+  };
+  const zObs = logEvidence(Uint8Array.from(withState, (t) => STATES.indexOf(t.state as State)));
+  const RP = 200;
+  const rngP = new Random(streamSeed(seed, 0xb0c5, 'prior-pc'));
+  let below = 0;
+  for (let r = 0; r < RP; r++) {
+    const m = applyDeviates(fresh.base, fresh.d, planDeviates(post.params, (seed ^ 0x5bd1e995) >>> 0, r, fresh.d.id));
+    const truth = new Predictor(m.base, m.dopant, fresh.o);
+    const rep = replicate(truth, withState, l, rngP);
+    if (logEvidence(Uint8Array.from(rep, (t) => STATES.indexOf(t.state as State))) <= zObs + 1e-12) below++;
+  }
+  const priorPredictiveP = (1 + below) / (RP + 1);
   const worstBest = bestDrawProbability < alpha;
   const worstPpc = predictiveP < alpha;
-  const consistent = !worstBest && !worstPpc;
+  const worstPrior = priorPredictiveP < alpha;
+  const consistent = !worstBest && !worstPpc && !worstPrior;
   const message = worstBest
     ? `the outcomes are improbable under every draw: the model or the shelf is wrong. Even the best draw seen disagrees with ${post.best.mismatches} of ${stated} tubes, a chance of ${bestDrawProbability.toPrecision(2)} at a misclassification rate of ${l.eps}.`
     : worstPpc
       ? `the outcomes are improbable under the updated model (posterior predictive p = ${predictiveP.toPrecision(2)} < ${alpha}): the model or the shelf is wrong, or the bench misreads more often than ε = ${l.eps}.`
-      : `the outcomes are consistent with the model (best draw: ${post.best.mismatches} of ${stated} tubes disagree; posterior predictive p = ${predictiveP.toPrecision(2)}).`;
-  return { consistent, alpha, bestMismatches: post.best.mismatches, bestDrawProbability, predictiveP, message };
+      : worstPrior
+        ? `the outcomes are improbable under every draw the shelf's uncertainties allow (prior predictive p = ${priorPredictiveP.toPrecision(2)} < ${alpha}; the update can only fit them far out in those uncertainties): the model or the shelf is wrong.`
+        : `the outcomes are consistent with the model (best draw: ${post.best.mismatches} of ${stated} tubes disagree; posterior predictive p = ${predictiveP.toPrecision(2)}).`;
+  return { consistent, alpha, bestMismatches: post.best.mismatches, bestDrawProbability, predictiveP, priorPredictiveP, message };
 }
 
 // ---------------------------------------------------------------- the update
@@ -767,7 +814,7 @@ function moments(values: number[], w: ArrayLike<number>): { mean: number; sd: nu
 }
 
 /**
- * The model update of docs/model.md §10: the posterior over the coefficients of the base and the observed
+ * The model update of docs/model.md §12: the posterior over the coefficients of the base and the observed
  * candidate `observed` given its tubes, the updated coefficients (posterior mean and sd of each uncertain
  * quantity), the updated threshold band of every candidate (other candidates keep their own prior draws,
  * the base's come from the posterior) and the consistency check.
@@ -812,7 +859,7 @@ export function updateModel(base: Mixture, candidates: Species[], observed: stri
     return { species: c.id, prior: bandOf(priorT, equal), posterior: bandOf(postT, w) };
   });
   progress(0.95, 'consistency check');
-  const cons = consistency(post, u.seed, u.alpha ?? 0.01);
+  const cons = consistency(post, u.seed, u.alpha ?? 0.01, { base, d, o });
   progress(1, 'model updated');
   const l = post.lik;
   return {
