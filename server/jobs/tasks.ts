@@ -13,6 +13,9 @@ import type { AnalysisResult } from '../engine/analyze.js';
 import type { Mixture, Species } from '../engine/types.js';
 import type { PlanRequest } from '../shelf/plans.js';
 import type { PlanResult } from '../shelf/run-plan.js';
+import type { DesignResult } from '../engine/design.js';
+import type { UpdateResult } from '../engine/update.js';
+import type { DesignInput, UpdateInput } from '../outcomes/run-update.js';
 
 /** Progress callback a task may call: fraction of its work done (0–1) and what it is doing. */
 export type TaskProgress = (fraction: number, stage: string) => void;
@@ -24,6 +27,10 @@ export interface Tasks {
   analyze: { input: { mixture: Mixture }; output: AnalysisResult };
   /** A calibration fit from raw data (calibrate/run.ts; the options already parsed). */
   fit: { input: { method: FitMethod; data: unknown; options: FitOptions[FitMethod] }; output: ReturnType<typeof runFit> };
+  /** The model update from a plan's outcomes (engine/update.ts via outcomes/run-update.ts). */
+  update: { input: UpdateInput; output: UpdateResult };
+  /** The update, then the design of the next round of doses (engine/design.ts). */
+  design: { input: DesignInput; output: { update: UpdateResult; design: DesignResult } };
 }
 
 export type TaskKind = keyof Tasks;
@@ -43,5 +50,13 @@ export const LOADERS: { [K in TaskKind]: () => Promise<TaskFunction<K>> } = {
   fit: async () => {
     const { runFit } = await import('../calibrate/run.js');
     return (input) => runFit(input.method, input.data, input.options);
+  },
+  update: async () => {
+    const { runUpdate } = await import('../outcomes/run-update.js');
+    return (input, progress) => runUpdate(input, progress);
+  },
+  design: async () => {
+    const { runDesign } = await import('../outcomes/run-update.js');
+    return (input, progress) => runDesign(input, progress);
   },
 };

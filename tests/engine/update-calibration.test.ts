@@ -65,5 +65,5 @@ describe('simulated truth: calibration and narrowing over rounds', () => {
     for (let r = 1; r < rounds; r++) expect(medianWidth[r]!).toBeLessThan(medianWidth[r - 1]!);
     // outcomes of the model itself are rarely called inconsistent (three checks at α = 0.01 each)
     expect(flagged / (T * rounds)).toBeLessThan(0.06);
-  });
+  }, 300_000);
 });
