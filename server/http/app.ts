@@ -32,6 +32,8 @@ import { protocolRoutes } from './routes/protocol.js';
 import { hazardRoutes } from './routes/hazards.js';
 import { metaRoutes } from './routes/meta.js';
 import { planRoutes } from './routes/plans.js';
+import { outcomeUpdateRoutes } from './routes/outcomes-update.js';
+import { outcomeUpdateService, type ReadOutcomes } from '../outcomes/update.js';
 import { shelfIoRoutes } from './routes/shelf-io.js';
 import { shelfItemRoutes } from './routes/shelf-items.js';
 import { issueList } from '../schema/mixture.js';
@@ -76,7 +78,11 @@ export type App = FastifyInstance;
 export { VERSION };
 
 /** Build the app; `await app.ready()` is done here, so it can be injected into at once. */
-export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db }): Promise<App> {
+/**
+ * `readOutcomes`: how the model-update routes read a plan's outcomes (server/outcomes/update.ts ReadOutcomes);
+ * without it those routes are not registered.
+ */
+export async function buildApp({ config = {}, db, readOutcomes }: { config?: AppConfig; db: Db; readOutcomes?: ReadOutcomes }): Promise<App> {
   const app = Fastify({ logger: config.logger ?? false, bodyLimit: config.bodyLimit ?? 5 * 1024 * 1024 }).withTypeProvider<ZodTypeProvider>();
 
   // Validation with our own formatting of zod issues (field paths, unions resolved).
@@ -162,6 +168,8 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   await app.register(calibrateRoutes);
   await app.register(protocolRoutes);
   await app.register(hazardRoutes);
+  if (readOutcomes)
+    await app.register(outcomeUpdateRoutes, { service: outcomeUpdateService({ shelf, plans: plansRepo, readOutcomes, rerun: (id) => app.plans.rerun(id), pool, jobs }) });
   await app.ready();
   return app;
 }

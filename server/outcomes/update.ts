@@ -228,7 +228,7 @@ export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: O
         tc.activity = act;
       }
     }
-    out.push({ type: owner, key, baseRevision: cur.revisionId, changes, record: parseRecord(owner, typed, ['record']) });
+    out.push({ type: owner, key, baseRevision: cur.revision, changes, record: parseRecord(owner, typed, ['record']) });
   }
   return out;
 }
