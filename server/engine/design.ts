@@ -62,7 +62,8 @@ export interface DesignResult {
   criterion: 'expected posterior variance of log10 threshold';
   method: 'greedy over a dose grid, preposterior simulation';
   designed: DesignScore;
-  fixed: DesignScore & { reference: number };
+  /** the default fixed series scored the same way; null when the posterior median is 0 or above the cap (nothing to scale) */
+  fixed: (DesignScore & { reference: number }) | null;
   /** now, before the round */
   current: { variance: number; sdLog10: number; bandFactor: number | null; band: ReturnType<typeof bandOf> };
   grid: { from: number; to: number; ratio: number | null; points: number; cap: number };
@@ -157,8 +158,9 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
   };
   // the fixed series, scored by the same simulation
   const fixedSeries = band.median !== null && band.median > 0 ? doseSeries({ threshold: { density: band.median, volumeFraction: 0, anyDose: false }, band: { ...band, median: band.median } as never }) : null;
-  if (!fixedSeries) throw new EngineInputError('candidate', 'the posterior median threshold is 0 or above the cap: there is no series to scale; give the grid of doses');
-  const fixedDoses = fixedSeries.doses.filter((x) => x <= cap);
+  if (!fixedSeries && !(opts.tubes !== undefined && opts.grid && opts.grid.length > 0))
+    throw new EngineInputError('candidate', 'the posterior median threshold is 0 or above the cap: there is no default series to scale; give the number of tubes and the grid of doses');
+  const fixedDoses = fixedSeries ? fixedSeries.doses.filter((x) => x <= cap) : [];
   const n = opts.tubes ?? fixedDoses.length;
   if (!(n >= 1)) throw new EngineInputError('tubes', 'at least one tube');
   const fixedRng = new Random(streamSeed(opts.seed ?? 1, 0xf1, 'fixed'));
@@ -196,7 +198,7 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
   }
   progress(0.97, 'scoring the designs');
   const designedScore = score(chosen.map((g) => gridCols[g]!));
-  const fixedScore = score(fixedCols);
+  const fixedScore = fixedSeries ? score(fixedCols) : null;
   const cur = wvar(logT, ones);
   const p05 = band.p05;
   const p95 = band.p95;
@@ -206,7 +208,7 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
     criterion: 'expected posterior variance of log10 threshold',
     method: 'greedy over a dose grid, preposterior simulation',
     designed: { doses: chosen.map((g) => grid[g]!).sort((a, b) => a - b), expectedVariance: designedScore.variance, expectedSdLog10: Math.sqrt(designedScore.variance), expectedBandFactor: designedScore.bandFactor },
-    fixed: { doses: fixedDoses, reference: fixedSeries.reference, expectedVariance: fixedScore.variance, expectedSdLog10: Math.sqrt(fixedScore.variance), expectedBandFactor: fixedScore.bandFactor },
+    fixed: fixedSeries && fixedScore ? { doses: fixedDoses, reference: fixedSeries.reference, expectedVariance: fixedScore.variance, expectedSdLog10: Math.sqrt(fixedScore.variance), expectedBandFactor: fixedScore.bandFactor } : null,
     current: { variance: cur, sdLog10: Math.sqrt(cur), bandFactor: p05 !== null && p05 > 0 && p95 !== null ? p95 / p05 : null, band },
     grid: { from: grid[0]!, to: grid[grid.length - 1]!, ratio, points: grid.length, cap },
     simulations: R,

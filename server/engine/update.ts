@@ -838,7 +838,9 @@ export function updateModel(base: Mixture, candidates: Species[], observed: stri
     const cParams = uncertainParameters(base, c);
     // prior: the plan's draws
     const priorT: number[] = [];
+    const every = Math.max(1, Math.floor(u.samples / 20));
     for (let i = 0; i < u.samples; i++) {
+      if (i % every === 0) progress(0.6 + (0.35 * (ci + (0.5 * i) / u.samples)) / candidates.length, `threshold band of ${c.id}: prior draw ${i + 1} of ${u.samples}`);
       if (c.id === d.id) priorT.push(post.prior[i]!.threshold());
       else {
         const m = applyDeviates(base, c, planDeviates(cParams, u.seed, i, c.id));
@@ -849,7 +851,8 @@ export function updateModel(base: Mixture, candidates: Species[], observed: stri
     if (c.id === d.id) for (const p of post.particles) postT.push(p.pred.threshold());
     else if (post.method === 'importance') postT.push(...priorT);
     else {
-      for (const p of post.particles) {
+      for (const [k, p] of post.particles.entries()) {
+        if (k % every === 0) progress(0.6 + (0.35 * (ci + 0.5 + (0.5 * k) / post.particles.length)) / candidates.length, `threshold band of ${c.id}: posterior draw ${k + 1}`);
         const zc = planDeviates(cParams, u.seed, p.index, c.id);
         zc.set(p.z.subarray(0, nBase), 0);
         const m = applyDeviates(base, c, zc);

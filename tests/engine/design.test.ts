@@ -35,8 +35,8 @@ describe('designNext', () => {
     for (const x of sorted) expect(x).toBeLessThanOrEqual(2 * med * (1 + 1e-12));
     expect(r.grid.ratio).toBe(1.15);
     // the fixed series is the default one around the posterior median (capped)
-    expect(r.fixed.reference).toBeCloseTo(r.current.band.median!, 0);
-    expect(r.designed.expectedVariance).toBeLessThanOrEqual(r.fixed.expectedVariance);
+    expect(r.fixed!.reference).toBeCloseTo(r.current.band.median!, 0);
+    expect(r.designed.expectedVariance).toBeLessThanOrEqual(r.fixed!.expectedVariance);
     expect(r.designed.expectedVariance).toBeLessThan(r.current.variance);
     expect(r.designed.expectedBandFactor).not.toBeNull();
     // seeded: the same answer twice

@@ -251,6 +251,21 @@ describe('simulated truth and contradictions', () => {
     if (r.smc) expect(r.smc.evaluations).toBeLessThanOrEqual(400);
   });
 
+  it('reports progress that never falls, and stops when the progress call throws (a cancelled job)', () => {
+    const prior = updateModel(base, [d], d.id, stat, [], { samples: 200, seed: 9 });
+    const tubes = simulateTubes(truthOf(5), series(prior.bands[0]!.prior.median!), 0.05, new Random(3));
+    const seen: number[] = [];
+    updateModel(base, [d], d.id, stat, tubes, { samples: 200, seed: 9, progress: (f) => seen.push(f) });
+    expect(seen.length).toBeGreaterThan(10);
+    for (let i = 1; i < seen.length; i++) expect(seen[i]!).toBeGreaterThanOrEqual(seen[i - 1]!);
+    expect(seen[seen.length - 1]).toBe(1);
+    let calls = 0;
+    const stop = () => {
+      if (++calls > 5) throw new Error('cancelled');
+    };
+    expect(() => updateModel(base, [d], d.id, stat, tubes, { samples: 200, seed: 9, progress: stop })).toThrow('cancelled');
+  });
+
   it('says how it sampled, and treats unclear tubes as no state information', () => {
     const tubes: Tube[] = [{ tube: 'U', dose: 3e10, state: 'unclear' }];
     const r = updateModel(base, [d], d.id, stat, tubes, { samples: 100, seed: 1 });
