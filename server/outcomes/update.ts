@@ -74,6 +74,13 @@ export const designRequestSchema = updateRequestSchema.extend({
 });
 export type DesignRequest = z.output<typeof designRequestSchema>;
 
+/**
+ * The tube kinds that are the plan's mixture at a dose (the sheet's sample kinds, protocol/pipetting.ts
+ * SampleKind): the series and the no-dopant control (dose 0). A no-fuel or dopant-alone control is another
+ * mixture; its outcome is reported as ignored.
+ */
+export const MODELLED_KINDS = new Set(['series', 'no-dopant']);
+
 interface PlanInputs {
   base: Mixture;
   candidates: Species[];
@@ -90,6 +97,10 @@ export function updateInput(plan: PlanRow, outcomes: OutcomeSet, req: UpdateRequ
   const ignored: { tube: string; reason: string }[] = [];
   const tubes: Tube[] = [];
   for (const t of outcomes.tubes) {
+    if (!MODELLED_KINDS.has(t.kind)) {
+      ignored.push({ tube: t.tube, reason: `a ${t.kind} tube is another mixture than the plan's base with the dopant at a dose: not modelled` });
+      continue;
+    }
     if (t.dose === null) {
       ignored.push({ tube: t.tube, reason: 'no delivered dose' });
       continue;

@@ -49,8 +49,9 @@ describe('POST /api/plans/:id/update, /update/apply, /next', () => {
       revision: 1,
       candidate,
       tubes: [
-        ...doses.map((x, i) => ({ tube: `D${i}`, kind: 'dose', dose: x, state: stateOf(withDose(base, d, x, 'add')), onsetTime: null, patternLength: null })),
-        { tube: 'CF', kind: 'no-fuel', dose: null, state: 'stable' as const, onsetTime: null, patternLength: null },
+        ...doses.map((x, i) => ({ tube: i === 0 ? 'C0' : `D${i}`, kind: i === 0 ? 'no-dopant' : 'series', dose: x, state: stateOf(withDose(base, d, x, 'add')), onsetTime: null, patternLength: null })),
+        { tube: 'CF', kind: 'no-fuel', dose: 2 * median, state: 'stable' as const, onsetTime: null, patternLength: null },
+        { tube: 'D9', kind: 'series', dose: null, state: 'stationary' as const, onsetTime: null, patternLength: null },
       ],
     });
   }, 120_000);
@@ -62,7 +63,8 @@ describe('POST /api/plans/:id/update, /update/apply, /next', () => {
     const job = await waitJob(app, r.json().id);
     expect(job.state).toBe('done');
     const u = job.result;
-    expect(u.ignored).toEqual([{ tube: 'CF', reason: 'no delivered dose' }]);
+    expect(u.ignored.map((x: { tube: string }) => x.tube)).toEqual(['CF', 'D9']);
+    expect(u.ignored[1].reason).toBe('no delivered dose');
     expect(u.priorFrom).toBe('plan');
     expect(['importance', 'smc']).toContain(u.update.method);
     expect(u.update.consistency.consistent).toBe(true);
