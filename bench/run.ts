@@ -6,6 +6,8 @@
  *   analyses   10,000 seeded random 6-species 2-chemical analyses
  *   screen     200 candidates × 1,000 Monte Carlo draws against a stable 6-species 2-chemical base
  *   state-map  a 200 × 200 state map (base level × dose) of one candidate
+ *   design     the next-experiment design against the default fixed series on the same simulated truths: tubes
+ *              needed to bring the 5–95 % threshold band within a factor of 1.2 of the true threshold (bench/design.ts)
  *   service    the HTTP service on 127.0.0.1 while the screen runs as a plan job, under a bounded load
  *              on GET /api/species: latency p50/p99, requests/s, the main event loop's delay, peak RSS
  *
@@ -36,6 +38,7 @@ import { findDose, screen, stateMap, type CandidateResult, type ScreenOptions, t
 import { Random } from '../server/engine/random.js';
 import type { ScanOptions } from '../server/engine/scan.js';
 import type { Mixture, Species } from '../server/engine/types.js';
+import { benchDesign } from './design.js';
 import { benchShelf, mixtureOf, randomMixture } from './inputs.js';
 
 /**
@@ -526,4 +529,27 @@ const { mixture: base, candidates } = mixtureOf(shelf.document, shelf.sample, sh
 if (wanted('screen')) benchScreen(base, candidates);
 if (wanted('state-map')) benchStateMap(base, candidates);
 if (wanted('service')) await benchService(shelf, screenFast?.band.results ?? null);
+if (wanted('design')) {
+  const truths = Number(process.env.BRINK_BENCH_DESIGN_TRUTHS ?? 12);
+  const t = now();
+  const b = benchDesign(truths, log);
+  line({
+    workload: 'design',
+    fast_s: now() - t,
+    reference_s: null,
+    max_rel_disagreement: null,
+    notes: `${truths} simulated truths drawn from the prior (bench/design.ts), rounds of ${b.tubesPerRound} tubes (ε = 0.05 misreadings), at most ${b.rounds} rounds; tubes needed until the 5–95 % band lies within a factor of 1.2 of the true threshold, designed (expected posterior variance of log10 threshold) vs the default fixed series; mean over the truths each strategy reached; fast_s is the whole workload, there is no reference path`,
+    tubes_designed: round(b.designed.meanTubes),
+    tubes_fixed: round(b.fixed.meanTubes),
+    reached_designed: b.designed.reached,
+    reached_fixed: b.fixed.reached,
+    both_reached: b.both.truths,
+    tubes_designed_both: round(b.both.designed),
+    tubes_fixed_both: round(b.both.fixed),
+    band_factor_by_round_designed: b.designed.bandFactorByRound,
+    band_factor_by_round_fixed: b.fixed.bandFactorByRound,
+    seconds_designed: round(b.designed.seconds),
+    seconds_fixed: round(b.fixed.seconds),
+  });
+}
 log(`done in ${(now() - t0).toFixed(0)} s`);

@@ -37,6 +37,8 @@ import { outcomeRoutes } from './routes/outcomes.js';
 import { hazardRoutes } from './routes/hazards.js';
 import { metaRoutes } from './routes/meta.js';
 import { planRoutes } from './routes/plans.js';
+import { outcomeUpdateRoutes } from './routes/outcomes-update.js';
+import { outcomeUpdateService, type ReadOutcomes } from '../outcomes/update.js';
 import { shelfIoRoutes } from './routes/shelf-io.js';
 import { shelfItemRoutes } from './routes/shelf-items.js';
 import { issueList } from '../schema/mixture.js';
@@ -84,8 +86,12 @@ declare module 'fastify' {
 export type App = FastifyInstance;
 export { VERSION };
 
-/** Build the app; `await app.ready()` is done here, so it can be injected into at once. */
-export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db }): Promise<App> {
+/**
+ * Build the app; `await app.ready()` is done here, so it can be injected into at once.
+ * `readOutcomes`: how the model-update routes read a plan's outcomes (server/outcomes/update.ts ReadOutcomes);
+ * by default the outcome sets stored in `db` (store/outcomes.ts).
+ */
+export async function buildApp({ config = {}, db, readOutcomes }: { config?: AppConfig; db: Db; readOutcomes?: ReadOutcomes }): Promise<App> {
   const app = Fastify({ logger: config.logger ?? false, bodyLimit: config.bodyLimit ?? 5 * 1024 * 1024 }).withTypeProvider<ZodTypeProvider>();
 
   // Validation with our own formatting of zod issues (field paths, unions resolved).
@@ -140,7 +146,8 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   app.decorate('hazards', hazards);
   const sheets = sheetService(plansRepo, shelf.repo, hazards);
   app.decorate('sheets', sheets);
-  app.decorate('outcomes', outcomesService(plansRepo, sheets, outcomesRepository(db)));
+  const outcomeSets = outcomesRepository(db);
+  app.decorate('outcomes', outcomesService(plansRepo, sheets, outcomeSets));
   app.decorate('calibration', calibrationService(shelf, measurementsRepository(db)));
   if (config.closeDatabase) app.addHook('onClose', async () => db.close());
 
@@ -180,6 +187,8 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   await app.register(protocolRoutes);
   await app.register(outcomeRoutes);
   await app.register(hazardRoutes);
+  const read: ReadOutcomes = readOutcomes ?? ((planId, candidate) => outcomeSets.current(planId, candidate));
+  await app.register(outcomeUpdateRoutes, { service: outcomeUpdateService({ shelf, plans: plansRepo, readOutcomes: read, rerun: (id, holder) => app.plans.rerun(id, holder), pool, jobs }) });
   await app.ready();
   return app;
 }

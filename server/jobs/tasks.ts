@@ -14,6 +14,9 @@ import type { AnalysisResult } from '../engine/analyze.js';
 import type { Mixture, Species } from '../engine/types.js';
 import type { PlanRequest } from '../shelf/plans.js';
 import type { PlanResult } from '../shelf/run-plan.js';
+import type { DesignResult } from '../engine/design.js';
+import type { UpdateResult } from '../engine/update.js';
+import type { DesignInput, UpdateInput } from '../outcomes/run-update.js';
 
 /** Progress callback a task may call: fraction of its work done (0–1) and what it is doing. */
 export type TaskProgress = (fraction: number, stage: string) => void;
@@ -27,6 +30,10 @@ export interface Tasks {
   fit: { input: { method: FitMethod; data: unknown; options: FitOptions[FitMethod] }; output: ReturnType<typeof runFit> };
   /** A quantal dose–response fit from a table (calibrate/quantal.ts; the options already parsed). */
   quantal: { input: { data: unknown; options: QuantalFitOptions }; output: ReturnType<typeof runQuantalFit> };
+  /** The model update from a plan's outcomes (engine/update.ts via outcomes/run-update.ts). */
+  update: { input: UpdateInput; output: UpdateResult };
+  /** The update, then the design of the next round of doses (engine/design.ts). */
+  design: { input: DesignInput; output: { update: UpdateResult; design: DesignResult } };
 }
 
 export type TaskKind = keyof Tasks;
@@ -50,5 +57,13 @@ export const LOADERS: { [K in TaskKind]: () => Promise<TaskFunction<K>> } = {
   quantal: async () => {
     const { runQuantalFit } = await import('../calibrate/quantal.js');
     return (input) => runQuantalFit(input.data, input.options);
+  },
+  update: async () => {
+    const { runUpdate } = await import('../outcomes/run-update.js');
+    return (input, progress) => runUpdate(input, progress);
+  },
+  design: async () => {
+    const { runDesign } = await import('../outcomes/run-update.js');
+    return (input, progress) => runDesign(input, progress);
   },
 };

@@ -1,0 +1,343 @@
+/**
+ * The model update and the next experiment as a service (docs/model.md §13): a stored plan and the
+ * outcomes recorded for its sheet become the inputs of the 'update' and 'design' jobs (worker threads,
+ * server/outcomes/run-update.ts); an update, once computed, is applied as new species and chemical
+ * revisions whose provenance names the plan and the outcome set (id and revision).
+ *
+ * The outcomes are read through an injected function (`ReadOutcomes`) whose shape is the outcome
+ * storage's: per tube, its code, kind, delivered dose (m⁻³, null when unknown), state seen, onset
+ * time (s) and pattern length (m). What a plan's request gave as the sample's amounts (a base species'
+ * density, a chemical's concentration) is the sample's, not the shelf's: it is reported, never written.
+ */
+import { z } from 'zod';
+import type { DesignResult } from '../engine/design.js';
+import type { DoseOptions } from '../engine/planner.js';
+import type { Mixture, Species } from '../engine/types.js';
+import type { CoefficientUpdate, Tube, UpdateResult } from '../engine/update.js';
+import { formatMeasured } from '../calibrate/service.js';
+import type { WorkerPool } from '../jobs/pool.js';
+import type { Job, JobRegistry } from '../jobs/registry.js';
+import { quantity, issueList } from '../schema/mixture.js';
+import { keySchema, toTypedRecord, type ChemicalRecord, type SpeciesRecord, type StoredQuantity } from '../schema/shelf.js';
+import { DomainError, InputError } from '../shelf/errors.js';
+import { planRequestSchema } from '../shelf/plans.js';
+import { parseRecord, type ShelfService } from '../shelf/service.js';
+import type { PlanRow } from '../store/plans.js';
+import { DIMENSIONS, dimensionOfUnit, formatDimension } from '../units/index.js';
+import type { DesignInput, UpdateInput } from './run-update.js';
+
+/** One tube's outcome, as the outcome storage gives it. */
+export interface OutcomeTube {
+  tube: string;
+  kind: string;
+  /** delivered dopant dose, m⁻³; null when unknown */
+  dose: number | null;
+  state: 'stable' | 'stationary' | 'oscillatory' | 'unclear';
+  /** s */
+  onsetTime: number | null;
+  /** m */
+  patternLength: number | null;
+}
+
+/** The current outcome set of a plan's sheet (for one candidate). */
+export interface OutcomeSet {
+  id: number;
+  revision: number;
+  candidate: string;
+  tubes: OutcomeTube[];
+}
+
+/** Reads a plan's current outcomes (the coordinator wires it to the outcome storage); null when none recorded. */
+export type ReadOutcomes = (planId: number, candidate?: string) => OutcomeSet | null;
+
+export const updateRequestSchema = z.strictObject({
+  candidate: keySchema.optional().describe('the candidate whose tubes were observed (default: the outcome set’s)'),
+  misclassification: z.number().gt(0).lt(0.5).default(0.05).describe('ε, the chance the bench records another state than the one the tube is in'),
+  onsetSd: z.number().positive().max(5).default(0.5).describe('σ of ln(onset time)'),
+  lengthSd: z.number().positive().max(5).default(0.25).describe('σ of ln(pattern length)'),
+  onsetEFolds: z.number().positive().max(50).default(1).describe('the onset is read as this many growth times'),
+  minEss: z.number().positive().optional().describe('importance sampling while its effective sample size is at least this (default max(50, draws/5)); else sequential Monte Carlo'),
+  samples: z.number().int().min(10).max(4000).optional().describe('prior draws when the plan has no Monte Carlo uncertainty (default 500)'),
+  seed: z.number().int().min(0).max(4294967295).optional(),
+  alpha: z.number().gt(0).lt(0.5).default(0.01).describe('level of the consistency checks'),
+});
+export type UpdateRequest = z.output<typeof updateRequestSchema>;
+
+const dose = (d: string) => quantity(DIMENSIONS.numberDensity, 'nonnegative', d);
+export const designRequestSchema = updateRequestSchema.extend({
+  tubes: z.number().int().min(1).max(24).optional().describe('tubes of the next round (default: as many as the default fixed series)'),
+  minDoseRatio: z.number().gt(1).max(10).optional().describe('smallest ratio between two doses the bench can make apart (default 1.1)'),
+  grid: z.array(dose('a dose the bench can make')).min(1).max(400).optional(),
+  minDose: dose('lowest dose (e.g. the smallest pipetting volume × the stock)').optional(),
+  maxDose: dose('dose cap').optional(),
+  simulations: z.number().int().min(20).max(2000).optional(),
+});
+export type DesignRequest = z.output<typeof designRequestSchema>;
+
+/**
+ * The tube kinds that are the plan's mixture at a dose (the sheet's sample kinds, protocol/pipetting.ts
+ * SampleKind): the series and the no-dopant control (dose 0). A no-fuel or dopant-alone control is another
+ * mixture; its outcome is reported as ignored.
+ */
+export const MODELLED_KINDS = new Set(['series', 'no-dopant']);
+
+interface PlanInputs {
+  base: Mixture;
+  candidates: Species[];
+}
+
+/** The engine inputs of an update from a stored plan and its outcome set (no database here). */
+export function updateInput(plan: PlanRow, outcomes: OutcomeSet, req: UpdateRequest): { input: UpdateInput; ignored: { tube: string; reason: string }[]; priorFrom: 'plan' | 'request' } {
+  const parsed = planRequestSchema.safeParse(plan.request);
+  if (!parsed.success) throw new Error(`stored request of plan ${plan.id} no longer validates`);
+  const pr = parsed.data;
+  const inputs = plan.inputs as PlanInputs;
+  const observed = req.candidate ?? outcomes.candidate;
+  if (!inputs.candidates.some((c) => c.id === observed)) throw new InputError([{ path: 'candidate', message: `"${observed}" is not a candidate of plan ${plan.id}` }]);
+  const ignored: { tube: string; reason: string }[] = [];
+  const tubes: Tube[] = [];
+  for (const t of outcomes.tubes) {
+    if (!MODELLED_KINDS.has(t.kind)) {
+      ignored.push({ tube: t.tube, reason: `a ${t.kind} tube is another mixture than the plan's base with the dopant at a dose: not modelled` });
+      continue;
+    }
+    if (t.dose === null) {
+      ignored.push({ tube: t.tube, reason: 'no delivered dose' });
+      continue;
+    }
+    tubes.push({ tube: t.tube, dose: t.dose, state: t.state, onsetTime: t.onsetTime, patternLength: t.patternLength });
+  }
+  if (tubes.length === 0) throw new DomainError('no-outcomes', `the outcomes of plan ${plan.id} have no tube with a delivered dose: nothing to learn from`);
+  const dose: DoseOptions = {
+    boundary: pr.boundary,
+    dosing: pr.dosing,
+    ...(pr.maxVolumeFraction !== undefined ? { maxVolumeFraction: pr.maxVolumeFraction } : {}),
+    ...(pr.maxDensity !== undefined ? { maxDensity: pr.maxDensity.value } : {}),
+  };
+  const fromPlan = pr.uncertainty && pr.uncertainty.samples >= 10;
+  const samples = fromPlan ? pr.uncertainty!.samples : (req.samples ?? 500);
+  const seed = fromPlan ? pr.uncertainty!.seed : (req.seed ?? 1);
+  return {
+    input: {
+      base: inputs.base,
+      candidates: inputs.candidates,
+      observed,
+      dose,
+      tubes,
+      options: {
+        samples,
+        seed,
+        misclassification: req.misclassification,
+        onsetSd: req.onsetSd,
+        lengthSd: req.lengthSd,
+        onsetEFolds: req.onsetEFolds,
+        alpha: req.alpha,
+        ...(req.minEss !== undefined ? { minEss: req.minEss } : {}),
+      },
+    },
+    ignored,
+    priorFrom: fromPlan ? 'plan' : 'request',
+  };
+}
+
+/** The design's engine inputs: the update's, with the sheet's constraints in SI. */
+export function designInput(plan: PlanRow, outcomes: OutcomeSet, req: DesignRequest): ReturnType<typeof updateInput> & { input: DesignInput } {
+  const u = updateInput(plan, outcomes, req);
+  return {
+    ...u,
+    input: {
+      ...u.input,
+      design: {
+        ...(req.tubes !== undefined ? { tubes: req.tubes } : {}),
+        ...(req.minDoseRatio !== undefined ? { minDoseRatio: req.minDoseRatio } : {}),
+        ...(req.grid ? { grid: req.grid.map((q) => q.value) } : {}),
+        ...(req.minDose ? { minDose: req.minDose.value } : {}),
+        ...(req.maxDose ? { maxDose: req.maxDose.value } : {}),
+        ...(req.simulations ? { simulations: req.simulations } : {}),
+      },
+    },
+  };
+}
+
+// ---------------------------------------------------------------- applying an update
+
+/** Shelf fields an update may write (the sample's amounts, a species' density and a chemical's concentration, are not the shelf's). */
+const SHELF_FIELDS = new Set(['diffusivity', 'lossRate', 'solubility', 'radius', 'materialDensity', 'mobility', 'rate', 'maxRate', 'michaelis']);
+
+function storedUnit(x: unknown): string | null {
+  return x !== null && typeof x === 'object' && 'si' in x && 'unit' in x ? ((x as StoredQuantity).unit ?? null) : null;
+}
+
+/** The unit the item already uses for a field (when it has the field's dimension), else SI. */
+function unitFor(si: string, existing: unknown): string {
+  const u = storedUnit(existing);
+  if (u) {
+    try {
+      if (formatDimension(dimensionOfUnit(u)) === formatDimension(dimensionOfUnit(si))) return u;
+    } catch {
+      // not a unit the reader knows
+    }
+  }
+  return si;
+}
+
+export interface PlannedRevision {
+  type: 'species' | 'chemical';
+  key: string;
+  baseRevision: number;
+  /** what changes, in words, with the new value and sd as written */
+  changes: { field: string; chemical: string | null; from: number; to: { value: string; sd?: string } }[];
+  record: unknown;
+}
+
+/**
+ * The revisions an update writes: every updated shelf quantity of every base species, the observed
+ * candidate and the chemicals, as `{ value, sd, provenance }` in the unit the item already uses,
+ * rounded as calibration fits are (calibrate/service.ts formatMeasured). Provenance: `estimated`, naming
+ * the plan, the outcome set and its revision, and the update's method and ESS.
+ */
+export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: OutcomeSet, result: UpdateResult, author: string): PlannedRevision[] {
+  const provenance = {
+    source: 'estimated' as const,
+    reference: `model update from plan ${plan.id} ("${plan.name}"), outcome set ${outcomes.id} revision ${outcomes.revision}: ${result.method === 'importance' ? 'importance sampling' : 'sequential Monte Carlo'}, ESS ${result.ess.toFixed(0)} of ${result.samples} draws, ε = ${result.options.misclassification}`,
+    date: new Date().toISOString().slice(0, 10),
+    by: author,
+  };
+  const byItem = new Map<string, CoefficientUpdate[]>();
+  for (const c of result.coefficients) {
+    if (!SHELF_FIELDS.has(c.field)) continue;
+    const k = `${c.owner}:${c.id}`;
+    byItem.set(k, [...(byItem.get(k) ?? []), c]);
+  }
+  const out: PlannedRevision[] = [];
+  for (const [k, cs] of byItem) {
+    const [owner, key] = k.split(':') as ['species' | 'chemical', string];
+    const cur = shelf.repo.mustGet<SpeciesRecord | ChemicalRecord>(owner, key);
+    const typed = toTypedRecord(cur.record) as Record<string, unknown> & { couplings?: Record<string, unknown>[] };
+    const raw = cur.record as unknown as Record<string, unknown> & { couplings?: Record<string, unknown>[] };
+    const changes: PlannedRevision['changes'] = [];
+    for (const c of cs) {
+      const si = { diffusivity: 'm^2/s', lossRate: '1/s', solubility: 'mol/m^3', radius: 'm', materialDensity: 'kg/m^3', mobility: 'm^5/(mol s)', rate: 'mol/s', maxRate: 'mol/s', michaelis: 'mol/m^3' }[c.field as string]!;
+      const write = (existing: unknown) => {
+        const text = formatMeasured(c.posteriorMean, c.posteriorSd > 0 ? c.posteriorSd : null, unitFor(si, existing));
+        changes.push({ field: c.field, chemical: c.chemical, from: c.value, to: text });
+        return { value: text.value, ...(text.sd ? { sd: text.sd } : {}), provenance };
+      };
+      if (c.chemical === null) {
+        typed[c.field] = write(raw[c.field]);
+        continue;
+      }
+      const i = (raw.couplings ?? []).findIndex((x) => x.chemical === c.chemical);
+      if (i < 0) throw new DomainError('coupling-missing', `${key} has no coupling on ${c.chemical} any more: the update cannot be applied to it`);
+      const tc = typed.couplings![i]!;
+      const rc = raw.couplings![i]!;
+      if (c.field === 'mobility') tc.mobility = write(rc.mobility);
+      else if (c.field === 'rate') tc.activity = write(rc.activity);
+      else {
+        const act = { ...(tc.activity as Record<string, unknown>) };
+        act[c.field] = write((rc.activity as Record<string, unknown> | undefined)?.[c.field]);
+        tc.activity = act;
+      }
+    }
+    out.push({ type: owner, key, baseRevision: cur.revision, changes, record: parseRecord(owner, typed, ['record']) });
+  }
+  return out;
+}
+
+// ---------------------------------------------------------------- the service
+
+export interface UpdateJobResult {
+  planId: number;
+  outcomes: { id: number; revision: number; candidate: string };
+  ignored: { tube: string; reason: string }[];
+  priorFrom: 'plan' | 'request';
+  update: UpdateResult;
+}
+
+/**
+ * Update and design jobs for stored plans. `readOutcomes` reads a plan's current outcome set; `rerun`
+ * starts a new plan from a stored plan's request on the current shelf (plans.ts `rerun`).
+ */
+export function outcomeUpdateService(deps: {
+  shelf: ShelfService;
+  plans: { get(id: number): PlanRow };
+  readOutcomes: ReadOutcomes;
+  rerun: (planId: number, holder: string | null) => Job<{ planId: number }>;
+  pool: WorkerPool;
+  jobs: JobRegistry;
+}) {
+  const outcomesOf = (planId: number, candidate?: string): OutcomeSet => {
+    const o = deps.readOutcomes(planId, candidate);
+    if (!o || o.tubes.length === 0) throw new DomainError('no-outcomes', `plan ${planId} has no outcomes recorded${candidate ? ` for ${candidate}` : ''}: record the tubes first`);
+    return o;
+  };
+  const parse = <T>(schema: z.ZodType<T>, body: unknown): T => {
+    const p = schema.safeParse(body ?? {});
+    if (!p.success) throw new InputError(issueList(p.error));
+    return p.data;
+  };
+  return {
+    /** Start the update of a plan from its current outcomes: a job whose result is an UpdateJobResult. */
+    startUpdate(planId: number, body: unknown): Job<UpdateJobResult> {
+      const req = parse(updateRequestSchema, body);
+      const plan = deps.plans.get(planId);
+      const outcomes = outcomesOf(planId, req.candidate);
+      const u = updateInput(plan, outcomes, req);
+      return deps.jobs.start<UpdateJobResult>(
+        'update',
+        async (ctx) => {
+          const update = await deps.pool.run('update', u.input, ctx.runOptions);
+          return { planId, outcomes: { id: outcomes.id, revision: outcomes.revision, candidate: outcomes.candidate }, ignored: u.ignored, priorFrom: u.priorFrom, update };
+        },
+        { label: `update of plan ${planId} from outcome set ${outcomes.id}` },
+      );
+    },
+
+    /**
+     * Apply a finished update job: write its revisions, provided the job belongs to this plan and its outcome
+     * set is still the current one (else a 409-style DomainError: rerun the update).
+     */
+    apply(planId: number, body: { job: string; author?: string; note?: string | null }) {
+      const job = deps.jobs.get(body.job) as Job<UpdateJobResult> | undefined;
+      if (!job || job.kind !== 'update') throw new InputError([{ path: 'job', message: `no update job ${body.job}` }]);
+      if (job.state !== 'done' || !job.result) throw new DomainError('job-not-done', `update job ${body.job} is ${job.state}: apply a finished update`);
+      const r = job.result;
+      if (r.planId !== planId) throw new InputError([{ path: 'job', message: `update job ${body.job} is of plan ${r.planId}, not ${planId}` }]);
+      const cur = outcomesOf(planId, r.outcomes.candidate);
+      if (cur.id !== r.outcomes.id || cur.revision !== r.outcomes.revision)
+        throw new DomainError('outcomes-changed', `the outcomes of plan ${planId} changed since the update was computed (set ${r.outcomes.id} revision ${r.outcomes.revision}, now ${cur.id} revision ${cur.revision}): rerun the update`);
+      if (!r.update.consistency.consistent)
+        throw new DomainError('inconsistent-outcomes', `the update was not applied: ${r.update.consistency.message}`);
+      const plan = deps.plans.get(planId);
+      const author = body.author ?? 'anonymous';
+      const planned = plannedRevisions(deps.shelf, plan, cur, r.update, author);
+      const note = [`model update from plan ${planId}, outcome set ${cur.id} revision ${cur.revision}`, body.note ?? null].filter((x) => x !== null && x !== '').join('; ');
+      // every revision of the update, or none (a stale base revision of one refuses them all)
+      const revisions = deps.shelf.repo.transaction(() => planned.map((p) => deps.shelf.edit(p.type, p.key, p.baseRevision, p.record as never, { author, note })));
+      return { planId, outcomes: r.outcomes, revisions: revisions.map((rev, i) => ({ type: planned[i]!.type, key: planned[i]!.key, revisionId: rev.revisionId, changes: planned[i]!.changes })) };
+    },
+
+    /**
+     * The next experiment: a job that designs the next round's doses from the plan's current outcomes, then
+     * starts a new plan from the same request on the current shelf (a rerun); its result carries the design, the
+     * new plan's job and the doses to give the sheet (its `doses` option).
+     */
+    startNext(planId: number, body: unknown, holder: string | null = null): Job<{ planId: number; update: UpdateResult; design: DesignResult; sheet: { candidate: string; doses: string[] }; nextPlanJob: string }> {
+      const req = parse(designRequestSchema, body);
+      const plan = deps.plans.get(planId);
+      const outcomes = outcomesOf(planId, req.candidate);
+      const d = designInput(plan, outcomes, req);
+      return deps.jobs.start(
+        'design',
+        async (ctx) => {
+          const out = await deps.pool.run('design', d.input, ctx.runOptions);
+          ctx.signal.throwIfAborted();
+          const next = deps.rerun(planId, holder);
+          return { planId, ...out, sheet: { candidate: d.input.observed, doses: out.design.designed.doses.map((x) => `${Number(x.toPrecision(4))} 1/m^3`) }, nextPlanJob: next.id };
+        },
+        { label: `next experiment after plan ${planId}` },
+      );
+    },
+  };
+}
+export type OutcomeUpdateService = ReturnType<typeof outcomeUpdateService>;
