@@ -20,12 +20,13 @@ import { buildApp, type App } from '../../server/http/app.js';
 import { LIMITS } from '../../server/schema/limits.js';
 import { seedDemoShelf } from '../../server/shelf/seed.js';
 import { openDatabase } from '../../server/store/db.js';
+import { DIMENSIONS, parseQuantity, UnitError, type Dimension } from '../../server/units/index.js';
 import { chemicalRecord, speciesRecord } from '../helpers/app.js';
 
 /** Fixed seeds: a failure prints its seed and path, and the same run reproduces it. */
 const SEED = 1212;
 /** Runs per body route, of the generic hostile bodies, and of query strings and parameters. */
-const RUNS = { perRoute: 100, generic: 800, query: 1200 };
+const RUNS = { perRoute: 100, generic: 800, query: 1200, units: 3000 };
 
 const msdCsv = 'lag [s],msd [um^2]\n0.1,0.092\n0.2,0.175\n0.5,0.44\n1,0.90\n2,1.77\n5,4.41\n';
 const hazardSet = {
@@ -219,7 +220,7 @@ const LEAKS = /\n\s+at [^\n]*:\d+:\d+|SqliteError|SQLITE_|\bSELECT\b[^"]*\bFROM\
 
 let app: App;
 let cases: Record<string, RouteCase>;
-const stats = { requests: 0, status: new Map<number, number>(), fiveXX: 0, rejectedWrites: 0, unchangedChecked: 0 };
+const stats = { requests: 0, status: new Map<number, number>(), fiveXX: 0, rejectedWrites: 0, unchangedChecked: 0, unitStrings: 0 };
 const failures: string[] = [];
 
 /** What a rejected write must leave as it was. */
@@ -308,8 +309,44 @@ beforeAll(async () => {
 
 afterAll(async () => {
   const byStatus = [...stats.status.entries()].sort((a, b) => a[0] - b[0]).map(([s, n]) => `${s}: ${n}`).join(', ');
-  console.log(`fuzz (seed ${SEED}): ${stats.requests} requests fuzzed, ${stats.fiveXX} 5xx seen; by status ${byStatus}; ${stats.rejectedWrites} rejected writes, shelf checked unchanged after each`);
+  console.log(`fuzz (seed ${SEED}): ${stats.requests} requests fuzzed, ${stats.fiveXX} 5xx seen; by status ${byStatus}; ${stats.rejectedWrites} rejected writes, shelf checked unchanged after each; ${stats.unitStrings} values given to the unit parser directly`);
   await app?.close();
+});
+
+describe('fuzzing the unit parser', () => {
+  it('any string, number or { value, sd }: a finite SI value of the asked dimension and sign, or a UnitError; never another error', () => {
+    const dims = Object.values(DIMENSIONS) as Dimension[];
+    const units = ['um', 'μm', 'µm', 'mM', 'mol/s', 'um^2/s', '1/mL', 'percent', 'degC', 'K', 'g/mL', 'Pa*s', 'um^-3', 's', 'm^999', 'um^2/(s*mM)', '1/s', 'mol/L', 'kg'];
+    const numberText = fc.oneof(fc.double().map(String), fc.integer().map(String), fc.constantFrom('1e999', '-1e999', '1e-999', 'NaN', 'Infinity', '0', '-0', '.5', '5.', '1e', 'e5', '0x1f', '1_0'));
+    const unitText = fc.oneof(
+      fc.constantFrom(...ODD_STRINGS),
+      fc.tuple(numberText, fc.constantFrom('', ' ', '  ', '\t'), fc.array(fc.constantFrom(...units), { maxLength: 3 }), fc.constantFrom('', '^2', '^-1', '^999', '^0.5', '/', '*', ' percent', ')')).map(([n, sp, us, tail]) => `${n}${sp}${us.join(' ')}${tail}`),
+      fc.string({ unit: 'binary', maxLength: 30 }),
+    );
+    const raw = fc.oneof(unitText, fc.double(), fc.record({ value: fc.oneof(unitText, fc.double()), sd: fc.oneof(unitText, fc.double(), fc.constant(undefined)) }, { requiredKeys: ['value'] }));
+    let parsed = 0;
+    let refused = 0;
+    fc.assert(
+      fc.property(raw, fc.constantFrom(...dims), fc.constantFrom('positive', 'nonnegative', 'any') as fc.Arbitrary<'positive' | 'nonnegative' | 'any'>, (r, dimension, sign) => {
+        try {
+          const q = parseQuantity(r, { dimension, sign }, 'x');
+          parsed++;
+          if (!Number.isFinite(q.value) || !Number.isFinite(q.sd) || q.sd < 0) return false;
+          if (sign === 'positive' && !(q.value > 0)) return false;
+          if (sign === 'nonnegative' && !(q.value >= 0)) return false;
+          return true;
+        } catch (e) {
+          refused++;
+          return e instanceof UnitError && e.reason.length > 0;
+        }
+      }),
+      { seed: SEED + 3, numRuns: RUNS.units },
+    );
+    stats.unitStrings = parsed + refused;
+    // the generator must reach both outcomes, or the property says little
+    expect(parsed).toBeGreaterThan(50);
+    expect(refused).toBeGreaterThan(50);
+  });
 });
 
 describe('fuzzing every endpoint', () => {
