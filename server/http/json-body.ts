@@ -99,6 +99,7 @@ export function protoKey(value: unknown): (string | number)[] | null {
 
 /** Parse a JSON body within the limits, or throw the 400 that says what is wrong. */
 export function parseJsonBody(text: string, maxDepth: number = LIMITS.depth): unknown {
+  if (text.charCodeAt(0) === 0xfeff) text = text.slice(1); // a byte-order mark, as some editors save files
   if (text.trim() === '') throw new BadBodyError('empty-json', 'the body is empty but content-type is application/json: send a JSON document, or no content-type');
   const deep = tooDeep(text, maxDepth);
   if (deep !== null) {

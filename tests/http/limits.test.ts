@@ -76,6 +76,7 @@ describe('JSON bodies', () => {
     expect(tooDeep('['.repeat(LIMITS.depth + 1) + ']'.repeat(LIMITS.depth + 1), LIMITS.depth)).toHaveLength(LIMITS.depth);
     expect(() => parseJsonBody('{"x": {"__proto__": {"polluted": 1}}}')).toThrow(/x\.__proto__: the key "__proto__" is not allowed/);
     expect(({} as Record<string, unknown>).polluted).toBeUndefined();
+    expect(parseJsonBody('\ufeff{"a": 1}')).toEqual({ a: 1 });
   });
 
   it('a body nested 5,000 levels deep is a 400 naming the problem at every kind of route', async () => {
