@@ -41,8 +41,10 @@ export function capProblems(problems: readonly Problem[], cap: number = LIMITS.p
   return { shown: problems.slice(0, cap), more: Math.max(0, problems.length - cap) };
 }
 
-function invalid(reply: FastifyReply, problems: Problem[], where?: string) {
-  const { shown, more } = capProblems(problems);
+function invalid(reply: FastifyReply, problems: Problem[], where?: string, uncounted = 0) {
+  const capped = capProblems(problems);
+  const shown = capped.shown;
+  const more = capped.more + uncounted;
   const lines = shown.map((p) => (p.path ? `${p.path}: ${p.message}` : p.message));
   if (more > 0) lines.push(`… and ${more} more problem${more === 1 ? '' : 's'}`);
   return reply.code(400).send({ error: 'invalid-input', message: lines.join('; '), ...(where ? { in: where } : {}), problems: shown, ...(more > 0 ? { more } : {}) });
@@ -64,7 +66,7 @@ export function errorHandler(this: unknown, err: FastifyError | Error, req: Fast
     const cause = (err as { cause?: unknown }).cause;
     if (cause instanceof RequestValidationError) return invalid(reply, cause.problems, cause.part);
   }
-  if (err instanceof InputError) return invalid(reply, err.problems);
+  if (err instanceof InputError) return invalid(reply, err.problems, undefined, err.more);
   if (err instanceof EngineInputError) return invalid(reply, [{ path: err.path, message: err.reason }]);
   if (err instanceof NotFoundError) return reply.code(404).send({ error: 'not-found', message: err.message });
   if (err instanceof StaleRevisionError) return reply.code(409).send({ error: 'stale-revision', message: err.message, current: err.current });

@@ -68,6 +68,23 @@ describe('bounds', () => {
   });
 });
 
+describe('problems of raw data', () => {
+  it('a CSV of 10,000 bad rows: 100 problems listed, the rest counted (collected only so far, in the worker too)', async () => {
+    const data = 'gradient [mM/mm],velocity [um/s]\n' + 'x,y\n'.repeat(10_000);
+    const r = await app.inject({ method: 'POST', url: '/api/fits/drift', payload: { data } });
+    expect(r.statusCode).toBe(400);
+    expect(r.json().problems).toHaveLength(LIMITS.problems);
+    expect(r.json().more).toBe(20_000 - LIMITS.problems);
+    expect(r.json().problems[0]).toEqual({ path: 'line 2, column 1 (gradient [mM/mm])', message: 'not a number: "x"' });
+  });
+
+  it(`a CSV past ${LIMITS.rows} data rows is refused before it is parsed, naming data`, async () => {
+    const data = 'gradient [mM/mm],velocity [um/s]\n# a comment\n\n' + '1,2\n'.repeat(LIMITS.rows + 1);
+    const r = await app.inject({ method: 'POST', url: '/api/fits/drift', payload: { data } });
+    expect(r.json().problems).toEqual([{ path: 'data', message: `at most ${LIMITS.rows} data rows in one fit, got ${LIMITS.rows + 1}` }]);
+  });
+});
+
 describe('JSON bodies', () => {
   it('the depth scan names where a body goes too deep, counts brackets in strings as text, and passes the limit itself', () => {
     expect(tooDeep('{"a":[1,{"b":[[[]]]}]}', 3)).toEqual(['a', 1, 'b']);
