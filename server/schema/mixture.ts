@@ -365,8 +365,14 @@ function flatten(issues: readonly Issue[], prefix: PropertyKey[], out: { path: P
       out.push({ path, code: 'invalid_union', message: missing ? 'missing' : 'expected a number in SI, a string with a unit, or an object of the documented form' });
       continue;
     }
-    out.push({ path, code: i.code, message: i.message });
+    out.push({ path, code: i.code, message: i.code === 'unrecognized_keys' ? unknownKeys((i as Issue & { keys: string[] }).keys) : i.message });
   }
+}
+
+/** "Unrecognized keys" naming at most five of them (an answer never echoes 20,000 keys), each cut short. */
+function unknownKeys(keys: readonly string[]): string {
+  const named = keys.slice(0, 5).map((k) => JSON.stringify(k.length > LIMITS.id ? `${k.slice(0, LIMITS.id)}…` : k));
+  return `Unrecognized key${keys.length === 1 ? '' : 's'}: ${named.join(', ')}${keys.length > 5 ? ` and ${keys.length - 5} more` : ''}`;
 }
 
 /** Every problem as `{ path, message }`, unions resolved to the branch that was meant. */

@@ -130,6 +130,7 @@ const RAW: Record<string, () => string> = {
   infinity: () => '1e999',
   minusInfinity: () => '-1e999',
   hugeInteger: () => '123456789012345678901234567890',
+  badCsv: () => JSON.stringify('lag [s],msd [um^2]\n' + 'x,y\n'.repeat(50_000)),
   manyKeys: () => '{' + Array.from({ length: 20_000 }, (_, i) => `"k${i}":"1 mM"`).join(',') + '}',
 };
 const ODD_STRINGS = [

@@ -44,6 +44,10 @@ describe('bounds', () => {
     expect(unit.json().problems[0].path).toBe('record.radius');
     const chem = await app.inject({ method: 'POST', url: '/api/analyze/mixture', payload: { name: 'n'.repeat(LIMITS.name + 1), species: [mixtureSpecies(0)], chamber: { walls: 'unbounded' } } });
     expect(chem.json().problems[0].path).toBe('name');
+    // 20,000 unknown keys: five named, the rest counted
+    const extra = Object.fromEntries(Array.from({ length: 20_000 }, (_, i) => [`k${i}`, 1]));
+    const keys = await app.inject({ method: 'POST', url: '/api/chemicals', payload: { record: { id: 'a', name: 'b', diffusivity: 1e-9, ...extra } } });
+    expect(keys.json().problems).toEqual([{ path: 'record', message: 'Unrecognized keys: "k0", "k1", "k2", "k3", "k4" and 19995 more' }]);
   });
 
   it('a sample with more chemical levels than the bound is one problem, counted before any entry is read', async () => {
