@@ -155,6 +155,9 @@ const hostile: fc.Arbitrary<unknown> = fc.oneof(
   { weight: 2, arbitrary: fc.string({ unit: 'binary', maxLength: 40 }) },
 );
 
+/** How often each raw fragment was spliced into a body (printed with the figures). */
+const spliced = new Map<string, number>();
+
 /** Every path into a JSON value (the root included). */
 function paths(v: unknown, at: (string | number)[] = [], out: (string | number)[][] = []): (string | number)[][] {
   out.push(at);
@@ -174,7 +177,10 @@ function setAt(root: unknown, path: (string | number)[], value: unknown): unknow
 
 /** JSON text with the raw markers spliced in. */
 function render(v: unknown): string {
-  return (JSON.stringify(v) ?? 'null').replace(/"@@RAW:(\w+)@@"/g, (_m, k: string) => RAW[k]!());
+  return (JSON.stringify(v) ?? 'null').replace(/"@@RAW:(\w+)@@"/g, (_m, k: string) => {
+    spliced.set(k, (spliced.get(k) ?? 0) + 1);
+    return RAW[k]!();
+  });
 }
 
 const mutation = (template: unknown) =>
@@ -311,6 +317,7 @@ beforeAll(async () => {
 afterAll(async () => {
   const byStatus = [...stats.status.entries()].sort((a, b) => a[0] - b[0]).map(([s, n]) => `${s}: ${n}`).join(', ');
   console.log(`fuzz (seed ${SEED}): ${stats.requests} requests fuzzed, ${stats.fiveXX} 5xx seen; by status ${byStatus}; ${stats.rejectedWrites} rejected writes, shelf checked unchanged after each; ${stats.unitStrings} values given to the unit parser directly`);
+  console.log(`raw fragments spliced into bodies: ${[...spliced.entries()].map(([k, n]) => `${k} ${n}`).join(', ')}`);
   await app?.close();
 });
 
