@@ -5,9 +5,9 @@
  * schemas' descriptions carry them into the OpenAPI document at /api/docs).
  *
  * The species bound keeps one analysis to a moment: an analysis with crowding
- * of 32 species and 1–3 or 16 chemicals took 0.2–0.5 s on the 2-core development
- * machine idle, up to 1.0 s with it loaded four times over (400 species took
- * 24 s: the cost grows about as the cube of the modes). `npm run bench:limits`
+ * of 32 species and 1–3 or 16 chemicals took 0.1–0.4 s on the 2-core development
+ * machine lightly loaded, up to 1.0 s with it loaded four times over (100
+ * species took 7 s, 400 took 24 s: the cost grows about as the cube of the modes). `npm run bench:limits`
  * (bench/limits.ts) prints the figures.
  */
 export const LIMITS = {
