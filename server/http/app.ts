@@ -158,7 +158,8 @@ export async function buildApp({ config = {}, db }: { config?: AppConfig; db: Db
   });
   app.setErrorHandler(errorHandler);
   app.setNotFoundHandler((req, reply) => {
-    reply.code(404).send({ error: 'not-found', message: `no route ${req.method} ${req.url.split('?')[0]}` });
+    const path = req.url.split('?')[0]!;
+    reply.code(404).send({ error: 'not-found', message: `no route ${req.method} ${path.length > 200 ? `${path.slice(0, 200)}…` : path}` });
   });
 
   // The database: decorate, and close with the app when it belongs to the app.
