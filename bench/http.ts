@@ -12,7 +12,7 @@ const CONCURRENCY = 16;
 
 const db = openDatabase(':memory:');
 seedDemoShelf(db);
-const app = await buildApp({ config: { closeDatabase: true }, db });
+const app = await buildApp({ config: { closeDatabase: true, rateLimit: false }, db });
 await app.listen({ port: 0, host: '127.0.0.1' });
 const addr = app.server.address();
 const base = `http://127.0.0.1:${typeof addr === 'object' && addr ? addr.port : 0}`;

@@ -51,7 +51,7 @@ seedDemoShelf(db);
 const shelfFile = process.argv[2];
 if (!shelfFile) throw new Error('usage: bench/service.ts <bench-shelf.json>');
 shelfService(shelfRepository(db)).importShelf(JSON.parse(readFileSync(shelfFile, 'utf8')), { author: 'benchmark', note: 'invented benchmark shelf' });
-const app = await buildApp({ config: { closeDatabase: true }, db });
+const app = await buildApp({ config: { closeDatabase: true, rateLimit: false }, db });
 await app.listen({ port: 0, host: '127.0.0.1' });
 const addr = app.server.address();
 

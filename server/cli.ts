@@ -24,7 +24,9 @@ import { createInterface } from 'node:readline/promises';
 import { parseArgs } from 'node:util';
 import { analyze, type AnalysisResult } from './engine/analyze.js';
 import { EngineDomainError, EngineInputError } from './engine/types.js';
-import { MixtureFileError, parseMixture } from './schema/mixture.js';
+import { formatPath, MixtureFileError, parseMixture } from './schema/mixture.js';
+import { LIMITS } from './schema/limits.js';
+import { tooDeep } from './http/json-body.js';
 import { parseScreenRequest, screenOutput } from './schema/screen.js';
 import { screen, screenWarnings } from './engine/planner.js';
 import { progressBar } from './jobs/progress-bar.js';
@@ -125,6 +127,9 @@ function readText(path: string): string {
 }
 
 function parseJson(text: string, path: string): unknown {
+  // the same depth limit as a request body: no stack overflow further on
+  const deep = tooDeep(text, LIMITS.depth);
+  if (deep !== null) throw new UsageError(`${path} is nested deeper than ${LIMITS.depth} levels (objects and arrays), at ${formatPath(deep) || 'the top'}: no file brink reads is nested so deep`);
   try {
     return JSON.parse(text) as unknown;
   } catch (e) {

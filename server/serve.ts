@@ -79,8 +79,17 @@ export async function serve(o: ServeOptions): Promise<{ app: App; url: string }>
   if (ensureDemoShelf(db)) log(`loaded the demo shelf into ${o.dbPath}`);
   const workers = o.workers ?? envNumber('BRINK_WORKERS', true);
   const jobTimeLimit = o.jobTimeLimit ?? envNumber('BRINK_JOB_TIME_LIMIT', false);
+  // compute requests a minute from one client, per endpoint (default 60; README "Limits of the API")
+  const rateLimit = envNumber('BRINK_RATE_LIMIT', true);
   const app = await buildApp({
-    config: { logger: { level: 'warn' }, closeDatabase: true, access: { requireToken, tokenForReads, allowedHosts }, ...(workers !== undefined ? { workers } : {}), ...(jobTimeLimit !== undefined ? { jobTimeLimit } : {}) },
+    config: {
+      logger: { level: 'warn' },
+      closeDatabase: true,
+      access: { requireToken, tokenForReads, allowedHosts },
+      ...(workers !== undefined ? { workers } : {}),
+      ...(jobTimeLimit !== undefined ? { jobTimeLimit } : {}),
+      ...(rateLimit !== undefined ? { rateLimit: { max: rateLimit, timeWindowMs: 60_000 } } : {}),
+    },
     db,
   });
   await app.listen({ port: o.port, host: o.host });

@@ -5,6 +5,7 @@
  * the line and column (line 1 is the header).
  */
 import { parse } from 'csv-parse/sync';
+import { LIMITS } from '../schema/limits.js';
 import { InputError, type Problem } from '../shelf/errors.js';
 import { dimensionOfUnit, formatDimension, normaliseUnitText, parseQuantity, type Dimension } from '../units/index.js';
 
@@ -30,10 +31,52 @@ function header(text: string): { name: string; unit: string | null } {
   return { name: m[1]!.trim(), unit };
 }
 
+/** Problems of a table, listed up to LIMITS.problems and counted past that (a file of a million bad cells is one answer, not a million). */
+function collector() {
+  const list: Problem[] = [];
+  let more = 0;
+  return {
+    push(p: Problem) {
+      if (list.length < LIMITS.problems) list.push(p);
+      else more++;
+    },
+    get length() {
+      return list.length + more;
+    },
+    throwIfAny() {
+      if (list.length > 0) throw new InputError(list, more);
+    },
+  };
+}
+
+/** Lines that are neither blank nor a # comment, less the header: an upper bound on the data rows (a quoted cell may span lines). */
+function dataLines(text: string): number {
+  let n = 0;
+  let start = 0;
+  while (start <= text.length) {
+    let end = text.indexOf('\n', start);
+    if (end < 0) end = text.length;
+    let i = start;
+    while (i < end && (text.charCodeAt(i) === 0x20 || text.charCodeAt(i) === 0x09 || text.charCodeAt(i) === 0x0d)) i++;
+    if (i < end && text.charCodeAt(i) !== 0x23 /* # */) n++;
+    start = end + 1;
+  }
+  return Math.max(0, n - 1);
+}
+
+/** A value as JSON, cut short (an answer never echoes a long input). */
+function shown(v: unknown): string {
+  const t = JSON.stringify(v) ?? String(v);
+  return t.length > 60 ? `${t.slice(0, 60)}…` : t;
+}
+
 const NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
 
 /** Read a CSV text into numeric columns. */
 export function readCsv(text: string): Table {
+  // counted before parsing: a file past the row bound is refused at once, not after seconds of parsing
+  const rows = dataLines(text);
+  if (rows > LIMITS.rows) throw new InputError([{ path: 'data', message: `at most ${LIMITS.rows} data rows in one fit, got ${rows}` }]);
   let records: { record: string[]; info: { lines: number } }[];
   try {
     records = parse(text, { info: true, skip_empty_lines: true, trim: true, relax_column_count: true, comment: '#' }) as never;
@@ -43,7 +86,7 @@ export function readCsv(text: string): Table {
   }
   if (records.length === 0) throw new InputError([{ path: 'line 1', message: 'the file is empty: expected a header row such as "lag [s], msd [um^2]"' }]);
   const head = records[0]!.record;
-  const problems: Problem[] = [];
+  const problems = collector();
   const cols: Column[] = head.map((h) => ({ header: h, ...header(h), values: [] }));
   const lines: number[] = [];
   for (const { record, info } of records.slice(1)) {
@@ -52,12 +95,12 @@ export function readCsv(text: string): Table {
       continue;
     }
     record.forEach((cell, j) => {
-      if (!NUMBER.test(cell)) problems.push({ path: `line ${info.lines}, column ${j + 1} (${head[j]})`, message: `not a number: ${JSON.stringify(cell)}` });
+      if (!NUMBER.test(cell)) problems.push({ path: `line ${info.lines}, column ${j + 1} (${head[j]})`, message: `not a number: ${shown(cell)}` });
       else cols[j]!.values.push(Number(cell));
     });
     lines.push(info.lines);
   }
-  if (problems.length > 0) throw new InputError(problems);
+  problems.throwIfAny();
   return { columns: cols, lines };
 }
 
@@ -65,7 +108,7 @@ export function readCsv(text: string): Table {
 export function readJsonTable(doc: unknown): Table {
   if (doc === null || typeof doc !== 'object' || Array.isArray(doc)) throw new InputError([{ path: 'data', message: 'expected an object of columns, e.g. { "lag [s]": [...], "msd [um^2]": [...] }' }]);
   const entries = Object.entries(doc as Record<string, unknown>);
-  const problems: Problem[] = [];
+  const problems = collector();
   const cols: Column[] = [];
   let n = -1;
   for (const [h, vals] of entries) {
@@ -76,11 +119,11 @@ export function readJsonTable(doc: unknown): Table {
     if (n >= 0 && vals.length !== n) problems.push({ path: `data.${h}`, message: `expected ${n} values like the first column, got ${vals.length}` });
     n = Math.max(n, vals.length);
     vals.forEach((v, i) => {
-      if (typeof v !== 'number' || !Number.isFinite(v)) problems.push({ path: `data.${h}[${i}]`, message: `not a finite number: ${JSON.stringify(v)}` });
+      if (typeof v !== 'number' || !Number.isFinite(v)) problems.push({ path: `data.${h}[${i}]`, message: `not a finite number: ${shown(v)}` });
     });
     cols.push({ header: h, ...header(h), values: vals as number[] });
   }
-  if (problems.length > 0) throw new InputError(problems);
+  problems.throwIfAny();
   return { columns: cols, lines: Array.from({ length: Math.max(n, 0) }, (_, i) => i + 1) };
 }
 

@@ -6,9 +6,12 @@
  * for the types and the OpenAPI document); validation failures go through the
  * one error handler in errors.ts.
  */
+import { createHash, randomUUID } from 'node:crypto';
+import type { IncomingMessage } from 'node:http';
+import fastifyRateLimit from '@fastify/rate-limit';
 import fastifySwagger from '@fastify/swagger';
 import fastifySwaggerUi from '@fastify/swagger-ui';
-import Fastify, { type FastifyInstance, type FastifyServerOptions } from 'fastify';
+import Fastify, { type FastifyInstance, type FastifyReply, type FastifyRequest, type FastifyServerOptions } from 'fastify';
 import { jsonSchemaTransform, type ZodTypeProvider } from 'fastify-type-provider-zod';
 import type { ZodType } from 'zod';
 import { calibrationService, type CalibrationService } from '../calibrate/service.js';
@@ -29,6 +32,7 @@ import { shelfRepository } from '../store/shelf.js';
 import { tokensRepository } from '../store/tokens.js';
 import { registerAccess, type AccessConfig } from './access.js';
 import { errorHandler, RequestValidationError } from './errors.js';
+import { registerJsonBody } from './json-body.js';
 import { analyzeRoutes } from './routes/analyze.js';
 import { calibrateRoutes } from './routes/calibrate.js';
 import { errorBody, jobRoutes } from './routes/jobs.js';
@@ -64,6 +68,47 @@ export interface AppConfig {
   keepJobs?: number;
   /** access control, Host allow-list and security headers (server/http/access.ts); default: loopback names, tokens required once one exists */
   access?: AccessConfig;
+  /**
+   * Rate limit of the compute endpoints (COMPUTE_ROUTES), per client: the bearer token when the
+   * request carries one (its hash), else the address. Default 60 requests a minute; false: none.
+   */
+  rateLimit?: false | { max?: number; timeWindowMs?: number };
+}
+
+/**
+ * The endpoints that compute (engine work in the pool, fits, sheets): rate-limited per client.
+ * A test (tests/http/limits.test.ts) checks each is a route of the app.
+ */
+export const COMPUTE_ROUTES = [
+  'POST /api/analyze',
+  'POST /api/analyze/mixture',
+  'POST /api/plans',
+  'POST /api/plans/:id/rerun',
+  'POST /api/fits/msd',
+  'POST /api/fits/kinetics',
+  'POST /api/fits/drift',
+  'POST /api/fits/quantal',
+  'POST /api/species/:id/measurements',
+  'GET /api/plans/:id/sheet',
+  'POST /api/plans/:id/sheet',
+  'POST /api/plans/:id/outcomes',
+  'GET /api/plans/:id/outcomes/dose-response',
+  'POST /api/plans/:id/update',
+  'POST /api/plans/:id/next',
+] as const;
+
+/** An incoming x-request-id is kept when it is short and plain; otherwise a new one is made. */
+const REQUEST_ID = /^[A-Za-z0-9._:-]{1,64}$/;
+function requestId(req: IncomingMessage): string {
+  const given = req.headers['x-request-id'];
+  return typeof given === 'string' && REQUEST_ID.test(given) ? given : randomUUID();
+}
+
+/** The rate limit's key: the bearer token's hash when there is one (a lab member on a shared address), else the address. */
+function clientKey(req: FastifyRequest): string {
+  const auth = req.headers.authorization;
+  if (typeof auth === 'string' && auth !== '') return 'token:' + createHash('sha256').update(auth).digest('hex').slice(0, 32);
+  return 'ip:' + req.ip;
 }
 
 declare module 'fastify' {
@@ -80,6 +125,8 @@ declare module 'fastify' {
     jobs: JobRegistry;
     /** run engine work in the pool while the request waits, within config.requestTimeLimit (a 422 time-limit past it) */
     compute: <K extends TaskKind>(kind: K, input: TaskInput<K>) => Promise<TaskOutput<K>>;
+    /** every route of the app as registered, `{ method, url }` (HEAD included): the fuzz tests walk it */
+    routeTable: { method: string; url: string }[];
   }
 }
 
@@ -92,7 +139,36 @@ export { VERSION };
  * by default the outcome sets stored in `db` (store/outcomes.ts).
  */
 export async function buildApp({ config = {}, db, readOutcomes }: { config?: AppConfig; db: Db; readOutcomes?: ReadOutcomes }): Promise<App> {
-  const app = Fastify({ logger: config.logger ?? false, bodyLimit: config.bodyLimit ?? 5 * 1024 * 1024 }).withTypeProvider<ZodTypeProvider>();
+  const app = Fastify({
+    logger: config.logger ?? false,
+    bodyLimit: config.bodyLimit ?? 5 * 1024 * 1024,
+    // every log line of a request carries its id (reqId); the client sees it in x-request-id
+    requestIdHeader: false,
+    genReqId: requestId,
+    // errors raised before routing (a URL whose percent-encoding is not UTF-8, a path parameter past
+    // fastify's maxParamLength of 100): the project's JSON shape and the request id, and never the URL echoed
+    frameworkErrors: (err, req, reply) => {
+      reply.header('x-request-id', req.id);
+      const known: Record<string, [number, string, string]> = {
+        FST_ERR_BAD_URL: [400, 'bad-url', 'the URL is not valid: a percent-encoded part is not UTF-8'],
+        FST_ERR_MAX_PARAM_LENGTH: [414, 'param-too-long', 'a path parameter is longer than 100 characters (an id is at most 64)'],
+      };
+      const [status, code, message] = known[err.code] ?? [500, 'internal', 'internal error'];
+      if (status >= 500) req.log.error({ err }, 'framework error');
+      void (reply as unknown as FastifyReply).code(status).send(status >= 500 ? { error: 'internal', message } : { error: status === 414 ? 'too-large' : 'bad-request', code, message });
+    },
+  }).withTypeProvider<ZodTypeProvider>();
+  app.addHook('onRequest', async (req, reply) => {
+    // on the raw response: also there for a hijacked reply (the job event stream)
+    reply.raw.setHeader('x-request-id', req.id);
+  });
+  // JSON bodies: depth checked before parsing, __proto__ keys refused (json-body.ts)
+  registerJsonBody(app);
+  const routeTable: { method: string; url: string }[] = [];
+  app.decorate('routeTable', routeTable);
+  app.addHook('onRoute', (route) => {
+    for (const method of Array.isArray(route.method) ? route.method : [route.method]) routeTable.push({ method, url: route.url });
+  });
 
   // Validation with our own formatting of zod issues (field paths, unions resolved).
   app.setValidatorCompiler(({ schema, httpPart }) => (data) => {
@@ -102,7 +178,8 @@ export async function buildApp({ config = {}, db, readOutcomes }: { config?: App
   });
   app.setErrorHandler(errorHandler);
   app.setNotFoundHandler((req, reply) => {
-    reply.code(404).send({ error: 'not-found', message: `no route ${req.method} ${req.url.split('?')[0]}` });
+    const path = req.url.split('?')[0]!;
+    reply.code(404).send({ error: 'not-found', message: `no route ${req.method} ${path.length > 200 ? `${path.slice(0, 200)}…` : path}` });
   });
 
   // The database: decorate, and close with the app when it belongs to the app.
@@ -150,6 +227,26 @@ export async function buildApp({ config = {}, db, readOutcomes }: { config?: App
   app.decorate('outcomes', outcomesService(plansRepo, sheets, outcomeSets));
   app.decorate('calibration', calibrationService(shelf, measurementsRepository(db)));
   if (config.closeDatabase) app.addHook('onClose', async () => db.close());
+
+  // rate limits on the compute endpoints (only those: reads and edits are cheap)
+  const limit = config.rateLimit === false ? null : { max: config.rateLimit?.max ?? 60, timeWindow: config.rateLimit?.timeWindowMs ?? 60_000 };
+  if (limit) {
+    const compute = new Set<string>(COMPUTE_ROUTES);
+    app.addHook('onRoute', (route) => {
+      const methods = Array.isArray(route.method) ? route.method : [route.method];
+      if (methods.some((m) => compute.has(`${m} ${route.url}`))) route.config = { ...(route.config ?? {}), rateLimit: limit } as typeof route.config;
+    });
+    await app.register(fastifyRateLimit, {
+      global: false,
+      keyGenerator: clientKey,
+      errorResponseBuilder: (_req, ctx) =>
+        Object.assign(new Error(`too many compute requests from this client: at most ${ctx.max} in ${limit.timeWindow / 1000} s; try again in ${Math.ceil(ctx.ttl / 1000)} s`), {
+          statusCode: 429,
+          code: 'rate-limited',
+          retryAfter: Math.ceil(ctx.ttl / 1000),
+        }),
+    });
+  }
 
   await app.register(fastifySwagger, {
     openapi: {

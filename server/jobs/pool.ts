@@ -101,7 +101,7 @@ export interface PoolOptions {
 /** Rebuild an error thrown in a worker as the class the error handler knows. */
 export function rebuildError(e: SerializedError): Error {
   let err: Error;
-  if (e.name === 'InputError' && Array.isArray(e.problems)) err = new InputError(e.problems);
+  if (e.name === 'InputError' && Array.isArray(e.problems)) err = new InputError(e.problems, typeof e.more === 'number' ? e.more : 0);
   else if (e.name === 'EngineInputError') err = new EngineInputError(e.path ?? '', e.reason ?? e.message);
   else if (e.name === 'EngineDomainError') err = new EngineDomainError(e.code ?? 'domain', e.message);
   else if (e.name === 'DomainError') err = new DomainError(e.code ?? 'domain', e.message);

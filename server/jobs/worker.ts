@@ -22,6 +22,8 @@ export interface SerializedError {
   message: string;
   stack?: string;
   problems?: { path: string; message: string }[];
+  /** problems found but not listed (InputError.more) */
+  more?: number;
   path?: string;
   reason?: string;
   code?: string;
@@ -63,7 +65,12 @@ export function serializeError(e: unknown): SerializedError {
   const f = e as Error & Partial<SerializedError>;
   const out: SerializedError = { name: f.name, message: f.message };
   if (f.stack) out.stack = f.stack;
-  if (Array.isArray(f.problems)) out.problems = f.problems.map((p) => ({ path: String(p.path), message: String(p.message) }));
+  // at most a few hundred problems cross the thread boundary; the rest are counted
+  if (Array.isArray(f.problems)) {
+    out.problems = f.problems.slice(0, 1000).map((p) => ({ path: String(p.path), message: String(p.message) }));
+    const more = (typeof f.more === 'number' ? f.more : 0) + Math.max(0, f.problems.length - 1000);
+    if (more > 0) out.more = more;
+  }
   if (typeof f.path === 'string') out.path = f.path;
   if (typeof f.reason === 'string') out.reason = f.reason;
   if (typeof f.code === 'string') out.code = f.code;

@@ -28,7 +28,7 @@ export const hazardBandSchema = z.strictObject({
   /** exclusive upper bound, null for no upper bound (1 includes the neat material, w = 1) */
   max: z.number().min(0).max(1).nullable(),
   /** hazard statement code, e.g. H318 */
-  statement: z.string().regex(/^EUH?\d{3}[A-Za-z]*$|^H\d{3}[A-Za-z]*$/, 'a hazard statement code such as H318'),
+  statement: z.string().max(16).regex(/^EUH?\d{3}[A-Za-z]*$|^H\d{3}[A-Za-z]*$/, 'a hazard statement code such as H318'),
   text: z.string().min(1).max(500),
   /** hazard class and category, e.g. "Eye Dam. 1" */
   hazardClass: z.string().max(100),

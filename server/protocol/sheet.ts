@@ -16,6 +16,7 @@ import { idRecord, ownEntry, quantity } from '../schema/mixture.js';
 import { numberDensity, type ChemicalRecord, type SpeciesRecord } from '../schema/shelf.js';
 import { DomainError, InputError } from '../shelf/errors.js';
 import { DIMENSIONS } from '../units/index.js';
+import { LIMITS } from '../schema/limits.js';
 import { VERSION } from '../version.js';
 import { DEFAULT_VENT_FRACTION, gasRoute, molarVolume, tubeGas } from './gas.js';
 import { hazardsFor, PICTOGRAMS, type HazardForm, type HazardLookup, type HazardReport } from './hazards.js';
@@ -51,7 +52,7 @@ export const sheetRequestSchema = z.strictObject({
   minVolume: quantity({ length: 3 }, 'positive', 'smallest volume to pipette (default 1 µL)').optional(),
   overage: z.number().min(0).max(1).default(0.1),
   buffer: z.string().min(1).max(100).default('buffer'),
-  stocks: idRecord(z.string(), stockSchema).optional(),
+  stocks: idRecord(z.string().max(LIMITS.id), stockSchema, 64).optional().describe('stocks by chemical or species id (at most 64)'),
   operator: z.string().max(200).optional(),
   /** the vessel each sample is made in, for the gas check (default 1.5 mL, a common microcentrifuge tube) */
   tubeVolume: quantity({ length: 3 }, 'positive', 'volume of the tube each sample is made in (default 1.5 mL)').optional(),

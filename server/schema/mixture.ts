@@ -14,14 +14,15 @@ import { sphereVolume } from '../engine/checks.js';
 import { waterDensity } from '../engine/transport.js';
 import { EngineInputError, type Activity, type Chemical, type Coupling, type Mixture, type Species } from '../engine/types.js';
 import { DIMENSIONS, formatDimension, parseQuantity, UnitError, type Dimension, type Quantity, type Sign } from '../units/index.js';
+import { LIMITS } from './limits.js';
 
-const scalarInput = z.union([z.number(), z.string()]);
+const scalarInput = z.union([z.number(), z.string().max(LIMITS.quantity)]);
 const valueInput = z.union([scalarInput, z.strictObject({ value: scalarInput, sd: scalarInput.optional() })]);
 
 /** A physical value field of the given dimension and sign, read into SI. */
 export function quantity(dimension: Dimension, sign: Sign, description: string) {
   return valueInput
-    .describe(`${description} — SI number, string with a unit (${formatDimension(dimension)}), or { value, sd }`)
+    .describe(`${description} — SI number, string with a unit (${formatDimension(dimension)}; at most ${LIMITS.quantity} characters), or { value, sd }`)
     .transform((raw, ctx): Quantity => {
       try {
         return parseQuantity(raw, { dimension, sign }, '');
@@ -36,11 +37,11 @@ export function quantity(dimension: Dimension, sign: Sign, description: string) 
     });
 }
 
-const id = z.string().min(1).max(64).regex(/^[A-Za-z0-9][A-Za-z0-9_.:-]*$/, 'an id is letters, digits and _ . : - (starting with a letter or digit)');
+const id = z.string().min(1).max(LIMITS.id).regex(/^[A-Za-z0-9][A-Za-z0-9_.:-]*$/, 'an id is letters, digits and _ . : - (starting with a letter or digit)');
 
 const chemicalSchema = z.strictObject({
   id,
-  name: z.string().optional(),
+  name: z.string().max(LIMITS.name).optional(),
   diffusivity: quantity(DIMENSIONS.diffusivity, 'positive', 'diffusivity D_s'),
   lossRate: quantity(DIMENSIONS.rate, 'nonnegative', 'first-order bulk loss rate κ_s').optional(),
   concentration: quantity(
@@ -73,13 +74,13 @@ const couplingSchema = z
 
 const speciesSchema = z.strictObject({
   id,
-  name: z.string().optional(),
+  name: z.string().max(LIMITS.name).optional(),
   diffusivity: quantity(DIMENSIONS.diffusivity, 'positive', 'translational diffusivity D_m'),
   radius: quantity(DIMENSIONS.length, 'positive', 'hydrodynamic radius a_m'),
   density: quantity(DIMENSIONS.numberDensity, 'nonnegative', 'number density ρ_m').optional(),
   volumeFraction: quantity(DIMENSIONS.dimensionless, 'nonnegative', 'volume fraction, instead of density').optional(),
   materialDensity: quantity(DIMENSIONS.massDensity, 'positive', 'mass density of the particle material (sedimentation)').optional(),
-  couplings: z.array(couplingSchema).default([]),
+  couplings: z.array(couplingSchema).max(LIMITS.couplings).default([]).describe(`how the species acts on and moves in each chemical (at most ${LIMITS.couplings})`),
 });
 
 export const chamberSchema = z.strictObject({
@@ -137,11 +138,15 @@ function crossCheck(
 }
 
 const mixtureObject = z.strictObject({
-  $schema: z.string().optional(),
-  name: z.string().optional(),
-  description: z.string().optional(),
-  chemicals: z.array(chemicalSchema).default([]),
-  species: z.array(speciesSchema).min(1, 'a mixture needs at least one species'),
+  $schema: z.string().max(LIMITS.text).optional(),
+  name: z.string().max(LIMITS.name).optional(),
+  description: z.string().max(LIMITS.text).optional(),
+  chemicals: z.array(chemicalSchema).max(LIMITS.chemicals).default([]).describe(`the chemicals of the sample (at most ${LIMITS.chemicals})`),
+  species: z
+    .array(speciesSchema)
+    .min(1, 'a mixture needs at least one species')
+    .max(LIMITS.species)
+    .describe(`the species of the sample (at least 1, at most ${LIMITS.species}: one analysis then stays within a moment)`),
   chamber: chamberSchema,
   crowding: z.boolean().default(false),
   conditions: conditionsSchema.optional(),
@@ -158,10 +163,16 @@ export type ParsedMixture = z.output<typeof mixtureSchema>;
  * own property). Read the result with `Object.hasOwn` or turn it into a Map:
  * ids such as `constructor` or `toString` are ordinary keys there.
  */
-export function idRecord<K extends z.ZodType<string, string>, V extends z.ZodType>(key: K, value: V) {
+export function idRecord<K extends z.ZodType<string, string>, V extends z.ZodType>(key: K, value: V, maxKeys: number = LIMITS.species + LIMITS.chemicals) {
   return z.preprocess((raw, ctx) => {
     if (raw !== null && typeof raw === 'object' && Object.hasOwn(raw, '__proto__')) {
       ctx.issues.push({ code: 'custom', message: 'the key "__proto__" is not allowed', input: raw, path: ['__proto__'] });
+    }
+    // counted before any entry is read: a 200,000-key object is one problem, not 200,000
+    if (raw !== null && typeof raw === 'object' && !Array.isArray(raw)) {
+      let n = 0;
+      for (const k in raw) if (Object.hasOwn(raw, k)) n++;
+      if (n > maxKeys) ctx.issues.push({ code: 'custom', message: `at most ${maxKeys} entries, got ${n}`, input: raw, path: [] });
     }
     return raw;
   }, z.record(key, value));
@@ -335,30 +346,40 @@ function leaves(i: Issue): Issue[] {
   return (i as Issue & { errors: Issue[][] }).errors.flatMap((b) => b.flatMap(leaves));
 }
 
-/** Replace union failures by the issues of the branch the input was evidently meant for. */
-function flatten(issues: readonly Issue[], prefix: PropertyKey[] = []): { path: PropertyKey[]; message: string; code: string }[] {
-  const out: { path: PropertyKey[]; message: string; code: string }[] = [];
+/**
+ * Replace union failures by the issues of the branch the input was evidently meant for.
+ * Appends to `out` (no spread of a long list into a call: 200,000 issues are fine);
+ * recursion only follows nested unions, which the schemas bound.
+ */
+function flatten(issues: readonly Issue[], prefix: PropertyKey[], out: { path: PropertyKey[]; message: string; code: string }[]): void {
   for (const i of issues) {
-    const path = [...prefix, ...i.path];
+    const path = prefix.length === 0 ? i.path : [...prefix, ...i.path];
     if (i.code === 'invalid_union') {
       const branches = (i as Issue & { errors: Issue[][] }).errors;
       const meant = branches.filter((b) => !b.some(shapeMismatch));
       if (meant.length > 0) {
-        out.push(...flatten(meant[0]!, path));
+        flatten(meant[0]!, path, out);
         continue;
       }
       const missing = leaves(i).every((l) => l.code === 'invalid_type' && /received undefined/.test(l.message));
       out.push({ path, code: 'invalid_union', message: missing ? 'missing' : 'expected a number in SI, a string with a unit, or an object of the documented form' });
       continue;
     }
-    out.push({ path, code: i.code, message: i.message });
+    out.push({ path, code: i.code, message: i.code === 'unrecognized_keys' ? unknownKeys((i as Issue & { keys: string[] }).keys) : i.message });
   }
-  return out;
+}
+
+/** "Unrecognized keys" naming at most five of them (an answer never echoes 20,000 keys), each cut short. */
+function unknownKeys(keys: readonly string[]): string {
+  const named = keys.slice(0, 5).map((k) => JSON.stringify(k.length > LIMITS.id ? `${k.slice(0, LIMITS.id)}…` : k));
+  return `Unrecognized key${keys.length === 1 ? '' : 's'}: ${named.join(', ')}${keys.length > 5 ? ` and ${keys.length - 5} more` : ''}`;
 }
 
 /** Every problem as `{ path, message }`, unions resolved to the branch that was meant. */
 export function issueList(error: z.ZodError, prefix: PropertyKey[] = []): { path: string; message: string }[] {
-  return flatten(error.issues, prefix).map((i) => {
+  const flat: { path: PropertyKey[]; message: string; code: string }[] = [];
+  flatten(error.issues, prefix, flat);
+  return flat.map((i) => {
     let msg = i.message;
     if (i.code === 'invalid_type' && /received undefined/.test(msg)) msg = `missing (${msg.replace(/^Invalid input: /, '')})`;
     return { path: formatPath(i.path), message: msg };

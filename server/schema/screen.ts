@@ -7,6 +7,7 @@ import { z } from 'zod';
 import type { Warning } from '../engine/checks.js';
 import type { CandidateResult } from '../engine/planner.js';
 import { DIMENSIONS } from '../units/index.js';
+import { LIMITS } from './limits.js';
 import { candidateSchema, mixtureSchema, quantity, toEngineMixture, toEngineSpecies, issueList } from './mixture.js';
 import { baseModes, checkWorkBudget } from '../jobs/budget.js';
 import { InputError } from '../shelf/errors.js';
@@ -14,10 +15,14 @@ import type { Mixture, Species } from '../engine/types.js';
 
 export const screenRequestSchema = z
   .strictObject({
-    name: z.string().optional(),
-    description: z.string().optional(),
+    name: z.string().max(LIMITS.name).optional(),
+    description: z.string().max(LIMITS.text).optional(),
     base: mixtureSchema,
-    candidates: z.array(candidateSchema).min(1).describe('as many as the work budget allows: candidates × (1 + draws) × the modes the base scans'),
+    candidates: z
+      .array(candidateSchema)
+      .min(1)
+      .max(LIMITS.candidates)
+      .describe(`at most ${LIMITS.candidates}, and as many as the work budget allows: candidates × (1 + draws) × the modes the base scans`),
     boundary: z.enum(['stationary', 'oscillatory', 'any', 'restore']),
     dosing: z.enum(['add', 'replace']).default('add'),
     maxDensity: quantity(DIMENSIONS.numberDensity, 'positive', 'largest dopant number density').optional(),

@@ -15,10 +15,11 @@ import { sphereVolume } from '../engine/checks.js';
 import type { Chemical, Coupling, Species } from '../engine/types.js';
 import { sdOf, toEngineCoupling } from './mixture.js';
 import { DIMENSIONS, formatDimension, parseQuantity, UnitError, type Dimension, type Quantity, type Sign } from '../units/index.js';
+import { LIMITS } from './limits.js';
 
 export const provenanceSchema = z.strictObject({
   source: z.enum(['measured', 'literature', 'estimated', 'demo']),
-  reference: z.string().max(2000).optional(),
+  reference: z.string().max(LIMITS.text).optional(),
   date: z.string().regex(/^\d{4}-\d{2}-\d{2}$/, 'a date is YYYY-MM-DD').optional(),
   by: z.string().max(200).optional(),
   /** id of the stored measurement this value was fitted from */
@@ -40,13 +41,13 @@ export interface StoredQuantity {
   provenance?: Provenance;
 }
 
-const scalar = z.union([z.number(), z.string()]);
+const scalar = z.union([z.number(), z.string().max(LIMITS.quantity)]);
 const typedQuantity = z.union([scalar, z.strictObject({ value: scalar, sd: scalar.optional(), provenance: provenanceSchema.optional() })]);
 
 /** A physical shelf field of the given dimension and sign, stored with its input and provenance. */
 export function storedQuantity(dimension: Dimension, sign: Sign, description: string) {
   return typedQuantity
-    .describe(`${description} — SI number, string with a unit (${formatDimension(dimension)}), or { value, sd, provenance }`)
+    .describe(`${description} — SI number, string with a unit (${formatDimension(dimension)}; at most ${LIMITS.quantity} characters), or { value, sd, provenance }`)
     .transform((raw, ctx): StoredQuantity => {
       const obj = typeof raw === "object" && raw !== null ? raw : null;
       try {
@@ -86,7 +87,7 @@ export function toTypedRecord(x: unknown): unknown {
 export const keySchema = z
   .string()
   .min(1)
-  .max(64)
+  .max(LIMITS.id)
   .regex(/^[A-Za-z0-9][A-Za-z0-9_.:-]*$/, 'an id is letters, digits and _ . : - (starting with a letter or digit)');
 
 export const chemicalRecordSchema = z.strictObject({
@@ -145,7 +146,7 @@ export const speciesRecordSchema = z.strictObject({
   materialDensity: storedQuantity(DIMENSIONS.massDensity, 'positive', 'mass density of the particle material').optional(),
   molarMass: storedQuantity(DIMENSIONS.molarMass, 'positive', 'molar mass (enzymes)').optional(),
   stock: z.strictObject({ description: z.string().max(500), ...amountFields }).optional(),
-  couplings: z.array(couplingRecordSchema).default([]),
+  couplings: z.array(couplingRecordSchema).max(LIMITS.couplings).default([]).describe(`how the species acts on and moves in each chemical (at most ${LIMITS.couplings})`),
   provenance: provenanceSchema.optional(),
   notes: z.string().max(5000).optional(),
 });

@@ -8,10 +8,11 @@ import { issueList, quantity } from '../schema/mixture.js';
 import { keySchema } from '../schema/shelf.js';
 import type { PlansRepository } from '../store/plans.js';
 import { DIMENSIONS } from '../units/index.js';
+import { LIMITS } from '../schema/limits.js';
 import { baseModes, checkWorkBudget, WORK_BUDGET } from '../jobs/budget.js';
 import type { WorkerPool } from '../jobs/pool.js';
 import type { Job, JobRegistry } from '../jobs/registry.js';
-import { InputError } from './errors.js';
+import { DomainError, InputError } from './errors.js';
 import type { PlanResult } from './run-plan.js';
 import { shelfSampleSchema, type ShelfService } from './service.js';
 
@@ -32,9 +33,9 @@ export const planRequestSchema = z.strictObject({
   boundary: z.enum(['stationary', 'oscillatory', 'any', 'restore']),
   dosing: z.enum(['add', 'replace']).default('add'),
   candidates: z
-    .union([z.literal('all'), z.array(keySchema).min(1)])
+    .union([z.literal('all'), z.array(keySchema).min(1).max(LIMITS.candidates)])
     .default('all')
-    .describe(`"all": every active shelf species not in the base, however many (never cut); or a list of ids. A plan's work, candidates × (1 + Monte Carlo draws + fuel-sweep levels) × the modes the base's own scan evaluates, is at most ${WORK_BUDGET.toExponential(2)}; above that it is refused with a 400 naming the numbers.`),
+    .describe(`"all": every active shelf species not in the base, however many (never cut); or a list of at most ${LIMITS.candidates} ids. A plan's work, candidates × (1 + Monte Carlo draws + fuel-sweep levels) × the modes the base's own scan evaluates, is at most ${WORK_BUDGET.toExponential(2)}; above that it is refused with a 400 naming the numbers.`),
   maxVolumeFraction: z.number().gt(0).max(0.74).optional(),
   maxDensity: dose('largest dopant number density allowed').optional(),
   margin: z.number().min(1).max(100).default(1.25),
@@ -75,7 +76,8 @@ export function planService(shelf: ShelfService, plans: PlansRepository, work: {
   // holder: the holder of the request's access token (the author then; a different author in a new request goes into the notes)
   function prepare(raw: PlanRequestInput, rerunOf: number | null, holder: string | null) {
     const parsed = planRequestSchema.safeParse(raw);
-    if (!parsed.success) throw new Error('stored plan request no longer validates'); // validated before it was stored
+    // validated before it was stored; a request stored before a bound was set may no longer pass it
+    if (!parsed.success) throw new DomainError('request-out-of-bounds', `the stored request no longer validates (${issueList(parsed.error).slice(0, 5).map((p) => (p.path ? `${p.path}: ${p.message}` : p.message)).join('; ')}): start a new plan within the limits`);
     const req = parsed.data;
     let ids: string[];
     if (req.candidates === 'all') {

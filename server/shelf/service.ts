@@ -25,6 +25,7 @@ import {
 import { sameContent, type Revision, type ShelfRepository, type WriteMeta } from '../store/shelf.js';
 import { DIMENSIONS } from '../units/index.js';
 import { ImportConflictError, InputError, type ImportConflict, type Problem } from './errors.js';
+import { LIMITS } from '../schema/limits.js';
 
 export const SHELF_FORMAT = 'brink-shelf';
 /**
@@ -134,9 +135,9 @@ export function shelfService(repo: ShelfRepository) {
         .strictObject({
           format: z.literal(SHELF_FORMAT),
           version: z.union(READABLE_FORMAT_VERSIONS.map((v) => z.literal(v))),
-          exportedAt: z.string().optional(),
-          chemicals: z.array(z.unknown()).default([]),
-          species: z.array(z.unknown()).default([]),
+          exportedAt: z.string().max(100).optional(),
+          chemicals: z.array(z.unknown()).max(LIMITS.importEntries).default([]),
+          species: z.array(z.unknown()).max(LIMITS.importEntries).default([]),
         })
         .safeParse(doc);
       if (!envelope.success) throw new InputError(issueList(envelope.error));
@@ -168,7 +169,7 @@ export function shelfService(repo: ShelfRepository) {
             seen[type].add(record.id);
             parsed.push({ type, record, retired, revision, index: i });
           } catch (e) {
-            if (e instanceof InputError) problems.push(...e.problems);
+            if (e instanceof InputError) for (const q of e.problems) problems.push(q); // a loop: a spread of 200,000 problems overflows the stack
             else throw e;
           }
         });
@@ -177,7 +178,7 @@ export function shelfService(repo: ShelfRepository) {
       take('species', envelope.data.species, 'species');
       const exists = (key: string) => declared.has(key) || chemicalExists(key);
       parsed.forEach((p) => {
-        if (p.type === 'species') problems.push(...referenceProblems(p.record as SpeciesRecord, exists, `species[${p.index}].`));
+        if (p.type === 'species') for (const q of referenceProblems(p.record as SpeciesRecord, exists, `species[${p.index}].`)) problems.push(q);
       });
       if (problems.length > 0) throw new InputError(problems);
       const summary = { created: 0, revised: 0, unchanged: 0, overwritten: 0 };
@@ -291,8 +292,14 @@ export type ShelfService = ReturnType<typeof shelfService>;
 
 /** A sample made of shelf species: amounts, chamber, chemical levels. */
 export const shelfSampleSchema = z.strictObject({
-  species: z.array(amountSchema.extend({ id: keySchema })).min(1, 'a sample needs at least one species'),
-  chemicals: idRecord(keySchema, quantity(DIMENSIONS.concentration, 'nonnegative', 'concentration of this chemical in the sample')).optional(),
+  species: z
+    .array(amountSchema.extend({ id: keySchema }))
+    .min(1, 'a sample needs at least one species')
+    .max(LIMITS.species)
+    .describe(`shelf species and their amounts (at least 1, at most ${LIMITS.species})`),
+  chemicals: idRecord(keySchema, quantity(DIMENSIONS.concentration, 'nonnegative', 'concentration of this chemical in the sample'), LIMITS.chemicals)
+    .optional()
+    .describe(`chemical levels by shelf id (at most ${LIMITS.chemicals})`),
   chamber: chamberSchema,
   crowding: z.boolean().optional(),
   conditions: conditionsSchema.optional(),

@@ -25,13 +25,16 @@ import { z } from 'zod';
 import { parseQuantalOptions } from '../../calibrate/quantal.js';
 import { FIT_METHODS, parseFitOptions, type FitMethod } from '../../calibrate/run.js';
 import { stokesEinstein, stokesEinsteinDebye, waterViscosity } from '../../engine/transport.js';
-import { quantity } from '../../schema/mixture.js';
+import { idRecord, quantity } from '../../schema/mixture.js';
+import { LIMITS } from '../../schema/limits.js';
 import { keySchema } from '../../schema/shelf.js';
 import { DIMENSIONS } from '../../units/index.js';
 import { authorship } from '../access.js';
 import { present } from './shelf-items.js';
 
-const data = z.union([z.string().max(5_000_000), z.record(z.string(), z.array(z.unknown()))]).describe('CSV text with a header row (units in brackets), or a JSON table of columns');
+const data = z
+  .union([z.string().max(LIMITS.csv), idRecord(z.string().max(LIMITS.name), z.array(z.unknown()).max(LIMITS.rows), LIMITS.columns)])
+  .describe(`CSV text with a header row (units in brackets; at most ${LIMITS.csv.toLocaleString('en')} characters), or a JSON table of columns (at most ${LIMITS.columns} columns of at most ${LIMITS.rows.toLocaleString('en')} values)`);
 
 export const calibrateRoutes: FastifyPluginAsync = async (base) => {
   const app = base.withTypeProvider<ZodTypeProvider>();

@@ -14,6 +14,7 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import type { SheetFormat } from '../../protocol/service.js';
 import { SheetNotFitError, splitDoses } from '../../protocol/sheet.js';
+import { LIMITS } from '../../schema/limits.js';
 
 const params = z.object({ id: z.coerce.number().int().min(1) });
 const format = z.strictObject({ format: z.enum(['html', 'md', 'json']).default('html'), paper: z.enum(['A4', 'Letter']).default('A4') });
@@ -37,16 +38,16 @@ export const protocolRoutes: FastifyPluginAsync = async (base) => {
       summary: 'The bench sheet of a plan for one candidate (default: the top-ranked feasible one)',
       params,
       querystring: format.extend({
-        candidate: z.string().optional(),
-        sampleVolume: z.string().optional(),
+        candidate: z.string().max(LIMITS.id).optional(),
+        sampleVolume: z.string().max(LIMITS.quantity).optional(),
         replicates: z.coerce.number().int().optional(),
-        minVolume: z.string().optional(),
+        minVolume: z.string().max(LIMITS.quantity).optional(),
         overage: z.coerce.number().optional(),
-        buffer: z.string().optional(),
+        buffer: z.string().max(LIMITS.query).optional(),
         doses: z.string().max(2000).optional().describe('comma-separated dopant doses, e.g. "0,1e6 1/mL,1e7 1/mL" (at most 24); needed when any dose crosses'),
-        operator: z.string().optional(),
-        tubeVolume: z.string().optional(),
-        chamberVolume: z.string().optional(),
+        operator: z.string().max(LIMITS.query).optional(),
+        tubeVolume: z.string().max(LIMITS.quantity).optional(),
+        chamberVolume: z.string().max(LIMITS.quantity).optional(),
         closedChamber: z.enum(['true', 'false']).optional(),
       }),
     },
