@@ -3,42 +3,14 @@
  * database, seeds the demo shelf on the first run only, prints its URL, serves
  * the shelf and stops cleanly on SIGTERM. Traffic goes to 127.0.0.1 only.
  */
-import { spawn, spawnSync } from 'node:child_process';
+import { spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
+import { bin, startServer } from '../helpers/serve.js';
 
-const root = new URL('../../', import.meta.url).pathname;
-const bin = join(root, 'bin/brink.js');
-
-function startServer(db: string): Promise<{ url: string; stop: () => Promise<number | null>; output: () => string }> {
-  return new Promise((resolve, reject) => {
-    const p = spawn(process.execPath, [bin, 'serve', '--db', db, '--port', '0', '--host', '127.0.0.1'], { stdio: ['ignore', 'pipe', 'pipe'] });
-    let out = '';
-    const timer = setTimeout(() => reject(new Error(`no URL printed: ${out}`)), 30_000);
-    const onData = (d: Buffer) => {
-      out += d.toString();
-      const m = /serving the shelf at (http:\/\/127\.0\.0\.1:\d+\/)/.exec(out);
-      if (m) {
-        clearTimeout(timer);
-        resolve({
-          url: m[1]!,
-          output: () => out,
-          stop: () =>
-            new Promise((res) => {
-              p.once('exit', (code) => res(code));
-              p.kill('SIGTERM');
-            }),
-        });
-      }
-    };
-    p.stdout.on('data', onData);
-    p.stderr.on('data', onData);
-    p.once('exit', (code) => reject(new Error(`exited ${code}: ${out}`)));
-  });
-}
-
+// the service as a child process: the same helper as the crash, race and backup tests
 describe('brink serve', () => {
   it('creates the database, seeds once, serves the demo shelf, shuts down on SIGTERM', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'brink-serve-'));
