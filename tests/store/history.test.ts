@@ -82,7 +82,7 @@ describe('history cannot be rewritten below the API', () => {
       // after: refused, nothing changed
       const db = fresh();
       const kept = snapshot(db);
-      expect(() => db.prepare(b.sql).run()).toThrow(/immutable|never|only|exists/);
+      expect(() => db.prepare(b.sql).run()).toThrow(/immutable|never|only|exists|current revision/);
       expect(snapshot(db)).toEqual(kept);
       db.close();
     });
@@ -121,6 +121,58 @@ describe('history cannot be rewritten below the API', () => {
     db.prepare("INSERT INTO plans (name, notes, author, created_at, updated_at, request, inputs, result) VALUES ('old plan', 'its notes', 'a', 'then', 'later', '{}', '{}', '{}')").run();
     migrate(db);
     expect(plansRepository(db).get(1)).toMatchObject({ name: 'old plan', notes: 'its notes', revision: 1, history: [{ revision: 1, name: 'old plan', notes: 'its notes', author: 'a', createdAt: 'later' }] });
+    db.close();
+  });
+});
+
+/**
+ * Migration history_rowid_guard (0010): an `UPDATE OF id` trigger does not fire when the statement names
+ * the row id (`SET rowid = …`, an alias of the INTEGER PRIMARY KEY), and UPDATE OR REPLACE then deletes the
+ * row it collides with without delete triggers (sqlite.org, "CREATE TRIGGER": the UPDATE OF column list;
+ * "ROWIDs and the INTEGER PRIMARY KEY"). Also a retirement below the API, without a revision.
+ */
+describe('no rewrite through the row id, no status change without a revision', () => {
+  const guard = all.findIndex((m) => m.name === 'history_rowid_guard');
+  const upTo = all.slice(0, guard);
+  /** The fixture above, plus a second plan and a second shelf item for the row ids to collide with. */
+  function two(migrations = all) {
+    const db = openDatabase(':memory:', { migrations });
+    fixture(db);
+    shelfRepository(db).create('chemical', 'glucose', { kind: null, name: 'glucose', record: { id: 'glucose' } });
+    const at = '2026-12-02T00:00:00.000Z';
+    db.prepare("INSERT INTO plans (id, name, notes, author, created_at, updated_at, request, inputs, result) VALUES (2, 'second', '', 'b', ?, ?, '{}', '{}', '{}')").run(at, at);
+    if (db.prepare("SELECT 1 FROM sqlite_master WHERE name = 'plan_text_revisions'").get())
+      db.prepare("INSERT INTO plan_text_revisions (plan_id, revision, name, notes, author, created_at) VALUES (2, 1, 'second', '', 'b', ?)").run(at);
+    db.pragma('foreign_keys = OFF');
+    return db;
+  }
+  const cases = [
+    { what: 'plans: UPDATE OR REPLACE … SET rowid onto another plan', sql: 'UPDATE OR REPLACE plans SET rowid = 1 WHERE id = 2' },
+    { what: 'shelf_items: UPDATE OR REPLACE … SET rowid onto another item', sql: "UPDATE OR REPLACE shelf_items SET rowid = 1 WHERE key = 'glucose'" },
+    { what: 'shelf_items: retired without a revision', sql: "UPDATE shelf_items SET retired = 1 WHERE key = 'fuel'" },
+  ];
+  it('the migration is there, after history_no_overwrite', () => {
+    expect(guard).toBeGreaterThan(mine);
+  });
+  for (const c of cases) {
+    it(c.what, () => {
+      const old = two(upTo);
+      const was = snapshot(old);
+      old.prepare(c.sql).run();
+      expect(snapshot(old)).not.toEqual(was);
+      old.close();
+      const db = two();
+      const kept = snapshot(db);
+      expect(() => db.prepare(c.sql).run()).toThrow(/never change|current revision/);
+      expect(snapshot(db)).toEqual(kept);
+      db.close();
+    });
+  }
+  it('retiring and restoring through the shelf still work', () => {
+    const db = two();
+    const repo = shelfRepository(db);
+    expect(repo.setRetired('chemical', 'fuel', true, 2, { author: 'a' }).retired).toBe(true);
+    expect(repo.setRetired('chemical', 'fuel', false, 3, { author: 'a' }).retired).toBe(false);
     db.close();
   });
 });
