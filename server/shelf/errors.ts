@@ -56,7 +56,9 @@ export class ImportConflictError extends Error {
           .map((c) =>
             c.exportedRevision === null
               ? `${c.path} (${c.type} "${c.id}") differs from the shelf's revision ${c.currentRevision} and carries no exported revision to show it is based on it`
-              : `${c.path} (${c.type} "${c.id}") was exported at revision ${c.exportedRevision}, the shelf is at revision ${c.currentRevision}`,
+              : c.exportedRevision > c.currentRevision
+                ? `${c.path} (${c.type} "${c.id}") claims revision ${c.exportedRevision}, which the shelf never had (it is at revision ${c.currentRevision}): an export of another database, or an edited file`
+                : `${c.path} (${c.type} "${c.id}") was exported at revision ${c.exportedRevision}, the shelf is at revision ${c.currentRevision}`,
           )
           .join('; ') +
         '. Export again and redo the changes, or import with overwrite=true to replace what the shelf has now (it stays in the history).',

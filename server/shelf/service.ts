@@ -189,7 +189,9 @@ export function shelfService(repo: ShelfRepository) {
         for (const p of parsed) {
           const cur = repo.get(p.type, p.record.id);
           if (!cur || sameContent(cur, { ...fields(p.type, p.record), retired: p.retired })) continue;
-          if (p.revision !== null && cur.revision <= p.revision) continue;
+          // based on the shelf's current revision: an ordinary edit. A newer shelf revision would be undone; an exported
+          // revision above the shelf's cannot come from this database (another one, or an edited file): both conflict.
+          if (p.revision !== null && cur.revision === p.revision) continue;
           replaced.set(p, cur.revision);
           const path = `${p.type === 'chemical' ? 'chemicals' : 'species'}[${p.index}]`;
           conflicts.push({ path, type: p.type, id: p.record.id, exportedRevision: p.revision, currentRevision: cur.revision });

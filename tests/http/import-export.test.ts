@@ -127,6 +127,16 @@ describe('shelf export and import', () => {
     const fresh = (await a.inject({ method: 'GET', url: '/api/shelf/export' })).json();
     fresh.species[b07].radius = '1.2 um';
     expect((await a.inject({ method: 'POST', url: '/api/shelf/import', payload: fresh })).json()).toMatchObject({ revised: 1, overwritten: 0 });
+    // an entry that claims a revision the shelf never had (another database's export, or an edited number) is no
+    // licence to overwrite: it conflicts like an old one (found in review: 999 went through)
+    const claimed = (await a.inject({ method: 'GET', url: '/api/shelf/export' })).json();
+    claimed.species[b07].radius = '1.3 um';
+    claimed.species[b07].revision = 999;
+    const refused = await a.inject({ method: 'POST', url: '/api/shelf/import', payload: claimed });
+    expect(refused.statusCode).toBe(409);
+    expect(refused.json().conflicts).toEqual([{ path: `species[${b07}]`, type: 'species', id: 'ptj-1um-b07', exportedRevision: 999, currentRevision: 4 }]);
+    expect(refused.json().message).toMatch(/claims revision 999, which the shelf never had/);
+    expect((await a.inject({ method: 'GET', url: '/api/species/ptj-1um-b07' })).json().record.radius.input).toBe('1.2 um');
   });
 
   it('an entry without an exported revision (format 1, the demo file) conflicts when its item exists and differs', async () => {
