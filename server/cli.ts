@@ -335,7 +335,9 @@ async function cmdRestore(args: string[], io: Io): Promise<number> {
     `restored ${values.db} from ${what}` +
       (r.migrated.length > 0 ? `; migrated to schema version ${r.migrated[r.migrated.length - 1]} (${r.migrated.join(', ')})` : '') +
       (r.keptAs ? `; the previous database is kept as ${r.keptAs}` : '') +
-      '\n',
+      '\n' +
+      (r.revocationsKept.length > 0 ? `kept revoked: ${r.revocationsKept.map((t) => `${t.prefix} (${t.holder})`).join(', ')} — revoked since the backup, so revoked in the restored database too\n` : '') +
+      (r.tokensNotInBackup.length > 0 ? `not in the backup, so gone: tokens ${r.tokensNotInBackup.map((t) => `${t.prefix} (${t.holder})`).join(', ')} — create them again (brink token create)\n` : ''),
   );
   return 0;
 }

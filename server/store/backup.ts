@@ -20,7 +20,7 @@
 import Database from 'better-sqlite3';
 import { existsSync, renameSync, rmSync, statSync } from 'node:fs';
 import { basename, dirname, join } from 'node:path';
-import { BUSY_TIMEOUT_MS, loadMigrations, openDatabase, schemaVersion, type Migration } from './db.js';
+import { BUSY_TIMEOUT_MS, loadMigrations, openDatabase, schemaVersion, writeTransaction, type Migration } from './db.js';
 
 /** A backup or restore that cannot go ahead; the message says why and what to do (CLI exit 2). */
 export class BackupError extends Error {
@@ -174,6 +174,58 @@ export interface RestoreResult extends BackupCheck {
   keptAs: string | null;
   /** migrations applied to the restored copy (an older backup), in order */
   migrated: number[];
+  /** access tokens revoked in the replaced database that the backup still had active: revoked in the restored one too */
+  revocationsKept: { holder: string; prefix: string }[];
+  /** active tokens of the replaced database that the backup does not have (created after it): gone, make them again */
+  tokensNotInBackup: { holder: string; prefix: string }[];
+}
+
+interface TokenRow {
+  holder: string;
+  prefix: string;
+  hash: string;
+  revoked_at: string | null;
+}
+
+/** The access tokens of a database file (none when it predates them or cannot be read). */
+function tokensOf(path: string): TokenRow[] {
+  if (!existsSync(path)) return [];
+  try {
+    const db = new Database(path, { readonly: true, fileMustExist: true });
+    try {
+      const has = db.prepare("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = 'access_tokens'").get();
+      return has ? (db.prepare('SELECT holder, prefix, hash, revoked_at FROM access_tokens').all() as TokenRow[]) : [];
+    } finally {
+      db.close();
+    }
+  } catch {
+    return [];
+  }
+}
+
+/**
+ * A revocation is never undone by a restore: a token revoked since the backup (it leaked, its holder left)
+ * is revoked in the restored copy too, at the time it was revoked. Tokens made since the backup are
+ * reported, not copied (the backup is what is restored).
+ */
+function keepRevocations(staged: Database.Database, current: TokenRow[]) {
+  const backupTokens = staged.prepare('SELECT holder, prefix, hash, revoked_at FROM access_tokens').all() as TokenRow[];
+  const inBackup = new Map(backupTokens.map((t) => [t.hash, t]));
+  const revoke = staged.prepare('UPDATE access_tokens SET revoked_at = ? WHERE hash = ? AND revoked_at IS NULL');
+  const revocationsKept: RestoreResult['revocationsKept'] = [];
+  const tokensNotInBackup: RestoreResult['tokensNotInBackup'] = [];
+  writeTransaction(staged, () => {
+    for (const t of current) {
+      const b = inBackup.get(t.hash);
+      if (!b) {
+        if (t.revoked_at === null) tokensNotInBackup.push({ holder: t.holder, prefix: t.prefix });
+      } else if (t.revoked_at !== null && b.revoked_at === null) {
+        revoke.run(t.revoked_at, t.hash);
+        revocationsKept.push({ holder: t.holder, prefix: t.prefix });
+      }
+    }
+  });
+  return { revocationsKept, tokensNotInBackup };
 }
 
 /**
@@ -187,6 +239,7 @@ export async function restoreDatabase(file: string, dbPath: string, now = new Da
   for (const f of [staging, `${staging}-wal`, `${staging}-shm`]) rmSync(f, { force: true });
   await readBackup(file, (src) => copyAll(src, staging));
   let migrated: number[] = [];
+  let tokens: Pick<RestoreResult, 'revocationsKept' | 'tokensNotInBackup'> = { revocationsKept: [], tokensNotInBackup: [] };
   try {
     // open migrates (an older backup is brought to this brink's schema) in the staged copy, before anything is replaced
     const before = check.schemaVersion;
@@ -195,6 +248,7 @@ export async function restoreDatabase(file: string, dbPath: string, now = new Da
     migrated = loadMigrations()
       .map((m) => m.version)
       .filter((v) => v > before && v <= after);
+    tokens = keepRevocations(db, tokensOf(dbPath));
     db.close(); // last connection: checkpointed, -wal and -shm removed
   } catch (e) {
     for (const f of [staging, `${staging}-wal`, `${staging}-shm`]) rmSync(f, { force: true });
@@ -207,5 +261,5 @@ export async function restoreDatabase(file: string, dbPath: string, now = new Da
     for (const suffix of ['-wal', '-shm']) if (existsSync(dbPath + suffix)) renameSync(dbPath + suffix, keptAs + suffix);
   }
   renameSync(staging, dbPath);
-  return { ...check, keptAs, migrated };
+  return { ...check, keptAs, migrated, ...tokens };
 }

@@ -8,6 +8,7 @@ import { backupDatabase, BackupError, restoreDatabase } from '../../server/store
 import { loadMigrations, openDatabase, schemaVersion } from '../../server/store/db.js';
 import { plansRepository } from '../../server/store/plans.js';
 import { shelfRepository } from '../../server/store/shelf.js';
+import { tokensRepository } from '../../server/store/tokens.js';
 
 const dir = () => mkdtempSync(join(tmpdir(), 'brink-restore-'));
 
@@ -45,6 +46,31 @@ describe('restore checks the backup first', () => {
     expect(r).toMatchObject({ integrity: 'ok', schemaVersion: loadMigrations().length, migrated: [], keptAs: join(d, 'brink.sqlite.before-restore-2026-12-05T01-02-03Z') });
     expect(keys(join(d, 'brink.sqlite'))).toEqual(['from-backup']);
     expect(keys(r.keptAs!)).toEqual(['current']);
+  });
+
+  it('a token revoked since the backup stays revoked; tokens made since are reported gone (found in review)', async () => {
+    const d = dir();
+    const live = join(d, 'brink.sqlite');
+    make(live, 'current');
+    let db = openDatabase(live);
+    const tokens = tokensRepository(db);
+    const leaked = tokens.create('Cy (invented)');
+    const kept = tokens.create('Di (invented)');
+    db.close();
+    await backupDatabase(live, join(d, 'bk.sqlite'));
+    db = openDatabase(live);
+    tokensRepository(db).revoke(leaked.token.prefix);
+    const later = tokensRepository(db).create('Ed (invented)');
+    db.close();
+    const r = await restoreDatabase(join(d, 'bk.sqlite'), live);
+    expect(r.revocationsKept).toEqual([{ holder: 'Cy (invented)', prefix: leaked.token.prefix }]);
+    expect(r.tokensNotInBackup).toEqual([{ holder: 'Ed (invented)', prefix: later.token.prefix }]);
+    db = openDatabase(live);
+    const after = tokensRepository(db);
+    expect(after.check(leaked.secret).status).toBe('revoked');
+    expect(after.check(kept.secret).status).toBe('valid');
+    expect(after.check(later.secret).status).toBe('unknown');
+    db.close();
   });
 
   it('refuses a backup newer than this brink', async () => {
