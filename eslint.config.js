@@ -22,6 +22,17 @@ export default tseslint.config(
     },
   },
   {
+    // every write transaction starts with BEGIN IMMEDIATE (DEVELOPERS.md, "Write rules"): writeTransaction(db, fn)
+    files: ['server/**/*.ts'],
+    ignores: ['server/store/db.ts'],
+    rules: {
+      'no-restricted-syntax': ['error', {
+        selector: "CallExpression[callee.property.name='transaction'][callee.object.name='db']",
+        message: 'db.transaction(fn)() starts deferred: use writeTransaction(db, fn) from server/store/db.ts (BEGIN IMMEDIATE).',
+      }],
+    },
+  },
+  {
     files: ['server/engine/**/*.ts'],
     rules: {
       'no-restricted-imports': ['error', {

@@ -156,6 +156,10 @@ const COLUMN_NAMES: Record<string, 'tube' | 'state' | 'onset' | 'length' | 'note
 
 /** Read the CSV form: columns by name (tube, state, onset [unit], length [unit], notes); every problem names its line and column. */
 export function readCsvEntry(text: string, query: QueryMeta = {}): OutcomeEntry {
+  // the row bound before any parsing (this runs in the request): counting line ends is cheap, parsing 300,000 rows is not
+  let lineEnds = 0;
+  for (let i = text.indexOf('\n'); i !== -1 && lineEnds <= MAX_ROWS + 1; i = text.indexOf('\n', i + 1)) lineEnds++;
+  if (lineEnds > MAX_ROWS + 1) throw new InputError([{ path: 'data', message: `at most ${MAX_ROWS} tubes (lines after the header), got more` }]);
   let records: { record: string[]; info: { lines: number } }[];
   try {
     records = parse(text, { bom: true, info: true, skip_empty_lines: true, trim: true, relax_column_count: true }) as never;

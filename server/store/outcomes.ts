@@ -5,7 +5,7 @@
  * `StaleRevisionError` (409) when another came first. Validation (tube codes against the rebuilt sheet, states,
  * units) is the caller's (server/protocol/outcomes.ts); this layer stores SI numbers as given.
  */
-import type { Db } from './db.js';
+import { writeTransaction, type Db } from './db.js';
 import { StaleRevisionError, type Revision } from './shelf.js';
 
 export type OutcomeState = 'stable' | 'stationary' | 'oscillatory' | 'unclear';
@@ -96,7 +96,7 @@ export function outcomesRepository(db: Db) {
      * null skips the check (not used by the service). @throws StaleRevisionError (409) when it is not the current one
      */
     write(p: { planId: number; candidate: string; sheetOptions: Record<string, unknown>; tubes: OutcomeTube[]; author?: string; note?: string | null }, baseRevision: number | null): OutcomeSet {
-      return db.transaction(() => {
+      return writeTransaction(db, () => {
         const cur = api.current(p.planId, p.candidate);
         const curRevision = cur?.revision ?? 0;
         if (baseRevision !== null && baseRevision !== curRevision) {
@@ -107,7 +107,7 @@ export function outcomesRepository(db: Db) {
         }
         const info = st.insert.run(p.planId, p.candidate, curRevision + 1, JSON.stringify(p.sheetOptions), JSON.stringify(p.tubes), p.author ?? 'anonymous', p.note ?? null, new Date().toISOString());
         return api.get(Number(info.lastInsertRowid))!;
-      })();
+      });
     },
   };
   return api;
