@@ -95,6 +95,9 @@ function sheetStyleHashes(): string[] {
   });
 }
 
+/** `Authorization: Bearer <token>`, the scheme in any case (RFC 7235), spaces around the token allowed. */
+export const BEARER = /^Bearer[ ]+(\S+)\s*$/i;
+
 const WRITES = new Set(['POST', 'PUT', 'PATCH', 'DELETE']);
 /** The body types a browser sends across origins without asking first (the CORS-safelisted ones). */
 const SAFELISTED = new Set(['application/x-www-form-urlencoded', 'multipart/form-data', 'text/plain']);
@@ -189,7 +192,7 @@ export async function registerAccess(app: FastifyInstance, o: { tokens: TokensRe
     }
     const auth = req.headers.authorization;
     if (auth !== undefined) {
-      const m = /^Bearer[ ]+(\S+)\s*$/i.exec(auth);
+      const m = BEARER.exec(auth);
       if (!m) return refuse(reply, 401, 'invalid-token', 'the Authorization header must be "Bearer <token>"');
       const c = o.tokens.check(m[1]!);
       if (c.status === 'unknown') return refuse(reply, 401, 'invalid-token', 'this token is not known to the service');

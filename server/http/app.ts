@@ -30,7 +30,7 @@ import { plansRepository } from '../store/plans.js';
 import type { Db } from '../store/db.js';
 import { shelfRepository } from '../store/shelf.js';
 import { tokensRepository } from '../store/tokens.js';
-import { registerAccess, type AccessConfig } from './access.js';
+import { BEARER, registerAccess, type AccessConfig } from './access.js';
 import { errorHandler, RequestValidationError } from './errors.js';
 import { registerJsonBody } from './json-body.js';
 import { analyzeRoutes } from './routes/analyze.js';
@@ -106,8 +106,9 @@ function requestId(req: IncomingMessage): string {
 
 /** The rate limit's key: the bearer token's hash when there is one (a lab member on a shared address), else the address. */
 function clientKey(req: FastifyRequest): string {
-  const auth = req.headers.authorization;
-  if (typeof auth === 'string' && auth !== '') return 'token:' + createHash('sha256').update(auth).digest('hex').slice(0, 32);
+  // the token itself, as the access layer reads it: a respelt header (BEARER, extra spaces) is the same client
+  const token = typeof req.headers.authorization === 'string' ? BEARER.exec(req.headers.authorization)?.[1] : undefined;
+  if (token !== undefined) return 'token:' + createHash('sha256').update(token).digest('hex').slice(0, 32);
   return 'ip:' + req.ip;
 }
 

@@ -196,6 +196,10 @@ describe('rate limits on the compute endpoints', () => {
       expect((await limited.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: 'x' } })).statusCode).toBe(400);
       const member = tokensRepository(limited.db).create('lab member A (invented)').secret;
       expect((await limited.inject({ method: 'POST', url: '/api/fits/drift', payload: { data: 'x' }, headers: { authorization: `Bearer ${member}` } })).statusCode).toBe(400);
+      expect((await limited.inject({ method: 'POST', url: '/api/fits/drift', payload: { data: 'x' }, headers: { authorization: `Bearer ${member}` } })).statusCode).toBe(400);
+      // the same token spelt otherwise is the same client (found in review: each spelling had a fresh limit)
+      for (const spelt of [`BEARER ${member}`, `bearer  ${member}`, `bEarer ${member} `])
+        expect((await limited.inject({ method: 'POST', url: '/api/fits/drift', payload: { data: 'x' }, headers: { authorization: spelt } })).statusCode, spelt).toBe(429);
       for (let i = 0; i < 5; i++) expect((await limited.inject({ method: 'GET', url: '/api/health' })).statusCode).toBe(200);
     } finally {
       await limited.close();
