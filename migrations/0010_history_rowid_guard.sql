@@ -8,6 +8,8 @@
 -- 2. shelf_items.retired is kept in step with the item's current revision; an
 --    UPDATE that changes it without a new revision (hiding an item from lists
 --    and from `candidates: "all"` with no history) is refused.
+-- 3. A revision of a plan's name and notes gets a note, as shelf revisions have:
+--    with a token, the author a client gives is kept there ("author given: …").
 
 CREATE TRIGGER plans_identity_any_update BEFORE UPDATE ON plans
 WHEN NEW.id IS NOT OLD.id OR NEW.author IS NOT OLD.author OR NEW.created_at IS NOT OLD.created_at
@@ -30,3 +32,5 @@ WHEN NOT EXISTS (
 BEGIN
   SELECT RAISE(ABORT, 'a shelf item''s status is that of its current revision: write a new revision');
 END;
+
+ALTER TABLE plan_text_revisions ADD COLUMN note TEXT;

@@ -141,7 +141,7 @@ export function planService(shelf: ShelfService, plans: PlansRepository, work: {
     get: (id: number) => plans.get(id),
     list: (limit: number, offset: number) => plans.list(limit, offset),
     /** A new revision of the plan's name and notes on top of `baseRevision` (409 when it is not the current one). */
-    rename: (id: number, baseRevision: number, change: { name?: string; notes?: string }, author?: string) => plans.rename(id, baseRevision, change, author),
+    rename: (id: number, baseRevision: number, change: { name?: string; notes?: string }, author?: string, note: string | null = null) => plans.rename(id, baseRevision, change, author, note),
   };
 }
 export type PlanService = ReturnType<typeof planService>;

@@ -12,6 +12,8 @@ export interface PlanTextRevision {
   name: string;
   notes: string;
   author: string;
+  /** what the writer said about the change (with a token, the author the client gave) */
+  note: string | null;
   createdAt: string;
 }
 
@@ -51,9 +53,10 @@ interface TextRaw {
   name: string;
   notes: string;
   author: string;
+  note: string | null;
   created_at: string;
 }
-const toText = (t: TextRaw): PlanTextRevision => ({ revision: t.revision, name: t.name, notes: t.notes, author: t.author, createdAt: t.created_at });
+const toText = (t: TextRaw): PlanTextRevision => ({ revision: t.revision, name: t.name, notes: t.notes, author: t.author, note: t.note, createdAt: t.created_at });
 
 export function plansRepository(db: Db) {
   const st = {
@@ -65,8 +68,8 @@ export function plansRepository(db: Db) {
       'SELECT id, name, notes, author, created_at, updated_at, rerun_of, request, (SELECT MAX(revision) FROM plan_text_revisions t WHERE t.plan_id = plans.id) AS revision FROM plans ORDER BY id DESC LIMIT ? OFFSET ?',
     ),
     count: db.prepare('SELECT COUNT(*) AS n FROM plans'),
-    texts: db.prepare('SELECT revision, name, notes, author, created_at FROM plan_text_revisions WHERE plan_id = ? ORDER BY revision'),
-    insertText: db.prepare('INSERT INTO plan_text_revisions (plan_id, revision, name, notes, author, created_at) VALUES (?, ?, ?, ?, ?, ?)'),
+    texts: db.prepare('SELECT revision, name, notes, author, note, created_at FROM plan_text_revisions WHERE plan_id = ? ORDER BY revision'),
+    insertText: db.prepare('INSERT INTO plan_text_revisions (plan_id, revision, name, notes, author, note, created_at) VALUES (?, ?, ?, ?, ?, ?, ?)'),
     rename: db.prepare('UPDATE plans SET name = ?, notes = ?, updated_at = ? WHERE id = ?'),
   };
   const history = (id: number) => (st.texts.all(id) as TextRaw[]).map(toText);
@@ -94,7 +97,7 @@ export function plansRepository(db: Db) {
       return writeTransaction(db, () => {
         const info = st.insert.run(p.name, p.notes, p.author, at, at, JSON.stringify(p.request), JSON.stringify(p.inputs), JSON.stringify(p.result), p.rerunOf);
         const id = Number(info.lastInsertRowid);
-        st.insertText.run(id, 1, p.name, p.notes, p.author, at);
+        st.insertText.run(id, 1, p.name, p.notes, p.author, null, at);
         // each (revision, role) once: the links are immutable and a repeated insert is refused (0008)
         const seen = new Set<string>();
         for (const r of p.revisions) {
@@ -132,7 +135,7 @@ export function plansRepository(db: Db) {
      * A new revision of the name and notes (an absent one is kept), refused with StaleRevisionError
      * (→ 409 stale-revision, with the current name and notes) unless `baseRevision` is the current one.
      */
-    rename(id: number, baseRevision: number, change: { name?: string; notes?: string }, author = 'anonymous'): PlanRow {
+    rename(id: number, baseRevision: number, change: { name?: string; notes?: string }, author = 'anonymous', note: string | null = null): PlanRow {
       return writeTransaction(db, () => {
         const plan = this.get(id);
         if (baseRevision !== plan.revision) {
@@ -146,7 +149,7 @@ export function plansRepository(db: Db) {
         const notes = change.notes ?? plan.notes;
         if (name === plan.name && notes === plan.notes) return plan; // nothing to write
         const at = new Date().toISOString();
-        st.insertText.run(id, plan.revision + 1, name, notes, author, at);
+        st.insertText.run(id, plan.revision + 1, name, notes, author, note, at);
         st.rename.run(name, notes, at, id);
         return this.get(id);
       });

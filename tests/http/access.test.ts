@@ -221,7 +221,7 @@ describe('with tokens: every write needs one, and its holder is the author', () 
     expect((await app.inject({ method: 'PATCH', url: `/api/plans/${id}`, ...json({ baseRevision: 1, name: 'renamed' }) })).statusCode).toBe(401);
     const patched = await app.inject({ method: 'PATCH', url: `/api/plans/${id}`, ...json({ baseRevision: 1, name: 'renamed', author: 'x (invented)' }, bearer(bo)) });
     expect(patched.statusCode).toBe(200);
-    expect(patched.json().history.at(-1)).toMatchObject({ revision: 2, name: 'renamed', author: 'Bo (invented)' });
+    expect(patched.json().history.at(-1)).toMatchObject({ revision: 2, name: 'renamed', author: 'Bo (invented)', note: 'author given: x (invented)' });
 
     // what the tubes did: the outcome set's author is the holder, the author given goes into its note
     const tubes = [{ tube: 'C0a', state: 'stable' }];

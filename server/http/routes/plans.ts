@@ -4,7 +4,7 @@
  *   POST  /api/plans              start a screening request as a job (202; the job stores the plan when done)
  *   GET   /api/plans              list (newest first)
  *   GET   /api/plans/:id          the stored request, inputs, revisions and results; name, notes, their revision and history
- *   PATCH /api/plans/:id          rename / annotate { baseRevision, name?, notes?, author? }: a new revision
+ *   PATCH /api/plans/:id          rename / annotate { baseRevision, name?, notes?, author?, note? }: a new revision
  *                                 of the name and notes, 409 stale-revision when baseRevision is not the current
  *   POST  /api/plans/:id/rerun    the same request on the current shelf as a job: a new plan   {}
  *
@@ -65,9 +65,14 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
         name: z.string().min(1).max(200).optional(),
         notes: z.string().max(5000).optional(),
         author: z.string().min(1).max(200).optional(),
+        note: z.string().max(2000).optional().describe('what the change is about, kept with the revision (at most 2,000 characters)'),
       }),
     },
-    handler: async (req) => app.plans.rename(req.params.id, req.body.baseRevision, { name: req.body.name, notes: req.body.notes }, authorship(req, { author: req.body.author }).author),
+    handler: async (req) => {
+      // with a token its holder is the author; an author given becomes the revision's note
+      const by = authorship(req, { author: req.body.author, note: req.body.note });
+      return app.plans.rename(req.params.id, req.body.baseRevision, { name: req.body.name, notes: req.body.notes }, by.author, by.note);
+    },
   });
   app.post('/api/plans/:id/rerun', {
     schema: {
