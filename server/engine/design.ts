@@ -168,6 +168,8 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
   const gridRng = new Random(streamSeed(opts.seed ?? 1, 0x61, 'grid'));
   const gridCols = statesAt(grid, 'states of the draws over the dose grid').map((states) => ({ states, seen: seenAt(states, gridRng) }));
   // greedy: the running log-likelihood of each (simulation, draw) for the chosen doses
+  const centreLog = Math.log10(band.median !== null && band.median > 0 ? band.median : Math.sqrt(grid[0]! * grid[grid.length - 1]!) || cap);
+  const nearness = (x: number) => (x > 0 ? Math.abs(Math.log10(x) - centreLog) : Infinity);
   const chosen: number[] = [];
   const cum = Array.from({ length: R }, () => new Float64Array(M));
   const used = new Set<number>();
@@ -186,7 +188,15 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
         for (let k = 0; k < M; k++) ll[k] = base[k]! + (c.states[k] === sr ? hit : miss);
         u += wvar(logT, weightsOf(ll));
       }
-      if (u < bestU) {
+      // a dose no draw tells apart from the others leaves U as it was: among equal scores (to rounding), the dose
+      // nearest the posterior median (in log), where a misread tube or a model error shows first, not the grid's lowest
+      const tie = bestG >= 0 && Math.abs(u - bestU) <= 1e-9 * Math.abs(bestU);
+      if (tie) {
+        if (nearness(grid[g]!) < nearness(grid[bestG]!)) {
+          bestU = Math.min(u, bestU);
+          bestG = g;
+        }
+      } else if (u < bestU) {
         bestU = u;
         bestG = g;
       }

@@ -389,6 +389,7 @@ export function outcomeUpdateService(deps: {
           const out = await deps.pool.run('design', d.input, { ...ctx.runOptions, onProgress: (f, stage) => ctx.runOptions.onProgress?.(0.9 * f, stage) });
           ctx.signal.throwIfAborted();
           const designed = out.design.designed.doses;
+          const post = out.update.bands.find((b) => b.species === d.input.observed)?.posterior;
           const series = {
             candidate: d.input.observed,
             doses: designed.map((x) => `${Number(x.toPrecision(4))} 1/m^3`),
@@ -399,6 +400,7 @@ export function outcomeUpdateService(deps: {
               criterion: out.design.criterion,
               expectedBandFactor: { designed: finiteOrNull(out.design.designed.expectedBandFactor), fixed: finiteOrNull(out.design.fixed?.expectedBandFactor ?? null) },
               fixedDoses: out.design.fixed ? out.design.fixed.doses.length : null,
+              ...(post ? { posteriorBand: { p05: post.p05, median: post.median, p95: post.p95 } } : {}),
             },
           };
           const shelf = shelfSince(deps.shelf, plan);

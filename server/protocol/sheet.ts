@@ -148,7 +148,7 @@ export interface PlanSeriesSI {
   candidate: string;
   /** m⁻³, each above 0 */
   doses: number[];
-  from?: { plan: number; outcomeSet: number; outcomeRevision: number; criterion: string; expectedBandFactor: { designed: number | null; fixed: number | null }; fixedDoses: number | null };
+  from?: { plan: number; outcomeSet: number; outcomeRevision: number; criterion: string; expectedBandFactor: { designed: number | null; fixed: number | null }; fixedDoses: number | null; posteriorBand?: { p05: number | null; median: number | null; p95: number | null } };
 }
 
 export interface SheetContext {
@@ -272,7 +272,7 @@ export function chooseSeries(cand: CandidateResult, req: SheetRequest, planSerie
     const f = planSeries.from;
     const factor = (x: number | null) => (x === null ? 'not finite (the band reaches past the cap)' : `×${formatNumber(Number(x.toPrecision(3)))}`);
     const note = f
-      ? `designed from the outcomes of plan ${f.plan} (outcome set ${f.outcomeSet} revision ${f.outcomeRevision}) to minimise the ${f.criterion}: expected 95 %/5 % width of the threshold band after this round ${factor(f.expectedBandFactor.designed)}, against ${factor(f.expectedBandFactor.fixed)} with the default fixed series${f.fixedDoses !== null ? ` of ${f.fixedDoses} doses` : ''}; plus dose 0 (the no-dopant control). ${r.seriesInfo.note.replace(/^the doses given; /, '')}. Give doses or doseFactors to print another series.`
+      ? `designed from the outcomes of plan ${f.plan} (outcome set ${f.outcomeSet} revision ${f.outcomeRevision}) to minimise the ${f.criterion}: expected 95 %/5 % width of the threshold band after this round ${factor(f.expectedBandFactor.designed)}, against ${factor(f.expectedBandFactor.fixed)} with the default fixed series${f.fixedDoses !== null ? ` of ${f.fixedDoses} doses` : ''}; plus dose 0 (the no-dopant control).${f.posteriorBand ? ` The update's own band (5 % · median · 95 %, the coefficients' joint posterior) was ${[f.posteriorBand.p05, f.posteriorBand.median, f.posteriorBand.p95].map((x) => (x === null ? 'above the cap' : per(x))).join(' · ')}; the band of this plan comes from the shelf's coefficients and their sds, which keep no correlations between coefficients, so it can be wider.` : ''} ${r.seriesInfo.note.replace(/^the doses given; /, '')}. Give doses or doseFactors to print another series.`
       : `the dose series stored with the plan, plus dose 0 (the no-dopant control); ${r.seriesInfo.note.replace(/^the doses given; /, '')}. Give doses or doseFactors to print another series.`;
     return { ...r, seriesInfo: { from: 'plan-series', note, ...(f ? { designedFrom: f } : {}) } as Sheet['prediction']['series'] };
   }

@@ -39,6 +39,8 @@ export const planSeriesSchema = z.strictObject({
       expectedBandFactor: z.strictObject({ designed: z.number().positive().max(1e12).nullable(), fixed: z.number().positive().max(1e12).nullable() }),
       /** how many doses the default fixed series had (what the designed doses were compared with) */
       fixedDoses: z.number().int().min(0).max(24).nullable(),
+      /** the threshold band (m⁻³) of the update the doses were designed from (the joint posterior); null ends lie above the cap */
+      posteriorBand: z.strictObject({ p05: z.number().min(0).max(1e40).nullable(), median: z.number().min(0).max(1e40).nullable(), p95: z.number().min(0).max(1e40).nullable() }).optional(),
     })
     .optional()
     .describe('where the doses came from: set by POST /api/plans/:id/next'),
