@@ -392,7 +392,7 @@ export function outcomeUpdateService(deps: {
           const post = out.update.bands.find((b) => b.species === d.input.observed)?.posterior;
           const series = {
             candidate: d.input.observed,
-            doses: designed.map((x) => `${Number(x.toPrecision(4))} 1/m^3`),
+            doses: designed.map((x) => `${Number((x * 1e-6).toPrecision(4))} 1/mL`),
             from: {
               plan: planId,
               outcomeSet: outcomes.id,
