@@ -56,7 +56,7 @@ export const updateRequestSchema = z.strictObject({
   onsetSd: z.number().positive().max(5).default(0.5).describe('σ of ln(onset time)'),
   lengthSd: z.number().positive().max(5).default(0.25).describe('σ of ln(pattern length)'),
   onsetEFolds: z.number().positive().max(50).default(1).describe('the onset is read as this many growth times'),
-  minEss: z.number().positive().optional().describe('importance sampling while its effective sample size is at least this (default max(50, draws/5)); else sequential Monte Carlo'),
+  minEss: z.number().positive().max(4000).optional().describe('importance sampling while its effective sample size is at least this (default max(50, draws/5)); else sequential Monte Carlo'),
   samples: z.number().int().min(10).max(4000).optional().describe('prior draws when the plan has no Monte Carlo uncertainty (default 500)'),
   seed: z.number().int().min(0).max(4294967295).optional(),
   alpha: z.number().gt(0).lt(0.5).default(0.01).describe('level of the consistency checks'),
