@@ -373,6 +373,7 @@ export function outcomeUpdateService(deps: {
      * back to this plan) whose request carries the designed doses as its `series`: the new plan's bench sheet prints
      * them by default. The job ends when the new plan is stored; its result names it (`nextPlanId`).
      *
+     * Outcomes the consistency check rejects end the job failed (422 inconsistent-outcomes): no plan is made.
      * The new plan is computed on the shelf as it is now: after an applied update its threshold and band are the
      * updated ones; before, they are the shelf's as it was (the result's `shelf` says which, and the doses are
      * designed from the posterior either way).
@@ -388,6 +389,9 @@ export function outcomeUpdateService(deps: {
           // the update and the design are the first 90 % of the job, the new plan the rest
           const out = await deps.pool.run('design', d.input, { ...ctx.runOptions, onProgress: (f, stage) => ctx.runOptions.onProgress?.(0.9 * f, stage) });
           ctx.signal.throwIfAborted();
+          // a posterior the outcomes contradict is no ground for a design: say so instead of planning on it
+          if (!out.update.consistency.consistent)
+            throw new DomainError('inconsistent-outcomes', `no next plan was made: ${out.update.consistency.message} Check the outcomes (a misread tube, the sheet options they were entered with) or the shelf first.`);
           const designed = out.design.designed.doses;
           const post = out.update.bands.find((b) => b.species === d.input.observed)?.posterior;
           const series = {

@@ -99,6 +99,8 @@ describe('brink plan, update, next', () => {
     expect(await run('update', '2', '--apply', '--format', 'text')).toBe(2);
     expect(out).toMatch(/\nconsistency: INCONSISTENT: .*the model or the shelf is wrong/);
     expect(err).toMatch(/^not applied \(inconsistent-outcomes: the update was not applied/);
+    expect(await run('next', '2', '--tubes', '4', '--simulations', '40')).toBe(2);
+    expect(err).toMatch(/^cannot do that \(inconsistent-outcomes\): no next plan was made: /);
 
     // on a terminal the progress goes to stderr as a bar that is cleared at the end; stdout stays the JSON
     let tOut = '';

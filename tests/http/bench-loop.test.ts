@@ -132,6 +132,15 @@ describe('the bench loop on the demo shelf, over HTTP', () => {
     expect(applied.json().message).toMatch(/^the update was not applied/);
     const after = (await app.inject({ method: 'GET', url: `/api/species/${candidate}` })).json();
     expect(after.revision).toBe(before.revision);
+    // nor is a next round designed on them
+    const plans = (await app.inject({ method: 'GET', url: '/api/plans' })).json().total;
+    const n = await app.inject({ method: 'POST', url: `/api/plans/${planId}/next`, payload: { tubes: 4, simulations: 40 } });
+    const nj = await waitJob(app, n.json().id);
+    expect(nj.state).toBe('failed');
+    expect(nj.error.statusCode).toBe(422);
+    expect(nj.error.code).toBe('inconsistent-outcomes');
+    expect(nj.error.message).toMatch(/^no next plan was made: .*the model or the shelf is wrong/);
+    expect((await app.inject({ method: 'GET', url: '/api/plans' })).json().total).toBe(plans);
   }, 180_000);
 
   it('a plan request with a series is bounded and checked', async () => {
