@@ -103,7 +103,8 @@ usage:
   brink update <plan-id> [--db PATH] [--candidate ID] [--samples N] [--misclassification E] [--seed N]
               [--apply] [--author NAME] [--format json|text]
                                                      update the shelf's coefficients from the plan's outcomes
-                                                     (importance sampling or sequential Monte Carlo, with the ESS,
+                                                     (--samples: prior draws when the plan ran without any;
+                                                     importance sampling or sequential Monte Carlo, with the ESS,
                                                      the bands before and after, the consistency check); --apply
                                                      writes them as species revisions (refused when inconsistent)
   brink next <plan-id> [--db PATH] [--candidate ID] [--tubes N] [--min-dose-ratio R] [--min-dose D] [--max-dose D]
