@@ -30,7 +30,7 @@ import { bandOf, weightedQuantile, type Posterior } from './update.js';
 import { EngineInputError, type Mixture, type Species } from './types.js';
 
 export interface DesignOptions {
-  /** n, the number of tubes of the next round (default: as many as the fixed series) */
+  /** n, the number of tubes of the next round (default: as many as the fixed series has doses above 0) */
   tubes?: number;
   /** the doses the bench can make (m⁻³); default a log grid by `minDoseRatio` */
   grid?: number[];
@@ -161,7 +161,8 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
   if (!fixedSeries && !(opts.tubes !== undefined && opts.grid && opts.grid.length > 0))
     throw new EngineInputError('candidate', 'the posterior median threshold is 0 or above the cap: there is no default series to scale; give the number of tubes and the grid of doses');
   const fixedDoses = fixedSeries ? fixedSeries.doses.filter((x) => x <= cap) : [];
-  const n = opts.tubes ?? fixedDoses.length;
+  // default: the fixed series' doses above 0 (a sheet adds dose 0, the no-dopant control, to a designed series as the fixed one has it)
+  const n = opts.tubes ?? Math.max(1, fixedDoses.filter((x) => x > 0).length);
   if (!(n >= 1)) throw new EngineInputError('tubes', 'at least one tube');
   const fixedRng = new Random(streamSeed(opts.seed ?? 1, 0xf1, 'fixed'));
   const fixedCols = statesAt(fixedDoses, 'states of the draws at the fixed series').map((states) => ({ states, seen: seenAt(states, fixedRng) }));

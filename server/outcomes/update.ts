@@ -65,7 +65,7 @@ export type UpdateRequest = z.output<typeof updateRequestSchema>;
 
 const dose = (d: string) => quantity(DIMENSIONS.numberDensity, 'nonnegative', d);
 export const designRequestSchema = updateRequestSchema.extend({
-  tubes: z.number().int().min(1).max(24).optional().describe('tubes of the next round (default: as many as the default fixed series)'),
+  tubes: z.number().int().min(1).max(24).optional().describe('doses of the next round (default: as many as the default fixed series has above 0; its sheet adds dose 0, the no-dopant control)'),
   minDoseRatio: z.number().gt(1).max(10).optional().describe('smallest ratio between two doses the bench can make apart (default 1.1)'),
   grid: z.array(dose('a dose the bench can make')).min(1).max(400).optional(),
   minDose: dose('lowest dose (e.g. the smallest pipetting volume × the stock)').optional(),
