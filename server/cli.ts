@@ -7,6 +7,9 @@
  *   brink fit quantal <file> [--link …] [--scale …]        quantal dose–response (ED50) from dose, tubes, responded
  *   brink sheet <plan-id> [--db PATH] [options]            the bench sheet of a stored plan
  *   brink outcomes <plan-id> [file] [--db PATH] [options]  what each tube did: show, record (CSV/JSON), --dose-response
+ *   brink plan <request.json> [--db PATH]                  compute and store a plan (as POST /api/plans)
+ *   brink update <plan-id> [--db PATH] [--apply] …         the model update from the plan's outcomes; --apply writes it
+ *   brink next <plan-id> [--db PATH] [--tubes N] …         design the next round's doses and store the next plan
  *   brink serve [--db PATH] [--port N] [--host H] …      the web service (access: --require-token, --require-token-for-reads, --allowed-hosts)
  *   brink token create <holder> | list | revoke <id|prefix> [--db PATH]   access tokens of the service
  *   brink seed [--reset] [--yes] [--db PATH]               load the demo shelf
@@ -47,6 +50,12 @@ import { sheetService } from './protocol/service.js';
 import { SheetNotFitError, splitDoses } from './protocol/sheet.js';
 import { DomainError, ImportConflictError } from './shelf/errors.js';
 import { VERSION } from './version.js';
+import { WorkerPool } from './jobs/pool.js';
+import { ENDED_STATES, JobRegistry, type Job } from './jobs/registry.js';
+import { shelfService } from './shelf/service.js';
+import { planService } from './shelf/plans.js';
+import { outcomeUpdateService, type NextJobResult, type UpdateJobResult } from './outcomes/update.js';
+import type { Band } from './engine/update.js';
 
 export interface Io {
   out: (text: string) => void;
@@ -88,6 +97,21 @@ usage:
                                                      length [um], notes; or JSON, or the filled-in sheet JSON)
   brink outcomes <plan-id> --dose-response [--candidate ID] [--revision N] [--link logit|probit|cloglog] [--scale log10|linear]
                                                      the empirical threshold: a quantal fit of the tubes that crossed
+  brink plan <request.json> [--db PATH] [--format json|text]
+                                                     compute and store a plan (the request of POST /api/plans);
+                                                     prints its id and each candidate's threshold
+  brink update <plan-id> [--db PATH] [--candidate ID] [--samples N] [--misclassification E] [--seed N]
+              [--apply] [--author NAME] [--format json|text]
+                                                     update the shelf's coefficients from the plan's outcomes
+                                                     (--samples: prior draws when the plan ran without any;
+                                                     importance sampling or sequential Monte Carlo, with the ESS,
+                                                     the bands before and after, the consistency check); --apply
+                                                     writes them as species revisions (refused when inconsistent)
+  brink next <plan-id> [--db PATH] [--candidate ID] [--tubes N] [--min-dose-ratio R] [--min-dose D] [--max-dose D]
+              [--simulations N] [--format json|text]
+                                                     design the next round's doses from the outcomes and store the
+                                                     next plan (the same request on the current shelf, with the
+                                                     designed doses as its sheet's series): prints its id
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
               [--require-token] [--require-token-for-reads] [--allowed-hosts NAMES]
                                                      open on loopback; beyond it (e.g. --host 0.0.0.0) only with
@@ -588,6 +612,258 @@ function cmdSheet(args: string[], io: Io): number {
   return 0;
 }
 
+// ------------------------------------------------------------------ plan, update, next: the bench loop in-process
+
+/**
+ * The services of the web service on a database file, in this process: the same plan, update and design code
+ * as the jobs of `brink serve` (a worker thread computes; this thread stores), without the HTTP layer.
+ */
+function localServices(dbPath: string) {
+  if (!existsSync(dbPath)) throw new UsageError(`no database at ${dbPath} (use --db PATH or BRINK_DB)`);
+  const db = openDatabase(dbPath);
+  const pool = new WorkerPool({ size: 1, nice: 0 });
+  // a job's error is kept as it was thrown (rebuilt as its class when it crossed from the worker), for main's handler
+  const jobs = new JobRegistry({ describeError: (e) => ({ statusCode: 500, error: 'thrown', message: e.message, thrown: e }) });
+  const shelf = shelfService(shelfRepository(db));
+  const plansRepo = plansRepository(db);
+  const plans = planService(shelf, plansRepo, { pool, jobs });
+  const outcomeSets = outcomesRepository(db);
+  const updates = outcomeUpdateService({ shelf, plans: plansRepo, readOutcomes: (id, candidate) => outcomeSets.current(id, candidate), rerun: (id, holder, series) => plans.rerun(id, holder, series), pool, jobs });
+  return {
+    plans,
+    updates,
+    jobs,
+    async close() {
+      jobs.close();
+      await pool.close();
+      db.close();
+    },
+  };
+}
+
+/** Wait for a job to end, drawing its progress on a terminal; a job that did not end done throws its error. */
+async function awaitJob<R>(jobs: JobRegistry, job: Job<R>, io: Io): Promise<R> {
+  const bar = io.errColumns ? progressBar(io.err, io.errColumns) : null;
+  try {
+    const ended = await new Promise<Job<R>>((resolve) => {
+      if (ENDED_STATES.includes(job.state)) return resolve(job);
+      const off = jobs.subscribe(job.id, (e) => {
+        if (e.type === 'progress') bar?.update(e.job.progress.fraction, e.job.progress.stage);
+        else {
+          off();
+          resolve(e.job as Job<R>);
+        }
+      });
+    });
+    if (ended.state === 'done' && ended.result !== null) return ended.result;
+    const err = ended.error;
+    if (err?.thrown instanceof Error) throw err.thrown;
+    throw new Error(`the ${job.kind} job ended ${ended.state}${err ? `: ${err.message}` : ''}`);
+  } finally {
+    bar?.done();
+  }
+}
+
+const planIdArg = (text: string | undefined, usage: string): number => {
+  const id = Number(text);
+  if (!Number.isInteger(id) || id < 1) throw new UsageError(usage);
+  return id;
+};
+
+function numberFlag(name: string, text: string | undefined, integer = false): number | undefined {
+  if (text === undefined) return undefined;
+  const n = Number(text);
+  if (text.trim() === '' || !Number.isFinite(n) || (integer && !Number.isInteger(n))) throw new UsageError(`--${name}: expected ${integer ? 'a whole number' : 'a number'}, got "${text}"`);
+  return n;
+}
+
+const perMl = (x: number | null) => (x === null ? 'above the cap' : `${g(x * 1e-6)}`);
+const bandText = (b: Band) => `${perMl(b.p05)} · ${perMl(b.median)} · ${perMl(b.p95)}`;
+
+/** `brink plan <request.json>`: compute and store a plan, as POST /api/plans does. */
+async function cmdPlan(args: string[], io: Io): Promise<number> {
+  const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { db: { type: 'string', default: defaults().db }, format: { type: 'string', default: 'text' } } });
+  if (positionals.length !== 1) throw new UsageError('usage: brink plan <request.json> [--db PATH] [--format json|text]');
+  if (values.format !== 'json' && values.format !== 'text') throw new UsageError(`--format: expected json or text, got "${values.format}"`);
+  const request = readJson(positionals[0]!);
+  const s = localServices(values.db);
+  try {
+    const { planId } = await awaitJob(s.jobs, s.plans.start(request), io);
+    const plan = s.plans.get(planId) as { id: number; name: string; result: { candidates: { species: string; feasible: boolean; threshold: { density: number } | null; band?: Band | null; message?: string }[]; warnings: { code: string; message: string }[] } };
+    if (values.format === 'json') io.out(JSON.stringify({ planId, name: plan.name, candidates: plan.result.candidates.map((c) => ({ species: c.species, feasible: c.feasible, threshold: c.threshold?.density ?? null, band: c.band ?? null })), warnings: plan.result.warnings }, null, 2) + '\n');
+    else {
+      const lines = [`plan ${planId}: ${plan.name}`];
+      for (const c of plan.result.candidates)
+        lines.push(c.feasible && c.threshold ? `  ${c.species}: threshold ${perMl(c.threshold.density)} particles/mL${c.band ? `; band 5 % · median · 95 %: ${bandText(c.band)}` : ''}` : `  ${c.species}: does not cross${c.message ? ` (${c.message})` : ''}`);
+      for (const w of plan.result.warnings) lines.push(`  warning ${w.code}: ${w.message}`);
+      lines.push(`bench sheet: brink sheet ${planId} --db ${values.db} --format md`);
+      io.out(lines.join('\n') + '\n');
+    }
+  } finally {
+    await s.close();
+  }
+  return 0;
+}
+
+/** The update's answer in short: what `brink update` prints as JSON. */
+function updateSummary(r: UpdateJobResult) {
+  const u = r.update;
+  return {
+    planId: r.planId,
+    outcomes: r.outcomes,
+    ignored: r.ignored,
+    priorFrom: r.priorFrom,
+    method: u.method === 'importance' ? 'importance sampling' : 'sequential Monte Carlo',
+    ess: Number(u.ess.toFixed(1)),
+    importanceEss: Number(u.importanceEss.toFixed(1)),
+    samples: u.samples,
+    seed: u.seed,
+    tubes: u.tubes,
+    misclassification: u.options.misclassification,
+    coefficients: u.coefficients.map((c) => ({ owner: c.owner, id: c.id, field: c.field, chemical: c.chemical, before: { value: c.value, sd: c.sd }, after: { value: c.posteriorMean, sd: c.posteriorSd }, unit: 'SI' })),
+    bands: u.bands.map((b) => ({ species: b.species, unit: 'm^-3', before: b.prior, after: b.posterior })),
+    consistency: u.consistency,
+  };
+}
+
+/** The ignored tubes, one group per reason: "CFa, CFb, CFc (a no-fuel tube is …)". */
+function ignoredText(ignored: UpdateJobResult['ignored']): string {
+  const by = new Map<string, string[]>();
+  for (const x of ignored) by.set(x.reason, [...(by.get(x.reason) ?? []), x.tube]);
+  return [...by].map(([reason, tubes]) => `${tubes.join(', ')} (${reason})`).join('; ');
+}
+
+function updateText(r: UpdateJobResult): string[] {
+  const u = r.update;
+  const lines = [
+    `update of plan ${r.planId} from outcome set ${r.outcomes.id} revision ${r.outcomes.revision} (candidate ${r.outcomes.candidate}; ${u.tubes.used} tubes used, ${u.tubes.unclear} unclear${r.ignored.length ? `; ignored: ${ignoredText(r.ignored)}` : ''})`,
+    `method: ${u.method === 'importance' ? `importance sampling over the plan's ${u.samples} draws` : `sequential Monte Carlo from ${u.samples} prior draws (importance sampling's ESS, ${u.importanceEss.toFixed(0)}, was below ${u.options.minEss})`}, effective sample size ${u.ess.toFixed(0)}; misclassification ε = ${u.options.misclassification}`,
+    `consistency: ${u.consistency.consistent ? 'consistent' : 'INCONSISTENT'}: ${u.consistency.message}`,
+    'coefficients (SI): before (value ± sd) → after (posterior mean ± sd)',
+    ...u.coefficients.map((c) => `  ${c.owner} ${c.id} ${c.field}${c.chemical ? ` on ${c.chemical}` : ''}: ${g(c.value)} ± ${g(c.sd)} → ${g(c.posteriorMean)} ± ${g(c.posteriorSd)}`),
+    'threshold band, particles/mL (5 % · median · 95 %): before → after',
+    ...u.bands.map((b) => `  ${b.species}: ${bandText(b.prior)} → ${bandText(b.posterior)}`),
+  ];
+  return lines;
+}
+
+/** `brink update <plan-id>`: the model update from the plan's current outcomes, and with --apply its revisions. */
+async function cmdUpdate(args: string[], io: Io): Promise<number> {
+  const usage = 'usage: brink update <plan-id> [--db PATH] [--candidate ID] [--samples N] [--misclassification E] [--seed N] [--apply] [--author NAME] [--format json|text]';
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    options: {
+      db: { type: 'string', default: defaults().db },
+      candidate: { type: 'string' },
+      samples: { type: 'string' },
+      misclassification: { type: 'string' },
+      seed: { type: 'string' },
+      apply: { type: 'boolean', default: false },
+      author: { type: 'string' },
+      format: { type: 'string', default: 'json' },
+    },
+  });
+  if (positionals.length !== 1) throw new UsageError(usage);
+  const id = planIdArg(positionals[0], usage);
+  if (values.format !== 'json' && values.format !== 'text') throw new UsageError(`--format: expected json or text, got "${values.format}"`);
+  const body: Record<string, unknown> = {};
+  if (values.candidate) body.candidate = values.candidate;
+  const samples = numberFlag('samples', values.samples, true);
+  if (samples !== undefined) body.samples = samples;
+  const eps = numberFlag('misclassification', values.misclassification);
+  if (eps !== undefined) body.misclassification = eps;
+  const seed = numberFlag('seed', values.seed, true);
+  if (seed !== undefined) body.seed = seed;
+  const s = localServices(values.db);
+  try {
+    const job = s.updates.startUpdate(id, body);
+    const r = await awaitJob(s.jobs, job, io);
+    let applied: ReturnType<typeof s.updates.apply> | null = null;
+    let refused: string | null = null;
+    if (values.apply) {
+      try {
+        applied = s.updates.apply(id, { job: job.id, ...(values.author ? { author: values.author } : {}) });
+      } catch (e) {
+        if (!(e instanceof DomainError)) throw e;
+        refused = `${e.code}: ${e.message}`;
+      }
+    }
+    if (values.format === 'json') io.out(JSON.stringify({ ...updateSummary(r), ...(values.apply ? { applied: applied ? applied.revisions : null } : {}) }, null, 2) + '\n');
+    else {
+      const lines = updateText(r);
+      if (applied) lines.push(`applied: ${applied.revisions.map((x) => `${x.type} ${x.key} (revision id ${x.revisionId})`).join(', ')}`);
+      else if (!values.apply) lines.push(r.update.consistency.consistent ? `nothing written: add --apply to write these coefficients as new revisions` : 'nothing written: the outcomes are inconsistent with the model and the shelf, so the update cannot be applied');
+      io.out(lines.join('\n') + '\n');
+    }
+    if (refused) {
+      io.err(`not applied (${refused})\n`);
+      return 2;
+    }
+  } finally {
+    await s.close();
+  }
+  return 0;
+}
+
+/** `brink next <plan-id>`: design the next round's doses and store the next plan, as POST /api/plans/:id/next. */
+async function cmdNext(args: string[], io: Io): Promise<number> {
+  const usage = 'usage: brink next <plan-id> [--db PATH] [--candidate ID] [--tubes N] [--min-dose-ratio R] [--min-dose D] [--max-dose D] [--simulations N] [--format json|text]';
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    options: {
+      db: { type: 'string', default: defaults().db },
+      candidate: { type: 'string' },
+      tubes: { type: 'string' },
+      'min-dose-ratio': { type: 'string' },
+      'min-dose': { type: 'string' },
+      'max-dose': { type: 'string' },
+      simulations: { type: 'string' },
+      samples: { type: 'string' },
+      format: { type: 'string', default: 'text' },
+    },
+  });
+  if (positionals.length !== 1) throw new UsageError(usage);
+  const id = planIdArg(positionals[0], usage);
+  if (values.format !== 'json' && values.format !== 'text') throw new UsageError(`--format: expected json or text, got "${values.format}"`);
+  const body: Record<string, unknown> = {};
+  if (values.candidate) body.candidate = values.candidate;
+  const tubes = numberFlag('tubes', values.tubes, true);
+  if (tubes !== undefined) body.tubes = tubes;
+  const ratio = numberFlag('min-dose-ratio', values['min-dose-ratio']);
+  if (ratio !== undefined) body.minDoseRatio = ratio;
+  const sims = numberFlag('simulations', values.simulations, true);
+  if (sims !== undefined) body.simulations = sims;
+  const samples = numberFlag('samples', values.samples, true);
+  if (samples !== undefined) body.samples = samples;
+  if (values['min-dose'] !== undefined) body.minDose = values['min-dose'];
+  if (values['max-dose'] !== undefined) body.maxDose = values['max-dose'];
+  const s = localServices(values.db);
+  try {
+    const r: NextJobResult = await awaitJob(s.jobs, s.updates.startNext(id, body), io);
+    const d = r.design;
+    if (values.format === 'json') {
+      io.out(JSON.stringify({ planId: r.planId, nextPlanId: r.nextPlanId, candidate: d.candidate, criterion: d.criterion, method: d.method, designed: d.designed, fixed: d.fixed, current: d.current, grid: d.grid, shelf: r.shelf, sheet: r.sheet, update: { method: r.update.method, ess: r.update.ess, consistency: r.update.consistency } }, null, 2) + '\n');
+    } else {
+      const f = (x: number | null) => (x === null ? 'not finite (the band reaches past the cap)' : `×${g(x)}`);
+      const lines = [
+        `next plan ${r.nextPlanId} (after plan ${r.planId}): ${d.designed.doses.length} doses of ${d.candidate} designed to minimise the ${d.criterion}`,
+        `  designed doses, particles/mL: ${d.designed.doses.map((x) => g(x * 1e-6)).join(', ')}`,
+        `  expected 5–95 % band width after the round: ${f(d.designed.expectedBandFactor)} (now ${f(d.current.bandFactor)})`,
+        d.fixed ? `  default fixed series (${d.fixed.doses.length} doses: ${d.fixed.doses.map((x) => g(x * 1e-6)).join(', ')}): ${f(d.fixed.expectedBandFactor)}` : '  default fixed series: none (the posterior median is 0 or above the cap)',
+        `  update: ${r.update.method === 'importance' ? 'importance sampling' : 'sequential Monte Carlo'}, ESS ${r.update.ess.toFixed(0)}; ${r.update.consistency.consistent ? 'consistent' : `INCONSISTENT: ${r.update.consistency.message}`}`,
+        `  ${r.shelf.note}`,
+        `its sheet (the designed doses, plus the no-dopant control): brink sheet ${r.nextPlanId} --db ${values.db} --format md`,
+      ];
+      io.out(lines.join('\n') + '\n');
+    }
+  } finally {
+    await s.close();
+  }
+  return 0;
+}
+
 /**
  * Run the command line with the given arguments (without `node` and the script).
  * @returns the exit status
@@ -604,6 +880,12 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
         return cmdSheet(rest, io);
       case 'outcomes':
         return cmdOutcomes(rest, io);
+      case 'plan':
+        return await cmdPlan(rest, io);
+      case 'update':
+        return await cmdUpdate(rest, io);
+      case 'next':
+        return await cmdNext(rest, io);
       case 'screen':
         return cmdScreen(rest, io);
       case 'serve':

@@ -30,7 +30,7 @@ import { bandOf, weightedQuantile, type Posterior } from './update.js';
 import { EngineInputError, type Mixture, type Species } from './types.js';
 
 export interface DesignOptions {
-  /** n, the number of tubes of the next round (default: as many as the fixed series) */
+  /** n, the number of tubes of the next round (default: as many as the fixed series has doses above 0) */
   tubes?: number;
   /** the doses the bench can make (m⁻³); default a log grid by `minDoseRatio` */
   grid?: number[];
@@ -161,13 +161,16 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
   if (!fixedSeries && !(opts.tubes !== undefined && opts.grid && opts.grid.length > 0))
     throw new EngineInputError('candidate', 'the posterior median threshold is 0 or above the cap: there is no default series to scale; give the number of tubes and the grid of doses');
   const fixedDoses = fixedSeries ? fixedSeries.doses.filter((x) => x <= cap) : [];
-  const n = opts.tubes ?? fixedDoses.length;
+  // default: the fixed series' doses above 0 (a sheet adds dose 0, the no-dopant control, to a designed series as the fixed one has it)
+  const n = opts.tubes ?? Math.max(1, fixedDoses.filter((x) => x > 0).length);
   if (!(n >= 1)) throw new EngineInputError('tubes', 'at least one tube');
   const fixedRng = new Random(streamSeed(opts.seed ?? 1, 0xf1, 'fixed'));
   const fixedCols = statesAt(fixedDoses, 'states of the draws at the fixed series').map((states) => ({ states, seen: seenAt(states, fixedRng) }));
   const gridRng = new Random(streamSeed(opts.seed ?? 1, 0x61, 'grid'));
   const gridCols = statesAt(grid, 'states of the draws over the dose grid').map((states) => ({ states, seen: seenAt(states, gridRng) }));
   // greedy: the running log-likelihood of each (simulation, draw) for the chosen doses
+  const centreLog = Math.log10(band.median !== null && band.median > 0 ? band.median : Math.sqrt(grid[0]! * grid[grid.length - 1]!) || cap);
+  const nearness = (x: number) => (x > 0 ? Math.abs(Math.log10(x) - centreLog) : Infinity);
   const chosen: number[] = [];
   const cum = Array.from({ length: R }, () => new Float64Array(M));
   const used = new Set<number>();
@@ -186,7 +189,15 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
         for (let k = 0; k < M; k++) ll[k] = base[k]! + (c.states[k] === sr ? hit : miss);
         u += wvar(logT, weightsOf(ll));
       }
-      if (u < bestU) {
+      // a dose no draw tells apart from the others leaves U as it was: among equal scores (to rounding), the dose
+      // nearest the posterior median (in log), where a misread tube or a model error shows first, not the grid's lowest
+      const tie = bestG >= 0 && Math.abs(u - bestU) <= 1e-9 * Math.abs(bestU);
+      if (tie) {
+        if (nearness(grid[g]!) < nearness(grid[bestG]!)) {
+          bestU = Math.min(u, bestU);
+          bestG = g;
+        }
+      } else if (u < bestU) {
         bestU = u;
         bestG = g;
       }

@@ -286,7 +286,7 @@ export async function buildApp({ config = {}, db, readOutcomes }: { config?: App
   await app.register(outcomeRoutes);
   await app.register(hazardRoutes);
   const read: ReadOutcomes = readOutcomes ?? ((planId, candidate) => outcomeSets.current(planId, candidate));
-  await app.register(outcomeUpdateRoutes, { service: outcomeUpdateService({ shelf, plans: plansRepo, readOutcomes: read, rerun: (id, holder) => app.plans.rerun(id, holder), pool, jobs }) });
+  await app.register(outcomeUpdateRoutes, { service: outcomeUpdateService({ shelf, plans: plansRepo, readOutcomes: read, rerun: (id, holder, series) => app.plans.rerun(id, holder, series), pool, jobs }) });
   await app.ready();
   return app;
 }

@@ -36,9 +36,9 @@ export function runUpdate(input: UpdateInput, progress?: Progress): UpdateResult
 /** The update, then the design of the next round from its posterior (docs/model.md §13). */
 export function runDesign(input: DesignInput, progress?: Progress): { update: UpdateResult; design: DesignResult } {
   const p = progress ?? (() => {});
-  const r = updateModel(input.base, input.candidates, input.observed, input.dose, input.tubes, { ...input.options, progress: (f, s) => p(0.5 * f, s) });
+  const r = updateModel(input.base, input.candidates, input.observed, input.dose, input.tubes, { ...input.options, progress: (f, s) => p(0.5 * f, `update: ${s}`) });
   const d = input.candidates.find((c) => c.id === input.observed)!;
-  const design = designNext(r.posterior, input.base, d, input.dose, { ...input.design, seed: input.design.seed ?? input.options.seed, progress: (f, s) => p(0.5 + 0.5 * f, s) });
+  const design = designNext(r.posterior, input.base, d, input.dose, { ...input.design, seed: input.design.seed ?? input.options.seed, progress: (f, s) => p(0.5 + 0.5 * f, `design: ${s}`) });
   const { posterior: _posterior, ...update } = r;
   return { update, design };
 }

@@ -20,7 +20,7 @@ import type { Job, JobRegistry } from '../jobs/registry.js';
 import { quantity, issueList } from '../schema/mixture.js';
 import { keySchema, toTypedRecord, type ChemicalRecord, type SpeciesRecord, type StoredQuantity } from '../schema/shelf.js';
 import { DomainError, InputError } from '../shelf/errors.js';
-import { planRequestSchema } from '../shelf/plans.js';
+import { planRequestSchema, type PlanRequestInput } from '../shelf/plans.js';
 import { parseRecord, type ShelfService } from '../shelf/service.js';
 import type { PlanRow } from '../store/plans.js';
 import { DIMENSIONS, dimensionOfUnit, formatDimension } from '../units/index.js';
@@ -56,7 +56,7 @@ export const updateRequestSchema = z.strictObject({
   onsetSd: z.number().positive().max(5).default(0.5).describe('σ of ln(onset time)'),
   lengthSd: z.number().positive().max(5).default(0.25).describe('σ of ln(pattern length)'),
   onsetEFolds: z.number().positive().max(50).default(1).describe('the onset is read as this many growth times'),
-  minEss: z.number().positive().optional().describe('importance sampling while its effective sample size is at least this (default max(50, draws/5)); else sequential Monte Carlo'),
+  minEss: z.number().positive().max(4000).optional().describe('importance sampling while its effective sample size is at least this (default max(50, draws/5)); else sequential Monte Carlo'),
   samples: z.number().int().min(10).max(4000).optional().describe('prior draws when the plan has no Monte Carlo uncertainty (default 500)'),
   seed: z.number().int().min(0).max(4294967295).optional(),
   alpha: z.number().gt(0).lt(0.5).default(0.01).describe('level of the consistency checks'),
@@ -65,7 +65,7 @@ export type UpdateRequest = z.output<typeof updateRequestSchema>;
 
 const dose = (d: string) => quantity(DIMENSIONS.numberDensity, 'nonnegative', d);
 export const designRequestSchema = updateRequestSchema.extend({
-  tubes: z.number().int().min(1).max(24).optional().describe('tubes of the next round (default: as many as the default fixed series)'),
+  tubes: z.number().int().min(1).max(24).optional().describe('doses of the next round (default: as many as the default fixed series has above 0; its sheet adds dose 0, the no-dopant control)'),
   minDoseRatio: z.number().gt(1).max(10).optional().describe('smallest ratio between two doses the bench can make apart (default 1.1)'),
   grid: z.array(dose('a dose the bench can make')).min(1).max(400).optional(),
   minDose: dose('lowest dose (e.g. the smallest pipetting volume × the stock)').optional(),
@@ -246,6 +246,56 @@ export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: O
 
 // ---------------------------------------------------------------- the service
 
+/** What the next-round job answers (POST /api/plans/:id/next, brink next). */
+export interface NextJobResult {
+  planId: number;
+  update: UpdateResult;
+  design: DesignResult;
+  /** whether the shelf the new plan was computed on moved on since the old plan (an applied update does) */
+  shelf: { changedSincePlan: boolean; note: string };
+  /** the designed doses as the new plan's request stores them (its `series`), and as the sheet's doses option takes them */
+  sheet: { candidate: string; doses: string[] };
+  nextPlanJob: string;
+  nextPlanId: number;
+}
+
+const finiteOrNull = (x: number | null) => (x !== null && Number.isFinite(x) && x > 0 ? x : null);
+
+/** Whether any shelf item the plan used has a newer revision now, in words for the next plan. */
+function shelfSince(shelf: ShelfService, plan: PlanRow): NextJobResult['shelf'] {
+  const moved: string[] = [];
+  for (const r of plan.revisions) {
+    const rev = shelf.repo.byRevisionId(r.revisionId);
+    if (!rev) continue;
+    try {
+      const cur = shelf.repo.mustGet(rev.type, rev.id);
+      if (cur.revision !== rev.revision) moved.push(`${rev.id} (revision ${rev.revision} → ${cur.revision})`);
+    } catch {
+      moved.push(`${rev.id} (no longer on the shelf)`);
+    }
+  }
+  return moved.length > 0
+    ? { changedSincePlan: true, note: `the next plan is computed on the current shelf, which moved on since plan ${plan.id}: ${moved.join(', ')}` }
+    : { changedSincePlan: false, note: `the next plan is computed on the current shelf, the same revisions as plan ${plan.id}: its threshold band is the one before the outcomes (apply the update first, then ask for the next round, for a plan on the updated coefficients); the doses are designed from the updated coefficients either way` };
+}
+
+/** Wait for a job of the registry to end (hearing its progress). */
+function jobEnd<R>(jobs: JobRegistry, id: string, progress: (fraction: number) => void): Promise<Job<R>> {
+  return new Promise((resolve) => {
+    const job = jobs.get(id) as Job<R> | undefined;
+    if (!job) throw new Error(`job ${id} is gone`);
+    const ended = () => ['done', 'failed', 'cancelled', 'timed-out'].includes(job.state);
+    if (ended()) return resolve(job);
+    const off = jobs.subscribe(id, (e) => {
+      if (e.type === 'progress') progress(e.job.progress.fraction);
+      else {
+        off();
+        resolve(e.job as Job<R>);
+      }
+    });
+  });
+}
+
 export interface UpdateJobResult {
   planId: number;
   outcomes: { id: number; revision: number; candidate: string };
@@ -262,7 +312,7 @@ export function outcomeUpdateService(deps: {
   shelf: ShelfService;
   plans: { get(id: number): PlanRow };
   readOutcomes: ReadOutcomes;
-  rerun: (planId: number, holder: string | null) => Job<{ planId: number }>;
+  rerun: (planId: number, holder: string | null, series?: PlanRequestInput['series']) => Job<{ planId: number }>;
   pool: WorkerPool;
   jobs: JobRegistry;
 }) {
@@ -318,24 +368,59 @@ export function outcomeUpdateService(deps: {
     },
 
     /**
-     * The next experiment: a job that designs the next round's doses from the plan's current outcomes, then
-     * starts a new plan from the same request on the current shelf (a rerun); its result carries the design, the
-     * new plan's job and the doses to give the sheet (its `doses` option).
+     * The next experiment: a job that designs the next round's doses from the plan's current outcomes (update, then
+     * design, in a worker), then computes a new plan from the same request on the current shelf (a rerun that points
+     * back to this plan) whose request carries the designed doses as its `series`: the new plan's bench sheet prints
+     * them by default. The job ends when the new plan is stored; its result names it (`nextPlanId`).
+     *
+     * Outcomes the consistency check rejects end the job failed (422 inconsistent-outcomes): no plan is made.
+     * The new plan is computed on the shelf as it is now: after an applied update its threshold and band are the
+     * updated ones; before, they are the shelf's as it was (the result's `shelf` says which, and the doses are
+     * designed from the posterior either way).
      */
-    startNext(planId: number, body: unknown, holder: string | null = null): Job<{ planId: number; update: UpdateResult; design: DesignResult; sheet: { candidate: string; doses: string[] }; nextPlanJob: string }> {
+    startNext(planId: number, body: unknown, holder: string | null = null): Job<NextJobResult> {
       const req = parse(designRequestSchema, body);
       const plan = deps.plans.get(planId);
       const outcomes = outcomesOf(planId, req.candidate);
       const d = designInput(plan, outcomes, req);
-      return deps.jobs.start(
+      return deps.jobs.start<NextJobResult>(
         'design',
         async (ctx) => {
-          const out = await deps.pool.run('design', d.input, ctx.runOptions);
+          // the update and the design are the first 90 % of the job, the new plan the rest
+          const out = await deps.pool.run('design', d.input, { ...ctx.runOptions, onProgress: (f, stage) => ctx.runOptions.onProgress?.(0.9 * f, stage) });
           ctx.signal.throwIfAborted();
-          const next = deps.rerun(planId, holder);
-          return { planId, ...out, sheet: { candidate: d.input.observed, doses: out.design.designed.doses.map((x) => `${Number(x.toPrecision(4))} 1/m^3`) }, nextPlanJob: next.id };
+          // a posterior the outcomes contradict is no ground for a design: say so instead of planning on it
+          if (!out.update.consistency.consistent)
+            throw new DomainError('inconsistent-outcomes', `no next plan was made: ${out.update.consistency.message} Check the outcomes (a misread tube, the sheet options they were entered with) or the shelf first.`);
+          const designed = out.design.designed.doses;
+          const post = out.update.bands.find((b) => b.species === d.input.observed)?.posterior;
+          const series = {
+            candidate: d.input.observed,
+            doses: designed.map((x) => `${Number((x * 1e-6).toPrecision(4))} 1/mL`),
+            from: {
+              plan: planId,
+              outcomeSet: outcomes.id,
+              outcomeRevision: outcomes.revision,
+              criterion: out.design.criterion,
+              expectedBandFactor: { designed: finiteOrNull(out.design.designed.expectedBandFactor), fixed: finiteOrNull(out.design.fixed?.expectedBandFactor ?? null) },
+              fixedDoses: out.design.fixed ? out.design.fixed.doses.length : null,
+              ...(post ? { posteriorBand: { p05: post.p05, median: post.median, p95: post.p95 } } : {}),
+            },
+          };
+          const shelf = shelfSince(deps.shelf, plan);
+          const next = deps.rerun(planId, holder, series);
+          // the new plan's progress is this job's last stage; cancelling this job cancels it
+          const onAbort = () => deps.jobs.cancel(next.id);
+          ctx.signal.addEventListener('abort', onAbort, { once: true });
+          try {
+            const ended = await jobEnd<{ planId: number }>(deps.jobs, next.id, (f) => ctx.runOptions.onProgress?.(0.9 + 0.1 * f, `computing the next plan (${Math.round(100 * f)} %)`));
+            if (ended.state !== 'done' || !ended.result) throw new DomainError('next-plan-failed', `the next plan (job ${next.id}) ended ${ended.state}${ended.error ? `: ${ended.error.message}` : ''}`);
+            return { planId, ...out, shelf, sheet: { candidate: d.input.observed, doses: series.doses }, nextPlanJob: next.id, nextPlanId: ended.result.planId };
+          } finally {
+            ctx.signal.removeEventListener('abort', onAbort);
+          }
         },
-        { label: `next experiment after plan ${planId}` },
+        { label: `next round after plan ${planId}: design of ${d.input.observed}'s doses from outcome set ${outcomes.id}, then the new plan` },
       );
     },
   };

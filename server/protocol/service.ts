@@ -15,6 +15,17 @@ import { renderHtml, renderMarkdown } from './render.js';
 import { buildSheet, sheetRequestSchema, type NotFitSheet, type Sheet } from './sheet.js';
 import { issueList } from '../schema/mixture.js';
 import { InputError } from '../shelf/errors.js';
+import { planSeriesSchema } from '../shelf/plans.js';
+import type { PlanSeriesSI } from './sheet.js';
+
+/** The plan's own dose series (a next plan's designed doses) in SI, or undefined (none, or one that no longer reads). */
+function planSeries(request: unknown): PlanSeriesSI | undefined {
+  const raw = (request as { series?: unknown } | null)?.series;
+  if (raw === undefined) return undefined;
+  const p = planSeriesSchema.safeParse(raw);
+  if (!p.success) return undefined;
+  return { candidate: p.data.candidate, doses: p.data.doses.map((d) => d.value), ...(p.data.from ? { from: p.data.from } : {}) };
+}
 
 export type SheetFormat = 'html' | 'md' | 'json';
 
@@ -25,6 +36,7 @@ export function sheetService(plans: PlansRepository, shelf: ShelfRepository, haz
       const parsed = sheetRequestSchema.safeParse(rawOptions ?? {});
       if (!parsed.success) throw new InputError(issueList(parsed.error));
       const plan = plans.get(id);
+      const series = planSeries(plan.request);
       const revs = plan.revisions.map((r) => ({ r, rev: shelf.byRevisionId(r.revisionId)! })).filter((x) => x.rev !== null);
       const species = new Map<string, SpeciesRecord>();
       const chemicals = new Map<string, ChemicalRecord>();
@@ -34,7 +46,7 @@ export function sheetService(plans: PlansRepository, shelf: ShelfRepository, haz
       }
       const sheet = buildSheet(
         {
-          plan: { ...(plan as object), request: { boundary: (plan.request as { boundary: string }).boundary, dosing: (plan.request as { dosing?: string }).dosing ?? 'add' } } as unknown as { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string }; result: { candidates: CandidateResult[]; warnings?: { code: string; message: string }[] }; inputs: { base: Mixture; candidates: Species[] } },
+          plan: { ...(plan as object), request: { boundary: (plan.request as { boundary: string }).boundary, dosing: (plan.request as { dosing?: string }).dosing ?? 'add', ...(series ? { series } : {}) } } as unknown as { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string; series?: PlanSeriesSI }; result: { candidates: CandidateResult[]; warnings?: { code: string; message: string }[] }; inputs: { base: Mixture; candidates: Species[] } },
           revisions: revs.map(({ r, rev }) => ({ role: r.role, id: rev.id, revision: rev.revision, revisionId: rev.revisionId })),
           speciesRecord: (k) => species.get(k) ?? null,
           chemicalRecord: (k) => chemicals.get(k) ?? null,

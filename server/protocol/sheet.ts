@@ -104,7 +104,7 @@ export interface Sheet {
     /** What the 1 × dose is: the band's median, the threshold, or (explicit doses, any dose crosses) the largest dose given */
     referenceFrom: 'median' | 'threshold' | 'largest-dose';
     /** How the series was made: dose factors × the reference (default or given), or the doses given */
-    series: { from: 'default-factors' | 'dose-factors' | 'doses'; note: string };
+    series: { from: 'default-factors' | 'dose-factors' | 'doses' | 'plan-series'; note: string; designedFrom?: NonNullable<PlanSeriesSI['from']> };
     atMargin: { state: string; growthTime: Amount | null; wavelength: Amount | null; oscillationPeriod: Amount | null; gathers: string[]; pushedOut: string[] } | null;
     /** The candidate's dose path (states over (from, to]) and first onset, in particles/mL */
     dosePath: { from: Amount; to: Amount; state: State }[];
@@ -143,8 +143,16 @@ export interface Sheet {
   request?: Record<string, unknown>;
 }
 
+/** A plan's own dose series (shelf/plans.ts planSeriesSchema), its doses in SI: the sheet's default for that candidate. */
+export interface PlanSeriesSI {
+  candidate: string;
+  /** m⁻³, each above 0 */
+  doses: number[];
+  from?: { plan: number; outcomeSet: number; outcomeRevision: number; criterion: string; expectedBandFactor: { designed: number | null; fixed: number | null }; fixedDoses: number | null; posteriorBand?: { p05: number | null; median: number | null; p95: number | null } };
+}
+
 export interface SheetContext {
-  plan: { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string }; result: { candidates: CandidateResult[]; warnings?: { code: string; message: string }[] }; inputs: { base: Mixture; candidates: Species[] } };
+  plan: { id: number; name: string; createdAt: string; request: { boundary: string; dosing: string; series?: PlanSeriesSI }; result: { candidates: CandidateResult[]; warnings?: { code: string; message: string }[] }; inputs: { base: Mixture; candidates: Species[] } };
   revisions: { role: string; id: string; revision: number; revisionId: number }[];
   speciesRecord: (id: string) => SpeciesRecord | null;
   chemicalRecord: (id: string) => ChemicalRecord | null;
@@ -246,9 +254,28 @@ export function aboveCap(cand: CandidateResult, series: number[]): Sheet['warnin
  * dose (threshold 0⁺) has no reference to scale by, so it needs `doses`; its
  * 1 × (the controls' dose) is then the largest dose given.
  */
-export function chooseSeries(cand: CandidateResult, req: SheetRequest) {
+export interface ChosenSeries {
+  ref: number;
+  series: number[];
+  referenceFrom: Sheet['prediction']['referenceFrom'];
+  seriesInfo: Sheet['prediction']['series'];
+  seriesWarnings: Sheet['warnings'];
+}
+
+export function chooseSeries(cand: CandidateResult, req: SheetRequest, planSeries?: PlanSeriesSI): ChosenSeries {
   const seriesWarnings: Sheet['warnings'] = [];
   if (req.doses && req.doseFactors) throw new InputError([{ path: 'doses', message: 'give doses or doseFactors, not both' }]);
+  // the plan's own series (a next plan's designed doses) when none is asked for: with dose 0, the no-dopant control
+  if (!req.doses && !req.doseFactors && planSeries && planSeries.candidate === cand.species) {
+    const doses = [0, ...planSeries.doses].map((x) => ({ value: x, unit: null, sd: 0 })) as unknown as NonNullable<SheetRequest['doses']>;
+    const r: ChosenSeries = chooseSeries(cand, { ...req, doses });
+    const f = planSeries.from;
+    const factor = (x: number | null) => (x === null ? 'not finite (the band reaches past the cap)' : `×${formatNumber(Number(x.toPrecision(3)))}`);
+    const note = f
+      ? `designed from the outcomes of plan ${f.plan} (outcome set ${f.outcomeSet} revision ${f.outcomeRevision}) to minimise the ${f.criterion}: expected 95 %/5 % width of the threshold band after this round ${factor(f.expectedBandFactor.designed)}, against ${factor(f.expectedBandFactor.fixed)} with the default fixed series${f.fixedDoses !== null ? ` of ${f.fixedDoses} doses` : ''}; plus dose 0 (the no-dopant control).${f.posteriorBand ? ` The update's own band (5 % · median · 95 %, the coefficients' joint posterior) was ${[f.posteriorBand.p05, f.posteriorBand.median, f.posteriorBand.p95].map((x) => (x === null ? 'above the cap' : per(x))).join(' · ')}; the band of this plan comes from the shelf's coefficients and their sds, which keep no correlations between coefficients, so it can be wider.` : ''} ${r.seriesInfo.note.replace(/^the doses given; /, '')}. Give doses or doseFactors to print another series.`
+      : `the dose series stored with the plan, plus dose 0 (the no-dopant control); ${r.seriesInfo.note.replace(/^the doses given; /, '')}. Give doses or doseFactors to print another series.`;
+    return { ...r, seriesInfo: { from: 'plan-series', note, ...(f ? { designedFrom: f } : {}) } as Sheet['prediction']['series'] };
+  }
   const median = cand.band?.median ?? null;
   // what dose factors scale (doseSeries): the band's median when above zero, else the threshold
   const scaledFrom: 'median' | 'threshold' = median !== null && median > 0 ? 'median' : 'threshold';
@@ -361,7 +388,7 @@ function liquids(ctx: SheetContext, req: SheetRequest, tweak: Tweak = {}) {
   };
 
   // Reference dose and the series (engine/planner.ts: factors × median, plus the band's ends), or the doses given.
-  const chosenSeries = chooseSeries(cand, req);
+  const chosenSeries = chooseSeries(cand, req, plan.request.series);
   const { ref, referenceFrom, seriesInfo, seriesWarnings } = chosenSeries;
   const series = tweak.dropLargest ? chosenSeries.series.slice(0, Math.max(1, chosenSeries.series.length - tweak.dropLargest)) : chosenSeries.series;
   const scale = (id: string) => (tweak.stockScale?.id === id ? tweak.stockScale.factor : 1);

@@ -21,6 +21,32 @@ export { runPlan, type PlanProgress, type PlanResult } from './run-plan.js';
 
 const dose = (desc: string) => quantity(DIMENSIONS.numberDensity, 'positive', desc);
 
+/**
+ * The plan's own dose series for one candidate: what its bench sheet prints when no doses or doseFactors are
+ * given (server/protocol/sheet.ts chooseSeries). POST /api/plans/:id/next stores the designed doses here, with
+ * `from` naming the plan, the outcome set and the design that chose them (docs/model.md §13).
+ */
+export const planSeriesSchema = z.strictObject({
+  candidate: keySchema.describe('the candidate the doses are of'),
+  doses: z.array(quantity(DIMENSIONS.numberDensity, 'positive', 'a dopant dose of the series (the sheet adds dose 0, the no-dopant control)')).min(1).max(24),
+  from: z
+    .strictObject({
+      plan: z.number().int().min(1).describe('the plan whose outcomes the doses were designed from'),
+      outcomeSet: z.number().int().min(1),
+      outcomeRevision: z.number().int().min(1),
+      criterion: z.string().min(1).max(200),
+      /** expected 95 %/5 % ratio of the threshold band after the round: the designed doses and the default fixed series (null: not finite) */
+      expectedBandFactor: z.strictObject({ designed: z.number().positive().max(1e12).nullable(), fixed: z.number().positive().max(1e12).nullable() }),
+      /** how many doses the default fixed series had (what the designed doses were compared with) */
+      fixedDoses: z.number().int().min(0).max(24).nullable(),
+      /** the threshold band (m⁻³) of the update the doses were designed from (the joint posterior); null ends lie above the cap */
+      posteriorBand: z.strictObject({ p05: z.number().min(0).max(1e40).nullable(), median: z.number().min(0).max(1e40).nullable(), p95: z.number().min(0).max(1e40).nullable() }).optional(),
+    })
+    .optional()
+    .describe('where the doses came from: set by POST /api/plans/:id/next'),
+});
+export type PlanSeries = z.output<typeof planSeriesSchema>;
+
 export const planRequestSchema = z.strictObject({
   name: z.string().min(1).max(200).optional(),
   notes: z.string().max(5000).optional(),
@@ -60,6 +86,7 @@ export const planRequestSchema = z.strictObject({
       scale: z.enum(['log', 'linear']).optional(),
     })
     .optional(),
+  series: planSeriesSchema.optional().describe("the bench sheet's default dose series of one candidate (the designed doses of a next plan)"),
 });
 export type PlanRequest = z.output<typeof planRequestSchema>;
 /** The request as sent (before units were read), stored for reruns. */
@@ -90,6 +117,8 @@ export function planService(shelf: ShelfService, plans: PlansRepository, work: {
         if (page.items.length < 500 || offset + 500 >= page.total) break;
       }
     } else ids = req.candidates;
+    if (req.series && !ids.includes(req.series.candidate)) throw new InputError([{ path: 'series.candidate', message: `"${req.series.candidate}" is not a candidate of this plan` }]);
+    if (req.series?.from) plans.get(req.series.from.plan); // a plan the series names must exist (404 otherwise)
     const built = shelf.buildMixture({ species: req.base, chemicals: req.chemicals, chamber: req.chamber, crowding: req.crowding, conditions: req.conditions }, ids);
     checkWorkBudget({ candidates: ids.length, samples: req.uncertainty?.samples ?? 0, sweepLevels: req.fuelSweep ? (req.fuelSweep.steps ?? 12) : 0, modes: baseModes(built.mixture), allOfShelf: req.candidates === 'all' });
     const name = req.name ?? `${req.boundary} screen of ${req.base.map((b) => b.id).join(' + ')}`;
@@ -116,6 +145,7 @@ export function planService(shelf: ShelfService, plans: PlansRepository, work: {
   }
   function start(raw: PlanRequestInput, rerunOf: number | null, holder: string | null): Job<{ planId: number }> {
     const p = prepare(raw, rerunOf, holder);
+    const from = p.req.series?.from;
     return work.jobs.start<{ planId: number }>(
       'plan',
       async (ctx) => {
@@ -123,7 +153,7 @@ export function planService(shelf: ShelfService, plans: PlansRepository, work: {
         ctx.signal.throwIfAborted(); // cancelled while the answer was on its way: store nothing
         return { planId: p.store(run).id };
       },
-      { label: rerunOf === null ? p.name : `${p.name} (rerun of plan ${rerunOf})`, ...(p.req.timeLimit ? { timeLimit: p.req.timeLimit.value } : {}) },
+      { label: rerunOf === null ? p.name : from && from.plan === rerunOf ? `${p.name} (next round after plan ${rerunOf}: designed doses of ${p.req.series!.candidate})` : `${p.name} (rerun of plan ${rerunOf})`, ...(p.req.timeLimit ? { timeLimit: p.req.timeLimit.value } : {}) },
     );
   }
   return {
@@ -133,10 +163,14 @@ export function planService(shelf: ShelfService, plans: PlansRepository, work: {
       if (!parsed.success) throw new InputError(issueList(parsed.error));
       return start(raw as PlanRequestInput, null, holder);
     },
-    /** A job computing a new plan from the same request on the current shelf. */
-    rerun(id: number, holder: string | null = null) {
+    /**
+     * A job computing a new plan from the same request on the current shelf; `series` (the next round's designed
+     * doses, outcomes/update.ts startNext) replaces the request's own series in the new plan's request.
+     */
+    rerun(id: number, holder: string | null = null, series?: PlanRequestInput['series']) {
       const old = plans.get(id);
-      return start(old.request as PlanRequestInput, id, holder);
+      const request = old.request as PlanRequestInput;
+      return start(series ? { ...request, series } : request, id, holder);
     },
     get: (id: number) => plans.get(id),
     list: (limit: number, offset: number) => plans.list(limit, offset),

@@ -77,7 +77,8 @@ function routeCases(plan: string, measurement: string, job: string): Record<stri
     'POST /api/shelf/import': { body: () => ({ format: 'brink-shelf', version: 1, chemicals: [chemicalRecord('fz-import')], species: [] }), query: ['author'] },
     'POST /api/analyze': { body: () => sample },
     'POST /api/analyze/mixture': { body: () => mixtureFile },
-    'POST /api/plans': { body: () => ({ ...sample, base: sample.species, species: undefined, boundary: 'stationary', candidates: ['ptj-1um-b07'] }) },
+    // with a dose series of its own (the field a next plan stores its designed doses in), so that it is fuzzed too
+    'POST /api/plans': { body: () => ({ ...sample, base: sample.species, species: undefined, boundary: 'stationary', candidates: ['ptj-1um-b07'], series: { candidate: 'ptj-1um-b07', doses: ['1e8 1/mL', '2e8 1/mL'] } }) },
     'GET /api/plans': { body: null, query: ['limit', 'offset'] },
     'GET /api/plans/:id': { body: null, params: { id: [plan] } },
     'PATCH /api/plans/:id': { body: () => ({ baseRevision: 1, name: 'fuzzed name', notes: 'fuzzed notes' }), params: { id: [plan] } },

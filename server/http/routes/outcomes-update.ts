@@ -3,7 +3,7 @@
  *
  *   POST /api/plans/:id/update          a job: the posterior over the coefficients from the plan's current outcomes (202)
  *   POST /api/plans/:id/update/apply    write a finished update's revisions to the shelf { job, author? }
- *   POST /api/plans/:id/next            a job: the next round's doses, and a new plan from the same request (202)
+ *   POST /api/plans/:id/next            a job: the next round's doses, and a new plan from the same request carrying them as its series (202)
  *
  * The outcomes are read through the service's injected reader (server/outcomes/update.ts ReadOutcomes).
  */
@@ -56,7 +56,7 @@ export const outcomeUpdateRoutes: FastifyPluginAsync<{ service: OutcomeUpdateSer
       tags,
       summary: 'Start a job that designs the next round of doses and computes a new plan from the same request on the current shelf',
       description:
-        'The doses minimise the expected posterior variance of log10 of the threshold (preposterior simulation over the current posterior draws) on a dose grid set by minDoseRatio (or grid), minDose and maxDose; the result compares the expected band width with the default fixed series, names the new plan job, and gives the doses for the new plan’s sheet (its doses option).',
+        'The doses minimise the expected posterior variance of log10 of the threshold (preposterior simulation over the current posterior draws) on a dose grid set by minDoseRatio (or grid), minDose and maxDose; the result compares the expected band width with the default fixed series. Then a new plan is computed from the same request on the current shelf (after an applied update, on the updated coefficients; result.shelf says whether the shelf moved on), pointing back to this one (rerunOf), with the designed doses stored in its request as `series` (with where they came from): its bench sheet prints them by default. The job ends when that plan is stored (result.nextPlanId; result.nextPlanJob is the plan job). Outcomes the consistency check rejects end the job failed (422, code inconsistent-outcomes) and no plan is made.',
       params,
       body: designRequestSchema.optional(),
     },
