@@ -23,6 +23,7 @@ import { DomainError, InputError } from '../shelf/errors.js';
 import { planRequestSchema, type PlanRequestInput } from '../shelf/plans.js';
 import { parseRecord, type ShelfService } from '../shelf/service.js';
 import type { PlanRow } from '../store/plans.js';
+import { StaleRevisionError } from '../store/shelf.js';
 import { DIMENSIONS, dimensionOfUnit, formatDimension } from '../units/index.js';
 import type { DesignInput, UpdateInput } from './run-update.js';
 
@@ -209,6 +210,26 @@ export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: O
     const k = `${c.owner}:${c.id}`;
     byItem.set(k, [...(byItem.get(k) ?? []), c]);
   }
+  // the update is a posterior over the revisions the plan was computed from: it may replace only those. An item
+  // edited since (a new measurement, another update, this update applied already) would be overwritten with
+  // values that never saw the edit, so the whole apply is refused, naming them.
+  const used = new Map<string, number>();
+  for (const r of plan.revisions) {
+    const rev = shelf.repo.byRevisionId(r.revisionId);
+    if (rev) used.set(`${rev.type}:${rev.id}`, rev.revisionId);
+  }
+  const moved: { type: 'species' | 'chemical'; id: string; planRevisionId: number | null; currentRevision: number }[] = [];
+  for (const k of byItem.keys()) {
+    const [owner, key] = k.split(':') as ['species' | 'chemical', string];
+    const cur = shelf.repo.mustGet(owner, key);
+    const planRev = used.get(k) ?? null;
+    if (cur.revisionId !== planRev) moved.push({ type: owner, id: key, planRevisionId: planRev, currentRevision: cur.revision });
+  }
+  if (moved.length > 0)
+    throw new StaleRevisionError(
+      `the update was computed from the shelf as plan ${plan.id} used it, and ${moved.map((m) => `${m.type} "${m.id}"`).join(', ')} ${moved.length === 1 ? 'has' : 'have'} changed since (now at revision ${moved.map((m) => m.currentRevision).join(', ')}; an edit, another update, or this one applied already): nothing was written. Rerun the plan on today's shelf and record its outcomes, or edit the shelf by hand.`,
+      moved,
+    );
   const out: PlannedRevision[] = [];
   for (const [k, cs] of byItem) {
     const [owner, key] = k.split(':') as ['species' | 'chemical', string];

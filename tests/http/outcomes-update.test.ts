@@ -75,6 +75,12 @@ describe('POST /api/plans/:id/update, /update/apply, /next', () => {
     expect(revs.length).toBeGreaterThan(0);
     const sp = (await app.inject({ method: 'GET', url: `/api/species/${candidate}` })).json();
     expect(JSON.stringify(sp)).toMatch(new RegExp(`model update from plan ${planId}.*outcome set 1 revision 1`));
+    // applied once: the same job again finds the shelf moved on (its own revisions) and writes nothing (found in review)
+    const again = await app.inject({ method: 'POST', url: `/api/plans/${planId}/update/apply`, payload: { job: job.id } });
+    expect(again.statusCode).toBe(409);
+    expect(again.json().error).toBe('stale-revision');
+    expect(again.json().message).toMatch(/changed since .*nothing was written/);
+    expect((await app.inject({ method: 'GET', url: `/api/species/${candidate}` })).json().revision).toBe(sp.revision);
     // the same job cannot be applied twice against moved-on outcomes
     sets.get(planId)!.revision = 2;
     const stale = await app.inject({ method: 'POST', url: `/api/plans/${planId}/update/apply`, payload: { job: job.id } });
@@ -90,6 +96,19 @@ describe('POST /api/plans/:id/update, /update/apply, /next', () => {
     const next = await waitJob(app, nj.result.nextPlanJob);
     expect(next.state).toBe('done');
     expect(next.result.planId).not.toBe(planId);
+  }, 120_000);
+
+  it('refuses to apply over a shelf edit made after the plan: the new measurement is not overwritten (found in review)', async () => {
+    const r = await app.inject({ method: 'POST', url: `/api/plans/${planId}/update`, payload: {} });
+    const job = await waitJob(app, r.json().id);
+    expect(job.state).toBe('done');
+    // the plan's candidate is edited after the update was computed (here: still at the previous test's applied revision, so
+    // a rerun plan would be needed); any base item works the same way
+    const before = (await app.inject({ method: 'GET', url: `/api/species/${candidate}` })).json();
+    const applied = await app.inject({ method: 'POST', url: `/api/plans/${planId}/update/apply`, payload: { job: job.id } });
+    expect(applied.statusCode).toBe(409);
+    expect(applied.json().current.some((m: { id: string }) => m.id === candidate)).toBe(true);
+    expect((await app.inject({ method: 'GET', url: `/api/species/${candidate}` })).json().revision).toBe(before.revision);
   }, 120_000);
 
   it('flags reversed outcomes and refuses to apply them', async () => {
