@@ -302,6 +302,12 @@ export interface LikelihoodOptions {
   lengthSd?: number;
   /** onset time = n_e × growth time (default 1: the onset is read as one growth time) */
   onsetEFolds?: number;
+  /**
+   * η, the share of onset and length readings the model is not expected to explain (default 0.1): each reading's
+   * density is (1 − η) × the log-normal about the prediction + η × a flat density over four decades, so a reading
+   * far from every draw's prediction costs every draw the same bounded amount instead of deciding the posterior
+   */
+  unexplainedFraction?: number;
 }
 
 interface Lik {
@@ -309,7 +315,11 @@ interface Lik {
   onsetSd: number;
   lengthSd: number;
   eFolds: number;
+  eta: number;
 }
+
+/** The flat part of a reading's density: uniform in ln(reading) over four decades, 1 / ln(10⁴). */
+const FLAT_LN_DENSITY = 1 / Math.log(1e4);
 
 function likOptions(o: LikelihoodOptions): Lik {
   const eps = o.misclassification ?? 0.05;
@@ -317,7 +327,21 @@ function likOptions(o: LikelihoodOptions): Lik {
   const onsetSd = o.onsetSd ?? 0.5;
   const lengthSd = o.lengthSd ?? 0.25;
   if (!(onsetSd > 0) || !(lengthSd > 0)) throw new EngineInputError('onsetSd', 'measurement errors must be positive');
-  return { eps, onsetSd, lengthSd, eFolds: o.onsetEFolds ?? 1 };
+  const eta = o.unexplainedFraction ?? 0.1;
+  if (!(eta > 0 && eta < 1)) throw new EngineInputError('unexplainedFraction', 'must be in (0, 1)');
+  return { eps, onsetSd, lengthSd, eFolds: o.onsetEFolds ?? 1, eta };
+}
+
+/**
+ * ln of one reading's density in ln(reading) (docs/model.md §13): a contaminated normal (G. E. P. Box and G. C. Tiao,
+ * "A Bayesian approach to some outlier problems", Biometrika 55, 119–129 (1968)), (1 − η) N(ln m; ln p, σ²) + η / ln(10⁴);
+ * with no prediction (the draw predicts no growth there) only the flat part: the reading is unexplained.
+ */
+function readingLogDensity(reading: number, predicted: number | null, sd: number, eta: number): number {
+  const flat = eta * FLAT_LN_DENSITY;
+  if (predicted === null || !(predicted > 0)) return Math.log(flat);
+  const r = (Math.log(reading) - Math.log(predicted)) / sd;
+  return Math.log((1 - eta) * Math.exp(-0.5 * r * r) / (sd * Math.sqrt(2 * Math.PI)) + flat);
 }
 
 const STATES: State[] = ['stable', 'stationary', 'oscillatory'];
@@ -337,19 +361,15 @@ function logLikelihood(pred: Predictor, tubes: Tube[], l: Lik): { ll: number; mi
         mismatches++;
       }
     }
-    if (s === 'stable') continue;
-    if ((t.onsetTime ?? null) !== null || (t.patternLength ?? null) !== null) {
-      const g = pred.growth(t.dose);
-      if (!g) continue;
-      if (t.onsetTime != null && t.onsetTime > 0) {
-        const r = (Math.log(t.onsetTime) - Math.log(l.eFolds * g.time)) / l.onsetSd;
-        ll -= 0.5 * r * r;
-      }
-      if (t.patternLength != null && t.patternLength > 0 && g.wavelength !== null) {
-        const r = (Math.log(t.patternLength) - Math.log(g.wavelength)) / l.lengthSd;
-        ll -= 0.5 * r * r;
-      }
-    }
+    // an onset or a length was read: every draw pays for it, a draw that predicts no growth there (or no length) its
+    // flat part, one that predicts growth the mixture; so a reading no draw explains moves nothing (found in review:
+    // stable-predicting draws were spared the term and won)
+    const onset = t.onsetTime != null && t.onsetTime > 0 ? t.onsetTime : null;
+    const length = t.patternLength != null && t.patternLength > 0 ? t.patternLength : null;
+    if (onset === null && length === null) continue;
+    const g = s === 'stable' ? null : pred.growth(t.dose);
+    if (onset !== null) ll += readingLogDensity(onset, g ? l.eFolds * g.time : null, l.onsetSd, l.eta);
+    if (length !== null) ll += readingLogDensity(length, g ? g.wavelength : null, l.lengthSd, l.eta);
   }
   return { ll, mismatches };
 }
@@ -797,7 +817,7 @@ export interface UpdateResult {
   samples: number;
   seed: number;
   smc: Posterior['smc'];
-  options: { misclassification: number; onsetSd: number; lengthSd: number; onsetEFolds: number; minEss: number };
+  options: { misclassification: number; onsetSd: number; lengthSd: number; onsetEFolds: number; unexplainedFraction: number; minEss: number };
   coefficients: CoefficientUpdate[];
   /** the threshold band of every candidate before (the plan's draws, equal weights) and after */
   bands: { species: string; prior: Band; posterior: Band }[];
@@ -874,7 +894,7 @@ export function updateModel(base: Mixture, candidates: Species[], observed: stri
     samples: u.samples,
     seed: u.seed,
     smc: post.smc,
-    options: { misclassification: l.eps, onsetSd: l.onsetSd, lengthSd: l.lengthSd, onsetEFolds: l.eFolds, minEss: u.minEss ?? Math.max(50, u.samples / 5) },
+    options: { misclassification: l.eps, onsetSd: l.onsetSd, lengthSd: l.lengthSd, onsetEFolds: l.eFolds, unexplainedFraction: l.eta, minEss: u.minEss ?? Math.max(50, u.samples / 5) },
     coefficients,
     bands,
     consistency: cons,

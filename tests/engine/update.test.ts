@@ -251,6 +251,29 @@ describe('simulated truth and contradictions', () => {
     if (r.smc) expect(r.smc.evaluations).toBeLessThanOrEqual(400);
   });
 
+  it('onset times and lengths that no draw explains move the band no more than a little (found in review)', () => {
+    // The states are the truth's; the bench reads lengths 16 times shorter and onsets 20 times sooner than the model
+    // predicts (what a real chamber may do). A draw predicting no growth at such a tube must pay for the reading too:
+    // before, it was spared the term and the band moved above tubes seen stationary.
+    const truth = truthOf(3);
+    const t = truth.threshold();
+    const prior = updateModel(base, [d], d.id, stat, [], { samples: 400, seed: 9 });
+    const states = simulateTubes(truth, series(prior.bands[0]!.prior.median!), 0.05, new Random(1));
+    const read = states.map((q) => {
+      const g = truth.state(q.dose) === 'stable' ? null : truth.growth(q.dose);
+      return g ? { ...q, onsetTime: g.time / 20, patternLength: g.wavelength !== null ? g.wavelength / 16 : null } : q;
+    });
+    expect(read.some((q) => q.onsetTime != null)).toBe(true);
+    const a = updateModel(base, [d], d.id, stat, states, { samples: 400, seed: 9 }).bands[0]!.posterior;
+    const b = updateModel(base, [d], d.id, stat, read, { samples: 400, seed: 9 }).bands[0]!.posterior;
+    expect(b.p05!).toBeLessThanOrEqual(t);
+    expect(b.p95!).toBeGreaterThanOrEqual(t);
+    expect(Math.abs(Math.log(b.median! / a.median!))).toBeLessThan(Math.log(1.25));
+    // the lowest dose seen stationary stays inside or above the band's lower end
+    const lowestSeen = Math.min(...read.filter((q) => q.state === 'stationary').map((q) => q.dose));
+    expect(b.p05!).toBeLessThanOrEqual(lowestSeen);
+  });
+
   it('reports progress that never falls, and stops when the progress call throws (a cancelled job)', () => {
     const prior = updateModel(base, [d], d.id, stat, [], { samples: 200, seed: 9 });
     const tubes = simulateTubes(truthOf(5), series(prior.bands[0]!.prior.median!), 0.05, new Random(3));
