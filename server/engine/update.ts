@@ -399,24 +399,28 @@ export function normalisedWeights(logw: ArrayLike<number>): Float64Array {
 }
 
 /**
- * Weighted quantile: the values sorted, each at the midpoint of its share of the cumulative weight,
- * linear interpolation between (with equal weights: the sample quantile (k − ½)/n, "type 5"). +∞ propagates.
+ * Weighted quantile, the planner's rule (type 7, docs/model.md §7) generalised to weights: the values sorted, the
+ * k-th at p_k = (weight before it) / (total weight − the last one's), so the first sits at 0 and the last at 1, linear
+ * interpolation between. With equal weights p_k = (k − 1)/(n − 1), R's type 7, the planner's `quantile`: the prior band
+ * of an update is the plan's own. +∞ propagates.
  */
 export function weightedQuantile(values: ArrayLike<number>, weights: ArrayLike<number>, q: number): number {
   const idx = Array.from({ length: values.length }, (_, i) => i).filter((i) => weights[i]! > 0);
   if (idx.length === 0) return NaN;
   idx.sort((a, b) => values[a]! - values[b]!);
+  if (idx.length === 1) return values[idx[0]!]!;
   let total = 0;
   for (const i of idx) total += weights[i]!;
-  let cum = 0;
+  const span = total - weights[idx[idx.length - 1]!]!;
+  let before = 0;
   let prevP = -Infinity;
   let prevV = NaN;
   for (const i of idx) {
-    const p = (cum + weights[i]! / 2) / total;
-    cum += weights[i]!;
+    const p = before / span;
+    before += weights[i]!;
     const v = values[i]!;
     if (p >= q) {
-      if (prevP === -Infinity) return v;
+      if (prevP === -Infinity || p === prevP) return v;
       if (!Number.isFinite(v)) return v;
       return prevV + ((v - prevV) * (q - prevP)) / (p - prevP);
     }

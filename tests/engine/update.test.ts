@@ -91,8 +91,13 @@ describe('weights, quantiles and tails', () => {
     expect(kishEss([1, 0, 0, 0])).toBe(1);
     // (1 + 3)² / (1 + 9) = 1.6, by hand
     expect(kishEss([1, 3])).toBeCloseTo(1.6, 12);
-    // equal weights: (k − ½)/n positions; the median of 1..5 is 3
+    // equal weights: R's type 7, positions (k − 1)/(n − 1) (Hyndman & Fan 1996), as the planner's band: the median of
+    // 1..5 is 3; the 5 % point of 1..5 is 1 + 0.05 × 4 = 1.2 and the 95 % point 4.8 (by hand)
     expect(weightedQuantile([5, 1, 4, 2, 3], [1, 1, 1, 1, 1], 0.5)).toBe(3);
+    expect(weightedQuantile([5, 1, 4, 2, 3], [1, 1, 1, 1, 1], 0.05)).toBeCloseTo(1.2, 12);
+    expect(weightedQuantile([5, 1, 4, 2, 3], [1, 1, 1, 1, 1], 0.95)).toBeCloseTo(4.8, 12);
+    // a weight of 2 counts as the value twice: [1, 2, 2, 3] has its 1/3 point at 2 (positions 0, 1/3, 2/3, 1)
+    expect(weightedQuantile([1, 2, 3], [1, 2, 1], 1 / 3)).toBeCloseTo(2, 12);
     // P(Bin(9, 0.05) ≥ 1) = 1 − 0.95⁹ (by hand)
     expect(binomialTail(9, 0.05, 1)).toBeCloseTo(1 - 0.95 ** 9, 12);
     expect(binomialTail(9, 0.05, 0)).toBe(1);
