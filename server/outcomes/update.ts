@@ -199,16 +199,28 @@ export interface PlannedRevision {
  * rounded as calibration fits are (calibrate/service.ts formatMeasured). Provenance: `estimated`, naming
  * the plan, the outcome set and its revision, and the update's method and ESS.
  */
+/**
+ * A coefficient the outcomes barely informed: its posterior sd is at least 0.9 of the prior's and its mean moved by
+ * at most a quarter of the prior sd — about the Monte Carlo noise of a few hundred draws (a rule of this project, no
+ * source). Writing it would replace the shelf's value and provenance (a literature diffusivity, say) by noise marked
+ * "estimated", so an apply leaves it as it is and says so (`kept`).
+ */
+export function barelyInformed(c: CoefficientUpdate): boolean {
+  if (!(c.sd > 0)) return true;
+  return c.posteriorSd >= 0.9 * c.sd && Math.abs(c.posteriorMean - c.value) <= 0.25 * c.sd;
+}
+
 export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: OutcomeSet, result: UpdateResult, author: string): PlannedRevision[] {
   const provenance = {
     source: 'estimated' as const,
-    reference: `model update from plan ${plan.id} ("${plan.name}"), outcome set ${outcomes.id} revision ${outcomes.revision}: ${result.method === 'importance' ? 'importance sampling' : 'sequential Monte Carlo'}, ESS ${result.ess.toFixed(0)} of ${result.samples} draws, ε = ${result.options.misclassification}`,
+    reference: `model update from plan ${plan.id} ("${plan.name}"), outcome set ${outcomes.id} revision ${outcomes.revision}: ${result.method === 'importance' ? `importance sampling, ESS ${result.ess.toFixed(0)} of ${result.samples} draws` : `sequential Monte Carlo (importance sampling over the ${result.samples} draws had ESS ${result.importanceEss.toFixed(0)}, too few)`}, ε = ${result.options.misclassification}`,
     date: new Date().toISOString().slice(0, 10),
     by: author,
   };
   const byItem = new Map<string, CoefficientUpdate[]>();
   for (const c of result.coefficients) {
     if (!SHELF_FIELDS.has(c.field)) continue;
+    if (barelyInformed(c)) continue; // the shelf's value and provenance stand (see barelyInformed)
     const k = `${c.owner}:${c.id}`;
     byItem.set(k, [...(byItem.get(k) ?? []), c]);
   }
@@ -387,7 +399,10 @@ export function outcomeUpdateService(deps: {
       const note = [`model update from plan ${planId}, outcome set ${cur.id} revision ${cur.revision}`, body.note ?? null].filter((x) => x !== null && x !== '').join('; ');
       // every revision of the update, or none (a stale base revision of one refuses them all)
       const revisions = deps.shelf.repo.transaction(() => planned.map((p) => deps.shelf.edit(p.type, p.key, p.baseRevision, p.record as never, { author, note })));
-      return { planId, outcomes: r.outcomes, revisions: revisions.map((rev, i) => ({ type: planned[i]!.type, key: planned[i]!.key, revisionId: rev.revisionId, changes: planned[i]!.changes })) };
+      const kept = r.update.coefficients
+        .filter((c) => SHELF_FIELDS.has(c.field) && barelyInformed(c))
+        .map((c) => ({ type: c.owner, key: c.id, field: c.field, chemical: c.chemical, reason: 'barely informed by the outcomes (posterior sd ≥ 0.9 × prior sd, mean moved ≤ 0.25 prior sd): the shelf value stands' }));
+      return { planId, outcomes: r.outcomes, revisions: revisions.map((rev, i) => ({ type: planned[i]!.type, key: planned[i]!.key, revisionId: rev.revisionId, changes: planned[i]!.changes })), kept };
     },
 
     /**

@@ -71,8 +71,24 @@ describe('POST /api/plans/:id/update, /update/apply, /next', () => {
     expect(u.update.bands[0].species).toBe(candidate);
     const applied = await app.inject({ method: 'POST', url: `/api/plans/${planId}/update/apply`, payload: { job: job.id, author: 'a student (invented)' } });
     expect(applied.statusCode, applied.body).toBe(201);
-    const revs = applied.json().revisions as { type: string; key: string; revisionId: number }[];
+    const revs = applied.json().revisions as { type: string; key: string; revisionId: number; changes: { field: string; chemical: string | null }[] }[];
     expect(revs.length).toBeGreaterThan(0);
+    // only what the outcomes informed is written; the rest is listed as kept, each barely moved (found in review:
+    // a literature diffusivity was overwritten with Monte Carlo noise marked "estimated")
+    const kept = applied.json().kept as { type: string; key: string; field: string; chemical: string | null }[];
+    const coeffs = u.update.coefficients as { owner: string; id: string; field: string; chemical: string | null; value: number; sd: number; posteriorMean: number; posteriorSd: number }[];
+    const find = (k: { type?: string; owner?: string; key?: string; id?: string; field: string; chemical: string | null }) =>
+      coeffs.find((c) => c.owner === (k.type ?? k.owner) && c.id === (k.key ?? k.id) && c.field === k.field && c.chemical === k.chemical)!;
+    expect(kept.length).toBeGreaterThan(0);
+    for (const k of kept) {
+      const c = find(k);
+      expect(c.posteriorSd).toBeGreaterThanOrEqual(0.9 * c.sd);
+      expect(Math.abs(c.posteriorMean - c.value)).toBeLessThanOrEqual(0.25 * c.sd);
+    }
+    for (const r of revs) for (const ch of r.changes) {
+      const c = find({ type: r.type, key: r.key, field: ch.field, chemical: ch.chemical });
+      expect(c.posteriorSd < 0.9 * c.sd || Math.abs(c.posteriorMean - c.value) > 0.25 * c.sd).toBe(true);
+    }
     const sp = (await app.inject({ method: 'GET', url: `/api/species/${candidate}` })).json();
     expect(JSON.stringify(sp)).toMatch(new RegExp(`model update from plan ${planId}.*outcome set 1 revision 1`));
     // applied once: the same job again finds the shelf moved on (its own revisions) and writes nothing (found in review)
