@@ -95,6 +95,8 @@ export const COMPUTE_ROUTES = [
   'GET /api/plans/:id/outcomes/dose-response',
   'POST /api/plans/:id/update',
   'POST /api/plans/:id/next',
+  // not engine work, but a whole-shelf import parses and checks up to 10,000 entries in the request
+  'POST /api/shelf/import',
 ] as const;
 
 /** An incoming x-request-id is kept when it is short and plain; otherwise a new one is made. */

@@ -32,7 +32,7 @@ export const outcomeUpdateRoutes: FastifyPluginAsync<{ service: OutcomeUpdateSer
       description:
         "Answers 202 with the job; its result holds the method (importance sampling over the plan's Monte Carlo draws, or sequential Monte Carlo when their effective sample size is below minEss) with the ESS, the posterior mean and sd of every uncertain coefficient (SI), the threshold band (5/50/95 %) of every candidate before and after, and the consistency check: when the outcomes are improbable under every draw it says that the model or the shelf is wrong.",
       params,
-      body: updateRequestSchema.optional(),
+      body: updateRequestSchema.nullish(),
     },
     handler: async (req, reply) => accepted(reply, svc.startUpdate(req.params.id, req.body ?? {})),
   });
@@ -58,7 +58,7 @@ export const outcomeUpdateRoutes: FastifyPluginAsync<{ service: OutcomeUpdateSer
       description:
         'The doses minimise the expected posterior variance of log10 of the threshold (preposterior simulation over the current posterior draws) on a dose grid set by minDoseRatio (or grid), minDose and maxDose; the result compares the expected band width with the default fixed series. Then a new plan is computed from the same request on the current shelf (after an applied update, on the updated coefficients; result.shelf says whether the shelf moved on), pointing back to this one (rerunOf), with the designed doses stored in its request as `series` (with where they came from): its bench sheet prints them by default. The job ends when that plan is stored (result.nextPlanId; result.nextPlanJob is the plan job). Outcomes the consistency check rejects end the job failed (422, code inconsistent-outcomes) and no plan is made.',
       params,
-      body: designRequestSchema.optional(),
+      body: designRequestSchema.nullish(),
     },
     handler: async (req, reply) => accepted(reply, svc.startNext(req.params.id, req.body ?? {}, req.accessHolder)),
   });
