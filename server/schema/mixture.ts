@@ -356,9 +356,13 @@ function flatten(issues: readonly Issue[], prefix: PropertyKey[], out: { path: P
     const path = prefix.length === 0 ? i.path : [...prefix, ...i.path];
     if (i.code === 'invalid_union') {
       const branches = (i as Issue & { errors: Issue[][] }).errors;
-      const meant = branches.filter((b) => !b.some(shapeMismatch));
-      if (meant.length > 0) {
-        flatten(meant[0]!, path, out);
+      // the branch that was meant: one whose shape fits, preferring one whose value is not simply another literal
+      // (for "all" or a list of ids, a list of 100,000 ids meant the list: say it is too long, not that it is not "all")
+      const fits = branches.filter((b) => !b.some(shapeMismatch));
+      const meant = fits.filter((b) => !b.some((x) => x.code === 'invalid_value' && x.path.length === 0));
+      const pick = meant[0] ?? fits[0];
+      if (pick) {
+        flatten(pick, path, out);
         continue;
       }
       const missing = leaves(i).every((l) => l.code === 'invalid_type' && /received undefined/.test(l.message));

@@ -58,6 +58,16 @@ describe('bounds', () => {
     expect(r.json().problems).toEqual([{ path: 'chemicals', message: `at most ${LIMITS.chemicals} entries, got 20000` }]);
   });
 
+  it('a plan with more candidates than the bound is told the list is too long; a typo of "all" is told the word (found in review)', async () => {
+    const req = { base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 percent' }], chemicals: { h2o2: '200 mM' }, chamber: { walls: 'sealed', length: '2 mm' }, boundary: 'stationary' };
+    const many = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...req, candidates: Array.from({ length: LIMITS.candidates + 1 }, (_, i) => `s${i}`) } });
+    expect(many.statusCode).toBe(400);
+    expect(many.json().problems).toEqual([{ path: 'candidates', message: expect.stringMatching(new RegExp(`<=${LIMITS.candidates}`)) }]);
+    const typo = await app.inject({ method: 'POST', url: '/api/plans', payload: { ...req, candidates: 'al' } });
+    expect(typo.statusCode).toBe(400);
+    expect(typo.json().problems).toEqual([{ path: 'candidates', message: expect.stringMatching(/"all"/) }]);
+  });
+
   it('an import of 200,000 couplings is a 400 naming the field; 10,000 bad entries report 100 problems and count the rest', async () => {
     const big = await app.inject({ method: 'POST', url: '/api/shelf/import', payload: { format: 'brink-shelf', version: 1, species: [speciesRecord('b', { couplings: Array(200_000).fill({ chemical: 'x!' }) })] } });
     expect(big.statusCode).toBe(400);
