@@ -9,6 +9,7 @@
  */
 import { z } from 'zod';
 import { analyze, type AnalysisResult, type State } from '../engine/analyze.js';
+import { FUEL_GROWTH_TIMES } from '../engine/checks.js';
 import { WATER_DENSITY_25C } from '../engine/constants.js';
 import { DEFAULT_DOSE_FACTORS, doseSeries, withDose, type CandidateResult, type Dosing } from '../engine/planner.js';
 import type { Mixture, Species } from '../engine/types.js';
@@ -827,6 +828,15 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
       flags.push(`turns ${onset.state} first (first onset ${pm(onset.density)}), below the ${plan.request.boundary} threshold: not the boundary asked for`);
     }
     const grows = state !== 'stable' && a.growthTime !== null;
+    // a pattern that needs longer to grow than the fuel lasts in this tube is not what the bench will see (§8)
+    if (grows) {
+      const present = a.checks.fuel.filter((f) => !f.absent && Number.isFinite(f.lifetime) && f.lifetime > 0);
+      const life = present.length > 0 ? Math.min(...present.map((f) => f.lifetime)) : null;
+      if (life !== null && life < a.growthTime!)
+        flags.push(`the fuel runs out in about ${s(life).value} s, before one growth time (${s(a.growthTime!).value} s): the pattern may not form at all`);
+      else if (life !== null && life < FUEL_GROWTH_TIMES * a.growthTime!)
+        flags.push(`the fuel lasts only about ${(life / a.growthTime!).toFixed(1)} growth times (${s(life).value} s): the pattern may stop growing early`);
+    }
     return {
       tube: t.code,
       state,

@@ -53,6 +53,27 @@ describe('expected outcome per tube', () => {
     expect(series.some((t) => t.dose!.value !== t.plannedDose!.value)).toBe(true);
   });
 
+  it('a growing tube whose fuel runs out within one growth time, or a few, says so in its own row (found in a walk-through)', () => {
+    const dopant = plan.inputs.candidates.find((c) => c.id === 'ptj-1um-b07')!;
+    let checked = 0;
+    for (const t of sheet.tubes.filter((x) => x.kind === 'series')) {
+      const o = sheet.outcomes.find((q) => q.tube === t.code)!;
+      if (o.state === 'stable') continue;
+      // the fuel's lifetime c⁰ / |Σ α ρ| from the engine's own check at the delivered dose (docs/model.md §8)
+      const a = analyze(withDose(plan.inputs.base, dopant, t.dose!.value * 1e6, 'add'));
+      const life = Math.min(...a.checks.fuel.filter((f) => !f.absent).map((f) => f.lifetime));
+      const ratio = life / a.growthTime!;
+      const said = o.flags.find((f) => /fuel (runs out|lasts only)/.test(f));
+      if (ratio < 1) expect(said, t.code).toMatch(/before one growth time/);
+      else if (ratio < 3) expect(said, t.code).toMatch(/lasts only about/);
+      else expect(said, t.code).toBeUndefined();
+      checked++;
+    }
+    expect(checked).toBeGreaterThan(0);
+    // this demo plan has at least one such tube (2390 s of fuel against a 3920 s growth time at D5)
+    expect(sheet.outcomes.some((o) => o.flags.some((f) => /before one growth time/.test(f)))).toBe(true);
+  });
+
   it('flags a tube within the band of the threshold, on both sides of each end', () => {
     const cand = plan.result.candidates.find((c) => c.species === 'ptj-1um-b07')!;
     for (const t of sheet.tubes.filter((x) => x.kind === 'series')) {
