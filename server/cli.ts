@@ -113,14 +113,16 @@ usage:
                                                      next plan (the same request on the current shelf, with the
                                                      designed doses as its sheet's series): prints its id
   brink serve [--db PATH] [--port N] [--host H]        run the web service (env BRINK_DB, PORT, HOST)
-              [--require-token] [--require-token-for-reads] [--allowed-hosts NAMES]
+              [--require-token] [--require-token-for-reads] [--allowed-hosts NAMES] [--demo | --no-demo]
                                                      open on loopback; beyond it (e.g. --host 0.0.0.0) only with
                                                      access control: a token in the database, or --require-token
                                                      (env BRINK_REQUIRE_TOKEN=1). With tokens every write needs
                                                      "Authorization: Bearer <token>"; reads too with
                                                      --require-token-for-reads (BRINK_REQUIRE_TOKEN_FOR_READS=1).
                                                      --allowed-hosts "brink.lab,10.0.0.5:3080" (BRINK_ALLOWED_HOSTS):
-                                                     Host names served besides localhost, 127.0.0.1, [::1]; "*" any
+                                                     Host names served besides localhost, 127.0.0.1, [::1]; "*" any.
+                                                     The invented demo shelf is loaded into a new database on
+                                                     loopback only, unless --demo / --no-demo (BRINK_DEMO=1/0)
   brink token create <holder> [--db PATH]            a new access token: the secret is printed once (stdout)
   brink token list [--db PATH] [--format text|json]  tokens: id, prefix, holder, created, revoked
   brink token revoke <id|prefix> [--db PATH]         revoke a token (refused from then on; never deleted)
@@ -243,8 +245,11 @@ async function cmdServe(args: string[]): Promise<number> {
       'require-token': { type: 'boolean' },
       'require-token-for-reads': { type: 'boolean' },
       'allowed-hosts': { type: 'string' },
+      demo: { type: 'boolean' },
+      'no-demo': { type: 'boolean' },
     },
   });
+  if (values.demo && values['no-demo']) throw new UsageError('--demo and --no-demo: choose one');
   const { serve, hostList } = await import('./serve.js');
   await serve({
     dbPath: values.db,
@@ -253,6 +258,7 @@ async function cmdServe(args: string[]): Promise<number> {
     ...(values['require-token'] ? { requireToken: true } : {}),
     ...(values['require-token-for-reads'] ? { tokenForReads: true } : {}),
     ...(values['allowed-hosts'] !== undefined ? { allowedHosts: hostList(values['allowed-hosts']) } : {}),
+    ...(values.demo ? { demo: true } : values['no-demo'] ? { demo: false } : {}),
   });
   return await new Promise<number>(() => {
     /* runs until a signal closes the server (serve.ts exits the process) */

@@ -7,6 +7,7 @@ import { isLoopback, LOOPBACK_HOSTS } from './http/access.js';
 import { buildApp, type App } from './http/app.js';
 import { tokensRepository } from './store/tokens.js';
 import { ensureDemoShelf } from './shelf/seed.js';
+import { existsSync } from 'node:fs';
 import { openDatabase } from './store/db.js';
 
 export interface ServeOptions {
@@ -24,6 +25,11 @@ export interface ServeOptions {
   tokenForReads?: boolean;
   /** Host names served besides the loopback names, `name` or `name:port`, or ['*'] (default env BRINK_ALLOWED_HOSTS, comma-separated) */
   allowedHosts?: string[];
+  /**
+   * load the invented demo shelf into a database that has never had it (default env BRINK_DEMO, else on loopback
+   * only: a lab's shared database gets no invented species unless asked)
+   */
+  demo?: boolean;
 }
 
 /** The service was asked to listen beyond loopback without access control (exit status 2). */
@@ -57,16 +63,20 @@ export async function serve(o: ServeOptions): Promise<{ app: App; url: string }>
   // Access: open on loopback; beyond it only with access control (a token in the database, or the setting)
   const tokenForReads = o.tokenForReads ?? envFlag('BRINK_REQUIRE_TOKEN_FOR_READS') ?? false;
   let requireToken = (o.requireToken ?? envFlag('BRINK_REQUIRE_TOKEN') ?? false) || tokenForReads;
+  const loopback = isLoopback(o.host);
+  const refusal = () =>
+    new AccessRefusedError(
+      `refusing to listen on ${o.host}, beyond this machine, without access control: anyone who can reach the port could write to the shelf. ` +
+        `Create a token first (brink token create <holder> --db ${o.dbPath}) or start with --require-token; or listen on 127.0.0.1 only.`,
+    );
+  // a database that does not exist holds no token: refuse before creating anything
+  if (!loopback && !requireToken && o.dbPath !== ':memory:' && !existsSync(o.dbPath)) throw refusal();
   const db = openDatabase(o.dbPath);
   const active = tokensRepository(db).activeCount();
-  const loopback = isLoopback(o.host);
   if (!loopback) {
     if (!requireToken && active === 0) {
       db.close();
-      throw new AccessRefusedError(
-        `refusing to listen on ${o.host}, beyond this machine, without access control: anyone who can reach the port could write to the shelf. ` +
-          `Create a token first (brink token create <holder> --db ${o.dbPath}) or start with --require-token; or listen on 127.0.0.1 only.`,
-      );
+      throw refusal();
     }
     requireToken = true; // beyond loopback, revoking the last token never opens the service
   }
@@ -76,7 +86,10 @@ export async function serve(o: ServeOptions): Promise<{ app: App; url: string }>
   const bindName = o.host.includes(':') && !o.host.startsWith('[') ? `[${o.host}]` : o.host;
   const listed = (LOOPBACK_HOSTS as readonly string[]).includes(bindName.toLowerCase()) || hostsRaw.includes(bindName);
   const allowedHosts: string[] | '*' = hostsRaw.includes('*') ? '*' : [...hostsRaw, ...(!wildcard && !listed ? [bindName] : [])];
-  if (ensureDemoShelf(db)) log(`loaded the demo shelf into ${o.dbPath}`);
+  const demo = o.demo ?? envFlag('BRINK_DEMO') ?? loopback;
+  if (demo) {
+    if (ensureDemoShelf(db)) log(`loaded the demo shelf into ${o.dbPath}`);
+  } else log(`the demo shelf is not loaded (beyond loopback it is loaded only with --demo or BRINK_DEMO=1)`);
   const workers = o.workers ?? envNumber('BRINK_WORKERS', true);
   const jobTimeLimit = o.jobTimeLimit ?? envNumber('BRINK_JOB_TIME_LIMIT', false);
   // compute requests a minute from one client, per endpoint (default 60; README "Limits of the API")

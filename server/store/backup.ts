@@ -18,7 +18,7 @@
  * are folded in and gone; any left are renamed with it).
  */
 import Database from 'better-sqlite3';
-import { existsSync, renameSync, rmSync, statSync } from 'node:fs';
+import { chmodSync, existsSync, mkdirSync, renameSync, rmSync, statSync } from 'node:fs';
 import { basename, dirname, join } from 'node:path';
 import { BUSY_TIMEOUT_MS, loadMigrations, openDatabase, schemaVersion, writeTransaction, type Migration } from './db.js';
 
@@ -82,7 +82,8 @@ async function copyAll(src: Database.Database, dest: string) {
 export async function backupDatabase(dbPath: string, dest: string): Promise<BackupCheck & { pages: number; bytes: number }> {
   if (!existsSync(dbPath)) throw new BackupError(`no database at ${dbPath} (use --db PATH or BRINK_DB)`);
   if (existsSync(dest)) throw new BackupError(`${dest} exists: choose a new file name (a backup never overwrites)`);
-  if (!existsSync(dirname(dest) || '.')) throw new BackupError(`the folder of ${dest} does not exist`);
+  // the folder of backups is made if need be (owner only: a backup holds the whole shelf and the token hashes)
+  mkdirSync(dirname(dest) || '.', { recursive: true, mode: 0o700 });
   const partial = join(dirname(dest), `${basename(dest)}.partial-${process.pid}`);
   const src = new Database(dbPath, { fileMustExist: true });
   let pages = 0;
@@ -107,6 +108,7 @@ export async function backupDatabase(dbPath: string, dest: string): Promise<Back
     throw e;
   }
   copy.close();
+  chmodSync(partial, 0o600);
   renameSync(partial, dest);
   return { ...check, pages, bytes: statSync(dest).size };
 }

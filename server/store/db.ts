@@ -3,7 +3,7 @@
  * and bring the schema up to date with the numbered files in `migrations/`.
  */
 import Database from 'better-sqlite3';
-import { mkdirSync, readdirSync, readFileSync } from 'node:fs';
+import { chmodSync, existsSync, mkdirSync, readdirSync, readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { packagePath } from '../version.js';
 
@@ -106,8 +106,11 @@ export function schemaVersion(db: Db): number {
  * Every write transaction of brink starts with BEGIN IMMEDIATE (`writeTransaction`).
  */
 export function openDatabase(path: string, options: { migrations?: Migration[] } = {}): Db {
+  const isNew = path !== ':memory:' && !existsSync(path);
   if (path !== ':memory:') mkdirSync(dirname(path), { recursive: true });
   const db = new Database(path);
+  // a new database is its owner's alone (the shelf, plans, token hashes); SQLite gives its -wal and -shm the same mode
+  if (isNew) chmodSync(path, 0o600);
   try {
     // the busy timeout first: switching to WAL takes a lock another process may hold for a moment
     db.pragma(`busy_timeout = ${BUSY_TIMEOUT_MS}`);

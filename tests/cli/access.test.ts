@@ -4,7 +4,7 @@
  * or --require-token, and then asking for the token. Traffic goes to 127.0.0.1 only.
  */
 import { spawn, spawnSync } from 'node:child_process';
-import { mkdtempSync, readFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
@@ -104,6 +104,8 @@ describe('brink serve and access', () => {
     expect(p.stderr).toMatch(/refusing to listen on 0\.0\.0\.0.*without access control/);
     expect(p.stderr).toMatch(/brink token create/);
     expect(p.stdout).not.toMatch(/serving the shelf/);
+    // refused before anything is made: no database file appears (found in a walk-through)
+    expect(existsSync(db)).toBe(false);
     // a revoked token is no access control either
     const t = brink(['token', 'create', 'Ada (invented)', '--db', db]).stdout.trim();
     brink(['token', 'revoke', t, '--db', db]);
@@ -118,6 +120,9 @@ describe('brink serve and access', () => {
     const s = await startServer(['--db', db, '--host', '0.0.0.0']);
     try {
       expect(s.output()).toMatch(/access: a token is required for writes \(1 active\)/);
+      // a lab's database gets no invented demo shelf unless asked (--demo)
+      expect(s.output()).toMatch(/demo shelf is not loaded/);
+      expect((await fetch(`http://127.0.0.1:${s.port}/api/species/ptj-1um-b07`)).status).toBe(404);
       const none = await post(s.port);
       expect(none.status).toBe(401);
       const ok = await post(s.port, { authorization: `Bearer ${secret}` });

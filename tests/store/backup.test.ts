@@ -73,6 +73,17 @@ describe('restore checks the backup first', () => {
     db.close();
   });
 
+  it('a backup into a folder that does not exist yet makes it; the database and the backup are the owner\'s alone (found in a walk-through)', async () => {
+    const d = dir();
+    make(join(d, 'brink.sqlite'), 'current');
+    expect(statSync(join(d, 'brink.sqlite')).mode & 0o777).toBe(0o600);
+    const dest = join(d, 'backups', 'nightly', 'b1.sqlite');
+    await backupDatabase(join(d, 'brink.sqlite'), dest);
+    expect(keys(dest)).toEqual(['current']);
+    expect(statSync(dest).mode & 0o777).toBe(0o600);
+    expect(statSync(join(d, 'backups')).mode & 0o777).toBe(0o700);
+  });
+
   it('refuses a backup newer than this brink', async () => {
     const d = dir();
     make(join(d, 'brink.sqlite'), 'current');
