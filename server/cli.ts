@@ -54,7 +54,7 @@ import { WorkerPool } from './jobs/pool.js';
 import { ENDED_STATES, JobRegistry, type Job } from './jobs/registry.js';
 import { shelfService } from './shelf/service.js';
 import { planService } from './shelf/plans.js';
-import { outcomeUpdateService, type NextJobResult, type UpdateJobResult } from './outcomes/update.js';
+import { outcomeUpdateService, SI_UNIT, type NextJobResult, type UpdateJobResult } from './outcomes/update.js';
 import type { Band } from './engine/update.js';
 
 export interface Io {
@@ -726,7 +726,7 @@ function updateSummary(r: UpdateJobResult) {
     seed: u.seed,
     tubes: u.tubes,
     misclassification: u.options.misclassification,
-    coefficients: u.coefficients.map((c) => ({ owner: c.owner, id: c.id, field: c.field, chemical: c.chemical, before: { value: c.value, sd: c.sd }, after: { value: c.posteriorMean, sd: c.posteriorSd }, unit: 'SI' })),
+    coefficients: u.coefficients.map((c) => ({ owner: c.owner, id: c.id, field: c.field, chemical: c.chemical, before: { value: c.value, sd: c.sd }, after: { value: c.posteriorMean, sd: c.posteriorSd }, unit: SI_UNIT[c.field] ?? 'SI' })),
     bands: u.bands.map((b) => ({ species: b.species, unit: 'm^-3', before: b.prior, after: b.posterior })),
     consistency: u.consistency,
   };
@@ -746,7 +746,7 @@ function updateText(r: UpdateJobResult): string[] {
     `method: ${u.method === 'importance' ? `importance sampling over the plan's ${u.samples} draws` : `sequential Monte Carlo from ${u.samples} prior draws (importance sampling's ESS, ${u.importanceEss.toFixed(0)}, was below ${u.options.minEss})`}, effective sample size ${u.ess.toFixed(0)}; misclassification ε = ${u.options.misclassification}`,
     `consistency: ${u.consistency.consistent ? 'consistent' : 'INCONSISTENT'}: ${u.consistency.message}`,
     'coefficients (SI): before (value ± sd) → after (posterior mean ± sd)',
-    ...u.coefficients.map((c) => `  ${c.owner} ${c.id} ${c.field}${c.chemical ? ` on ${c.chemical}` : ''}: ${g(c.value)} ± ${g(c.sd)} → ${g(c.posteriorMean)} ± ${g(c.posteriorSd)}`),
+    ...u.coefficients.map((c) => `  ${c.owner} ${c.id} ${c.field}${c.chemical ? ` on ${c.chemical}` : ''}: ${g(c.value)} ± ${g(c.sd)} → ${g(c.posteriorMean)} ± ${g(c.posteriorSd)} ${SI_UNIT[c.field] ?? ''}`.trimEnd()),
     'threshold band, particles/mL (5 % · median · 95 %): before → after',
     ...u.bands.map((b) => `  ${b.species}: ${bandText(b.prior)} → ${bandText(b.posterior)}`),
   ];
@@ -795,10 +795,13 @@ async function cmdUpdate(args: string[], io: Io): Promise<number> {
         refused = `${e.code}: ${e.message}`;
       }
     }
-    if (values.format === 'json') io.out(JSON.stringify({ ...updateSummary(r), ...(values.apply ? { applied: applied ? applied.revisions : null } : {}) }, null, 2) + '\n');
+    if (values.format === 'json') io.out(JSON.stringify({ ...updateSummary(r), ...(values.apply ? { applied: applied ? applied.revisions : null, kept: applied ? applied.kept : null } : {}) }, null, 2) + '\n');
     else {
       const lines = updateText(r);
-      if (applied) lines.push(`applied: ${applied.revisions.map((x) => `${x.type} ${x.key} (revision id ${x.revisionId})`).join(', ')}`);
+      if (applied) {
+        lines.push(`applied: ${applied.revisions.map((x) => `${x.type} ${x.key} (revision id ${x.revisionId})`).join(', ') || 'nothing'}`);
+        if (applied.kept.length > 0) lines.push(`kept (barely informed by the outcomes, the shelf value stands): ${applied.kept.map((k) => `${k.type} ${k.key} ${k.field}${k.chemical ? ` on ${k.chemical}` : ''}`).join(', ')}`);
+      }
       else if (!values.apply) lines.push(r.update.consistency.consistent ? `nothing written: add --apply to write these coefficients as new revisions` : 'nothing written: the outcomes are inconsistent with the model and the shelf, so the update cannot be applied');
       io.out(lines.join('\n') + '\n');
     }

@@ -165,6 +165,9 @@ export function designInput(plan: PlanRow, outcomes: OutcomeSet, req: DesignRequ
 // ---------------------------------------------------------------- applying an update
 
 /** Shelf fields an update may write (the sample's amounts, a species' density and a chemical's concentration, are not the shelf's). */
+/** The SI unit of each shelf field an update writes (the engine's numbers are in these). */
+export const SI_UNIT: Record<string, string> = { diffusivity: 'm^2/s', lossRate: '1/s', solubility: 'mol/m^3', radius: 'm', materialDensity: 'kg/m^3', mobility: 'm^5/(mol s)', rate: 'mol/s', maxRate: 'mol/s', michaelis: 'mol/m^3' };
+
 const SHELF_FIELDS = new Set(['diffusivity', 'lossRate', 'solubility', 'radius', 'materialDensity', 'mobility', 'rate', 'maxRate', 'michaelis']);
 
 function storedUnit(x: unknown): string | null {
@@ -252,7 +255,7 @@ export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: O
     const raw = cur.record as unknown as Record<string, unknown> & { couplings?: Record<string, unknown>[] };
     const changes: PlannedRevision['changes'] = [];
     for (const c of cs) {
-      const si = { diffusivity: 'm^2/s', lossRate: '1/s', solubility: 'mol/m^3', radius: 'm', materialDensity: 'kg/m^3', mobility: 'm^5/(mol s)', rate: 'mol/s', maxRate: 'mol/s', michaelis: 'mol/m^3' }[c.field as string]!;
+      const si = SI_UNIT[c.field as string]!;
       const write = (existing: unknown) => {
         const text = formatMeasured(c.posteriorMean, c.posteriorSd > 0 ? c.posteriorSd : null, unitFor(si, existing));
         changes.push({ field: c.field, chemical: c.chemical, from: c.value, to: text });

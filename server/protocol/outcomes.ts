@@ -353,7 +353,7 @@ export function outcomesService(plans: PlansRepository, sheets: SheetService, re
     if (sent !== undefined) return sent;
     const cur = repo.current(planId, candidate);
     if (!cur) return 0;
-    throw new StaleRevisionError(`outcomes of plan ${planId} for ${candidate} exist (revision ${cur.revision}): send baseRevision ${cur.revision} to write the next revision`, cur as unknown as Revision);
+    throw new StaleRevisionError(`outcomes of plan ${planId} for ${candidate} exist (revision ${cur.revision}): send baseRevision ${cur.revision} to write the next revision (on the command line: --base-revision ${cur.revision})`, cur as unknown as Revision);
   };
   const planCandidates = (planId: number) => (plans.get(planId).result as { candidates: CandidateResult[] }).candidates;
   return {

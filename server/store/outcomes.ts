@@ -101,7 +101,7 @@ export function outcomesRepository(db: Db) {
         const curRevision = cur?.revision ?? 0;
         if (baseRevision !== null && baseRevision !== curRevision) {
           throw new StaleRevisionError(
-            `the outcomes of plan ${p.planId} for ${p.candidate} are at revision ${curRevision}, not ${baseRevision}; reload and send baseRevision ${curRevision}`,
+            `the outcomes of plan ${p.planId} for ${p.candidate} are at revision ${curRevision}, not ${baseRevision}; reload and send baseRevision ${curRevision} (on the command line: --base-revision ${curRevision})`,
             cur as unknown as Revision,
           );
         }
