@@ -154,6 +154,42 @@ const COLUMN_NAMES: Record<string, 'tube' | 'state' | 'onset' | 'length' | 'note
   note: 'notes',
 };
 
+/** A tube whose state seen is not the sheet's expectation for it (controls included: the update does not use them). */
+export interface Disagreement {
+  tube: string;
+  kind: string;
+  expected: string;
+  seen: string;
+  message: string;
+}
+
+/**
+ * Where the bench saw another state than the sheet expected, tube by tube. The update weighs the series and the
+ * no-dopant control; the other controls (no fuel, dopant alone) are other mixtures it does not model, so their
+ * disagreements are said here, at entry, and not lost.
+ */
+export function disagreements(sheet: Sheet, tubes: OutcomeTube[]): Disagreement[] {
+  const expectedOf = new Map<string, string>();
+  for (const t of sheet.tubes) {
+    const o = sheet.outcomes.find((x) => x.tube === t.code);
+    if (o?.state) for (const lid of t.tubes) expectedOf.set(lid, o.state);
+  }
+  const out: Disagreement[] = [];
+  for (const t of tubes) {
+    const expected = expectedOf.get(t.tube);
+    if (!expected || t.state === 'unclear' || t.state === expected) continue;
+    const control = t.kind === 'no-fuel' || t.kind === 'dopant-alone';
+    out.push({
+      tube: t.tube,
+      kind: t.kind,
+      expected,
+      seen: t.state,
+      message: `${t.tube}: the sheet expected ${expected}, the bench saw ${t.state}${control ? ' — a control of another mixture, which the model update does not weigh: the model or the shelf may be off for it' : ''}`,
+    });
+  }
+  return out;
+}
+
 /** Read the CSV form: columns by name (tube, state, onset [unit], length [unit], notes); every problem names its line and column. */
 export function readCsvEntry(text: string, query: QueryMeta = {}): OutcomeEntry {
   // the row bound before any parsing (this runs in the request): counting line ends is cheap, parsing 300,000 rows is not
@@ -362,7 +398,7 @@ export function outcomesService(plans: PlansRepository, sheets: SheetService, re
      * Validate an entry against the plan's rebuilt sheet and store it as the next revision.
      * @throws InputError (400), NotFoundError (404), SheetNotFitError (422), StaleRevisionError (409)
      */
-    record(planId: number, entry: OutcomeEntry): OutcomeSet & { unobserved: string[] } {
+    record(planId: number, entry: OutcomeEntry): OutcomeSet & { unobserved: string[]; disagreements: Disagreement[] } {
       plans.get(planId); // 404 first
       let sheet: Sheet;
       try {
@@ -397,7 +433,7 @@ export function outcomesService(plans: PlansRepository, sheets: SheetService, re
         },
         baseOf(planId, candidate, entry.baseRevision),
       );
-      return { ...set, unobserved };
+      return { ...set, unobserved, disagreements: disagreements(sheet, tubes) };
     },
     /** The current set (of a candidate, or the latest written) and every revision. */
     list(planId: number, candidate?: string) {

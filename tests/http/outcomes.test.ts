@@ -9,7 +9,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { fitQuantal } from '../../server/engine/fit/quantal.js';
 import { Random } from '../../server/engine/random.js';
 import type { App } from '../../server/http/app.js';
-import { crossed } from '../../server/protocol/outcomes.js';
+import { crossed, disagreements } from '../../server/protocol/outcomes.js';
 import type { Sheet } from '../../server/protocol/sheet.js';
 import { loadMigrations, openDatabase } from '../../server/store/db.js';
 import { outcomesRepository } from '../../server/store/outcomes.js';
@@ -62,6 +62,18 @@ describe('entering outcomes', () => {
     expect(Number((d1.dose * 1e-6).toPrecision(4))).toBe(sheet.tubes.find((t) => t.code === 'D1')!.dose!.value);
     expect(set.unobserved).toEqual(['CFa', 'CFb', 'CFc', 'CAa', 'CAb', 'CAc']);
     expect(set.author).toBe('a student (invented)');
+  });
+
+  it('a tube that did not do what the sheet expected is named at entry, controls too (the update does not weigh them) (found in a walk-through)', async () => {
+    const expected = new Map<string, string>();
+    for (const t of sheet.tubes) for (const lid of t.tubes) expected.set(lid, sheet.outcomes.find((o) => o.tube === t.code)!.state!);
+    const lid = lids().find((t) => t.kind === 'dopant-alone')!.lid;
+    const other = expected.get(lid) === 'stable' ? 'stationary' : 'stable';
+    const agreeing = lids().find((t) => t.kind === 'no-dopant')!.lid;
+    // (on the sheet itself, not through a POST: the tests below build on the set written above)
+    const tube = (t: string, state: string, kind: string) => ({ tube: t, kind, dose: null, state: state as 'stable', onsetTime: null, patternLength: null, notes: '' });
+    const found = disagreements(sheet, [tube(lid, other, 'dopant-alone'), tube(agreeing, expected.get(agreeing)!, 'no-dopant'), tube(agreeing, 'unclear', 'no-dopant')]);
+    expect(found).toEqual([{ tube: lid, kind: 'dopant-alone', expected: expected.get(lid), seen: other, message: expect.stringMatching(/does not weigh/) }]);
   });
 
   it('GET: the current set and the history; a new set needs the base revision (409 stale otherwise)', async () => {
