@@ -530,7 +530,7 @@ if (wanted('screen')) benchScreen(base, candidates);
 if (wanted('state-map')) benchStateMap(base, candidates);
 if (wanted('service')) await benchService(shelf, screenFast?.band.results ?? null);
 if (wanted('design')) {
-  const truths = Number(process.env.BRINK_BENCH_DESIGN_TRUTHS ?? 12);
+  const truths = Number(process.env.BRINK_BENCH_DESIGN_TRUTHS ?? 40);
   const t = now();
   const b = benchDesign(truths, log);
   line({
@@ -546,6 +546,8 @@ if (wanted('design')) {
     both_reached: b.both.truths,
     tubes_designed_both: round(b.both.designed),
     tubes_fixed_both: round(b.both.fixed),
+    designed_fewer: b.both.designedFewer,
+    fixed_fewer: b.both.fixedFewer,
     band_factor_by_round_designed: b.designed.bandFactorByRound,
     band_factor_by_round_fixed: b.fixed.bandFactorByRound,
     seconds_designed: round(b.designed.seconds),
