@@ -60,6 +60,8 @@ export interface DesignScore {
   doses: number[];
   /** U on the scoring simulations (independent of the ones the doses were chosen on), and its square root */
   expectedVariance: number;
+  /** Monte Carlo standard error of expectedVariance (sd over the scoring simulations / √R) */
+  expectedVarianceSe: number;
   expectedSdLog10: number;
   /** expected p95/p05 of the threshold after the round (geometric mean over the scoring simulations; null when above the cap) */
   expectedBandFactor: number | null;
@@ -77,6 +79,8 @@ export interface DesignResult {
   };
   /** the default fixed series scored the same way; null when the posterior median is 0 or above the cap (nothing to scale) */
   fixed: (DesignScore & { reference: number }) | null;
+  /** designed − fixed expected variance on the same scoring simulations, with its paired standard error; null without a fixed series */
+  difference: { variance: number; se: number } | null;
   /** now, before the round: the whole posterior (its particles and weights); the variance on the clamped scale */
   current: { variance: number; sdLog10: number; bandFactor: number | null; band: ReturnType<typeof bandOf> };
   /**
@@ -267,13 +271,13 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
   const slotU = Array.from({ length: R }, () => Float64Array.from({ length: slots }, () => scoreRng.uniform()));
   const scoreStart = leaveOut(scoreTruths);
   const stateOfDose = new Map<number, Uint8Array>(grid.map((x, g) => [x, gridStates[g]!]));
-  const score = (doses: number[]): { variance: number; bandFactor: number | null } => {
+  const score = (doses: number[]): { variance: number; se: number; each: Float64Array; bandFactor: number | null } => {
     const cols = doses.map((x) => {
       let c = stateOfDose.get(x);
       if (!c) stateOfDose.set(x, (c = Uint8Array.from(preds.map((p) => stateCode(p.state(x))))));
       return c;
     });
-    let v = 0;
+    const each = new Float64Array(R);
     let logFactor = 0;
     let above = false;
     for (let r = 0; r < R; r++) {
@@ -285,16 +289,18 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
         for (let k = 0; k < M; k++) ll[k]! += c[k] === s ? hit : miss;
       });
       const wr = weightsOf(ll);
-      v += wvar(logT, wr);
+      each[r] = wvar(logT, wr);
       const p05 = weightedQuantile(thresholds, wr, 0.05);
       const p95 = weightedQuantile(thresholds, wr, 0.95);
       if (!Number.isFinite(p95) || !(p05 > 0)) above = true;
       else logFactor += Math.log10(p95 / p05);
     }
-    return { variance: v / R, bandFactor: above ? null : Math.pow(10, logFactor / R) };
+    const { mean, se } = meanSe(each);
+    return { variance: mean, se, each, bandFactor: above ? null : Math.pow(10, logFactor / R) };
   };
   const designedScore = score(designedDoses);
   const fixedScore = fixedSeries ? score(fixedDoses) : null;
+  const difference = fixedScore ? meanSe(designedScore.each.map((v, r) => v - fixedScore.each[r]!)) : null;
   const p05 = band.p05;
   const p95 = band.p95;
   progress(1, 'designed');
@@ -303,8 +309,9 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
     criterion: 'expected posterior variance of log10 threshold',
     method: 'greedy over a dose grid, preposterior simulation',
     truths: 'posterior particles, leave-one-out',
-    designed: { doses: designedDoses, expectedVariance: designedScore.variance, expectedSdLog10: Math.sqrt(designedScore.variance), expectedBandFactor: designedScore.bandFactor, selectionVariance: selectionU },
-    fixed: fixedSeries && fixedScore ? { doses: fixedDoses, reference: fixedSeries.reference, expectedVariance: fixedScore.variance, expectedSdLog10: Math.sqrt(fixedScore.variance), expectedBandFactor: fixedScore.bandFactor } : null,
+    designed: { doses: designedDoses, expectedVariance: designedScore.variance, expectedVarianceSe: designedScore.se, expectedSdLog10: Math.sqrt(designedScore.variance), expectedBandFactor: designedScore.bandFactor, selectionVariance: selectionU },
+    fixed: fixedSeries && fixedScore ? { doses: fixedDoses, reference: fixedSeries.reference, expectedVariance: fixedScore.variance, expectedVarianceSe: fixedScore.se, expectedSdLog10: Math.sqrt(fixedScore.variance), expectedBandFactor: fixedScore.bandFactor } : null,
+    difference: difference ? { variance: difference.mean, se: difference.se } : null,
     current: { variance: cur, sdLog10: Math.sqrt(cur), bandFactor: p05 !== null && p05 > 0 && p95 !== null ? p95 / p05 : null, band },
     grid: { from: grid[0]!, to: grid[grid.length - 1]!, ratio, points: grid.length, cap, lowest: lowestFrom, clamp: { from: lowest, to: cap } },
     simulations: R,
@@ -312,6 +319,16 @@ export function designNext(post: Posterior, base: Mixture, d: Species, o: DoseOp
     misclassification: eps,
     leaveOneOutSkipped: skipped,
   };
+}
+
+/** Mean and its standard error sd/√n. */
+function meanSe(x: ArrayLike<number>): { mean: number; se: number } {
+  const n = x.length;
+  let m = 0;
+  for (let i = 0; i < n; i++) m += x[i]! / n;
+  let s = 0;
+  for (let i = 0; i < n; i++) s += (x[i]! - m) ** 2;
+  return { mean: m, se: n > 1 ? Math.sqrt(s / (n - 1) / n) : 0 };
 }
 
 /** exp(ℓ − max ℓ), normalised. */

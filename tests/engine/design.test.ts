@@ -109,6 +109,10 @@ describe('designNext', () => {
     expect(r1.designed.doses).toEqual(fixed);
     expect(r1.designed.expectedVariance).toBe(r1.fixed!.expectedVariance);
     expect(r1.designed.expectedBandFactor).toBe(r1.fixed!.expectedBandFactor);
+    expect(r1.difference).toEqual({ variance: 0, se: 0 });
+    // the paired difference's standard error (common random numbers) is below the unpaired one
+    expect(r0.difference!.se).toBeGreaterThan(0);
+    expect(r0.difference!.se).toBeLessThan(Math.hypot(r0.designed.expectedVarianceSe, r0.fixed!.expectedVarianceSe));
   }, 60_000);
 
   it('clamps thresholds to the dose range the sheet delivers, so draws past it do not dominate the criterion', () => {
@@ -121,7 +125,7 @@ describe('designNext', () => {
     const mean = logs.reduce((a, v, j) => a + p.weights[j]! * v, 0);
     const v = logs.reduce((a, x, j) => a + p.weights[j]! * (x - mean) ** 2, 0);
     expect(r.current.variance).toBeCloseTo(v, 12);
-    // Popoviciu's inequality (from memory): a variable within [a, b] has variance at most (b − a)²/4
+    // Popoviciu's inequality (T. Popoviciu 1935, from memory; docs/references.md): a variable within [a, b] has variance at most (b − a)²/4
     const bound = Math.log10(cap / r.grid.from) ** 2 / 4;
     expect(r.current.variance).toBeLessThanOrEqual(bound);
     expect(r.designed.expectedVariance).toBeLessThanOrEqual(bound);
