@@ -39,7 +39,7 @@ export interface DesignBench {
   both: { truths: number; designed: number | null; fixed: number | null; designedFewer: number; fixedFewer: number };
 }
 
-export function benchDesign(truths: number, log: (s: string) => void, maxRounds = 6, samples = 400): DesignBench {
+export function benchDesign(truths: number, log: (s: string) => void, maxRounds = 6, samples = 400, simulations = 200): DesignBench {
   const { base, d } = calmCase();
   const params = uncertainParameters(base, d);
   const o: DoseOptions = { boundary: 'stationary', dosing: 'add' };
@@ -61,7 +61,7 @@ export function benchDesign(truths: number, log: (s: string) => void, maxRounds 
       if (mode === 'fixed') {
         if (b.median === null || !(b.median > 0)) return { tubes: null, factors };
         doses = seriesOf(b);
-      } else doses = designNext(r.posterior, base, d, o, { tubes: n, seed: round }).designed.doses;
+      } else doses = designNext(r.posterior, base, d, o, { tubes: n, seed: round, simulations }).designed.doses;
       for (const x of doses) {
         const s = truth.state(x);
         const v = rng.uniform();
