@@ -36,10 +36,10 @@ export interface DesignBench {
   designed: { meanTubes: number | null; reached: number; seconds: number; bandFactorByRound: number[] };
   fixed: { meanTubes: number | null; reached: number; seconds: number; bandFactorByRound: number[] };
   /** truths that both strategies brought within the factor: mean tubes over those alone */
-  both: { truths: number; designed: number | null; fixed: number | null };
+  both: { truths: number; designed: number | null; fixed: number | null; designedFewer: number; fixedFewer: number };
 }
 
-export function benchDesign(truths: number, log: (s: string) => void, maxRounds = 6, samples = 400): DesignBench {
+export function benchDesign(truths: number, log: (s: string) => void, maxRounds = 6, samples = 400, simulations = 200): DesignBench {
   const { base, d } = calmCase();
   const params = uncertainParameters(base, d);
   const o: DoseOptions = { boundary: 'stationary', dosing: 'add' };
@@ -61,7 +61,7 @@ export function benchDesign(truths: number, log: (s: string) => void, maxRounds 
       if (mode === 'fixed') {
         if (b.median === null || !(b.median > 0)) return { tubes: null, factors };
         doses = seriesOf(b);
-      } else doses = designNext(r.posterior, base, d, o, { tubes: n, seed: round }).designed.doses;
+      } else doses = designNext(r.posterior, base, d, o, { tubes: n, seed: round, simulations }).designed.doses;
       for (const x of doses) {
         const s = truth.state(x);
         const v = rng.uniform();
@@ -105,6 +105,13 @@ export function benchDesign(truths: number, log: (s: string) => void, maxRounds 
     tubesPerRound: n,
     designed: summary('designed'),
     fixed: summary('fixed'),
-    both: { truths: bothIdx.length, designed: mean(bothIdx.map((i) => res.designed[i]!)), fixed: mean(bothIdx.map((i) => res.fixed[i]!)) },
+    both: {
+      truths: bothIdx.length,
+      designed: mean(bothIdx.map((i) => res.designed[i]!)),
+      fixed: mean(bothIdx.map((i) => res.fixed[i]!)),
+      // paired: the truths (reached by both) on which one strategy needed fewer tubes than the other
+      designedFewer: bothIdx.filter((i) => res.designed[i]! < res.fixed[i]!).length,
+      fixedFewer: bothIdx.filter((i) => res.fixed[i]! < res.designed[i]!).length,
+    },
   };
 }

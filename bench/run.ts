@@ -530,15 +530,16 @@ if (wanted('screen')) benchScreen(base, candidates);
 if (wanted('state-map')) benchStateMap(base, candidates);
 if (wanted('service')) await benchService(shelf, screenFast?.band.results ?? null);
 if (wanted('design')) {
-  const truths = Number(process.env.BRINK_BENCH_DESIGN_TRUTHS ?? 12);
+  const truths = Number(process.env.BRINK_BENCH_DESIGN_TRUTHS ?? 40);
   const t = now();
-  const b = benchDesign(truths, log);
+  const simulations = Number(process.env.BRINK_BENCH_DESIGN_SIMULATIONS ?? 200);
+  const b = benchDesign(truths, log, 6, 400, simulations);
   line({
     workload: 'design',
     fast_s: now() - t,
     reference_s: null,
     max_rel_disagreement: null,
-    notes: `${truths} simulated truths drawn from the prior (bench/design.ts), rounds of ${b.tubesPerRound} tubes (ε = 0.05 misreadings), at most ${b.rounds} rounds; tubes needed until the 5–95 % band lies within a factor of 1.2 of the true threshold, designed (expected posterior variance of log10 threshold) vs the default fixed series; mean over the truths each strategy reached; fast_s is the whole workload, there is no reference path`,
+    notes: `${truths} simulated truths drawn from the prior (bench/design.ts), design over ${simulations} simulated rounds, rounds of ${b.tubesPerRound} tubes (ε = 0.05 misreadings), at most ${b.rounds} rounds; tubes needed until the 5–95 % band lies within a factor of 1.2 of the true threshold, designed (expected posterior variance of log10 threshold) vs the default fixed series; mean over the truths each strategy reached; fast_s is the whole workload, there is no reference path`,
     tubes_designed: round(b.designed.meanTubes),
     tubes_fixed: round(b.fixed.meanTubes),
     reached_designed: b.designed.reached,
@@ -546,6 +547,8 @@ if (wanted('design')) {
     both_reached: b.both.truths,
     tubes_designed_both: round(b.both.designed),
     tubes_fixed_both: round(b.both.fixed),
+    designed_fewer: b.both.designedFewer,
+    fixed_fewer: b.both.fixedFewer,
     band_factor_by_round_designed: b.designed.bandFactorByRound,
     band_factor_by_round_fixed: b.fixed.bandFactorByRound,
     seconds_designed: round(b.designed.seconds),

@@ -853,7 +853,7 @@ async function cmdNext(args: string[], io: Io): Promise<number> {
     const r: NextJobResult = await awaitJob(s.jobs, s.updates.startNext(id, body), io);
     const d = r.design;
     if (values.format === 'json') {
-      io.out(JSON.stringify({ planId: r.planId, nextPlanId: r.nextPlanId, candidate: d.candidate, criterion: d.criterion, method: d.method, designed: d.designed, fixed: d.fixed, current: d.current, grid: d.grid, shelf: r.shelf, sheet: r.sheet, update: { method: r.update.method, ess: r.update.ess, consistency: r.update.consistency } }, null, 2) + '\n');
+      io.out(JSON.stringify({ planId: r.planId, nextPlanId: r.nextPlanId, candidate: d.candidate, criterion: d.criterion, method: d.method, designed: d.designed, fixed: d.fixed, current: d.current, grid: d.grid, difference: d.difference, truths: d.truths, simulations: d.simulations, particles: d.particles, shelf: r.shelf, sheet: r.sheet, update: { method: r.update.method, ess: r.update.ess, consistency: r.update.consistency } }, null, 2) + '\n');
     } else {
       const f = (x: number | null) => (x === null ? 'not finite (the band reaches past the cap)' : `×${g(x)}`);
       const lines = [
@@ -861,6 +861,8 @@ async function cmdNext(args: string[], io: Io): Promise<number> {
         `  designed doses, particles/mL: ${d.designed.doses.map((x) => g(x * 1e-6)).join(', ')}`,
         `  expected 5–95 % band width after the round: ${f(d.designed.expectedBandFactor)} (now ${f(d.current.bandFactor)})`,
         d.fixed ? `  default fixed series (${d.fixed.doses.length} doses: ${d.fixed.doses.map((x) => g(x * 1e-6)).join(', ')}): ${f(d.fixed.expectedBandFactor)}` : '  default fixed series: none (the posterior median is 0 or above the cap)',
+        `  both scored on ${d.simulations} simulated rounds independent of those the doses were chosen on (same truths and misreadings for both)${d.difference ? `; expected variance of log10 threshold, designed − fixed: ${g(d.difference.variance)} ± ${g(d.difference.se)} (standard error)` : ''}`,
+        `  dose grid, particles/mL: ${g(d.grid.from * 1e-6)} to ${g(d.grid.to * 1e-6)}${d.grid.ratio !== null ? ` by ×${d.grid.ratio}` : ''}; its lowest dose ${d.grid.lowest === 'minDose' ? 'given (--min-dose)' : d.grid.lowest === 'grid' ? 'from the grid given' : 'the posterior 5 % dose / 3 (the sheet dilutes serially and sets none; --min-dose gives your bench’s)'}`,
         `  update: ${r.update.method === 'importance' ? 'importance sampling' : 'sequential Monte Carlo'}, ESS ${r.update.ess.toFixed(0)}; ${r.update.consistency.consistent ? 'consistent' : `INCONSISTENT: ${r.update.consistency.message}`}`,
         `  ${r.shelf.note}`,
         `its sheet (the designed doses, plus the no-dopant control): brink sheet ${r.nextPlanId} --db ${values.db} --format md`,
