@@ -63,7 +63,8 @@ $('plan').addEventListener('submit', async (ev) => {
       const q = (v) => (v === null ? 'above cap' : perMl(v));
       const band = c.band ? `${q(c.band.p05)} – ${q(c.band.p95)}${c.band.alreadyPast > 0 ? ` (${num(100 * c.band.alreadyPast, 3)} % of draws already past)` : ''}` : '—';
       const path = (c.dosePath ?? []).map((iv, i) => (i === 0 ? iv.state : `${iv.state} from ${perMl(iv.from)}`)).join(' → ') || '—';
-      const warn = (c.warnings ?? []).map((w) => w.message).join(' ') || '';
+      // the candidate's own warnings and those of the mixture at its threshold dose (fuel, gas, settling): the CLI prints both
+      const warn = [...(c.warnings ?? []), ...(c.atMargin?.warnings ?? [])].map((w) => w.message).join(' ') || '';
       const at = c.atMargin ? `${c.atMargin.state}${c.atMargin.growthTime ? `, growth ${num(c.atMargin.growthTime / 60, 3)} min` : ''}` : '—';
       return row(String(c.rank), c.species, c.feasible ? (c.threshold.anyDose ? 'any dose' : perMl(c.threshold.density)) : '—', band, path, at, last, warn);
     }));
