@@ -377,7 +377,12 @@ export function doseResponse(set: OutcomeSet, boundary: Boundary, cand: Candidat
     unclear: { count: unclear.length, tubes: unclear },
     controls,
     fit,
-    ed50PerMl: { value: e.value === null ? null : e.value * 1e-6, interval: e.interval ? { lower: e.interval.lower * 1e-6, upper: e.interval.upper * 1e-6 } : null },
+    ed50PerMl: {
+      value: e.value === null ? null : e.value * 1e-6,
+      interval: e.interval ? { lower: e.interval.lower * 1e-6, upper: e.interval.upper * 1e-6 } : null,
+      // no fit (separation): the doses, per mL, between which the switch lies
+      ...(e.bracket ? { bracket: { from: e.bracket.from === null ? null : e.bracket.from * 1e-6, to: e.bracket.to === null ? null : e.bracket.to * 1e-6 } } : {}),
+    },
     predicted: cand ? { threshold: cand.threshold?.density ?? null, anyDose: Boolean(cand.anyDose), p05: b?.p05 ?? null, median: b?.median ?? null, p95: b?.p95 ?? null } : null,
     notes,
   };

@@ -251,6 +251,10 @@ describe('the empirical threshold', () => {
     const { from, to } = r.fit.parameters.ed50.bracket;
     expect(from).toBeLessThanOrEqual(threshold);
     expect(to).toBeGreaterThan(threshold);
+    // per mL as the sheet prints doses, and four figures in the words (found in review: 17-digit SI)
+    expect(r.ed50PerMl.bracket).toEqual({ from: from * 1e-6, to: to * 1e-6 });
+    expect(r.fit.notes.join(" ")).toMatch(/separation/);
+    expect(r.fit.notes.join(" ")).not.toMatch(/\d{10,}/);
   });
 
   it('what counts as crossed for each boundary', () => {

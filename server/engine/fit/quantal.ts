@@ -332,7 +332,9 @@ export function fitQuantal(dose: number[], tubes: number[], responded: number[],
   const nTubes = groups.reduce((a, g) => a + g.n, 0);
   const nResp = groups.reduce((a, g) => a + g.y, 0);
   const doseUnitLabel = unit === '' ? '(dose unit)' : unit;
-  const at = (d: number) => (unit === '' ? `${d}` : `${d} ${unit}`);
+  // four figures, in powers of ten beyond 10⁵ or below 10⁻³ (a dose in m⁻³ is 10¹⁴, not fifteen digits)
+  const four = (d: number) => (d !== 0 && (Math.abs(d) >= 1e5 || Math.abs(d) < 1e-3) ? d.toExponential(3) : `${Number(d.toPrecision(4))}`);
+  const at = (d: number) => (unit === '' ? four(d) : `${four(d)} ${unit}`);
   const slopeUnit = scale === 'log10' ? 'per decade of dose' : doseUnitLabel.startsWith('1/') && !/[ *]/.test(doseUnitLabel.slice(2)) ? doseUnitLabel.slice(2) : /[ /*]/.test(doseUnitLabel) ? `1/(${doseUnitLabel})` : `1/${doseUnitLabel}`;
 
   const noFit = (stop: QuantalStop, message: string, separation: QuantalFit['separation'] = null, bracket?: { from: number | null; to: number | null }): QuantalFit => ({
