@@ -683,6 +683,18 @@ function numberFlag(name: string, text: string | undefined, integer = false): nu
   return n;
 }
 
+/** The request body of an update or a next round from the command's flags: [flag, body key, whole number?] each. */
+function bodyFromFlags(values: Record<string, unknown>, numeric: [string, string, boolean][], text: [string, string][] = []): Record<string, unknown> {
+  const body: Record<string, unknown> = {};
+  if (typeof values.candidate === 'string' && values.candidate !== '') body.candidate = values.candidate;
+  for (const [flag, key, integer] of numeric) {
+    const v = numberFlag(flag, values[flag] as string | undefined, integer);
+    if (v !== undefined) body[key] = v;
+  }
+  for (const [flag, key] of text) if (values[flag] !== undefined) body[key] = values[flag];
+  return body;
+}
+
 const perMl = (x: number | null) => (x === null ? 'above the cap' : `${g(x * 1e-6)}`);
 const bandText = (b: Band) => `${perMl(b.p05)} · ${perMl(b.median)} · ${perMl(b.p95)}`;
 
@@ -773,14 +785,11 @@ async function cmdUpdate(args: string[], io: Io): Promise<number> {
   if (positionals.length !== 1) throw new UsageError(usage);
   const id = planIdArg(positionals[0], usage);
   if (values.format !== 'json' && values.format !== 'text') throw new UsageError(`--format: expected json or text, got "${values.format}"`);
-  const body: Record<string, unknown> = {};
-  if (values.candidate) body.candidate = values.candidate;
-  const samples = numberFlag('samples', values.samples, true);
-  if (samples !== undefined) body.samples = samples;
-  const eps = numberFlag('misclassification', values.misclassification);
-  if (eps !== undefined) body.misclassification = eps;
-  const seed = numberFlag('seed', values.seed, true);
-  if (seed !== undefined) body.seed = seed;
+  const body = bodyFromFlags(values, [
+    ['samples', 'samples', true],
+    ['misclassification', 'misclassification', false],
+    ['seed', 'seed', true],
+  ]);
   const s = localServices(values.db);
   try {
     const job = s.updates.startUpdate(id, body);
@@ -836,18 +845,19 @@ async function cmdNext(args: string[], io: Io): Promise<number> {
   if (positionals.length !== 1) throw new UsageError(usage);
   const id = planIdArg(positionals[0], usage);
   if (values.format !== 'json' && values.format !== 'text') throw new UsageError(`--format: expected json or text, got "${values.format}"`);
-  const body: Record<string, unknown> = {};
-  if (values.candidate) body.candidate = values.candidate;
-  const tubes = numberFlag('tubes', values.tubes, true);
-  if (tubes !== undefined) body.tubes = tubes;
-  const ratio = numberFlag('min-dose-ratio', values['min-dose-ratio']);
-  if (ratio !== undefined) body.minDoseRatio = ratio;
-  const sims = numberFlag('simulations', values.simulations, true);
-  if (sims !== undefined) body.simulations = sims;
-  const samples = numberFlag('samples', values.samples, true);
-  if (samples !== undefined) body.samples = samples;
-  if (values['min-dose'] !== undefined) body.minDose = values['min-dose'];
-  if (values['max-dose'] !== undefined) body.maxDose = values['max-dose'];
+  const body = bodyFromFlags(
+    values,
+    [
+      ['tubes', 'tubes', true],
+      ['min-dose-ratio', 'minDoseRatio', false],
+      ['simulations', 'simulations', true],
+      ['samples', 'samples', true],
+    ],
+    [
+      ['min-dose', 'minDose'],
+      ['max-dose', 'maxDose'],
+    ],
+  );
   const s = localServices(values.db);
   try {
     const r: NextJobResult = await awaitJob(s.jobs, s.updates.startNext(id, body), io);
