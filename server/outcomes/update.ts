@@ -73,6 +73,8 @@ export const designRequestSchema = updateRequestSchema.extend({
   minDose: dose('lowest dose (e.g. the smallest pipetting volume × the stock)').optional(),
   maxDose: dose('dose cap').optional(),
   simulations: z.number().int().min(20).max(2000).optional(),
+}).superRefine((b, ctx) => {
+  if (b.minDose && b.maxDose && b.minDose.value >= b.maxDose.value) ctx.addIssue({ code: 'custom', path: ['minDose'], message: 'must be below maxDose' });
 });
 export type DesignRequest = z.output<typeof designRequestSchema>;
 

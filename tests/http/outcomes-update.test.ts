@@ -144,4 +144,10 @@ describe('POST /api/plans/:id/update, /update/apply, /next', () => {
     expect(r.statusCode).toBeGreaterThanOrEqual(400);
     expect(r.statusCode).toBeLessThan(500);
   });
+
+  it('a lowest dose at or above the cap is a 400 naming minDose (found in review: it named a key "unit")', async () => {
+    const r = await app.inject({ method: 'POST', url: `/api/plans/${planId}/next`, payload: { minDose: 5, maxDose: 1 } });
+    expect(r.statusCode).toBe(400);
+    expect(r.json().problems).toEqual([{ path: 'minDose', message: 'must be below maxDose' }]);
+  });
 });
