@@ -215,7 +215,16 @@ export function barelyInformed(c: CoefficientUpdate): boolean {
   return c.posteriorSd >= 0.9 * c.sd && Math.abs(c.posteriorMean - c.value) <= 0.25 * c.sd;
 }
 
-export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: OutcomeSet, result: UpdateResult, author: string): PlannedRevision[] {
+/** A coefficient an apply leaves as the shelf has it (barelyInformed), as the answer lists it. */
+export interface KeptCoefficient {
+  type: 'species' | 'chemical';
+  key: string;
+  field: string;
+  chemical: string | null;
+  reason: string;
+}
+
+export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: OutcomeSet, result: UpdateResult, author: string): { planned: PlannedRevision[]; kept: KeptCoefficient[] } {
   const provenance = {
     source: 'estimated' as const,
     reference: `model update from plan ${plan.id} ("${plan.name}"), outcome set ${outcomes.id} revision ${outcomes.revision}: ${result.method === 'importance' ? `importance sampling, ESS ${result.ess.toFixed(0)} of ${result.samples} draws` : `sequential Monte Carlo (importance sampling over the ${result.samples} draws had ESS ${result.importanceEss.toFixed(0)}, too few)`}, ε = ${result.options.misclassification}`,
@@ -223,9 +232,14 @@ export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: O
     by: author,
   };
   const byItem = new Map<string, CoefficientUpdate[]>();
+  const kept: KeptCoefficient[] = [];
   for (const c of result.coefficients) {
     if (!SHELF_FIELDS.has(c.field)) continue;
-    if (barelyInformed(c)) continue; // the shelf's value and provenance stand (see barelyInformed)
+    if (barelyInformed(c)) {
+      // the shelf's value and provenance stand (see barelyInformed)
+      kept.push({ type: c.owner, key: c.id, field: c.field, chemical: c.chemical, reason: 'barely informed by the outcomes (posterior sd ≥ 0.9 × prior sd, mean moved ≤ 0.25 prior sd): the shelf value stands' });
+      continue;
+    }
     const k = `${c.owner}:${c.id}`;
     byItem.set(k, [...(byItem.get(k) ?? []), c]);
   }
@@ -281,7 +295,7 @@ export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: O
     }
     out.push({ type: owner, key, baseRevision: cur.revision, changes, record: parseRecord(owner, typed, ['record']) });
   }
-  return out;
+  return { planned: out, kept };
 }
 
 // ---------------------------------------------------------------- the service
@@ -400,13 +414,10 @@ export function outcomeUpdateService(deps: {
         throw new DomainError('inconsistent-outcomes', `the update was not applied: ${r.update.consistency.message}`);
       const plan = deps.plans.get(planId);
       const author = body.author ?? 'anonymous';
-      const planned = plannedRevisions(deps.shelf, plan, cur, r.update, author);
+      const { planned, kept } = plannedRevisions(deps.shelf, plan, cur, r.update, author);
       const note = [`model update from plan ${planId}, outcome set ${cur.id} revision ${cur.revision}`, body.note ?? null].filter((x) => x !== null && x !== '').join('; ');
       // every revision of the update, or none (a stale base revision of one refuses them all)
       const revisions = deps.shelf.repo.transaction(() => planned.map((p) => deps.shelf.edit(p.type, p.key, p.baseRevision, p.record as never, { author, note })));
-      const kept = r.update.coefficients
-        .filter((c) => SHELF_FIELDS.has(c.field) && barelyInformed(c))
-        .map((c) => ({ type: c.owner, key: c.id, field: c.field, chemical: c.chemical, reason: 'barely informed by the outcomes (posterior sd ≥ 0.9 × prior sd, mean moved ≤ 0.25 prior sd): the shelf value stands' }));
       return { planId, outcomes: r.outcomes, revisions: revisions.map((rev, i) => ({ type: planned[i]!.type, key: planned[i]!.key, revisionId: rev.revisionId, changes: planned[i]!.changes })), kept };
     },
 
