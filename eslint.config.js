@@ -9,10 +9,6 @@ export default tseslint.config(
   js.configs.recommended,
   ...tseslint.configs.recommended,
   {
-    files: ['web/**/*.js'],
-    languageOptions: { globals: { document: 'readonly', fetch: 'readonly', Node: 'readonly', window: 'readonly', Option: 'readonly', URL: 'readonly', setTimeout: 'readonly', EventSource: 'readonly', sessionStorage: 'readonly' } },
-  },
-  {
     files: ['bin/**/*.js'],
     languageOptions: { globals: { process: 'readonly', console: 'readonly' } },
   },

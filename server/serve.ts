@@ -9,6 +9,7 @@ import { tokensRepository } from './store/tokens.js';
 import { ensureDemoShelf } from './shelf/seed.js';
 import { existsSync } from 'node:fs';
 import { openDatabase } from './store/db.js';
+import { ensurePages } from './web-build.js';
 
 export interface ServeOptions {
   dbPath: string;
@@ -94,6 +95,8 @@ export async function serve(o: ServeOptions): Promise<{ app: App; url: string }>
   const jobTimeLimit = o.jobTimeLimit ?? envNumber('BRINK_JOB_TIME_LIMIT', false);
   // compute requests a minute from one client, per endpoint (default 60; README "Limits of the API")
   const rateLimit = envNumber('BRINK_RATE_LIMIT', true);
+  // the pages: built now when web/ is newer than dist/web/ (npm start on a fresh clone or after an edit)
+  await ensurePages(log);
   const app = await buildApp({
     config: {
       logger: { level: 'warn' },

@@ -40,6 +40,8 @@ import { protocolRoutes } from './routes/protocol.js';
 import { outcomeRoutes } from './routes/outcomes.js';
 import { hazardRoutes } from './routes/hazards.js';
 import { metaRoutes } from './routes/meta.js';
+import { pageRoutes } from './routes/pages.js';
+import { unitRoutes } from './routes/units.js';
 import { planRoutes } from './routes/plans.js';
 import { outcomeUpdateRoutes } from './routes/outcomes-update.js';
 import { outcomeUpdateService, type ReadOutcomes } from '../outcomes/update.js';
@@ -277,6 +279,8 @@ export async function buildApp({ config = {}, db, readOutcomes }: { config?: App
   await app.register(fastifySwaggerUi, { routePrefix: '/api/docs' });
 
   await app.register(metaRoutes);
+  await app.register(pageRoutes);
+  await app.register(unitRoutes);
   await app.register(shelfItemRoutes, { type: 'chemical', path: '/api/chemicals' });
   await app.register(shelfItemRoutes, { type: 'species', path: '/api/species' });
   await app.register(shelfIoRoutes);

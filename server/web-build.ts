@@ -1,0 +1,65 @@
+/**
+ * The pages' build (web/, Vite) on demand: `ensurePages()` builds dist/web/ when it is missing or
+ * any file under web/ is newer than the last build's stamp (dist/web/.built). `npm start` (through
+ * `brink serve`) and the test setup call it, so a fresh clone's `npm install && npm start` serves
+ * current pages and an edited page is never served stale. Vite is a development dependency: where
+ * it is not installed (an install without dev dependencies), the pages already built are served.
+ */
+import { existsSync, readdirSync, statSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { packagePath } from './version.js';
+
+export const WEB_SRC = packagePath('web');
+export const WEB_OUT = packagePath('dist/web');
+const STAMP = join(WEB_OUT, '.built');
+
+/** The newest modification time (ms) of the files under dir. */
+function newest(dir: string): number {
+  let best = -Infinity;
+  for (const e of readdirSync(dir, { withFileTypes: true })) {
+    const p = join(dir, e.name);
+    best = Math.max(best, e.isDirectory() ? newest(p) : statSync(p).mtimeMs);
+  }
+  return best;
+}
+
+/** Why the pages need building, or null when dist/web/ is current. */
+export function pagesStale(): string | null {
+  if (!existsSync(STAMP)) return 'dist/web/ has not been built';
+  const built = statSync(STAMP).mtimeMs;
+  const src = Math.max(newest(WEB_SRC), statSync(packagePath('server/units/display.ts')).mtimeMs);
+  return src > built ? 'a file under web/ is newer than dist/web/' : null;
+}
+
+/** Build the pages with Vite (web/vite.config.ts) into dist/web/. */
+export async function buildPages(): Promise<void> {
+  const vite = await import('vite');
+  await vite.build({ configFile: join(WEB_SRC, 'vite.config.ts'), logLevel: 'warn' });
+  writeFileSync(STAMP, `${new Date().toISOString()}\n`);
+}
+
+/**
+ * Build the pages when they are stale. Returns what was done, for the log. Without Vite installed,
+ * keeps what is built (or says the pages are missing) rather than failing the service.
+ */
+export async function ensurePages(log: (line: string) => void = () => undefined): Promise<'current' | 'built' | 'unavailable'> {
+  const why = pagesStale();
+  if (why === null) return 'current';
+  try {
+    await import('vite');
+  } catch {
+    log(`pages: ${why}, and Vite is not installed (npm install without --omit=dev builds them)`);
+    return 'unavailable';
+  }
+  log(`pages: ${why}; building them (Vite)…`);
+  const t0 = Date.now();
+  await buildPages();
+  log(`pages: built in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
+  return 'built';
+}
+
+// `npm run build:web` (tsx server/web-build.ts): build the pages now, stale or not.
+if (process.argv[1] && import.meta.url === (await import('node:url')).pathToFileURL(process.argv[1]).href) {
+  await buildPages();
+  process.stdout.write(`pages built into ${WEB_OUT}\n`);
+}

@@ -1,0 +1,6 @@
+// The Shelf item page (stub until its issue-14 build lands).
+import { mountPage } from '../lib/layout.js';
+import { h } from '../lib/dom.js';
+
+const page = mountPage('Shelf item', 'none');
+page.main.append(h('h1', null, 'Shelf item'));

@@ -1,0 +1,6 @@
+// The Plan page (stub until its issue-14 build lands).
+import { mountPage } from '../lib/layout.js';
+import { h } from '../lib/dom.js';
+
+const page = mountPage('Plan', 'none');
+page.main.append(h('h1', null, 'Plan'));

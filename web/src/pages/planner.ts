@@ -1,0 +1,6 @@
+// The Planner page (stub until its issue-14 build lands).
+import { mountPage } from '../lib/layout.js';
+import { h } from '../lib/dom.js';
+
+const page = mountPage('Planner', 'none');
+page.main.append(h('h1', null, 'Planner'));
