@@ -22,6 +22,7 @@
  * status 2 and name the field; no stack traces (set BRINK_DEBUG=1 to see one
  * for an internal error, which exits with status 1).
  */
+import { fmt, fmtDuration, formatNumber } from './units/display.js';
 import { existsSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { createInterface } from 'node:readline/promises';
 import { parseArgs } from 'node:util';
@@ -169,17 +170,11 @@ function readJson(path: string): unknown {
 
 const g = (x: number, digits = 3) => (x === 0 ? '0' : Math.abs(x) >= 1e4 || Math.abs(x) < 1e-2 ? x.toExponential(digits - 1) : x.toPrecision(digits));
 
-function duration(t: number): string {
-  if (t >= 86400) return `${g(t / 86400)} d`;
-  if (t >= 3600) return `${g(t / 3600)} h`;
-  if (t >= 60) return `${g(t / 60)} min`;
-  return `${g(t)} s`;
-}
-
-function length(x: number): string {
-  if (x >= 1e-3) return `${g(x * 1e3)} mm`;
-  return `${g(x * 1e6)} µm`;
-}
+// values with units are written as on the pages and the bench sheet (server/units/display.ts)
+const duration = (t: number): string => fmtDuration(t);
+const length = (x: number): string => fmt(x, 'length');
+/** a dose in particles/mL, compact (no spaces) for lists */
+const perMlCompact = (x: number, digits = 3) => `${formatNumber(x * 1e-6, digits, true)}`;
 
 /** A short human summary of an analysis. */
 export function formatText(r: AnalysisResult): string {
@@ -202,7 +197,7 @@ export function formatText(r: AnalysisResult): string {
   for (const f of r.checks.fuel) lines.push(f.absent ? `fuel life:    ${f.chemical} is absent (concentration 0): used up at once` : `fuel life:    ${f.chemical} lasts about ${duration(f.lifetime)}`);
   for (const s of r.checks.sedimentation) {
     const cross = s.timeToCrossDepth !== null ? `, crosses the depth in ${duration(s.timeToCrossDepth)}` : ` (${s.note ?? 'no chamber depth'})`;
-    lines.push(`gravity:      ${s.species} ${s.direction} at ${g(s.speed * 1e6)} µm/s (Stokes drag)${cross}, sedimentation length ${length(s.sedimentationLength)}`);
+    lines.push(`gravity:      ${s.species} ${s.direction} at ${fmt(s.speed, 'speed')} (Stokes drag)${cross}, sedimentation length ${length(s.sedimentationLength)}`);
   }
   if (r.warnings.length > 0) {
     lines.push('warnings:');
@@ -408,18 +403,18 @@ function cmdScreen(args: string[], io: Io): number {
     for (const c of out.candidates) {
       if (!c.feasible) lines.push(`${String(c.rank).padStart(2)}. ${c.species}: cannot (${c.reason}) — ${c.message}`);
       else {
-        const q = (v: number | null | undefined) => (v === null || v === undefined ? 'above cap' : g(v));
+        const q = (v: number | null | undefined) => (v === null || v === undefined ? 'above cap' : fmt(v, 'numberDensity'));
         const t = c.threshold!;
         const band = c.band
           ? ` [median ${q(c.band.median)}, 5–95 %: ${q(c.band.p05)} – ${q(c.band.p95)}; crosses by the cap in ${(100 * c.band.feasibleFraction).toFixed(1)} %, already past in ${(100 * c.band.alreadyPast).toFixed(1)} % of ${c.band.samples} draws]`
           : '';
         const at = c.atMargin ? `; at ${req.margin}× : ${c.atMargin.state}, growth ${c.atMargin.growthTime === null ? '—' : duration(c.atMargin.growthTime)}` : '';
-        lines.push(`${String(c.rank).padStart(2)}. ${c.species}: ${t.anyDose ? 'any dose (0⁺)' : `${g(t.density)} m^-3 (${g(t.density * 1e-6)} per mL, φ ${g(t.volumeFraction)})`}${band}${c.window ? `, ${PAST_WORD[req.boundary]} up to ${g(c.window.upTo)} m^-3, ${c.window.stateAbove} above` : ''}${at}`);
+        lines.push(`${String(c.rank).padStart(2)}. ${c.species}: ${t.anyDose ? 'any dose (0⁺)' : `${fmt(t.density, 'numberDensity')} (${fmt(t.volumeFraction, 'fraction')} by volume)`}${band}${c.window ? `, ${PAST_WORD[req.boundary]} up to ${fmt(c.window.upTo, 'numberDensity')}, ${c.window.stateAbove} above` : ''}${at}`);
       }
       // one precision for the whole path, enough that every interval's two ends read differently (a stretch just below the cap, say)
       let p = 3;
-      while (p < 12 && c.dosePath.some((iv) => g(iv.from, p) === g(iv.to, p))) p++;
-      if (c.dosePath.length > 0) lines.push(`    dose path: ${c.dosePath.map((iv) => `${iv.state} (${g(iv.from, p)}, ${g(iv.to, p)}]`).join(', ')}${c.firstOnset ? `; first onset ${c.firstOnset.state} at ${g(c.firstOnset.density)} m^-3` : ''}`);
+      while (p < 12 && c.dosePath.some((iv) => perMlCompact(iv.from, p) === perMlCompact(iv.to, p))) p++;
+      if (c.dosePath.length > 0) lines.push(`    dose path (particles/mL): ${c.dosePath.map((iv) => `${iv.state} (${perMlCompact(iv.from, p)}, ${perMlCompact(iv.to, p)}]`).join(', ')}${c.firstOnset ? `; first onset ${c.firstOnset.state} at ${fmt(c.firstOnset.density, 'numberDensity')}` : ''}`);
       for (const w of c.warnings) lines.push(`    warning ${w.code}: ${w.message}`);
       const seen = new Set(top);
       for (const w of c.atMargin?.warnings ?? []) {
@@ -695,7 +690,7 @@ function bodyFromFlags(values: Record<string, unknown>, numeric: [string, string
   return body;
 }
 
-const perMl = (x: number | null) => (x === null ? 'above the cap' : `${g(x * 1e-6)}`);
+const perMl = (x: number | null) => (x === null ? 'above the cap' : formatNumber(x * 1e-6, 3));
 const bandText = (b: Band) => `${perMl(b.p05)} · ${perMl(b.median)} · ${perMl(b.p95)}`;
 
 /** `brink plan <request.json>`: compute and store a plan, as POST /api/plans does. */

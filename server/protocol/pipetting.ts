@@ -26,6 +26,7 @@
  * concentrations as made. A plan that cannot be carried out (stocks too dilute
  * for the sample volume) fails with what is wrong and what would fix it.
  */
+import { fmt } from '../units/display.js';
 import { WATER_DENSITY_25C } from '../engine/constants.js';
 import { DomainError } from '../shelf/errors.js';
 import { classify, type HazardSet } from './hazards.js';
@@ -358,7 +359,7 @@ function attemptPlan(
       const top = mmTubes[vi]!;
       const topDopant = top.draws.find((d) => d.component === dopantId);
       const dop = comp.get(dopantId)!;
-      const per = dop.per === 'mol' ? (x: number) => `${formatNumber(Number((x / 1000).toPrecision(3)))} mol/L` : (x: number) => `${formatNumber(Number((x * 1e-6).toPrecision(3)))} particles/mL`;
+      const per = dop.per === 'mol' ? (x: number) => fmt(Number(x.toPrecision(3)), 'concentration') : (x: number) => `${formatNumber(Number((x * 1e-6).toPrecision(3)))} particles/mL`;
       // every draw is c V / stock, so a larger sample helps only with the fixed volumes (minimums, rounding): where the
       // stocks themselves, undiluted, would fill a tube (Σ c / stock ≥ 1), no sample volume fits it
       const undiluted = Math.max(...mmTubes.map((t) => [...t.s.conc].reduce((a, [id, c]) => a + (c > 0 && comp.has(id) ? c / comp.get(id)!.stock : 0), 0)));

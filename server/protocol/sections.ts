@@ -9,6 +9,8 @@
  * check box, the operator's name); it is never "unknown" (that is said in words).
  */
 
+import { formatNumber } from '../units/display.js';
+
 /** One column of a table. `check`: a blank cell is a check box; `blank`: a column filled in by hand (wide, empty). */
 export interface Column {
   id: string;
@@ -67,14 +69,8 @@ export function sectionTexts(sections: readonly Section[]): string[] {
   return sections.flatMap((s) => [s.title, ...s.blocks.flatMap(blockTexts)]);
 }
 
-const SUP: Record<string, string> = { '-': '⁻', '0': '⁰', '1': '¹', '2': '²', '3': '³', '4': '⁴', '5': '⁵', '6': '⁶', '7': '⁷', '8': '⁸', '9': '⁹' };
-
-/** 1.433 × 10⁸ for large or small numbers, plain otherwise (four significant figures). */
-export function formatNumber(v: number): string {
-  if (v === 0 || (Math.abs(v) >= 1e-3 && Math.abs(v) < 1e5)) return String(Number(v.toPrecision(4)));
-  const [m, e] = v.toExponential(3).split('e') as [string, string];
-  return `${Number(m)} × 10${String(Number(e)).split('').map((c) => SUP[c] ?? c).join('')}`;
-}
+/** 1.433 × 10⁸ for large or small numbers, plain otherwise (four significant figures): the pages' and the CLI's own (server/units/display.ts). */
+export { formatNumber };
 
 /** "2.043 µL" from { value, unit }; "—" for none. */
 export const fmtAmount = (a: { value: number; unit: string } | null | undefined): string => (a ? `${formatNumber(a.value)} ${a.unit}` : '—');

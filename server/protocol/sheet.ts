@@ -7,6 +7,7 @@
  * The model built here is the JSON format; render.ts renders it as HTML and Markdown.
  * Every number carries its unit. Nothing depends on the clock but `printedAt`.
  */
+import { fmt } from '../units/display.js';
 import { z } from 'zod';
 import { analyze, type AnalysisResult, type State } from '../engine/analyze.js';
 import { FUEL_GROWTH_TIMES } from '../engine/checks.js';
@@ -183,7 +184,7 @@ export function chemicalStock(c: ChemicalRecord, o: z.output<typeof stockSchema>
   if (o) {
     if (o.molarConcentration) {
       const w = M ? (o.molarConcentration.value * M) / (o.solutionDensity?.value ?? WATER_DENSITY_25C) : null;
-      return { molar: o.molarConcentration.value, massFraction: w, text: `${o.molarConcentration.value / 1000} mol/L`, source: 'option' };
+      return { molar: o.molarConcentration.value, massFraction: w, text: fmt(o.molarConcentration.value, 'concentration', 4), source: 'option' };
     }
     if (o.percentWw !== undefined) {
       if (!M || !o.solutionDensity) throw new InputError([{ path: `stocks.${c.id}`, message: '% w/w needs the chemical’s molar mass and the solution density (solutionDensity)' }]);
@@ -532,8 +533,8 @@ function optionsThatFit(ctx: SheetContext, req: SheetRequest): FitOption[] {
   for (const c of probe.components) {
     const f = STOCK_FACTORS.find((k) => canExist(c, k) && fits({ stockScale: { id: c.id, factor: k } }));
     if (f === undefined) continue;
-    const conc = c.per === 'mol' ? `${formatNumber((c.stock * f) / 1000)} mol/L` : `${formatNumber(c.stock * f * 1e-6)} particles/mL`;
-    const was = c.per === 'mol' ? `${formatNumber(c.stock / 1000)} mol/L` : `${formatNumber(c.stock * 1e-6)} particles/mL`;
+    const conc = c.per === 'mol' ? fmt(c.stock * f, 'concentration', 4) : `${formatNumber(c.stock * f * 1e-6)} particles/mL`;
+    const was = c.per === 'mol' ? fmt(c.stock, 'concentration', 4) : `${formatNumber(c.stock * 1e-6)} particles/mL`;
     // the value as the stocks option takes it (molarConcentration or density)
     const value = c.per === 'mol' ? `${Number(((c.stock * f) / 1000).toPrecision(4))} mol/L` : `${Number((c.stock * f * 1e-6).toPrecision(4))} 1/mL`;
     out.push({ option: `stocks.${c.id}`, value, text: `a ${c.label} stock of ${conc} (${f} × the one used now, ${was}: ${c.stockText}), given as stocks.${c.id}` });

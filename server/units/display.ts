@@ -14,8 +14,9 @@ const SUP: Record<string, string> = { '-': '⁻', '0': '⁰', '1': '¹', '2': '�
 /**
  * A number to `digits` significant figures: plain from 0.001 to 99 999, else `1.43 × 10⁸`.
  * Trailing zeros are dropped (2.50 → 2.5). Non-finite numbers read `∞`, `−∞`, `not a number`.
+ * `compact` writes `1.43×10⁸` (no spaces), for lists where a space separates entries.
  */
-export function formatNumber(v: number, digits = 4): string {
+export function formatNumber(v: number, digits = 4, compact = false): string {
   if (Number.isNaN(v)) return 'not a number';
   if (!Number.isFinite(v)) return v > 0 ? '∞' : '−∞';
   if (v === 0) return '0';
@@ -26,7 +27,7 @@ export function formatNumber(v: number, digits = 4): string {
     .split('')
     .map((c) => SUP[c] ?? c)
     .join('');
-  return `${String(Number(m)).replace('-', '−')} × 10${exp}`;
+  return `${String(Number(m)).replace('-', '−')}${compact ? '×' : ' × '}10${exp}`;
 }
 
 /** The same number as a plain machine-readable string (`1.43e8`), for inputs that must round-trip. */

@@ -69,7 +69,7 @@ describe('brink screen', () => {
   it('the text format shows the dose path and the warnings', async () => {
     const r = await run(['screen', file, '--format', 'text']);
     expect(r.code).toBe(0);
-    expect(r.out).toMatch(/ptj-swim-0\.5-s02: .*\n\s+dose path: stable \(0, [^\]]+\], oscillatory .*first onset oscillatory at/);
+    expect(r.out).toMatch(/ptj-swim-0\.5-s02: .*\n\s+dose path \(particles\/mL\): stable \(0, [^\]]+\], oscillatory .*first onset oscillatory at/);
     expect(r.out).toMatch(/warning earlier-instability: the mixture already turns oscillatory/);
     expect(r.out).toMatch(/already past in 0\.0 % of 100 draws/);
   }, 60_000);
@@ -89,7 +89,7 @@ describe('brink screen', () => {
     // mixture turns stationary (still unstable), not stable; ml-matrix agrees in tests/references/planner-reference.test.ts
     expect(c.window.stateAbove).toBe('stationary');
     const text = (await run(['screen', new URL('../../seeds/screens/narrow-window.json', import.meta.url).pathname, '--format', 'text'])).out;
-    expect(text).toMatch(/swimmer: 8\.28e\+14 m\^-3 \(8\.28e\+8 per mL, φ [^)]+\), oscillatory up to 1\.08e\+15 m\^-3, stationary above;/);
+    expect(text).toMatch(/swimmer: 8\.28 × 10⁸ particles\/mL \([^)]+ by volume\), oscillatory up to 1\.08 × 10⁹ particles\/mL, stationary above;/);
     expect(text).not.toMatch(/comes back/);
   }, 60_000);
 
@@ -106,7 +106,7 @@ describe('brink screen', () => {
     writeFileSync(p, JSON.stringify(doc));
     const r = await run(['screen', p, '--format', 'text']);
     expect(r.code).toBe(0);
-    const path = /dose path: (.*)/.exec(r.out)![1]!;
+    const path = /dose path \(particles\/mL\): (.*)/.exec(r.out)![1]!;
     const ends = [...path.matchAll(/\((\S+), (\S+)\]/g)].map((m) => [m[1], m[2]]);
     expect(ends.length).toBe(2);
     for (const [a, b] of ends) expect(a).not.toBe(b);

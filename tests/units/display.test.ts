@@ -40,7 +40,7 @@ describe('display units', () => {
     };
     for (const [kind, dim] of Object.entries(dims) as [DisplayKind, keyof typeof DIMENSIONS][]) {
       for (const unit of DISPLAY_UNITS[kind]) {
-        const si = 3.7 * unit.factor + ('offset' in unit ? unit.offset : 0);
+        const si = 3.7 * unit.factor + ((unit as { offset?: number }).offset ?? 0);
         const f = formatQuantity(si, kind, { unit });
         const back = parseQuantity(f.input, { dimension: DIMENSIONS[dim], sign: 'any' }, kind).value;
         expect(back / si, `${kind} ${unit.label} (${f.input})`).toBeCloseTo(1, 10);
