@@ -4,7 +4,8 @@
  * compose a two-species base with peroxide, choose two candidates, run with Monte Carlo draws, watch the
  * progress bar move and land on /plans/<id>; a request the service refuses (a cap above the schema's
  * 0.74) shows the service's words beside the field; a long plan (every candidate, many draws) is
- * cancelled: the job ends `cancelled` and no plan is stored for it; the stored plans list shows the
+ * cancelled: the job ends `cancelled` and no plan is stored for it; the same with a 1 s time limit ends
+ * `timed-out`, said in words, nothing stored; the stored plans list shows the
  * finished plan, and loading it puts its request back into the form. No console or page errors.
  * Screenshots: screenshots/planner-*.png.
  */
@@ -93,6 +94,7 @@ describe('the Planner page', () => {
     expect((await plansStored()).total).toBe(0);
     expected.delete('POST /api/plans 400');
     await page.getByLabel('cap: largest total volume fraction', { exact: true }).fill('');
+    expect(await page.locator('form .problem').count()).toBe(0); // changing the field takes its problem away
     await page.screenshot({ path: `${SHOTS}/planner-form.png`, fullPage: true });
 
     // run: the bar moves (fractions strictly between 0 and 1, stages naming the candidates), then the plan's page
@@ -161,6 +163,18 @@ describe('the Planner page', () => {
     expect((await plansStored()).total).toBe(1);
     expect(page.url()).toBe(`${base}/planner`);
     await page.screenshot({ path: `${SHOTS}/planner-cancelled.png` });
+
+    // the same plan with a time limit of 1 s: stopped at its limit, said in words, nothing stored
+    await page.getByText('Conditions, time limit, name (optional)').click();
+    await page.getByLabel('time limit of the job', { exact: true }).fill('1 s');
+    await page.getByText('= 1 s').waitFor();
+    await page.getByRole('button', { name: 'Run the plan' }).click();
+    await page.getByText(/The plan hit its time limit and was stopped: nothing was stored/).waitFor({ timeout: 30_000 });
+    const timed = ((await app.inject({ url: '/api/jobs' })).json() as { items: { id: string; state: string; timeLimit: number }[] }).items[0]!;
+    expect(timed.state).toBe('timed-out');
+    expect(timed.timeLimit).toBe(1);
+    expect((await plansStored()).total).toBe(1);
+    await page.screenshot({ path: `${SHOTS}/planner-timed-out.png` });
   }, 120_000);
 
   it('lists the finished plan and loads its request back into the form', async () => {
@@ -195,6 +209,44 @@ describe('the Planner page', () => {
     await page.getByText(`The form holds the request of plan ${id}`).waitFor();
     expect(await page.getByRole('group', { name: /base species 2: catb-0\.22-l04/ }).count()).toBe(1);
   }, 60_000);
+
+  it('keeps the request fields the form does not show, names them, and sends them with the new plan', async () => {
+    const sent = {
+      base: [{ id: 'ptj-1um-b09', volumeFraction: { value: '0.1 %', sd: '0.01 %' } }],
+      chemicals: { h2o2: '200 mM' },
+      chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' },
+      boundary: 'stationary',
+      candidates: ['ptj-1um-b07'],
+      probabilityAt: ['1e8 /mL'],
+      stateMap: { doseRange: ['1e7 /mL', '1e9 /mL'], baseSteps: 5, doseSteps: 5 },
+    };
+    const job = (await app.inject({ method: 'POST', url: '/api/plans', payload: sent })).json() as { id: string };
+    let j = { state: 'queued', result: null as { planId: number } | null };
+    while (!['done', 'failed', 'cancelled', 'timed-out'].includes(j.state)) {
+      await new Promise((r) => setTimeout(r, 100));
+      j = (await app.inject({ url: `/api/jobs/${job.id}` })).json();
+    }
+    expect(j.state).toBe('done');
+    const from = j.result!.planId;
+    await page.goto(`${base}/planner?from=${from}`);
+    await page.getByText(`The form holds the request of plan ${from}`).waitFor();
+    const note = page.locator('.kept');
+    expect(await note.textContent()).toMatch(/probabilityAt.*stateMap\.doseRange/);
+    const row1 = page.getByRole('group', { name: /base species 1/ });
+    expect(await row1.getByLabel('amount (volume fraction)', { exact: true }).inputValue()).toBe('0.1 %');
+    expect(await row1.getByLabel('amount (volume fraction): standard uncertainty').inputValue()).toBe('0.01 %');
+    expect(await page.getByLabel('Draw a state map').isChecked()).toBe(true);
+    await page.getByLabel('base steps').fill('6');
+    await page.getByRole('button', { name: 'Run the plan' }).click();
+    await page.waitForURL(/\/plans\/\d+$/, { timeout: 60_000 });
+    const id = Number(/\/plans\/(\d+)$/.exec(page.url())![1]);
+    expect(id).toBeGreaterThan(from);
+    const plan = (await app.inject({ url: `/api/plans/${id}` })).json() as { request: Record<string, unknown> };
+    expect(plan.request.probabilityAt).toEqual(['1e8 /mL']);
+    expect(plan.request.stateMap).toEqual({ doseRange: ['1e7 /mL', '1e9 /mL'], baseSteps: 6, doseSteps: 5 });
+    expect(plan.request.base).toEqual(sent.base);
+    expect(plan.request.candidates).toEqual(['ptj-1um-b07']);
+  }, 90_000);
 
   it('saw no console error, page error or unexpected failed request', () => {
     expect(problems).toEqual([]);

@@ -96,6 +96,15 @@ function checkbox(label: string, checked = false): { el: HTMLElement; input: HTM
   return { input, el: h('div', { class: 'check' }, input, h('label', { for: input.id }, label)) };
 }
 
+/** The uncertainty box of a row: a short placeholder (its label for screen readers says the rest). */
+function shortSd(f: QuantityField): QuantityField {
+  if (f.sdInput) {
+    f.sdInput.placeholder = 'optional';
+    f.sdInput.title = 'standard uncertainty (optional): drawn with the shelf values in the band';
+  }
+  return f;
+}
+
 // ---------------------------------------------------------------- base species rows
 
 type AmountForm = 'volumeFraction' | 'density' | 'massConcentration' | 'molarConcentration';
@@ -128,7 +137,7 @@ function addBaseRow(init: { id?: string; form?: AmountForm; amount?: unknown } =
     form,
   );
   const holder = h('div', { class: 'amount' });
-  const make = (value: unknown) => quantityField({ label: `amount (${FORMS[form].label})`, quantity: FORMS[form].quantity, sign: 'nonnegative', value, withSd: true, placeholder: `e.g. ${FORMS[form].example}`, required: true });
+  const make = (value: unknown) => shortSd(quantityField({ label: `amount (${FORMS[form].label})`, quantity: FORMS[form].quantity, sign: 'nonnegative', value, withSd: true, placeholder: `e.g. ${FORMS[form].example}`, required: true }));
   const row: BaseRow = {
     el: h('div', { class: 'row base-row', role: 'group' }),
     species,
@@ -196,7 +205,7 @@ const chemicalList = h('div', { class: 'rows' });
 function addChemicalRow(init: { id?: string; level?: unknown } = {}): ChemicalRow {
   const id = init.id ?? CHEMICALS.find((c) => !chemicalRows.some((r) => r.chemical.value === c.id))?.id ?? CHEMICALS[0]?.id ?? '';
   const chemical = select(chemicalOptions(), id);
-  const level = quantityField({ label: 'concentration', quantity: 'concentration', sign: 'nonnegative', value: init.level ?? '', withSd: true, placeholder: 'e.g. 200 mM', required: true });
+  const level = shortSd(quantityField({ label: 'concentration', quantity: 'concentration', sign: 'nonnegative', value: init.level ?? '', withSd: true, placeholder: 'e.g. 200 mM', required: true }));
   const remove = h('button', { type: 'button', class: 'secondary small' }, 'Remove');
   const row: ChemicalRow = { el: h('div', { class: 'row chem-row', role: 'group' }), chemical, level };
   remove.addEventListener('click', () => {
@@ -231,7 +240,7 @@ const WALLS: Record<string, string> = {
   periodic: 'the chamber repeats after its length, like a ring channel: the patterns that fit have wavelengths L, L/2 …',
   unbounded: 'far larger than any pattern: every wavelength is allowed, the length is not used',
 };
-const wallsHint = h('div', { class: 'hint' });
+const wallsHint = h('p', { class: 'hint walls-hint', 'aria-live': 'polite' });
 const length = quantityField({ label: 'length L', quantity: 'length', sign: 'positive', value: '2 mm', placeholder: 'e.g. 2 mm' });
 const depth = quantityField({ label: 'depth H', quantity: 'length', sign: 'positive', value: '100 um', placeholder: 'e.g. 100 um' });
 const onWalls = () => {
@@ -311,6 +320,7 @@ function chosenIds(): string[] {
   return [...chosen].filter((id) => !base.has(id));
 }
 function countChosen(): void {
+  chooser.classList.toggle('dim', poolAll.get() === 'all');
   const base = inBase();
   const n = chosenIds().length;
   const pool = SPECIES.filter((s) => !base.has(s.id)).length;
@@ -364,13 +374,14 @@ const sweepScale = select(
   'log',
 );
 
-const crowding = checkbox('Crowding (particles take up room: the steric term of the model)');
+const crowding = checkbox('Crowding: the particles’ excluded volume (a hard-sphere, dilute-limit correction to their diffusion)');
 const temperature = quantityField({ label: 'temperature', quantity: 'temperature', sign: 'positive', placeholder: 'default 25 degC' });
 const duration = quantityField({ label: 'planned observation time', quantity: 'time', sign: 'positive', placeholder: 'e.g. 30 min' });
 const fieldOfView = quantityField({ label: 'width of the imaging field', quantity: 'length', sign: 'positive', placeholder: 'e.g. 500 um' });
 const timeLimit = quantityField({ label: 'time limit of the job', quantity: 'time', sign: 'positive', placeholder: 'the service’s own (10 min)' });
 const planName = h('input', { type: 'text', maxlength: 200, placeholder: 'default: “<boundary> screen of <base>”', class: 'wide' });
 const planNotes = h('textarea', { maxlength: 5000, rows: 2, class: 'notes' });
+const planAuthor = h('input', { type: 'text', maxlength: 200, placeholder: 'anonymous', autocomplete: 'name' });
 
 /** Request fields this form does not show, kept from a loaded plan and sent as they were. */
 let kept: Record<string, unknown> = {};
@@ -409,7 +420,7 @@ function buildForm(): void {
   form.append(
     section('Base mixture', 'The species already in the sample and their amounts: a volume fraction (0.1 %), a number density (1e8 /mL), a mass concentration (10 ug/mL) or, for enzymes, a molar concentration (10 nM). The ± field takes a standard uncertainty, drawn with the rest in the band.', baseList, h('div', { class: 'actions' }, addSpecies)),
     section('Chemical levels', 'One row per chemical at the start (e.g. 200 mM of peroxide). A chemical the species use but not listed here is taken as absent (0), and the plan warns of it.', chemicalList, h('div', { class: 'actions' }, addChemical)),
-    section('Chamber', null, h('div', { class: 'row' }, field('walls', walls, wallsHint), length.el, depth.el), h('p', { class: 'hint' }, 'The depth H is used for the settling check; without it the plan says settling was not checked.')),
+    section('Chamber', null, h('div', { class: 'row' }, field('walls', walls), length.el, depth.el), wallsHint, h('p', { class: 'hint' }, 'The depth H is used for the settling check; without it the plan says settling was not checked.')),
     section('Question', null, boundary.el, dosing.el, h('div', { class: 'row' }, field('margin (× the threshold)', margin, 'the plan also reports the mixture at this multiple of each threshold dose'), maxVolumeFraction.el, maxDensity.el)),
     section('Candidates', 'Each candidate is screened on its own: the smallest dose of it that crosses the boundary.', poolAll.el, chooser),
     section(
@@ -425,7 +436,7 @@ function buildForm(): void {
       withSweep.el,
       h('div', { class: 'row' }, field('chemical', sweepChemical), sweepLow.el, sweepHigh.el, field('levels', sweepSteps, '2 – 60'), field('spacing', sweepScale)),
     ),
-    details('Conditions, time limit, name (optional)', crowding.el, h('div', { class: 'row' }, temperature.el, duration.el, fieldOfView.el, timeLimit.el), h('div', { class: 'row' }, field('plan name', planName), field('notes', planNotes))),
+    details('Conditions, time limit, name (optional)', crowding.el, h('div', { class: 'row' }, temperature.el, duration.el, fieldOfView.el, timeLimit.el), h('div', { class: 'row' }, field('plan name', planName), field('author', planAuthor, 'with an access token, its holder is the author'), field('notes', planNotes))),
     keptNote,
     h('div', { class: 'actions run' }, runButton, h('span', { class: 'muted' }, 'The plan runs as a job on the service; when it is done this page opens the stored plan with its results.')),
     jobBox,
@@ -477,7 +488,8 @@ async function requestFromForm(): Promise<Record<string, unknown>> {
   const mvf = await readNumber(maxVolumeFraction);
   if (mvf !== undefined) body.maxVolumeFraction = mvf;
   if (q(maxDensity) !== undefined) body.maxDensity = q(maxDensity);
-  if (withBand.input.checked && intOf(draws) > 0) body.uncertainty = { samples: intOf(draws), seed: intOf(seed) };
+  // an empty or odd number goes as it is (null) and the service's answer is shown beside the field: never a silent drop
+  if (withBand.input.checked) body.uncertainty = { samples: intOf(draws), seed: intOf(seed) };
   if (withMap.input.checked) {
     body.stateMap = {
       ...((keptMap as Record<string, unknown> | undefined) ?? {}),
@@ -491,6 +503,7 @@ async function requestFromForm(): Promise<Record<string, unknown>> {
   if (q(timeLimit) !== undefined) body.timeLimit = q(timeLimit);
   if (planName.value.trim()) body.name = planName.value.trim();
   if (planNotes.value.trim()) body.notes = planNotes.value.trim();
+  if (planAuthor.value.trim()) body.author = planAuthor.value.trim();
   return body;
 }
 
@@ -531,8 +544,19 @@ function fieldFor(path: string): HTMLElement | null {
   if (path.startsWith('conditions.fieldOfView')) return fieldOfView.el;
   if (path.startsWith('name')) return wrap(planName);
   if (path.startsWith('notes')) return wrap(planNotes);
+  if (path.startsWith('author')) return wrap(planAuthor);
   return null;
 }
+
+// a field's problem goes when its value is changed
+const settled = (e: Event) => {
+  const el = (e.target as Element | null)?.closest('.has-problem');
+  if (!el) return;
+  el.classList.remove('has-problem');
+  for (const p of el.querySelectorAll(':scope > .problem')) p.remove();
+};
+form.addEventListener('input', settled);
+form.addEventListener('change', settled);
 
 function clearProblems(): void {
   for (const p of form.querySelectorAll('.problem')) p.remove();
@@ -577,7 +601,8 @@ function refused(e: unknown, head?: string): void {
     );
     return;
   }
-  page.fail(e);
+  if (head) page.say(`${head}${e instanceof Error ? e.message : String(e)}`, 'error');
+  else page.fail(e);
 }
 
 // ---------------------------------------------------------------- running
@@ -749,7 +774,7 @@ async function refreshLoadList(): Promise<void> {
 
 // ---------------------------------------------------------------- loading a stored request
 
-const SHOWN = new Set(['base', 'chemicals', 'chamber', 'boundary', 'dosing', 'candidates', 'margin', 'maxVolumeFraction', 'maxDensity', 'uncertainty', 'stateMap', 'fuelSweep', 'timeLimit', 'conditions', 'crowding', 'name', 'notes']);
+const SHOWN = new Set(['base', 'chemicals', 'chamber', 'boundary', 'dosing', 'candidates', 'margin', 'maxVolumeFraction', 'maxDensity', 'uncertainty', 'stateMap', 'fuelSweep', 'timeLimit', 'conditions', 'crowding', 'name', 'notes', 'author']);
 
 function clearForm(): void {
   baseRows.splice(0).forEach((r) => r.el.remove());
@@ -812,7 +837,7 @@ function fillForm(req: Record<string, unknown>, from: number | null): void {
   planName.value = '';
   planNotes.value = typeof req.notes === 'string' ? req.notes : '';
   // what the form does not show is kept and sent as it was, and the page says so
-  kept = Object.fromEntries(Object.entries(req).filter(([k]) => !SHOWN.has(k) && k !== 'author'));
+  kept = Object.fromEntries(Object.entries(req).filter(([k]) => !SHOWN.has(k)));
   const keptCond = Object.fromEntries(Object.entries(cond).filter(([k]) => !['temperature', 'duration', 'fieldOfView'].includes(k)));
   if (Object.keys(keptCond).length > 0) kept.conditions = keptCond;
   const keptMap = sm ? Object.fromEntries(Object.entries(sm).filter(([k]) => ['baseRange', 'doseRange'].includes(k))) : {};
@@ -846,7 +871,7 @@ async function loadPlan(id: number): Promise<void> {
     history.replaceState(null, '', `/planner?from=${plan.id}`);
     loadSelect.value = String(plan.id);
     page.say(h('span', null, `The form holds the request of plan ${plan.id} (“${plan.name}”) as it was sent. Change it and run: a new plan is stored, and `, h('a', { href: `/plans/${plan.id}` }, `plan ${plan.id}`), ' stays as it is.'), 'ok');
-    form.scrollIntoView({ block: 'start' });
+    window.scrollTo({ top: 0 });
   } catch (e) {
     page.fail(e);
   }
