@@ -65,6 +65,16 @@ describe('the Planner page', () => {
   }, 60_000);
 
   it('composes a two-species base, is refused with the service’s words beside a field, then runs and lands on the plan', async () => {
+    // an enzyme's untouched amount follows its kind (nM); a row can be removed
+    await page.getByRole('button', { name: '+ Add a species to the base' }).click();
+    const extra = page.getByRole('group', { name: /base species 2/ });
+    await extra.getByLabel('species').selectOption('catalase-e3');
+    expect(await extra.getByLabel('amount given as').inputValue()).toBe('molarConcentration');
+    expect(await extra.getByLabel('amount (molar concentration)', { exact: true }).inputValue()).toBe('10 nM');
+    await extra.getByText('= 10 nM').waitFor();
+    await page.getByRole('button', { name: 'Remove catalase-e3 from the base' }).click();
+    expect(await page.getByRole('group', { name: /base species \d/ }).count()).toBe(1);
+
     await page.getByRole('button', { name: '+ Add a species to the base' }).click();
     const row2 = page.getByRole('group', { name: /base species 2/ });
     await row2.getByLabel('species').selectOption('catb-0.22-l04');
@@ -246,6 +256,30 @@ describe('the Planner page', () => {
     expect(plan.request.stateMap).toEqual({ doseRange: ['1e7 /mL', '1e9 /mL'], baseSteps: 6, doseSteps: 5 });
     expect(plan.request.base).toEqual(sent.base);
     expect(plan.request.candidates).toEqual(['ptj-1um-b07']);
+  }, 90_000);
+
+  it('pages the stored plans, newest first', async () => {
+    const quick = { base: [{ id: 'ptj-1um-b09', volumeFraction: '0.1 %' }], chemicals: { h2o2: '200 mM' }, chamber: { walls: 'sealed', length: '2 mm', depth: '100 um' }, boundary: 'stationary', candidates: ['ptj-1um-b07'] };
+    for (let i = 0; i < 9; i++) {
+      const job = (await app.inject({ method: 'POST', url: '/api/plans', payload: { ...quick, name: `quick plan ${i + 1}` } })).json() as { id: string };
+      for (let state = ''; !['done', 'failed'].includes(state); ) {
+        await new Promise((r) => setTimeout(r, 50));
+        state = ((await app.inject({ url: `/api/jobs/${job.id}` })).json() as { state: string }).state;
+      }
+    }
+    const total = (await plansStored()).total;
+    expect(total).toBe(12);
+    await page.goto(`${base}/planner`);
+    await page.getByText(`plans 1–10 of ${total}, newest first`).waitFor();
+    const names = async () => page.locator('table.plans-table tbody tr td:first-child a').allTextContents();
+    expect((await names())[0]).toBe('quick plan 9');
+    expect(await page.getByRole('button', { name: '← Newer' }).isDisabled()).toBe(true);
+    await page.getByRole('button', { name: 'Older →' }).click();
+    await page.getByText(`plans 11–12 of ${total}, newest first`).waitFor();
+    expect(await names()).toEqual(['stationary screen of ptj-1um-b09', 'stationary screen of ptj-1um-b09 + catb-0.22-l04']); // plans 2 and 1
+    expect(await page.getByRole('button', { name: 'Older →' }).isDisabled()).toBe(true);
+    await page.getByRole('button', { name: '← Newer' }).click();
+    await page.getByText(`plans 1–10 of ${total}, newest first`).waitFor();
   }, 90_000);
 
   it('saw no console error, page error or unexpected failed request', () => {
