@@ -282,6 +282,30 @@ describe('the Planner page', () => {
     await page.getByText(`plans 1–10 of ${total}, newest first`).waitFor();
   }, 90_000);
 
+  it('a plan that fails says why beside the field, and stores nothing', async () => {
+    await page.goto(`${base}/planner`);
+    await page.getByRole('group', { name: /chemical level: h2o2/ }).getByText('= 200 mM').waitFor();
+    const pool = page.getByRole('group', { name: 'candidate species' });
+    await pool.getByLabel(/ptj-1um-b07/).check();
+    await page.getByLabel('draws', { exact: true }).fill('0');
+    await page.getByText('State map, fuel sweep (optional)').click();
+    await page.getByLabel('Draw a state map').check();
+    await page.getByLabel('candidate', { exact: true }).focus();
+    await page.getByLabel('candidate', { exact: true }).selectOption('ptj-1um-b07');
+    // the map's candidate stops being a candidate
+    await pool.getByLabel(/ptj-1um-b07/).uncheck();
+    await pool.getByLabel(/ptj-swim-0\.5-s02/).check();
+    const before = (await plansStored()).total;
+    await page.getByRole('button', { name: 'Run the plan' }).click();
+    const mapField = page.locator('.field.has-problem', { has: page.getByLabel('candidate', { exact: true }) });
+    await mapField.locator('.problem').waitFor({ timeout: 30_000 });
+    expect(await mapField.locator('.problem').textContent()).toMatch(/ptj-1um-b07/);
+    expect(await page.locator('#messages').textContent()).toMatch(/nothing was stored|refused/);
+    expect((await plansStored()).total).toBe(before);
+    await page.getByLabel('candidate', { exact: true }).scrollIntoViewIfNeeded();
+    await page.screenshot({ path: `${SHOTS}/planner-failed.png` });
+  }, 60_000);
+
   it('saw no console error, page error or unexpected failed request', () => {
     expect(problems).toEqual([]);
   });

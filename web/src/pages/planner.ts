@@ -325,6 +325,7 @@ function countChosen(): void {
   const n = chosenIds().length;
   const pool = SPECIES.filter((s) => !base.has(s.id)).length;
   chosenCount.textContent = poolAll.get() === 'all' ? `all ${pool} species not in the base will be screened` : `${n} chosen of ${pool}`;
+  refreshMapChoices();
 }
 filter.addEventListener('input', debounce(refreshCandidates, 120));
 pickShown.addEventListener('click', () => {
@@ -396,6 +397,15 @@ const form = h('form', { class: 'planner', novalidate: true });
 function section(title: string, intro: Child, ...body: Child[]): HTMLElement {
   return h('fieldset', { class: 'section' }, h('legend', null, title), intro ? h('p', { class: 'hint intro' }, intro) : null, body);
 }
+/** Fields that count only when a box is ticked: shown faded (still editable) while it is not. */
+const followers: (() => void)[] = [];
+function following(box: HTMLInputElement, el: HTMLElement): HTMLElement {
+  const sync = () => el.classList.toggle('off', !box.checked);
+  box.addEventListener('change', sync);
+  followers.push(sync);
+  sync();
+  return el;
+}
 function details(summary: string, ...body: Child[]): HTMLDetailsElement {
   return h('details', { class: 'more' }, h('summary', null, summary), h('div', { class: 'more-body' }, body));
 }
@@ -427,14 +437,14 @@ function buildForm(): void {
       'Uncertainty',
       null,
       withBand.el,
-      h('div', { class: 'row' }, field('draws', draws, '0 – 2000; more draws take longer'), field('seed', seed, 'same seed, same numbers')),
+      following(withBand.input, h('div', { class: 'row' }, field('draws', draws, '0 – 2000; more draws take longer'), field('seed', seed, 'same seed, same numbers'))),
     ),
     details(
       'State map, fuel sweep (optional)',
       withMap.el,
-      h('div', { class: 'row' }, field('candidate', mapCandidate), field('base varied', mapBase), field('base steps', mapBaseSteps, '3 – 80'), field('dose steps', mapDoseSteps, '3 – 80')),
+      following(withMap.input, h('div', { class: 'row' }, field('candidate', mapCandidate), field('base varied', mapBase), field('base steps', mapBaseSteps, '3 – 80'), field('dose steps', mapDoseSteps, '3 – 80'))),
       withSweep.el,
-      h('div', { class: 'row' }, field('chemical', sweepChemical), sweepLow.el, sweepHigh.el, field('levels', sweepSteps, '2 – 60'), field('spacing', sweepScale)),
+      following(withSweep.input, h('div', { class: 'row' }, field('chemical', sweepChemical), sweepLow.el, sweepHigh.el, field('levels', sweepSteps, '2 – 60'), field('spacing', sweepScale))),
     ),
     details('Conditions, time limit, name (optional)', crowding.el, h('div', { class: 'row' }, temperature.el, duration.el, fieldOfView.el, timeLimit.el), h('div', { class: 'row' }, field('plan name', planName), field('author', planAuthor, 'with an access token, its holder is the author'), field('notes', planNotes))),
     keptNote,
@@ -842,6 +852,7 @@ function fillForm(req: Record<string, unknown>, from: number | null): void {
   if (Object.keys(keptCond).length > 0) kept.conditions = keptCond;
   const keptMap = sm ? Object.fromEntries(Object.entries(sm).filter(([k]) => ['baseRange', 'doseRange'].includes(k))) : {};
   if (Object.keys(keptMap).length > 0) kept.stateMap = keptMap;
+  for (const f of followers) f();
   showKept(from);
   for (const d of form.querySelectorAll('details')) d.open = Boolean(sm || fs || req.timeLimit || req.conditions || req.crowding);
   refreshCandidates();
