@@ -162,6 +162,7 @@ describe('the Planner page', () => {
     const jobs = (await app.inject({ url: '/api/jobs' })).json() as { items: { id: string; state: string }[] };
     const job = jobs.items[0]!;
     expect(job.state).toBe('running');
+    expect(await page.getByRole('button', { name: 'Run the plan' }).isDisabled()).toBe(true); // one plan at a time from the form
     await page.screenshot({ path: `${SHOTS}/planner-running.png` });
     await page.getByRole('button', { name: 'Cancel' }).click();
     await page.getByText('The plan was cancelled: nothing was stored.').waitFor();
@@ -172,6 +173,7 @@ describe('the Planner page', () => {
     expect(ended.result).toBeNull();
     expect((await plansStored()).total).toBe(1);
     expect(page.url()).toBe(`${base}/planner`);
+    expect(await page.getByRole('button', { name: 'Run the plan' }).isDisabled()).toBe(false);
     await page.screenshot({ path: `${SHOTS}/planner-cancelled.png` });
 
     // the same plan with a time limit of 1 s: stopped at its limit, said in words, nothing stored
