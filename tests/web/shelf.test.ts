@@ -141,8 +141,8 @@ describe('the Shelf pages', () => {
     await page.waitForSelector('#history li[data-revision="2"]');
     const rev2 = await page.textContent('#history li[data-revision="2"]');
     expect(rev2).toContain('refit on the new tracks');
-    expect(rev2).toContain('0.3 um^2/s ± 0.03 um^2/s');
-    expect(rev2).toContain('0.35 um^2/s ± 0.03 um^2/s');
+    const cells = await page.locator('#history li[data-revision="2"] table.diff tbody tr').first().locator('td').allTextContents();
+    expect(cells).toEqual(['diffusivity', '0.3 µm²/s ± 0.03 µm²/s', '0.35 µm²/s ± 0.03 µm²/s']);
     expect(rev2).not.toContain('radius');
     await page.locator('#history').scrollIntoViewIfNeeded();
     await page.screenshot({ path: `${SHOTS}/item-history.png`, fullPage: true });
@@ -154,10 +154,12 @@ describe('the Shelf pages', () => {
     await page.fill('input[name="name"]', 'Silica bead 2 um, batch T7b (invented)');
     await page.click('#save');
     await page.waitForSelector('#side-by-side');
-    const side = await page.locator('#side-by-side tbody tr').allTextContents();
-    const radiusRow = side.find((r) => r.startsWith('radius'));
-    expect(radiusRow).toBe('radius1.2 um1 um');
-    expect(side.find((r) => r.startsWith('name'))).toBe('nameSilica bead 2 um, batch T7 (invented)Silica bead 2 um, batch T7b (invented)');
+    const rows = page.locator('#side-by-side tbody tr');
+    expect(await rows.count()).toBe(2);
+    const side = await Promise.all([0, 1].map((i) => rows.nth(i).locator('td').allTextContents()));
+    // field, on the shelf now, yours, when you opened it, changed by
+    expect(side).toContainEqual(['radius', '1.2 µm', '1 µm', '1 µm', 'a colleague (invented) (since you opened it)']);
+    expect(side).toContainEqual(['name', 'Silica bead 2 um, batch T7 (invented)', 'Silica bead 2 um, batch T7b (invented)', 'Silica bead 2 um, batch T7 (invented)', 'you']);
     expect(await page.textContent('#conflict')).toContain('revision 3 by a colleague (invented)');
     await page.locator('#conflict').scrollIntoViewIfNeeded();
     await page.screenshot({ path: `${SHOTS}/item-conflict.png` });
@@ -220,11 +222,36 @@ describe('the Shelf pages', () => {
     expect(hz).toContain('H271');
     expect(hz).toContain('safety data sheet take precedence');
     await page.screenshot({ path: `${SHOTS}/item-chemical.png`, fullPage: true });
-    // a chemical without hazard data says so, never "no hazard"
-    await page.goto(`${base}/shelf/chemicals/glucose`);
-    await page.waitForSelector('#hazards h2');
-    const g = await app.inject({ method: 'GET', url: '/api/chemicals/glucose/hazards' });
-    if (g.json().current === null) expect(await page.textContent('#no-hazard-data')).toContain('not classified');
+    // a chemical without hazard data says so, never "no hazard"; bands are added through the hazards API
+    // (an invented test solute: the band is input to the editor, not a statement about a real chemical)
+    const made = await app.inject({ method: 'POST', url: '/api/chemicals', payload: { record: { id: 'tarn-solute-x', name: 'test solute X (invented)', diffusivity: '1e-9 m^2/s' } } });
+    expect(made.statusCode).toBe(201);
+    await page.goto(`${base}/shelf/chemicals/tarn-solute-x`);
+    await page.waitForSelector('#no-hazard-data');
+    expect(await page.textContent('#no-hazard-data')).toContain('not classified');
+    expect(await page.textContent('#no-hazard-data')).not.toMatch(/no hazard\b(?! data)/i);
+    await page.click('#edit-hazards');
+    const form = page.locator('form.hazard-form');
+    await form.getByLabel('Source of these data').fill('test input (invented)');
+    await form.getByRole('button', { name: 'Add a band' }).click();
+    await form.getByLabel('From (% w/w, inclusive)').fill('20');
+    await form.getByLabel('Below (% w/w)').fill('10');
+    await form.getByLabel('Hazard statement').fill('H319');
+    await form.getByLabel('Statement text').fill('Causes serious eye irritation.');
+    await form.getByLabel('Class and category').fill('Eye Irrit. 2');
+    await form.getByLabel('Pictograms').fill('GHS07');
+    await form.getByLabel('Signal word').selectOption('Warning');
+    await form.getByRole('button', { name: 'Save the hazard data' }).click();
+    // max below min: refused, said at the band
+    await form.locator('.hazard-band .problem').waitFor();
+    expect(await form.locator('.hazard-band .problem').textContent()).toContain('max must be above min');
+    await form.getByLabel('Below (% w/w)').fill('');
+    await form.getByRole('button', { name: 'Save the hazard data' }).click();
+    await page.waitForSelector('#hazards table.bands');
+    const saved = (await app.inject({ method: 'GET', url: '/api/chemicals/tarn-solute-x/hazards' })).json();
+    expect(saved.current.version).toBe(1);
+    expect(saved.current.body.bands).toEqual([{ min: 0.2, max: null, statement: 'H319', text: 'Causes serious eye irritation.', hazardClass: 'Eye Irrit. 2', pictograms: ['GHS07'], signal: 'Warning', precautionary: [] }]);
+    expect(await page.textContent('#hazards table.bands')).toContain('from 20 %');
     expect(problems).toEqual([]);
     await page.close();
   }, 60_000);

@@ -31,8 +31,9 @@ const apiBase = type === 'species' ? '/api/species' : '/api/chemicals';
 const pageBase = type === 'species' ? '/shelf/species' : '/shelf/chemicals';
 const noun = type === 'species' ? 'species' : 'chemical';
 
-/** the revision the form was filled from (sent as baseRevision) */
+/** the revision the form was filled from (sent as baseRevision), and its stored record */
 let base = 0;
+let baseRecord: unknown = null;
 let chemicals: { id: string; name: string; retired: boolean }[] = [];
 
 const head = h('div', { class: 'item-head' });
@@ -45,6 +46,15 @@ const historyBox = h('section', { id: 'history', 'aria-labelledby': 'history-h' 
 page.main.append(h('p', null, h('a', { href: '/' }, '← Shelf')), head, conflictBox, formBox, statusBox, measurementsBox, hazardsBox, historyBox);
 
 // ---------------------------------------------------------------- the form
+
+/** A time as the lab reads it: `2026-12-05 03:38` (local time). */
+function when(iso: string, withTime = true): string {
+  const d = new Date(iso);
+  if (Number.isNaN(d.getTime())) return iso;
+  const p = (n: number) => String(n).padStart(2, '0');
+  const day = `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())}`;
+  return withTime ? `${day} ${p(d.getHours())}:${p(d.getMinutes())}` : day;
+}
 
 const isObj = (x: unknown): x is Obj => x !== null && typeof x === 'object' && !Array.isArray(x);
 const str = (x: unknown): string => (x === undefined || x === null ? '' : String(x));
@@ -165,7 +175,7 @@ function couplingRow(c: Obj, remove: (r: CouplingRow) => void): CouplingRow {
   const chemField = field('Chemical', chem);
   const a = c.activity;
   const saturating = isObj(a) && 'maxRate' in a;
-  const mode = h('select', null, h('option', { value: 'none' }, 'no activity'), h('option', { value: 'constant' }, 'constant rate'), h('option', { value: 'saturating' }, 'saturating (maximal rate, Michaelis constant)'));
+  const mode = h('select', null, h('option', { value: 'none' }, 'no activity'), h('option', { value: 'constant' }, 'constant rate'), h('option', { value: 'saturating' }, 'saturating (Michaelis–Menten)'));
   mode.value = a === undefined ? 'none' : saturating ? 'saturating' : 'constant';
   const k = uid('coupling');
   const constant = coef(`${k}.activity`, 'Activity per particle', 'amountRate', 'any', saturating ? undefined : a, 'e.g. -2e-16 mol/s (< 0 consumes)');
@@ -361,6 +371,7 @@ function buildForm(t: Obj, onSave: () => void): Form {
   const notes = h('textarea', { name: 'notes', rows: 3 }, str(t.notes));
   notes.classList.add('notes');
   const notesField = field('Notes', notes);
+  notesField.classList.add('wide');
   const author = textInput('', { name: 'author', placeholder: 'optional' });
   const note = textInput('', { name: 'note', placeholder: editing ? 'what changed and why' : 'optional' });
   const submit = h('button', { type: 'submit', id: 'save' }, editing ? 'Save a new revision' : `Add the ${noun} to the shelf`);
@@ -474,7 +485,7 @@ async function save(): Promise<void> {
 
 /** 409: someone saved first. Their values beside the form's, and the two ways on. */
 function showConflict(theirs: Revision, mine: Obj): void {
-  const rows = sideBySide(theirs.record, mine);
+  const rows = sideBySide(baseRecord, theirs.record, mine, type);
   const differ = rows.filter((r) => !r.same);
   page.say('Not saved: someone changed this item after you opened it. Compare below.', 'error');
   put(
@@ -483,13 +494,31 @@ function showConflict(theirs: Revision, mine: Obj): void {
       'section',
       { class: 'card conflict', 'aria-labelledby': 'conflict-h' },
       h('h2', { id: 'conflict-h' }, `Changed since you opened it: revision ${theirs.revision} by ${theirs.author}`),
-      h('p', null, `Your form was based on revision ${base}. Revision ${theirs.revision} was saved ${new Date(theirs.createdAt).toLocaleString()}${theirs.note ? ` (“${theirs.note}”)` : ''}${theirs.retired ? '; the item is now retired' : ''}. ${differ.length} field${differ.length === 1 ? '' : 's'} differ${differ.length === 1 ? 's' : ''} between it and your form; ${rows.length - differ.length} are the same.`),
+      h('p', null, `Your form was based on revision ${base}. Revision ${theirs.revision} was saved ${when(theirs.createdAt)}${theirs.note ? ` (“${theirs.note}”)` : ''}${theirs.retired ? '; the item is now retired' : ''}. ${differ.length} field${differ.length === 1 ? '' : 's'} differ${differ.length === 1 ? 's' : ''} between it and your form; ${rows.length - differ.length} are the same.`),
       h(
         'table',
         { class: 'side', id: 'side-by-side' },
         h('caption', { class: 'visually-hidden' }, 'The shelf’s current values beside yours'),
-        h('thead', null, h('tr', null, h('th', { scope: 'col' }, 'Field'), h('th', { scope: 'col' }, `On the shelf now (revision ${theirs.revision})`), h('th', { scope: 'col' }, 'Yours (this form)'))),
-        h('tbody', null, differ.map((r) => h('tr', { class: 'differs' }, h('td', null, r.label), h('td', null, r.theirs ?? '(absent)'), h('td', null, r.mine ?? '(absent)')))),
+        h(
+          'thead',
+          null,
+          h('tr', null, h('th', { scope: 'col' }, 'Field'), h('th', { scope: 'col' }, `On the shelf now (revision ${theirs.revision})`), h('th', { scope: 'col' }, 'Yours (this form)'), h('th', { scope: 'col' }, `When you opened it (revision ${base})`), h('th', { scope: 'col' }, 'Changed by')),
+        ),
+        h(
+          'tbody',
+          null,
+          differ.map((r) =>
+            h(
+              'tr',
+              { class: `differs by-${r.changedBy}` },
+              h('td', null, r.label),
+              h('td', null, r.theirs ?? '(absent)'),
+              h('td', null, r.mine ?? '(absent)'),
+              h('td', { class: 'muted' }, r.base ?? '(absent)'),
+              h('td', null, { them: `${theirs.author} (since you opened it)`, me: 'you', both: 'both of you, differently', neither: '—' }[r.changedBy]),
+            ),
+          ),
+        ),
       ),
       h(
         'div',
@@ -524,7 +553,7 @@ function renderHead(rev: Revision | null): void {
     head,
     h('h1', null, title),
     rev
-      ? h('span', { class: 'meta' }, `${type === 'species' ? `${rev.kind ?? ''} species` : 'chemical'} “${rev.id}” — revision ${rev.revision}, ${rev.action} by ${rev.author}, ${new Date(rev.createdAt).toLocaleString()}`, rev.retired ? h('span', { class: 'tag retired' }, ' retired') : null)
+      ? h('span', { class: 'meta' }, `${type === 'species' ? `${rev.kind ?? ''} species` : 'chemical'} “${rev.id}” — revision ${rev.revision}, ${rev.action} by ${rev.author}, ${when(rev.createdAt)}`, rev.retired ? h('span', { class: 'tag retired' }, ' retired') : null)
       : h('span', { class: 'meta' }, type === 'species' ? 'a particle or an enzyme, with how it couples to chemicals' : 'a fuel, product or other solute species act on'),
     rev && type === 'species' ? h('a', { class: 'button secondary', href: `/calibrate?species=${encodeURIComponent(rev.id)}`, id: 'calibrate-link' }, 'Calibrate this species') : null,
   );
@@ -555,7 +584,7 @@ function renderStatus(rev: Revision): void {
 
 async function renderHistory(rev: Revision): Promise<void> {
   const { revisions } = await api<{ revisions: Revision[] }>(`${apiBase}/${encodeURIComponent(rev.id)}/revisions`);
-  const items = revisions.map((r, i) => ({ r, first: i === 0, changes: revisionChanges(i > 0 ? (revisions[i - 1] ?? null) : null, r) })).reverse();
+  const items = revisions.map((r, i) => ({ r, first: i === 0, changes: revisionChanges(i > 0 ? (revisions[i - 1] ?? null) : null, r, type) })).reverse();
   const diffTable = (changes: FieldChange[]): Child =>
     h(
       'table',
@@ -568,14 +597,14 @@ async function renderHistory(rev: Revision): Promise<void> {
     h('h2', { id: 'history-h' }, 'Revisions'),
     h('p', { class: 'muted' }, `${revisions.length} revision${revisions.length === 1 ? '' : 's'}, newest first; each shows what it changed from the one before.`),
     h(
-      'ol',
-      { class: 'history', reversed: true },
+      'ul',
+      { class: 'history' },
       items.map(({ r, first, changes }) =>
         h(
           'li',
           { 'data-revision': r.revision },
           h('strong', null, `Revision ${r.revision}`),
-          ` — ${r.action}, by ${r.author}, ${new Date(r.createdAt).toLocaleString()}`,
+          ` — ${r.action}, by ${r.author}, ${when(r.createdAt)}`,
           r.note ? h('div', { class: 'muted' }, `Note: ${r.note}`) : null,
           first
             ? h('div', { class: 'muted' }, `The first revision: ${changes.length} field${changes.length === 1 ? '' : 's'} given.`)
@@ -659,7 +688,7 @@ async function renderMeasurements(rev: Revision): Promise<void> {
               'div',
               { class: 'measurement', 'data-measurement': m.id },
               h('strong', null, `Measurement ${m.id}: ${m.method} fit${m.fit?.model ? ` (${m.fit.model})` : ''}`),
-              ` of ${m.fileName ?? 'pasted data'}, by ${m.author}, ${new Date(m.createdAt).toLocaleDateString()}`,
+              ` of ${m.fileName ?? 'pasted data'}, by ${m.author}, ${when(m.createdAt, false)}`,
               m.note ? h('div', { class: 'muted' }, m.note) : null,
               h(
                 'ul',
@@ -668,7 +697,7 @@ async function renderMeasurements(rev: Revision): Promise<void> {
                   h('li', null, `${PARAM_WORDS[k] ?? k}: ${fmtSi(p.value, p.unit)}${p.sd !== null && p.sd > 0 ? ` ± ${fmtSi(p.sd, p.unit, 2)}` : p.sd === null ? ' (uncertainty unknown)' : ''}${p.atBound ? ` — on its ${p.atBound} bound: the data do not determine it` : ''}`),
                 ),
               ),
-              m.applications.length ? h('div', { class: 'muted' }, `Applied ${m.applications.length} time${m.applications.length === 1 ? '' : 's'}: ${m.applications.map((a) => `${a.fields.join(', ')} on ${new Date(a.createdAt).toLocaleDateString()}`).join('; ')}.`) : null,
+              m.applications.length ? h('div', { class: 'muted' }, `Applied ${m.applications.length} time${m.applications.length === 1 ? '' : 's'}: ${m.applications.map((a) => `${a.fields.join(', ')} on ${when(a.createdAt, false)}`).join('; ')}.`) : null,
               h('div', { class: 'row' }, controls, apply),
             );
           }),
@@ -748,7 +777,7 @@ async function renderHazards(rev: Revision): Promise<void> {
       : h(
           'div',
           null,
-          h('p', null, `Version ${cur.version}, by ${cur.author}, ${new Date(cur.createdAt).toLocaleDateString()}. Source: ${cur.body.source}`),
+          h('p', null, `Version ${cur.version}, by ${cur.author}, ${when(cur.createdAt, false)}. Source: ${cur.body.source}`),
           cur.body.forms ? h('p', null, `These data cover: ${cur.body.forms.join(', ')}; any other form has no data here.`) : null,
           cur.body.bands.length ? bandsTable(cur.body.bands) : h('p', { class: 'warn' }, 'No bands: at no concentration is a classification recorded here. Check the supplier’s safety data sheet.'),
           (['incompatibilities', 'storage', 'disposal', 'handling'] as const).map((k) => (cur.body[k] ? h('p', null, h('strong', null, `${k[0]!.toUpperCase()}${k.slice(1)}: `), cur.body[k]) : null)),
@@ -850,6 +879,7 @@ function hazardEditor(rev: Revision, set: HazardSet | null, version: number, don
 
 async function show(rev: Revision): Promise<void> {
   base = rev.revision;
+  baseRecord = rev.record;
   renderHead(rev);
   put(conflictBox);
   form = buildForm(rev.typed, () => void save());

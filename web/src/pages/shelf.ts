@@ -5,7 +5,7 @@
 import { mountPage } from '../lib/layout.js';
 import { api, ApiError } from '../lib/api.js';
 import { debounce, download, field, h, put, type Child } from '../lib/dom.js';
-import { fmt, fmtWithSd, type DisplayKind } from '../lib/format.js';
+import { fmtWithSd, type DisplayKind } from '../lib/format.js';
 import { conflictWords, type ImportConflict } from './shelf-logic.js';
 import './shelf.css';
 
@@ -86,7 +86,7 @@ function couplingText(c: Coupling): Child {
   const parts: string[] = [];
   const a = c.activity;
   if (a && 'maxRate' in a) {
-    parts.push(`turns over up to ${val(a.maxRate, 'amountRate')} (Michaelis constant ${val(a.michaelis, 'concentration')}${a.product ? `, makes ${a.product}${a.productYield !== undefined ? ` × ${a.productYield}` : ''}` : ''})`);
+    parts.push(`turns over up to ${val(a.maxRate, 'amountRate')} (Michaelis constant ${val(a.michaelis, 'concentration')}${a.product ? `, makes ${a.productYield !== undefined ? `${a.productYield} ` : ''}${a.product}${a.productYield !== undefined ? ` per ${c.chemical}` : ''}` : ''})`);
   } else if (a) parts.push(`activity ${val(a, 'amountRate')}${a.si < 0 ? ' (consumes)' : a.si > 0 ? ' (produces)' : ''}`);
   if (c.mobility) parts.push(`mobility ${val(c.mobility, 'mobility')}`);
   return h('li', null, h('strong', { title: chemicalNames.get(c.chemical) ?? '' }, c.chemical), ': ', parts.join('; '));
@@ -146,7 +146,7 @@ async function load(): Promise<void> {
           'table',
           { id: 'species', class: 'shelf-table' },
           h('caption', { class: 'visually-hidden' }, 'Species on the shelf'),
-          h('thead', null, h('tr', null, ['Name and id', 'Kind', 'Diffusivity', 'Radius', 'Couplings (activity, mobility)', 'Revision'].map((t) => h('th', { scope: 'col' }, t)))),
+          h('thead', null, h('tr', null, ['Name and id', 'Kind', 'Diffusivity', 'Radius', 'Couplings (activity, mobility)', 'Revision'].map((t, i) => h('th', { scope: 'col', class: [2, 3, 5].includes(i) ? 'num' : '' }, t)))),
           h(
             'tbody',
             null,
@@ -174,7 +174,7 @@ async function load(): Promise<void> {
           'table',
           { id: 'chemicals', class: 'shelf-table' },
           h('caption', { class: 'visually-hidden' }, 'Chemicals on the shelf'),
-          h('thead', null, h('tr', null, ['Name and id', 'Diffusivity', 'Loss rate', 'Molar mass', 'Solubility', 'Revision'].map((t) => h('th', { scope: 'col' }, t)))),
+          h('thead', null, h('tr', null, ['Name and id', 'Diffusivity', 'Loss rate', 'Molar mass', 'Solubility', 'Revision'].map((t, i) => h('th', { scope: 'col', class: i > 0 ? 'num' : '' }, t)))),
           h(
             'tbody',
             null,
