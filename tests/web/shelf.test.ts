@@ -13,6 +13,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { App } from '../../server/http/app.js';
 import { startBrowserApp } from '../helpers/browser.js';
 import { freshApp } from '../helpers/app.js';
+import { recordDiff } from '../../web/src/pages/shelf-logic.js';
 
 const SHOTS = 'screenshots';
 
@@ -255,6 +256,28 @@ describe('the Shelf pages', () => {
     expect(problems).toEqual([]);
     await page.close();
   }, 60_000);
+
+  it('the form keeps every value of every demo item: saving one unchanged changes no field', async () => {
+    const { page, problems } = await watched(browser);
+    for (const [kind, path] of [
+      ['species', '/api/species'],
+      ['chemicals', '/api/chemicals'],
+    ] as const) {
+      const { items } = (await app.inject({ method: 'GET', url: `${path}?limit=500` })).json() as { items: { id: string; revision: number; record: unknown }[] };
+      for (const it of items) {
+        await page.goto(`${base}/shelf/${kind}/${it.id}`);
+        await page.waitForSelector('#history li');
+        await page.click('#save');
+        await page.waitForFunction(() => /Saved as revision/.test(document.getElementById('messages')?.textContent ?? ''));
+        const now = (await app.inject({ method: 'GET', url: `${path}/${it.id}` })).json();
+        expect(now.revision, it.id).toBe(it.revision + 1);
+        expect(recordDiff(it.record, now.record, kind === 'species' ? 'species' : 'chemical'), it.id).toEqual([]);
+        expect(now.record, it.id).toEqual(it.record);
+      }
+    }
+    expect(problems).toEqual([]);
+    await page.close();
+  }, 120_000);
 
   it('imports a file; a conflict is explained per entry and can be overwritten', async () => {
     const { page, problems } = await watched(browser);
