@@ -5,7 +5,7 @@
  * 1 mM = 1 mol/m³), not invented numbers.
  */
 import { describe, expect, it } from 'vitest';
-import { conflictWords, fieldForProblem, flattenRecord, prettyUnits, recordDiff, revisionChanges, sideBySide, type RevisionLike } from '../../web/src/pages/shelf-logic.js';
+import { conflictWords, fieldForProblem, problemWords, flattenRecord, prettyUnits, recordDiff, revisionChanges, sideBySide, type RevisionLike } from '../../web/src/pages/shelf-logic.js';
 
 /** a stored species record as the API keeps it (SI, as typed, provenance) */
 const stored = {
@@ -113,5 +113,12 @@ describe('import conflicts in words', () => {
     );
     expect(conflictWords({ path: 'species[2]', type: 'species', id: 'b', exportedRevision: null, currentRevision: 3 })).toMatch(/does not say which revision/);
     expect(conflictWords({ path: 'species[2]', type: 'species', id: 'b', exportedRevision: 9, currentRevision: 3 })).toMatch(/another database or was edited by hand/);
+  });
+});
+
+describe('problemWords', () => {
+  it('says a unit reader\'s dimensions in words, and leaves other messages alone', () => {
+    expect(problemWords('expected length^5/(time*amount), got "3 kg" (mass)')).toBe('this needs a mobility (such as µm²/(s·mM)); "3 kg" is a mass (such as mg)');
+    expect(problemWords('a coupling needs an activity, a mobility or both')).toBe('a coupling needs an activity, a mobility or both');
   });
 });

@@ -176,7 +176,7 @@ describe('the Shelf pages', () => {
     await page.fill('input[name="diffusivity"]', '0.3 um');
     await page.click('#save');
     await page.waitForSelector('.coef[data-key="diffusivity"] .problem');
-    expect(await page.textContent('.coef[data-key="diffusivity"] .problem')).toMatch(/expected length\^2\/time/);
+    expect(await page.textContent('.coef[data-key="diffusivity"] .problem')).toBe('this needs a diffusivity (area per time, such as µm²/s); "0.3 um" is a length (such as µm or nm)');
     expect((await app.inject({ method: 'GET', url: '/api/species/tarn-bead-7' })).json().revision).toBe(4);
     await page.screenshot({ path: `${SHOTS}/item-problem.png` });
 

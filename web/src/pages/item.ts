@@ -10,7 +10,7 @@ import { api, ApiError, type Problem } from '../lib/api.js';
 import { field, h, put, uid, type Child } from '../lib/dom.js';
 import { quantityField, type Quantity, type QuantityField } from '../lib/fields.js';
 import { fmtSi, formatNumber } from '../lib/format.js';
-import { fieldForProblem, provenanceText, revisionChanges, sideBySide, type FieldChange, type RevisionLike } from './shelf-logic.js';
+import { fieldForProblem, problemWords, provenanceText, revisionChanges, sideBySide, type FieldChange, type RevisionLike } from './shelf-logic.js';
 import './shelf.css';
 
 type Obj = Record<string, unknown>;
@@ -440,12 +440,14 @@ function showProblems(problems: Problem[], intro: string): void {
       continue;
     }
     el.classList.add('has-problem');
-    const where = p.path.replace(/^record\./, '');
-    el.append(h('p', { class: 'problem', role: 'alert' }, k === where.replace(/\[(\d+)\]/g, '.$1') ? p.message : `${where}: ${p.message}`));
+    // what is left of the path below the field: nothing or `value` (the value itself), `sd`, or a part of a row
+    const rest = p.path.replace(/^record\./, '').replace(/\[(\d+)\]/g, '.$1').slice((k ?? '').length).replace(/^\./, '');
+    const prefix = rest === '' || rest === 'value' ? '' : rest === 'sd' ? 'its uncertainty: ' : `${rest}: `;
+    el.append(h('p', { class: 'problem', role: 'alert' }, `${prefix}${problemWords(p.message)}`));
     first ??= el;
   }
   page.say(
-    h('span', null, `${intro}: ${problems.length} problem${problems.length === 1 ? '' : 's'}${loose.length < problems.length ? ', shown next to the fields' : ''}.`, loose.length ? h('ul', null, loose.map((p) => h('li', null, p.path ? `${p.path.replace(/^record\./, '')}: ${p.message}` : p.message))) : null),
+    h('span', null, `${intro}: ${problems.length} problem${problems.length === 1 ? '' : 's'}${loose.length < problems.length ? ', shown next to the fields' : ''}.`, loose.length ? h('ul', null, loose.map((p) => h('li', null, p.path ? `${p.path.replace(/^record\./, '')}: ${problemWords(p.message)}` : problemWords(p.message)))) : null),
     'error',
   );
   first?.querySelector<HTMLElement>('input, select, textarea')?.focus();
