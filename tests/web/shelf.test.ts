@@ -253,6 +253,23 @@ describe('the Shelf pages', () => {
     expect(saved.current.version).toBe(1);
     expect(saved.current.body.bands).toEqual([{ min: 0.2, max: null, statement: 'H319', text: 'Causes serious eye irritation.', hazardClass: 'Eye Irrit. 2', pictograms: ['GHS07'], signal: 'Warning', precautionary: [] }]);
     expect(await page.textContent('#hazards table.bands')).toContain('from 20 %');
+
+    // the editor keeps every band as it was: a chemical's (h2o2) and a species' by form (gox-e1), saved unchanged
+    for (const path of ['chemicals/h2o2', 'species/gox-e1']) {
+      const before = (await app.inject({ method: 'GET', url: `/api/${path}/hazards` })).json();
+      await page.goto(`${base}/shelf/${path}`);
+      await page.click('#edit-hazards');
+      if (path.startsWith('species')) {
+        await page.locator('form.hazard-form').scrollIntoViewIfNeeded();
+        await page.screenshot({ path: `${SHOTS}/item-hazard-editor.png` });
+      }
+      await page.locator('form.hazard-form').getByRole('button', { name: 'Save the hazard data' }).click();
+      await page.waitForFunction(() => /Hazard data saved/.test(document.getElementById('messages')?.textContent ?? ''));
+      const after = (await app.inject({ method: 'GET', url: `/api/${path}/hazards` })).json();
+      expect(after.current.version, path).toBe(before.current.version + 1);
+      expect(after.current.body, path).toEqual(before.current.body);
+    }
+    expect(await page.textContent('#hazards')).toContain('These data cover');
     expect(problems).toEqual([]);
     await page.close();
   }, 60_000);

@@ -784,26 +784,44 @@ async function renderHazards(rev: Revision): Promise<void> {
           cur.body.bands.length ? bandsTable(cur.body.bands) : h('p', { class: 'warn' }, 'No bands: at no concentration is a classification recorded here. Check the supplier’s safety data sheet.'),
           (['incompatibilities', 'storage', 'disposal', 'handling'] as const).map((k) => (cur.body[k] ? h('p', null, h('strong', null, `${k[0]!.toUpperCase()}${k.slice(1)}: `), cur.body[k]) : null)),
         ),
-    type === 'chemical' ? editButton : h('p', { class: 'muted' }, 'A species’ hazard data (by form: powder, solution, suspension) are written through the API (PUT /api/species/:id/hazards).'),
+    editButton,
     editBox,
   );
+}
+
+const FORMS = ['powder', 'solution', 'suspension'] as const;
+
+/** A field on a line of its own, its control as wide as the form allows. */
+const wide = (el: HTMLElement): HTMLElement => (el.classList.add('wide'), el);
+
+/** Checkboxes for the forms a material is handled in (a fieldset with a legend: one label per box). */
+function formsPicker(legend: string, chosen: readonly string[] | undefined, hint: string): { el: HTMLElement; value(): string[] } {
+  const boxes = FORMS.map((f) => ({ f, box: h('input', { type: 'checkbox', value: f, ...(chosen?.includes(f) ? { checked: true } : {}) }) }));
+  return {
+    el: h('fieldset', { class: 'forms' }, h('legend', null, legend), boxes.map(({ f, box }) => h('label', { class: 'check' }, box, ` ${f}`)), h('span', { class: 'hint' }, ` ${hint}`)),
+    value: () => boxes.filter((b) => b.box.checked).map((b) => b.f),
+  };
 }
 
 function hazardEditor(rev: Revision, set: HazardSet | null, version: number, done: () => void): HTMLElement {
   const source = h('textarea', { rows: 2 }, set?.source ?? '');
   const sourceField = field('Source of these data', source, 'the regulation, safety data sheet or handbook they come from');
+  sourceField.classList.add('wide');
+  // a species' data state the forms they cover (an enzyme powder is not its solution); a chemical's may
+  const setForms = formsPicker('Forms these data cover', set?.forms ?? (type === 'species' ? [] : undefined), type === 'species' ? '(at least one; a form not ticked has no data here)' : '(none ticked: every form)');
   const rows: { el: HTMLElement; value(): Band; problemBox: HTMLElement }[] = [];
   const box = h('div');
   const addBand = (b: Partial<Band>) => {
     const min = h('input', { type: 'number', min: 0, max: 100, step: 'any', value: b.min === undefined ? '' : String(+(b.min * 100).toPrecision(8)), class: 'pct' });
     const max = h('input', { type: 'number', min: 0, max: 100, step: 'any', value: b.max === undefined || b.max === null ? '' : String(+(b.max * 100).toPrecision(8)), class: 'pct', placeholder: 'no upper bound' });
     const statement = textInput(b.statement ?? '', { placeholder: 'H318' });
-    const text = textInput(b.text ?? '', { placeholder: 'Causes serious eye damage.' });
+    const text = textInput(b.text ?? '', { placeholder: 'Causes serious eye damage.', class: 'statement-text' });
     const cls = textInput(b.hazardClass ?? '', { placeholder: 'Eye Dam. 1' });
     const pics = textInput((b.pictograms ?? []).join(', '), { placeholder: 'GHS05' });
     const signal = h('select', null, h('option', { value: '' }, 'none'), h('option', { value: 'Warning' }, 'Warning'), h('option', { value: 'Danger' }, 'Danger'));
     signal.value = b.signal ?? '';
     const prec = h('textarea', { rows: 2 }, (b.precautionary ?? []).join('\n'));
+    const bandForms = formsPicker('Applies to', b.forms, '(none ticked: every form the data cover)');
     const problemBox = h('div');
     const row = {
       problemBox,
@@ -812,7 +830,8 @@ function hazardEditor(rev: Revision, set: HazardSet | null, version: number, don
         { class: 'hazard-band' },
         h('legend', null, 'Band'),
         h('div', { class: 'row' }, field('From (% w/w, inclusive)', min), field('Below (% w/w)', max, 'empty: no upper bound'), field('Hazard statement', statement), field('Statement text', text), field('Class and category', cls), field('Pictograms', pics, 'GHS01–GHS09, comma-separated'), field('Signal word', signal)),
-        field('Precautionary statements (one per line)', prec),
+        wide(field('Precautionary statements (one per line)', prec)),
+        bandForms.el,
         h('button', { type: 'button', class: 'danger', onclick: () => (rows.splice(rows.indexOf(row), 1), row.el.remove()) }, 'Remove this band'),
         problemBox,
       ),
@@ -825,7 +844,7 @@ function hazardEditor(rev: Revision, set: HazardSet | null, version: number, don
         pictograms: pics.value.split(/[,\s]+/).filter(Boolean),
         signal: signal.value === '' ? null : (signal.value as 'Danger' | 'Warning'),
         precautionary: prec.value.split('\n').map((x) => x.trim()).filter(Boolean),
-        ...(b.forms ? { forms: b.forms } : {}),
+        ...(bandForms.value().length ? { forms: bandForms.value() } : {}),
       }),
     };
     rows.push(row);
@@ -841,9 +860,10 @@ function hazardEditor(rev: Revision, set: HazardSet | null, version: number, don
     { class: 'hazard-form', 'aria-label': 'hazard data' },
     h('p', { class: 'hint' }, 'Each band is a range of mass fraction in which one GHS hazard statement applies. Enter them from the supplier’s safety data sheet or the regulation.'),
     sourceField,
+    setForms.el,
     box,
     h('button', { type: 'button', class: 'secondary', onclick: () => addBand({}) }, 'Add a band'),
-    extra.map((x) => field(`${x.k[0]!.toUpperCase()}${x.k.slice(1)}`, x.el)),
+    extra.map((x) => wide(field(`${x.k[0]!.toUpperCase()}${x.k.slice(1)}`, x.el))),
     field('Note on this version', note),
     problems,
     h('div', { class: 'actions' }, save, h('button', { type: 'button', class: 'secondary', onclick: done }, 'Cancel')),
@@ -851,7 +871,7 @@ function hazardEditor(rev: Revision, set: HazardSet | null, version: number, don
   f.addEventListener('submit', async (e) => {
     e.preventDefault();
     const hazards: Obj = { source: source.value.trim(), bands: rows.map((r) => r.value()) };
-    if (set?.forms) hazards.forms = set.forms;
+    if (setForms.value().length) hazards.forms = setForms.value();
     for (const x of extra) if (x.el.value.trim()) hazards[x.k] = x.el.value.trim();
     put(problems);
     for (const r of rows) put(r.problemBox);
