@@ -284,6 +284,12 @@ describe('the Shelf pages', () => {
       for (const it of items) {
         await page.goto(`${base}/shelf/${kind}/${it.id}`);
         await page.waitForSelector('#history li');
+        // unchanged and without a note: the page itself finds nothing changed and writes nothing
+        await page.click('#save');
+        await page.waitForFunction(() => /Nothing to save/.test(document.getElementById('messages')?.textContent ?? ''));
+        expect((await app.inject({ method: 'GET', url: `${path}/${it.id}` })).json().revision, it.id).toBe(it.revision);
+        // with a note, the service writes the revision: its record must be the same
+        await page.fill('input[name="note"]', 'checked, no change');
         await page.click('#save');
         await page.waitForFunction(() => /Saved as revision/.test(document.getElementById('messages')?.textContent ?? ''));
         const now = (await app.inject({ method: 'GET', url: `${path}/${it.id}` })).json();

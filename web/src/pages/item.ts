@@ -10,7 +10,7 @@ import { api, ApiError, type Problem } from '../lib/api.js';
 import { field, h, put, uid, type Child } from '../lib/dom.js';
 import { quantityField, type Quantity, type QuantityField } from '../lib/fields.js';
 import { fmtSi, formatNumber } from '../lib/format.js';
-import { fieldForProblem, problemWords, provenanceText, revisionChanges, sideBySide, type FieldChange, type RevisionLike } from './shelf-logic.js';
+import { fieldForProblem, problemWords, provenanceText, recordDiff, revisionChanges, sideBySide, type FieldChange, type RevisionLike } from './shelf-logic.js';
 import './shelf.css';
 
 type Obj = Record<string, unknown>;
@@ -463,6 +463,10 @@ async function save(): Promise<void> {
   }
   showProblems([], '');
   page.clear();
+  if (itemId !== null && meta.note === undefined && recordDiff(baseRecord, record, type).length === 0) {
+    page.say(`Nothing to save: the form has the values of revision ${base}. (To record a note alone, write it under “This change”.)`, 'info');
+    return;
+  }
   form.submit.disabled = true;
   try {
     if (itemId === null) {
@@ -533,6 +537,7 @@ function showConflict(theirs: Revision, mine: Obj): void {
             id: 'conflict-reapply',
             onclick: () => {
               base = theirs.revision;
+              baseRecord = theirs.record;
               put(conflictBox);
               void save();
             },
@@ -551,9 +556,11 @@ function showConflict(theirs: Revision, mine: Obj): void {
 function renderHead(rev: Revision | null): void {
   const title = rev ? rev.name : `New ${noun}`;
   document.title = `${title} — brink`;
+  const parts: [string, string][] = rev ? [['form-box', 'Values'], ['status-box', 'Status'], ...(type === 'species' ? ([['measurements', 'Measurements']] as [string, string][]) : []), ['hazards', 'Hazards'], ['history', 'Revisions']] : [];
   put(
     head,
     h('h1', null, title),
+    parts.length ? h('nav', { class: 'item-nav', 'aria-label': 'Parts of this page' }, parts.map(([id, label]) => h('a', { href: `#${id}` }, label))) : null,
     rev
       ? h('span', { class: 'meta' }, `${type === 'species' ? `${rev.kind ?? ''} species` : 'chemical'} “${rev.id}” — revision ${rev.revision}, ${rev.action} by ${rev.author}, ${when(rev.createdAt)}`, rev.retired ? h('span', { class: 'tag retired' }, ' retired') : null)
       : h('span', { class: 'meta' }, type === 'species' ? 'a particle or an enzyme, with how it couples to chemicals' : 'a fuel, product or other solute species act on'),
