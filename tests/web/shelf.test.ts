@@ -190,6 +190,16 @@ describe('the Shelf pages', () => {
     expect(now.retired).toBe(true);
     expect(now.note).toBe('batch used up');
     expect(await page.textContent('#history li[data-revision="5"]')).toContain('in use');
+    // the list hides it, unless asked to show retired items (then marked retired)
+    await page.goto(`${base}/`);
+    await page.waitForSelector('#species tbody tr');
+    expect(await page.textContent('#species')).not.toContain('tarn-bead-7');
+    await page.check('#retired');
+    await page.waitForFunction(() => document.querySelector('#species')?.textContent?.includes('tarn-bead-7'));
+    expect(await page.locator('#species tr.is-retired').allTextContents()).toEqual([expect.stringContaining('retired')]);
+    await page.screenshot({ path: `${SHOTS}/shelf-retired.png`, fullPage: true });
+    await page.click('a[href="/shelf/species/tarn-bead-7"]');
+    await page.waitForSelector('#restore');
     await page.click('#restore');
     await page.waitForSelector('#retire');
     now = (await app.inject({ method: 'GET', url: '/api/species/tarn-bead-7' })).json();
