@@ -26,6 +26,9 @@ async function watched(browser: Browser): Promise<{ page: Page; problems: string
     if (m.type() === 'error' && !m.text().startsWith('Failed to load resource')) problems.push(`console: ${m.text()}`);
   });
   page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
+  // a content-security-policy violation is reported as a console error too; this catches it by name
+  // (added through the browser's debugging protocol, so the policy does not apply to this script)
+  await page.addInitScript(() => document.addEventListener('securitypolicyviolation', (e) => console.error(`CSP: ${e.violatedDirective} blocked ${e.blockedURI || '(inline)'}`)));
   return { page, problems };
 }
 
