@@ -235,6 +235,9 @@ describe('the Shelf pages', () => {
     const hz = await page.textContent('#hazards');
     expect(hz).toContain('H271');
     expect(hz).toContain('safety data sheet take precedence');
+    // the species that use peroxide, linked; catalase makes oxygen from it
+    expect(await page.textContent('#used-by')).toContain('catalase-e3');
+    expect(await page.getAttribute('#used-by a[href="/shelf/species/catalase-e3"]', 'href')).toBe('/shelf/species/catalase-e3');
     await page.screenshot({ path: `${SHOTS}/item-chemical.png`, fullPage: true });
     // a chemical without hazard data says so, never "no hazard"; bands are added through the hazards API
     // (an invented test solute: the band is input to the editor, not a statement about a real chemical)

@@ -43,7 +43,8 @@ const statusBox = h('section', { id: 'status-box', 'aria-labelledby': 'status-h'
 const measurementsBox = h('section', { id: 'measurements', 'aria-labelledby': 'measurements-h' });
 const hazardsBox = h('section', { id: 'hazards', 'aria-labelledby': 'hazards-h' });
 const historyBox = h('section', { id: 'history', 'aria-labelledby': 'history-h' });
-page.main.append(h('p', null, h('a', { href: '/' }, '← Shelf')), head, conflictBox, formBox, statusBox, measurementsBox, hazardsBox, historyBox);
+const usedByBox = h('section', { id: 'used-by', 'aria-labelledby': 'used-by-h' });
+page.main.append(h('p', null, h('a', { href: '/' }, '← Shelf')), head, conflictBox, formBox, statusBox, usedByBox, measurementsBox, hazardsBox, historyBox);
 
 // ---------------------------------------------------------------- the form
 
@@ -556,7 +557,9 @@ function showConflict(theirs: Revision, mine: Obj): void {
 function renderHead(rev: Revision | null): void {
   const title = rev ? rev.name : `New ${noun}`;
   document.title = `${title} — brink`;
-  const parts: [string, string][] = rev ? [['form-box', 'Values'], ['status-box', 'Status'], ...(type === 'species' ? ([['measurements', 'Measurements']] as [string, string][]) : []), ['hazards', 'Hazards'], ['history', 'Revisions']] : [];
+  const parts: [string, string][] = rev
+    ? [['form-box', 'Values'], ['status-box', 'Status'], type === 'species' ? ['measurements', 'Measurements'] : ['used-by', 'Species coupled to it'], ['hazards', 'Hazards'], ['history', 'Revisions']]
+    : [];
   put(
     head,
     h('h1', null, title),
@@ -711,6 +714,32 @@ async function renderMeasurements(rev: Revision): Promise<void> {
             );
           }),
         ),
+  );
+}
+
+/** A chemical's page: the species coupled to it (acting on it, moving in it, or making it). */
+async function renderUsedBy(rev: Revision): Promise<void> {
+  if (type !== 'chemical') return;
+  const { items } = await api<{ items: { id: string; name: string; retired: boolean; typed: Obj }[] }>('/api/species?limit=500&includeRetired=true');
+  const uses = items
+    .map((sp) => {
+      const how: string[] = [];
+      for (const c of Array.isArray(sp.typed.couplings) ? sp.typed.couplings.filter(isObj) : []) {
+        if (c.chemical === rev.id) {
+          if (c.activity !== undefined) how.push(isObj(c.activity) && 'maxRate' in c.activity ? 'turns it over (saturating)' : 'acts on it');
+          if (c.mobility !== undefined) how.push('moves in its gradient');
+        }
+        if (isObj(c.activity) && c.activity.product === rev.id) how.push(`makes it from ${str(c.chemical)}`);
+      }
+      return { sp, how };
+    })
+    .filter((u) => u.how.length > 0);
+  put(
+    usedByBox,
+    h('h2', { id: 'used-by-h' }, 'Species coupled to it'),
+    uses.length === 0
+      ? h('p', { class: 'muted' }, 'No species on the shelf couples to this chemical yet.')
+      : h('ul', null, uses.map(({ sp, how }) => h('li', null, h('a', { href: `/shelf/species/${encodeURIComponent(sp.id)}` }, sp.name), ` (${sp.id})${sp.retired ? ', retired' : ''}: ${how.join('; ')}`))),
   );
 }
 
@@ -914,7 +943,7 @@ async function show(rev: Revision): Promise<void> {
   form = buildForm(rev.typed, () => void save());
   put(formBox, h('h2', null, 'Values'), form.el);
   renderStatus(rev);
-  await Promise.all([renderHistory(rev), renderMeasurements(rev), renderHazards(rev)]);
+  await Promise.all([renderHistory(rev), renderMeasurements(rev), renderHazards(rev), renderUsedBy(rev)]);
 }
 
 async function reloadItem(message: string): Promise<void> {
@@ -936,6 +965,7 @@ void (async () => {
       renderHead(null);
       form = buildForm(type === 'species' ? { kind: 'colloid', couplings: [] } : {}, () => void save());
       put(formBox, type === 'species' && chemicals.length === 0 ? h('p', { class: 'warn' }, 'Add the chemicals first: a species couples to chemicals on the shelf. ', h('a', { href: '/shelf/new?kind=chemical' }, 'New chemical')) : null, form.el);
+      formBox.append(h('p', { class: 'muted' }, `Once the ${noun} is saved, its page takes its hazard data (GHS statements by concentration band) and keeps its revisions.`));
       form.el.querySelector<HTMLInputElement>('input[name="id"]')?.focus();
       return;
     }
