@@ -119,7 +119,10 @@ async function load(): Promise<void> {
   const shownSpecies = chem ? species.items.filter((s) => (s.record.couplings ?? []).some((c) => c.chemical === chem || (c.activity && 'maxRate' in c.activity && c.activity.product === chem))) : species.items;
   const shownChemicals = chem ? chemicals.items.filter((c) => c.id === chem) : chemicals.items;
   const filtered = Boolean(q.value.trim() || kind.value || chem);
-  counts.textContent = `${shownSpecies.length} species and ${shownChemicals.length} chemicals shown${filtered ? ' (filtered)' : ''}${retired.checked ? ', retired ones included' : ''}.`;
+  const cut = [species.total > species.items.length ? `the first ${species.items.length} of ${species.total} species` : '', chemicals.total > chemicals.items.length ? `the first ${chemicals.items.length} of ${chemicals.total} chemicals` : ''].filter(Boolean);
+  counts.textContent =
+    `${shownSpecies.length} species and ${shownChemicals.length} chemicals shown${filtered ? ' (filtered)' : ''}${retired.checked ? ', retired ones included' : ''}.` +
+    (cut.length ? ` Only ${cut.join(' and ')} were read: search to narrow the list.` : '');
 
   const emptyShelf = !filtered && species.total === 0 && chemicals.total === 0;
   if (emptyShelf) {
