@@ -972,7 +972,10 @@ void (async () => {
     const rev = await api<Revision>(`${apiBase}/${encodeURIComponent(itemId)}`);
     await show(rev);
     const saved = new URLSearchParams(location.search).get('saved');
-    if (saved) page.say(`Added to the shelf as revision ${saved}.`, 'ok');
+    if (saved) {
+      page.say(`Added to the shelf as revision ${saved}.`, 'ok');
+      history.replaceState(null, '', location.pathname);
+    }
   } catch (e) {
     if (e instanceof ApiError && e.status === 404) {
       renderHead(null);
