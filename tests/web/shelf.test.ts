@@ -7,7 +7,7 @@
  * value shown at its field; retire and restore; apply a stored measurement; a chemical's hazards).
  * Console errors and page errors are collected: there must be none. Screenshots go to screenshots/.
  */
-import { mkdirSync } from 'node:fs';
+import { mkdirSync, readFileSync } from 'node:fs';
 import type { Browser, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { App } from '../../server/http/app.js';
@@ -329,6 +329,16 @@ describe('the Shelf pages', () => {
     entry.name = 'D-glucose (anhydrous)';
     await page.goto(`${base}/`);
     await page.waitForSelector('#species tbody tr');
+    // export: a brink-shelf file with every item
+    const [dl] = await Promise.all([page.waitForEvent('download'), page.click('#export')]);
+    expect(dl.suggestedFilename()).toMatch(/^brink-shelf-\d{4}-\d{2}-\d{2}\.json$/);
+    const exported = JSON.parse(readFileSync(await dl.path(), 'utf8'));
+    expect(exported.format).toBe('brink-shelf');
+    expect(exported.species.map((x: { id: string }) => x.id)).toContain('ptj-1um-b07');
+    // a file that is not a shelf: nothing written, the problems listed
+    await page.setInputFiles('#import-file', { name: 'notes.json', mimeType: 'application/json', buffer: Buffer.from(JSON.stringify({ format: 'something else' })) });
+    await page.waitForSelector('#import-result .msg.error');
+    expect(await page.textContent('#import-result')).toContain('Nothing was imported');
     await page.setInputFiles('#import-file', { name: 'shelf-export.json', mimeType: 'application/json', buffer: Buffer.from(JSON.stringify(doc)) });
     await page.waitForSelector('#import-conflicts');
     const words = await page.textContent('#import-conflicts');
