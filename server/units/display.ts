@@ -69,7 +69,8 @@ export const DISPLAY_UNITS = {
   rate: [u('1/s', '1/s', 1)],
   wavenumber: [u('1/mm', '1/mm', 1e3), u('1/µm', '1/um', 1e6)],
   speed: [u('nm/s', 'nm/s', 1e-9), u('µm/s', 'um/s', 1e-6), u('mm/s', 'mm/s', 1e-3)],
-  massDensity: [u('g/mL', 'g/mL', 1e3)],
+  /** material densities (g/mL) and mass concentrations typed as such (µg/mL, mg/mL) */
+  massDensity: [u('µg/mL', 'ug/mL', 1e-3), u('mg/mL', 'mg/mL', 1), u('g/mL', 'g/mL', 1e3)],
   molarMass: [u('g/mol', 'g/mol', 1e-3), u('kg/mol', 'kg/mol', 1)],
   viscosity: [u('mPa·s', 'mPa*s', 1e-3)],
   temperature: [u('°C', 'degC', 1, 273.15)],

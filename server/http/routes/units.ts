@@ -13,7 +13,7 @@ import { fmt, fmtWithSd, type DisplayKind } from '../../units/display.js';
 
 /** How each readable quantity is shown (server/units/display.ts). */
 const DISPLAY: Record<keyof typeof DIMENSIONS, DisplayKind> = {
-  dimensionless: 'dimensionless',
+  dimensionless: 'fraction',
   length: 'length',
   time: 'time',
   rate: 'rate',

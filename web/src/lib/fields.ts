@@ -6,6 +6,7 @@
  */
 import { api, ApiError } from './api.js';
 import { debounce, h, uid } from './dom.js';
+import { problemWords } from './words.js';
 
 export type Quantity =
   | 'dimensionless'
@@ -73,12 +74,12 @@ export function quantityField(o: { label: string; quantity: Quantity; sign?: 'po
       const r = await api<ReadAnswer>('/api/units/read', { body: { value: s ? { value: v, sd: s } : v, quantity: o.quantity, sign: o.sign ?? 'any' } });
       if (mine !== seq) return;
       bad = false;
-      out.textContent = `= ${r.display}  (SI ${r.si.toPrecision(4)} ${r.siUnit}${r.sd > 0 ? ` ± ${r.sd.toPrecision(2)}` : ''})`;
+      out.textContent = `= ${r.display}  (SI ${r.siUnit === '1' ? 'fraction ' : ''}${Number(r.si.toPrecision(4))}${r.siUnit === '1' ? '' : ` ${r.siUnit}`}${r.sd > 0 ? ` ± ${Number(r.sd.toPrecision(2))}` : ''})`;
       out.className = 'si ok';
     } catch (e) {
       if (mine !== seq) return;
       bad = true;
-      out.textContent = e instanceof ApiError ? e.message.replace(/^value(\.value|\.sd)?: /, '') : String(e);
+      out.textContent = e instanceof ApiError ? problemWords(e.message.replace(/^value(\.value|\.sd)?: /, '')) : String(e);
       out.className = 'si error';
     }
     input.setAttribute('aria-invalid', String(bad));
