@@ -173,6 +173,10 @@ async function loadSpecies(): Promise<void> {
 }
 const info = (sid: string): SpeciesInfo => species.get(sid) ?? { name: sid, ctx: {} };
 const amount = (sid: string, x: number | null | undefined) => fmtAmountOf(x, info(sid).ctx);
+/** An engine message with its doses (written "2.50e+7 per mL") as the bench writes them for this species. */
+const say = (sid: string | null, text: string) => text.replace(/(\d+(?:\.\d+)?) mol\/m\^3/g, '$1 mM').replace(/(\d+(?:\.\d+)?(?:e[+-]?\d+)?) per mL/g, (_, x: string) => (sid ? amount(sid, Number(x) * 1e6) : fmt(Number(x) * 1e6, 'numberDensity')));
+/** A candidate's warnings in words, without the earlier-onset one the dose-path column already says. */
+const candidateWarnings = (c: Candidate) => c.warnings.filter((w) => w.code !== 'earlier-instability').map((w) => say(c.species, w.message));
 
 function render(): void {
   page.main.replaceChildren();
@@ -189,7 +193,7 @@ function header(): HTMLElement {
   const meta = h(
     'p',
     { class: 'muted' },
-    `Plan ${plan.id} · computed ${when.toLocaleString()} by ${plan.author} · engine ${plan.result.engineVersion}`,
+    `Plan ${plan.id} · computed ${when.toLocaleString(undefined, { dateStyle: 'medium', timeStyle: 'short' })} by ${plan.author} · engine ${plan.result.engineVersion}`,
     plan.rerunOf !== null ? [' · a rerun of ', h('a', { href: `/plans/${plan.rerunOf}` }, `plan ${plan.rerunOf}`), ' on the shelf of its day'] : null,
   );
   const notes = h('p', { class: 'notes' }, plan.notes ? plan.notes : h('span', { class: 'muted' }, 'No notes yet.'));
@@ -320,7 +324,7 @@ function asked(): HTMLElement {
     h('dl', { class: 'facts' }, rows.map(([k, v]) => [h('dt', null, k), h('dd', null, v)])),
     h('details', null, h('summary', null, `Shelf records used (${revRows.length}): the plan keeps their numbers as they were`), h('ul', { class: 'plain cols' }, revRows)),
     warnings.length
-      ? h('div', { class: 'plan-warnings' }, h('h3', null, `What the plan warns of (${warnings.length})`), h('ul', null, warnings.map((w) => h('li', { class: 'warn' }, w.message))))
+      ? h('div', { class: 'plan-warnings' }, h('h3', null, `What the plan warns of (${warnings.length})`), h('ul', null, warnings.map((w) => h('li', { class: 'warn' }, say(null, w.message)))))
       : h('p', { class: 'muted' }, 'The plan gave no general warnings.'),
   );
 }
@@ -402,7 +406,7 @@ function ranked(): HTMLElement {
             ]
           : h('span', { class: 'muted' }, 'no margin dose'),
       ),
-      h('td', null, c.warnings.length ? h('ul', { class: 'plain small' }, c.warnings.map((w) => h('li', null, w.message))) : h('span', { class: 'muted' }, 'none')),
+      h('td', null, candidateWarnings(c).length ? h('ul', { class: 'plain small' }, candidateWarnings(c).map((w) => h('li', null, w))) : h('span', { class: 'muted' }, 'none')),
       h('td', null, h('a', { href: `/plans/${plan.id}/sheet?candidate=${encodeURIComponent(c.species)}` }, 'bench sheet'), h('br'), h('a', { href: `/plans/${plan.id}/outcomes` }, 'outcomes')),
     );
     row.addEventListener('click', (ev) => {
@@ -432,7 +436,7 @@ function ranked(): HTMLElement {
           h(
             'ul',
             { class: 'infeasible' },
-            infeasible.map((c) => h('li', null, h('strong', null, info(c.species).name), ` (${c.species}): `, c.message ?? c.reason ?? 'no reason given', c.warnings.length ? h('ul', { class: 'plain small' }, c.warnings.map((w) => h('li', null, w.message))) : null)),
+            infeasible.map((c) => h('li', null, h('strong', null, info(c.species).name), ` (${c.species}): `, say(c.species, c.message ?? c.reason ?? 'no reason given'), c.warnings.length ? h('ul', { class: 'plain small' }, c.warnings.map((w) => h('li', null, say(c.species, w.message)))) : null)),
           ),
         ]
       : null,
