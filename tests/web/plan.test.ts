@@ -47,6 +47,10 @@ beforeAll(async () => {
     if (r.status() >= 400 && !(r.status() === 409 && r.request().method() === 'PATCH')) problems.push(`HTTP ${r.status()}: ${r.request().method()} ${r.url()}`);
   });
   page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
+  // content-security-policy violations (no inline style or script), added through the debugging protocol
+  await page.addInitScript(() => {
+    document.addEventListener('securitypolicyviolation', (e) => console.error(`CSP: ${e.violatedDirective} blocked ${e.blockedURI || '(inline)'}`));
+  });
 }, 120_000);
 
 afterAll(async () => {

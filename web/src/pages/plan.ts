@@ -766,7 +766,7 @@ function diff(a: Plan, b: Plan): HTMLElement {
   }
   const ids = [...new Set([...a.result.candidates.map((c) => c.species), ...b.result.candidates.map((c) => c.species)])];
   const dose = (c: Candidate | undefined) => (!c ? 'not in the plan' : !c.feasible ? `does not cross (${c.reason ?? ''})` : c.anyDose ? 'any dose' : amount(c.species, c.threshold!.density));
-  const band = (c: Candidate | undefined) => (!c?.band ? '—' : `${c.band.p05 === null ? 'above the cap' : amount(c.species, c.band.p05)} – ${c.band.p95 === null ? 'above the cap' : amount(c.species, c.band.p95)}`);
+  const band = (c: Candidate | undefined) => (!c?.band ? '—' : c.band.feasibleFraction === 0 && c.band.alreadyPast === 0 ? 'no draw crosses below the cap' : `${c.band.p05 === null ? 'above the cap' : amount(c.species, c.band.p05)} – ${c.band.p95 === null ? 'above the cap' : amount(c.species, c.band.p95)}`);
   const state = (c: Candidate | undefined) => c?.atMargin?.state ?? '—';
   const ratio = (x: Candidate | undefined, y: Candidate | undefined) => {
     const p = x?.threshold?.density;
