@@ -38,9 +38,10 @@ function handJacobian(mix: Mixture, k: number): number[][] {
   const mu = (m: number, s: number) => mix.species[m]!.couplings.find((c) => c.chemical === chems[s]!.id)?.mobility ?? 0;
   const alpha = (m: number, s: number) => {
     const c = mix.species[m]!.couplings.find((x) => x.chemical === chems[s]!.id);
-    if (!c) return 0;
-    if (c.activity.kind !== 'constant') throw new Error('this hand Jacobian takes constant activities only');
-    return c.activity.rate;
+    if (!c || !c.activity) return 0;
+    const a = c.activity;
+    if (a.kind !== 'constant') throw new Error('this hand Jacobian takes constant activities only');
+    return a.rate;
   };
   const J: number[][] = [];
   for (let m = 0; m < M; m++) {

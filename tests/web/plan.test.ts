@@ -113,7 +113,7 @@ describe('the Plan page', () => {
     expect(text).toContain('k = nπ/L (sealed walls)');
     expect(text).toContain('fastest: mode 1');
     // one dot per allowed mode (and the ring of the fastest)
-    expect(await disp.locator('svg circle').count()).toBeGreaterThanOrEqual(5);
+    expect(await disp.locator('svg g[aria-label="dot"] circle').count()).toBeGreaterThanOrEqual(5 + 1);
     expect(await page.textContent('#detail')).toMatch(/The fastest mode \(n = 1\) grows at .* per hour/);
     // composition in words, the band's distribution (21 quantiles), the fuel sweep and the state map
     const detail = (await page.textContent('#detail'))!;
@@ -181,6 +181,27 @@ describe('the Plan page', () => {
     await page.screenshot({ path: `${shots}/plan-full.png`, fullPage: true });
     expect(problems).toEqual([]);
   }, 90_000);
+
+  it('a plan stored before bands kept their distribution shows the three quantiles and says so', async () => {
+    const p = await browser.newPage({ viewport: { width: 1280, height: 800 } });
+    const errs: string[] = [];
+    p.on('pageerror', (e) => errs.push(e.message));
+    // the plan as an older service stored it: no band.quantiles
+    await p.route(`**/api/plans/${planId}`, async (route) => {
+      const r = await route.fetch();
+      const body = await r.json();
+      for (const c of body.result.candidates) if (c.band) delete c.band.quantiles;
+      await route.fulfill({ response: r, json: body });
+    });
+    await p.goto(`${base}/plans/${planId}`);
+    await p.waitForSelector('#detail svg[aria-label^="Share of the 40 Monte Carlo draws"]');
+    const text = (await p.textContent('#detail'))!;
+    expect(text).toContain('three quantiles');
+    expect(text).toContain('only the 5 %, 50 % and 95 % points are known');
+    expect(await p.locator('#detail figure', { has: p.locator('svg[aria-label^="Share of the 40"]') }).locator('svg g[aria-label="dot"] circle').count()).toBe(3);
+    expect(errs).toEqual([]);
+    await p.close();
+  }, 30_000);
 
   it('an unknown plan says so in words', async () => {
     const p = await browser.newPage();
