@@ -652,7 +652,7 @@ function fuelPanel(c: Candidate): HTMLElement | null {
       h('p', null, hi / lo < 1.01 ? `Over this range the threshold hardly depends on the level of ${chem} (${amount(c.species, ok[0]!.dose / sc.of(1))}): more ${chem} makes the pattern no easier to start; it mainly sets how long the fuel lasts.` : `From ${fmt(sw[0]!.concentration, 'concentration')} to ${fmt(sw[sw.length - 1]!.concentration, 'concentration')} the threshold moves by a factor of ${formatNumber(hi / lo, 3)}.`),
     );
   } else body.push(h('p', { class: 'muted' }, `At no level of ${chem} in the sweep does ${c.species} cross below its cap.`));
-  if (not.length) body.push(h('ul', { class: 'plain small' }, not.map((x) => h('li', null, `${fmt(x.c, 'concentration')}: does not cross (${x.r!.reason ?? 'no reason given'})`))));
+  if (not.length) body.push(h('ul', { class: 'plain small' }, not.map((x) => h('li', null, `${fmt(x.c, 'concentration')}: does not cross (${(x.r!.reason ?? 'no reason given').replace(/-/g, ' ')})`))));
   const times = rows.filter((x) => x.r?.growthTime !== null && x.r?.growthTime !== undefined && x.r.fuelLifetime !== null && x.r.fuelLifetime < 3 * x.r.growthTime!);
   if (times.length) body.push(h('p', { class: 'flag' }, `At ${times.map((x) => fmt(x.c, 'concentration')).join(', ')} the ${chem} runs out within three growth times at the margin dose: the pattern may not have time to form.`));
   return panel(`Threshold against the level of ${chem}`, ...body);
@@ -765,7 +765,7 @@ function diff(a: Plan, b: Plan): HTMLElement {
     if (x !== y) changed.push(`${k}: ${x === undefined ? 'not used' : `revision ${x}`} → ${y === undefined ? 'not used' : `revision ${y}`}`);
   }
   const ids = [...new Set([...a.result.candidates.map((c) => c.species), ...b.result.candidates.map((c) => c.species)])];
-  const dose = (c: Candidate | undefined) => (!c ? 'not in the plan' : !c.feasible ? `does not cross (${c.reason ?? ''})` : c.anyDose ? 'any dose' : amount(c.species, c.threshold!.density));
+  const dose = (c: Candidate | undefined) => (!c ? 'not in the plan' : !c.feasible ? `does not cross (${(c.reason ?? 'no reason given').replace(/-/g, ' ')})` : c.anyDose ? 'any dose' : amount(c.species, c.threshold!.density));
   const band = (c: Candidate | undefined) => (!c?.band ? '—' : c.band.feasibleFraction === 0 && c.band.alreadyPast === 0 ? 'no draw crosses below the cap' : `${c.band.p05 === null ? 'above the cap' : amount(c.species, c.band.p05)} – ${c.band.p95 === null ? 'above the cap' : amount(c.species, c.band.p95)}`);
   const state = (c: Candidate | undefined) => c?.atMargin?.state ?? '—';
   const ratio = (x: Candidate | undefined, y: Candidate | undefined) => {
