@@ -203,6 +203,27 @@ describe('the Plan page', () => {
     await p.close();
   }, 30_000);
 
+  it('a plan where no candidate crosses explains what to do, lists the reasons, and draws a typed dose on request', async () => {
+    const r = await postPlan(app, { ...planRequest, name: 'only a self-repelling bead', candidates: ['catb-0.22-l04'], uncertainty: { samples: 10, seed: 2 } });
+    expect(r.statusCode).toBe(201);
+    const p = await browser.newPage({ viewport: { width: 1280, height: 800 } });
+    const errs: string[] = [];
+    p.on('pageerror', (e) => errs.push(e.message));
+    await p.goto(`${base}/plans/${r.json().id}`);
+    await p.waitForSelector('ul.infeasible');
+    expect(await p.textContent('section:has(#ranked-h) .empty')).toMatch(/No candidate crosses the stationary boundary below its dose cap/);
+    expect(await p.textContent('ul.infeasible')).toContain('self-repelling');
+    const detail = (await p.textContent('#detail'))!;
+    expect(detail).toContain('does not cross below its cap: type a dose');
+    expect(detail).toContain('No draw has a threshold between 0 and the cap');
+    await p.fill('#detail .field.quantity input', '1e7 1/mL');
+    await p.waitForSelector('#detail output.si.ok');
+    await p.click('#detail button:has-text("Draw")');
+    await p.waitForFunction(() => document.querySelector('#detail')?.textContent?.includes('No allowed mode grows at this dose'));
+    expect(errs).toEqual([]);
+    await p.close();
+  }, 60_000);
+
   it('an unknown plan says so in words', async () => {
     const p = await browser.newPage();
     const errs: string[] = [];
