@@ -25,5 +25,6 @@ export { largestSecularRoot, secularFunction, secularResidual } from './secular.
 export { reducedCharacteristic } from './characteristic.js';
 export * as constants from './constants.js';
 export { stationaryDoseClosedForm, firstWavenumber } from './dose.js';
+export { dispersion, type Dispersion, type DispersionPoint, type DispersionOptions } from './dispersion.js';
 export { doseCap, findDose, fuelSweep, growth, pastBoundary, perturb, scaleBase, screen, stateMap, thresholdBand, withDose } from './planner.js';
 export type { Boundary, CandidateResult, DoseOptions, DoseSearch, Dosing, ReasonCode, ScreenOptions, StateMap, StateMapOptions, ThresholdBand, UncertaintyOptions } from './planner.js';

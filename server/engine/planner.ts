@@ -830,6 +830,13 @@ export interface ThresholdBand {
   /** P(crossed at dose) for each requested dose */
   probability: { density: number; probability: number }[];
   /**
+   * The empirical distribution of the threshold dose: the type-7 quantile at each of the
+   * BAND_LEVELS probabilities p = 0, 0.05, …, 1 over every draw (m⁻³; 0 for a draw already past,
+   * null above the cap), so a page can draw its cumulative distribution (docs/model.md §7).
+   * Absent from plans stored before it was added.
+   */
+  quantiles: { p: number; dose: number | null }[];
+  /**
    * How the draws were computed: `fastDraws` by the fast exact path (docs/model.md §7: the rank-one
    * determinant's threshold, certified by Hurwitz counts, exact rather than bisected), `fallbackDraws`
    * by the general per-draw search (a draw the fast path could not certify, or fast off or not applicable).
@@ -850,6 +857,9 @@ export interface BandHooks {
 export function baseDraws(base: Mixture, u: UncertaintyOptions): Mixture[] {
   return Array.from({ length: u.samples }, (_, i) => perturb(base, new Random(streamSeed(u.seed, i, ''))));
 }
+
+/** The probabilities of a band's `quantiles`: 0, 0.05, …, 1 (21 levels). */
+export const BAND_LEVELS: readonly number[] = Array.from({ length: 21 }, (_, i) => i / 20);
 
 /** Linear interpolation between order statistics (the "type 7" sample quantile); +∞ propagates. */
 function quantile(sorted: number[], q: number): number {
@@ -981,6 +991,7 @@ export function thresholdBand(base: Mixture, d: Species, o: DoseOptions, u: Unce
     p95: orNull(p95),
     aboveCap: { median: !Number.isFinite(median), p05: !Number.isFinite(p05), p95: !Number.isFinite(p95) },
     probability: doses.map((x, j) => ({ density: x, probability: u.samples > 0 ? crossedAt[j]! / u.samples : 0 })),
+    quantiles: u.samples > 0 ? BAND_LEVELS.map((p) => ({ p, dose: orNull(q(p)) })) : [],
     fastDraws,
     fallbackDraws: u.samples - fastDraws,
   };

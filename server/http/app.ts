@@ -86,6 +86,7 @@ export const COMPUTE_ROUTES = [
   'POST /api/analyze/mixture',
   'POST /api/plans',
   'POST /api/plans/:id/rerun',
+  'POST /api/plans/:id/candidates/:species/spectrum',
   'POST /api/fits/msd',
   'POST /api/fits/kinetics',
   'POST /api/fits/drift',

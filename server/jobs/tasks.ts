@@ -11,6 +11,7 @@
 import type { QuantalFitOptions, runQuantalFit } from '../calibrate/quantal.js';
 import type { FitMethod, FitOptions, runFit } from '../calibrate/run.js';
 import type { AnalysisResult } from '../engine/analyze.js';
+import type { Dispersion, DispersionOptions } from '../engine/dispersion.js';
 import type { Mixture, Species } from '../engine/types.js';
 import type { PlanRequest } from '../shelf/plans.js';
 import type { PlanResult } from '../shelf/run-plan.js';
@@ -26,6 +27,8 @@ export interface Tasks {
   plan: { input: { base: Mixture; candidates: Species[]; req: PlanRequest }; output: PlanResult };
   /** One linear-stability analysis (engine/analyze.ts). */
   analyze: { input: { mixture: Mixture }; output: AnalysisResult };
+  /** Growth rate against wavenumber of one mixture, with the allowed modes (engine/dispersion.ts). */
+  dispersion: { input: { mixture: Mixture; options?: DispersionOptions }; output: Dispersion };
   /** A calibration fit from raw data (calibrate/run.ts; the options already parsed). */
   fit: { input: { method: FitMethod; data: unknown; options: FitOptions[FitMethod] }; output: ReturnType<typeof runFit> };
   /** A quantal dose–response fit from a table (calibrate/quantal.ts; the options already parsed). */
@@ -49,6 +52,10 @@ export const LOADERS: { [K in TaskKind]: () => Promise<TaskFunction<K>> } = {
   analyze: async () => {
     const { analyze } = await import('../engine/analyze.js');
     return (input) => analyze(input.mixture);
+  },
+  dispersion: async () => {
+    const { dispersion } = await import('../engine/dispersion.js');
+    return (input) => dispersion(input.mixture, input.options);
   },
   fit: async () => {
     const { runFit } = await import('../calibrate/run.js');

@@ -7,6 +7,9 @@
  *   PATCH /api/plans/:id          rename / annotate { baseRevision, name?, notes?, author?, note? }: a new revision
  *                                 of the name and notes, 409 stale-revision when baseRevision is not the current
  *   POST  /api/plans/:id/rerun    the same request on the current shelf as a job: a new plan   {}
+ *   POST  /api/plans/:id/candidates/:species/spectrum
+ *                                 growth rate against wavenumber of the plan's base with that candidate at a dose
+ *                                 (the margin dose unless `dose` is given), on the plan's stored SI inputs  { dose?, points? }
  *
  * Validation, unknown ids and the work budget (server/jobs/budget.ts) answer 400 / 404 before a
  * job starts; the job (GET /api/jobs/:id) then carries the plan's id, or the error it ended with.
@@ -14,9 +17,16 @@
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
+import { withDose, type Dosing } from '../../engine/planner.js';
+import type { Mixture, Species } from '../../engine/types.js';
 import { WORK_BUDGET } from '../../jobs/budget.js';
 import type { Job } from '../../jobs/registry.js';
-import { planRequestSchema } from '../../shelf/plans.js';
+import { quantity } from '../../schema/mixture.js';
+import { keySchema } from '../../schema/shelf.js';
+import { NotFoundError } from '../../store/shelf.js';
+import { DomainError } from '../../shelf/errors.js';
+import { planRequestSchema, type PlanResult } from '../../shelf/plans.js';
+import { DIMENSIONS } from '../../units/index.js';
 import { authorship } from '../access.js';
 
 const params = z.object({ id: z.coerce.number().int().min(1) });
@@ -83,5 +93,44 @@ export const planRoutes: FastifyPluginAsync = async (base) => {
       body: z.strictObject({}).nullish(),
     },
     handler: async (req, reply) => accepted(reply, app.plans.rerun(req.params.id, req.accessHolder)),
+  });
+  app.post('/api/plans/:id/candidates/:species/spectrum', {
+    schema: {
+      tags,
+      summary: "Growth rate against wavenumber (the dispersion relation) of a plan's base with one candidate at a dose, with the chamber's allowed modes and the fastest one",
+      description:
+        "Computed on the plan's stored SI inputs (its base mixture and the candidate as the plan had them, the plan's dosing), so it matches the plan whatever the shelf holds now. `dose` (number density) defaults to the candidate's margin dose — the dose its growth time and wavelength were reported at — and must not exceed its dose cap. Answers { dose, doseIs: 'margin' | 'given', dosing, curve: [{ wavenumber (1/m), growthRate, stationary, oscillatory, frequency (1/s) }], modes: the allowed modes (sealed k = nπ/L, periodic k = 2πn/L; empty when unbounded) each with its index, modesInRange, range, fastest, state }. A finite chamber's curve between its modes is a guide to the eye.",
+      params: z.object({ id: z.coerce.number().int().min(1), species: keySchema }),
+      body: z
+        .strictObject({
+          dose: quantity(DIMENSIONS.numberDensity, 'positive', 'the dopant dose (default: the margin dose of the plan)').optional(),
+          points: z.number().int().min(20).max(400).optional().describe('points of the continuous curve (20 to 400, default 160)'),
+        })
+        .nullish(),
+    },
+    handler: async (req) => {
+      const plan = app.plans.get(req.params.id) as { inputs: { base: Mixture; candidates: Species[] }; result: PlanResult; request: { dosing?: Dosing; margin?: number } };
+      const d = plan.inputs.candidates.find((c) => c.id === req.params.species);
+      const c = plan.result.candidates.find((x) => x.species === req.params.species);
+      if (!d || !c) throw new NotFoundError(`plan ${req.params.id} has no candidate "${req.params.species}"`);
+      const dosing: Dosing = plan.request.dosing ?? 'add';
+      let dose: number;
+      let doseIs: 'margin' | 'given';
+      if (req.body?.dose) {
+        dose = req.body.dose.value;
+        doseIs = 'given';
+        if (dose > c.cap.density * (1 + 1e-9)) throw new DomainError('dose-above-cap', `the dose ${(dose * 1e-6).toPrecision(3)} per mL is above the candidate's dose cap of ${(c.cap.density * 1e-6).toPrecision(3)} per mL`);
+      } else {
+        // the margin dose as the screen took it (engine/planner.ts screen): margin × threshold, within a window and the cap
+        if (!c.feasible || !c.threshold || c.anyDose || !(c.threshold.density > 0))
+          throw new DomainError('no-margin-dose', `"${c.species}" has no margin dose in this plan (${c.feasible ? 'any dose crosses' : 'it does not cross the boundary below its cap'}): give a dose`);
+        const x = c.threshold.density;
+        dose = Math.min(x * (plan.request.margin ?? 1.25), c.window ? Math.sqrt(x * c.window.upTo) : Infinity, c.cap.density);
+        doseIs = 'margin';
+      }
+      const mixture = withDose(plan.inputs.base, d, dose, dosing);
+      const out = await app.compute('dispersion', { mixture, options: req.body?.points ? { points: req.body.points } : {} });
+      return { plan: req.params.id, candidate: d.id, dose, doseIs, dosing, ...out };
+    },
   });
 };
