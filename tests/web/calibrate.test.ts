@@ -167,4 +167,115 @@ describe('the Calibrate page', () => {
     expect(errors).toEqual([]);
     await page.close();
   }, 90_000);
+  it('fits kinetics and drift, and applies a drift fit to the chosen coupling', async () => {
+    // Treloar's puromycin rates (treated cells), the published table behind tests/calibrate/: columns without units
+    const puromycin = readFileSync(`${root}tests/calibrate/puromycin-treated.csv`, 'utf8');
+    const { page, errors } = await open('/calibrate?species=ptj-1um-b07');
+    await page.waitForFunction(() => (document.getElementById('species') as HTMLSelectElement).value === 'ptj-1um-b07');
+    await page.selectOption('#method', 'kinetics');
+    await page.fill('#data', puromycin);
+    await page.click('#run');
+    await page.waitForSelector('#parameters');
+    const k = (await app.inject({ method: 'POST', url: '/api/fits/kinetics', payload: { data: puromycin, options: {} } })).json();
+    const rows = await page.$$eval('#parameters tbody tr', (trs) => trs.map((tr) => tr.textContent ?? ''));
+    const [vmax, vmaxSd] = readValue(rows.find((r) => r.includes('maxRate'))!);
+    expect(Math.abs(vmax - k.parameters.maxRate.value)).toBeLessThanOrEqual(0.05 * vmaxSd);
+    const svg = await page.textContent('figure svg');
+    expect(svg).toContain('substrate concentration (conc; no unit given)');
+    // no turnover per particle and no units: the page says why it cannot go on the shelf
+    await page.click('#store');
+    await page.waitForSelector('#apply-blocked');
+    expect(await page.textContent('#apply-blocked')).toMatch(/no turnover per particle/);
+    expect(await page.isDisabled('#apply-button')).toBe(true);
+    await page.screenshot({ path: `${shots}/calibrate-kinetics.png`, fullPage: true });
+
+    // drift: invented velocities against a gradient (the same table as tests/http/calibrate.test.ts)
+    const drift = 'gradient [mM/mm],velocity [um/s]\n-2,0.21\n-1,0.09\n1,-0.11\n2,-0.19\n3,-0.31\n';
+    await page.selectOption('#method', 'drift');
+    await page.selectOption('#chemical', 'h2o2');
+    await page.fill('#data', drift);
+    await page.click('#run');
+    await page.waitForSelector('#parameters');
+    const svgs = await page.$$eval('figure svg', (x) => x.map((s) => s.textContent ?? ''));
+    expect(svgs[0]).toContain('concentration gradient (mM/mm)');
+    expect(svgs[0]).toContain('drift velocity (nm/s)'); // 0.31 µm/s reads 310 nm/s (format.ts picks the unit)
+    const dr = (await app.inject({ method: 'POST', url: '/api/fits/drift', payload: { data: drift, options: {} } })).json();
+    await page.click('#store');
+    await page.waitForSelector('#apply-table');
+    expect(await page.textContent('#apply-table')).toContain('50 ± 10 µm²/(s·mM)');
+    await page.click('#apply-button');
+    await page.waitForSelector('#applied');
+    const sp = (await app.inject({ method: 'GET', url: '/api/species/ptj-1um-b07' })).json();
+    const mu = sp.record.couplings.find((c: { chemical: string }) => c.chemical === 'h2o2').mobility;
+    expect(Math.abs(mu.si - dr.parameters.mobility.value)).toBeLessThanOrEqual(0.05 * dr.parameters.mobility.sd);
+    await page.screenshot({ path: `${shots}/calibrate-drift.png`, fullPage: true });
+    expect(errors).toEqual([]);
+    await page.close();
+  }, 90_000);
+  it('applies a kinetics fit with the enzyme concentration of the assay: the saturating activity of the chosen coupling', async () => {
+    // invented initial rates of the demo catalase lot (a made-up assay at 10 nM enzyme)
+    const rates = 'substrate [mM],rate [mM/s]\n10,0.23\n20,0.39\n50,0.78\n100,1.09\n200,1.44\n400,1.66\n';
+    const { page, errors } = await open('/calibrate?species=catalase-e3&method=kinetics');
+    await page.waitForFunction(() => (document.getElementById('species') as HTMLSelectElement).value === 'catalase-e3');
+    expect(await page.inputValue('#method')).toBe('kinetics');
+    expect(await page.inputValue('#chemical')).toBe('h2o2');
+    await page.fill('#kinetics-options input[placeholder="e.g. 10 nM"]', '10 nM');
+    await page.fill('#data', rates);
+    await page.click('#run');
+    await page.waitForSelector('#parameters');
+    const k = (await app.inject({ method: 'POST', url: '/api/fits/kinetics', payload: { data: rates, options: { enzymeConcentration: '10 nM' } } })).json();
+    const turnover = k.parameters.maxRatePerParticle as { value: number; sd: number };
+    await page.click('#store');
+    await page.waitForSelector('#apply-table');
+    const preview = (await page.textContent('#apply-table'))!;
+    expect(preview).toContain('80 ± 20 mM'); // the Michaelis constant on the demo shelf now
+    expect(preview).toMatch(/h2o2: maximal turnover per particle/);
+    await page.click('#apply-button');
+    await page.waitForSelector('#applied');
+    const sp = (await app.inject({ method: 'GET', url: '/api/species/catalase-e3' })).json();
+    const act = sp.record.couplings.find((c: { chemical: string }) => c.chemical === 'h2o2').activity;
+    expect(Math.abs(act.maxRate.si - turnover.value)).toBeLessThanOrEqual(0.05 * turnover.sd);
+    expect(Math.abs(act.michaelis.si - k.parameters.michaelis.value)).toBeLessThanOrEqual(0.05 * k.parameters.michaelis.sd);
+    expect(act.product).toBe('o2'); // kept from the coupling
+    await page.screenshot({ path: `${shots}/calibrate-kinetics-applied.png`, fullPage: true });
+    expect(errors).toEqual([]);
+    await page.close();
+  }, 90_000);
+  it('fits tracked positions: the MSD from the tracks, with error bars from their covariance and a chi-square', async () => {
+    // invented 2D random walks (a seeded generator, D = 0.2 µm²/s, frame 0.1 s): 40 tracks of 80 positions
+    let seed = 7;
+    const uniform = () => ((seed = (seed * 1103515245 + 12345) % 2 ** 31) + 0.5) / 2 ** 31;
+    const gauss = () => Math.sqrt(-2 * Math.log(uniform())) * Math.cos(2 * Math.PI * uniform());
+    const step = Math.sqrt(2 * 0.2 * 0.1);
+    const lines = ['track,t [s],x [um],y [um]'];
+    for (let k = 1; k <= 40; k++) {
+      let x = 0;
+      let y = 0;
+      for (let i = 0; i < 80; i++) {
+        lines.push(`${k},${(i * 0.1).toFixed(1)},${x.toFixed(4)},${y.toFixed(4)}`);
+        x += step * gauss();
+        y += step * gauss();
+      }
+    }
+    const tracks = `${lines.join('\n')}\n`;
+    const { page, errors } = await open('/calibrate');
+    // as a paste does: page.fill types 100 kB into a textarea at about 3 kB/s in headless Chromium
+    await page.$eval('#data', (el, text) => {
+      (el as HTMLTextAreaElement).value = text;
+      el.dispatchEvent(new Event('input', { bubbles: true }));
+    }, tracks);
+    await page.click('#run');
+    await page.waitForSelector('#parameters');
+    const api = (await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: tracks, options: { model: 'passive-2d' } } })).json();
+    expect(api.weighting).toBe('gls-covariance');
+    expect(await page.textContent('#goodness')).toMatch(new RegExp(`Reduced chi-square [\\d.]+ \\(chi-square [\\d.]+ on ${api.dof} degrees of freedom`));
+    expect(await page.textContent('#goodness')).toMatch(/covariance of the MSD between lags/);
+    expect(await page.$$('#understated')).toHaveLength(0);
+    const [shown, shownSd] = readValue((await page.textContent('#parameters tbody tr:first-child'))!);
+    expect(Math.abs(shown * 1e-12 - api.parameters.diffusivity.value)).toBeLessThanOrEqual(0.05 * shownSd * 1e-12);
+    expect(await page.textContent('figure figcaption')).toMatch(/bars ± 1 sd/);
+    await page.screenshot({ path: `${shots}/calibrate-tracks.png`, fullPage: true });
+    expect(errors).toEqual([]);
+    await page.close();
+  }, 90_000);
 });

@@ -173,7 +173,7 @@ const PARAM_WORDS: Record<string, string> = {
   speed: 'swimming speed v',
   rotationTime: 'rotation time τ',
   offset: 'offset c (localisation error)',
-  effectiveDiffusivity: 'long-time diffusivity D + v²τ/…',
+  effectiveDiffusivity: 'long-time diffusivity',
   maxRate: 'maximal rate V (per volume)',
   michaelis: 'Michaelis constant K_M',
   maxRatePerParticle: 'maximal turnover per particle (the shelf’s maxRate)',
@@ -196,7 +196,12 @@ interface Unit {
   label: string;
   /** 1 label = factor SI */
   factor: number;
+  /** a column without a unit: its name (the numbers are as in the file) */
+  asInFile?: string;
 }
+
+/** An axis label: the quantity and its unit, or the file's column when the file gave no unit. */
+const withUnit = (name: string, u: Unit) => (u.asInFile !== undefined ? `${name} (${u.asInFile}; no unit given)` : `${name} (${u.label})`);
 
 /** The display unit for values in the SI unit the API names, chosen by the largest magnitude. */
 function displayUnit(siUnit: string, values: number[]): Unit {
@@ -217,7 +222,7 @@ function displayUnit(siUnit: string, values: number[]): Unit {
     return { label: u.label, factor: u.factor };
   }
   const asInFile = /^(.*) \(as in the file\)$/.exec(siUnit);
-  if (asInFile) return { label: `as in the file (${asInFile[1]})`, factor: 1 };
+  if (asInFile) return { label: '', factor: 1, asInFile: asInFile[1]! };
   return { label: siUnit, factor: 1 };
 }
 
@@ -243,6 +248,8 @@ function storedText(q: Stored, siUnit: string, u = displayUnit(siUnit, [q.si])):
   const unit = u.label ? ` ${u.label}` : '';
   return q.sd > 0 ? `${formatNumber(q.si / u.factor, 4)} ± ${formatNumber(q.sd / u.factor, 2)}${unit}` : `${formatNumber(q.si / u.factor, 4)}${unit}`;
 }
+
+const cap = (s: string) => s.charAt(0).toUpperCase() + s.slice(1);
 
 /** True when positive values span at least a decade (a log axis shows them better). */
 function spansDecades(values: number[]): boolean {
@@ -293,6 +300,15 @@ const msdRadius = quantityField({ label: 'Fix the rotation time from a radius (o
 const msdTemperature = quantityField({ label: 'Temperature (default 25 °C)', quantity: 'temperature', sign: 'positive', placeholder: 'e.g. 25 degC' });
 const useRadiusMsd = h('button', { type: 'button', class: 'secondary', id: 'msd-species-radius' }, 'Use the species’ radius');
 const activeOnly = h('div', { class: 'row', id: 'active-options' }, msdRadius.el, useRadiusMsd, msdTemperature.el);
+const maxLag = quantityField({ label: 'Largest lag (default a quarter of the median track)', quantity: 'time', sign: 'positive', placeholder: 'e.g. 5 s' });
+const lagsInput = h('input', { type: 'number', id: 'lags', min: 2, max: 40, step: 1, placeholder: '16' });
+const tracksOptions = h(
+  'details',
+  { id: 'tracks-options' },
+  h('summary', null, 'Tracked positions: lags'),
+  h('p', { class: 'hint' }, 'Used only when the data are positions (a first column named track): the MSD and its covariance between lags are computed from the tracks at log-spaced lags.'),
+  h('div', { class: 'row' }, maxLag.el, field('Number of lags (2 to 40, default 16)', lagsInput)),
+);
 const msdOptions = h(
   'fieldset',
   { id: 'msd-options' },
@@ -300,6 +316,7 @@ const msdOptions = h(
   h('div', { class: 'row' }, field('MSD model', modelSelect), field('Weighting', weightingSelect)),
   h('div', { class: 'check' }, offsetBox, h('label', { for: 'offset' }, 'also fit a constant offset (the localisation error of the tracking)')),
   activeOnly,
+  tracksOptions,
 );
 
 const enzymeConc = quantityField({ label: 'Enzyme concentration in the assay', quantity: 'concentration', sign: 'positive', placeholder: 'e.g. 10 nM' });
@@ -357,7 +374,7 @@ const form = h(
   speciesSet,
   h('div', { class: 'actions' }, fitButton, h('span', { class: 'muted', id: 'fit-status', role: 'status' })),
 );
-const results = h('section', { id: 'results', 'aria-labelledby': 'results-title', 'aria-live': 'polite' });
+const results = h('section', { id: 'results', 'aria-labelledby': 'results-title' });
 
 page.main.append(
   h('h1', null, 'Calibrate'),
@@ -399,6 +416,7 @@ function showFor(m: Method): void {
   seOptions.hidden = m !== 'stokes-einstein';
   dataSet.hidden = m === 'stokes-einstein';
   activeOnly.hidden = !modelSelect.value.startsWith('active');
+  fitButton.textContent = m === 'stokes-einstein' ? 'Compute' : 'Fit';
   put(columnsHint, def.columns ? ['Columns by position: ', def.columns] : null);
   dataBox.placeholder = def.placeholder;
   chemicalField.hidden = !(m === 'kinetics' || m === 'drift');
@@ -524,6 +542,13 @@ function buildRequest(): { path: string; body: Record<string, unknown> } | { pro
     options = { model: modelSelect.value };
     if (offsetBox.checked) options.offset = true;
     if (weightingSelect.value) options.weighting = weightingSelect.value;
+    const ml = q(maxLag, 'largest lag');
+    if (ml !== undefined) options.maxLag = ml;
+    if (lagsInput.value.trim()) {
+      const n = Number(lagsInput.value);
+      if (!Number.isInteger(n) || n < 2 || n > 40) problems.push('number of lags: a whole number from 2 to 40');
+      else options.lags = n;
+    }
     if (modelSelect.value.startsWith('active')) {
       const radius = q(msdRadius, 'radius');
       const temperature = q(msdTemperature, 'temperature');
@@ -568,15 +593,15 @@ async function runFit(): Promise<void> {
     if (mine !== seq) return;
     current = { method: m, request: m === 'stokes-einstein' ? req.body : { method: m, ...req.body, ...(fileName ? { fileName } : {}) }, fileName, at: new Date(), result };
     render(current);
+    put(document.getElementById('fit-status')!, 'done: the result is below');
+    document.getElementById('results-title')?.focus();
   } catch (e) {
     if (mine !== seq) return;
     page.fail(e);
+    put(document.getElementById('fit-status')!, 'the fit failed');
     put(results, h('div', { class: 'empty failed', id: 'failed' }, h('p', null, h('strong', null, 'The fit failed'), ': nothing is shown and nothing was stored. The message above says why; correct the data or the options and fit again.')));
   } finally {
-    if (mine === seq) {
-      fitButton.disabled = false;
-      put(document.getElementById('fit-status')!, '');
-    }
+    if (mine === seq) fitButton.disabled = false;
   }
 }
 
@@ -585,7 +610,7 @@ async function runFit(): Promise<void> {
 function header(f: Fitted, title: string): Child[] {
   const rows = (f.result as { input?: { rows: number } }).input?.rows;
   return [
-    h('h2', { id: 'results-title' }, title),
+    h('h2', { id: 'results-title', tabindex: -1 }, title),
     h(
       'p',
       { class: 'muted' },
@@ -630,6 +655,7 @@ function renderFit(f: Fitted, r: FitRun): void {
   const y = r.fitted.map((v, i) => v + r.residuals[i]!);
   const sd = r.sd ?? r.tracks?.sd;
   const ux = displayUnit(ax.x.si, r.x);
+  const xAll = (pts: { x: number }[]) => pts.map((d) => d.x);
   const uy = displayUnit(ax.y.si, y);
   const logX = r.method === 'msd' ? spansDecades(r.x) : spansDecades(r.x) && Math.max(...r.x) / Math.min(...r.x) >= 100;
   const fitted = curve(r);
@@ -641,11 +667,11 @@ function renderFit(f: Fitted, r: FitRun): void {
   const pts = r.x.map((x, i) => ({ x: x / ux.factor, y: y[i]! / uy.factor, sd: sd ? sd[i]! / uy.factor : null, res: r.residuals[i]! / uy.factor }));
   const yMin = logY ? Math.min(...pts.map((d) => d.y), ...line.map((d) => d.y)) / 2 : 0;
   const bars = sd ? pts.map((d) => ({ x: d.x, y1: logY ? Math.max(d.y - d.sd!, yMin) : d.y - d.sd!, y2: d.y + d.sd! })) : [];
-  const xLabel = `${ax.x.name} (${ux.label})`;
-  const yLabel = `${ax.y.name} (${uy.label})`;
+  const xLabel = withUnit(ax.x.name, ux);
+  const yLabel = withUnit(ax.y.name, uy);
   const main = figure({
     caption: `Data (dots${sd ? ', bars ± 1 sd' : ''}) and the fitted ${r.model} model (line)${logX ? '; logarithmic axes' : ''}.${bars.some((b, i) => logY && b.y1 === yMin && pts[i]!.y - pts[i]!.sd! <= yMin) ? ' A bar that reaches the bottom of the plot extends below it.' : ''}`,
-    x: axis(xLabel, logX, [...pts.map((d) => d.x), ...line.map((d) => d.x)]),
+    x: axis(xLabel, logX, [...xAll(pts), ...xAll(line)]),
     y: axis(yLabel, logY, [...pts.map((d) => d.y), ...line.map((d) => d.y)], logY ? { domain: [yMin, Math.max(...pts.map((d) => d.y + (d.sd ?? 0)), ...line.map((d) => d.y)) * 1.2] } : {}),
     marks: [
       ...(logY ? [] : [Plot.ruleY([0], { stroke: MUTED })]),
@@ -655,10 +681,14 @@ function renderFit(f: Fitted, r: FitRun): void {
     ],
   });
   const resid = figure({
-    caption: `Residuals: data minus the fitted curve${sd ? ' (bars ± 1 sd)' : ''}. A pattern here (a run of points on one side, a trend) says the model misses something the numbers above do not.`,
-    height: 200,
-    x: axis(xLabel, logX, pts.map((d) => d.x)),
-    y: axis(`residual (${uy.label})`, false, []),
+    caption: `Residuals: data minus the fitted curve${sd ? ' (bars ± 1 sd)' : ''}. ${
+      r.method === 'msd'
+        ? 'The lags of an MSD share the same displacements, so neighbouring residuals lean the same way even when the model is right; a trend far outside the bars says it misses something.'
+        : 'A pattern here (a run of points on one side, a trend) says the model misses something the numbers below do not.'
+    }`,
+    height: 240,
+    x: axis(xLabel, logX, [...xAll(pts), ...xAll(line)], { domain: [Math.min(...xAll(pts), ...xAll(line)), Math.max(...xAll(pts), ...xAll(line))] }),
+    y: axis(withUnit('residual', uy), false, []),
     marks: [
       Plot.ruleY([0], { stroke: MUTED }),
       ...(sd ? [Plot.ruleX(pts, { x: 'x', y1: (d: { res: number; sd: number }) => d.res - d.sd, y2: (d: { res: number; sd: number }) => d.res + d.sd, stroke: ACCENT, strokeWidth: 1.2 })] : []),
@@ -684,14 +714,16 @@ function renderFit(f: Fitted, r: FitRun): void {
 function paramTable(r: FitRun): HTMLElement {
   const rows = Object.entries(r.parameters).map(([k, p]) => {
     const status = p.fixed ? 'held fixed, not fitted' : p.atBound ? `on its ${p.atBound} bound: the data do not determine it (no standard error)` : p.sd === null ? 'no standard error' : p.value !== 0 ? `relative standard error ${formatNumber((100 * p.sd) / Math.abs(p.value), 2)} %` : '';
-    return [h('span', null, PARAM_WORDS[k] ?? k, h('span', { class: 'muted' }, ` (${k})`)), h('span', { class: 'num' }, paramText(p)), status];
+    const words = k === 'effectiveDiffusivity' ? `long-time diffusivity D + v²τ/${r.model === 'active-2d' ? 2 : 6}` : (PARAM_WORDS[k] ?? k);
+    return [h('span', null, words, h('span', { class: 'muted' }, ` (${k})`)), h('span', { class: 'num' }, paramText(p)), status];
   });
   return table(['parameter', 'value ± standard error', ''], rows, { id: 'parameters' });
 }
 
 /** The goodness of fit in words, by how the points were weighted. */
 function goodness(r: FitRun): HTMLElement {
-  const dofText = `${r.points} points, ${r.points - r.dof} parameters fitted: ${r.dof} degrees of freedom`;
+  const k = r.points - r.dof;
+  const dofText = `${r.points} points, ${k} parameter${k === 1 ? '' : 's'} fitted: ${r.dof} degree${r.dof === 1 ? '' : 's'} of freedom`;
   const out: Child[] = [h('li', null, dofText, '.')];
   if (r.dof <= 0) out.push(h('li', null, 'No degrees of freedom are left: the curve passes through every point, and nothing can be said about how well the model describes the data.'));
   else if (r.weighting === 'weighted' || r.weighting === 'gls-covariance') {
@@ -720,7 +752,7 @@ function goodness(r: FitRun): HTMLElement {
     out.push(h('li', null, `Weighted by the model of the variance of an MSD (∝ MSD² · t), which fixes only relative weights: the residual scale ${formatNumber(r.residualStandardError, 3)} is relative, so no chi-square test is possible. Add an sd column, or fit the tracked positions, for one.`));
   }
   out.push(h('li', null, `R² ${formatNumber(r.rSquared, 4)} (the share of the variation of the data the curve follows, unweighted).`));
-  out.push(h('li', { class: r.converged ? '' : 'bad' }, `${STOP_WORDS[r.stop] ?? r.stop}${r.iterations ? ` after ${r.iterations} iterations` : ''}${r.converged ? '.' : ': the values are the best point reached, not an optimum.'}`));
+  out.push(h('li', { class: r.converged ? '' : 'bad' }, `${cap(STOP_WORDS[r.stop] ?? r.stop)}${r.iterations ? ` after ${r.iterations} iterations` : ''}${r.converged ? '.' : ': the values are the best point reached, not an optimum.'}`));
   return h('ul', { class: 'gof', id: 'goodness' }, out);
 }
 
@@ -925,10 +957,10 @@ function renderQuantal(f: Fitted, r: QuantalRun): void {
   const hi = Math.max(...doses);
   const line =
     b0 !== null && b1 !== null && doses.length > 1
-      ? grid(logX ? lo / 1.5 : 0, hi * (logX ? 1.5 : 1.05), logX).map((d) => ({ x: d / ux.factor, y: quantalProbability(r.link, b0 + b1 * (r.scale === 'log10' ? Math.log10(d) : d)) }))
+      ? grid(logX ? lo / 1.5 : Math.max(0, lo - 0.1 * (hi - lo)), logX ? hi * 1.5 : hi + 0.1 * (hi - lo), logX).map((d) => ({ x: d / ux.factor, y: quantalProbability(r.link, b0 + b1 * (r.scale === 'log10' ? Math.log10(d) : d)) }))
       : [];
   const pts = r.data.map((d) => ({ x: d.dose / ux.factor, y: d.responded / d.tubes, n: d.tubes, k: d.responded }));
-  const xLabel = `dose (${ux.label})`;
+  const xLabel = withUnit('dose', ux);
   const plot = figure({
     caption: `Fraction of tubes that responded at each dose (dots) and the fitted ${r.link} curve (line)${logX ? '; logarithmic dose axis' : ''}.${line.length ? '' : ' No curve: the data give no estimate (see below).'}`,
     x: axis(xLabel, logX, [...pts.map((d) => d.x), ...line.map((d) => d.x)]),
@@ -945,6 +977,8 @@ function renderQuantal(f: Fitted, r: QuantalRun): void {
     r.data.map((d) => [valueText(d.dose, null, ux), String(d.tubes), String(d.responded), formatNumber(d.responded / d.tubes, 3), d.fitted === null ? '—' : formatNumber(d.fitted, 3)]),
     { id: 'quantal-data' },
   );
+  // on the dose itself the slope is per SI unit of dose: per the unit shown, it is times that unit's size
+  const slopeScale = r.scale === 'log10' ? 1 : ux.factor;
   const ed50Text =
     e.value === null
       ? e.bracket
@@ -955,7 +989,10 @@ function renderQuantal(f: Fitted, r: QuantalRun): void {
     ['dose at which half the tubes respond (ED50)', h('span', { class: 'num' }, ed50Text)],
     ['95 % interval (delta method)', e.interval ? `${valueText(e.interval.lower, null, ux)} to ${valueText(e.interval.upper, null, ux)}` : '—'],
     ['95 % interval (Fieller)', e.fieller ? `${valueText(e.fieller.lower, null, ux)} to ${valueText(e.fieller.upper, null, ux)}` : 'unbounded: the slope is not clearly different from zero'],
-    [`slope (per ${r.scale === 'log10' ? 'decade of dose' : `${e.unit}`})`, r.parameters.slope.value === null ? '—' : `${formatNumber(r.parameters.slope.value, 4)}${r.parameters.slope.sd !== null ? ` ± ${formatNumber(r.parameters.slope.sd, 2)}` : ''}`],
+    [
+      `slope (per ${r.scale === 'log10' ? 'decade of dose' : ux.label || 'unit of dose'})`,
+      r.parameters.slope.value === null ? '—' : valueText(r.parameters.slope.value * slopeScale, r.parameters.slope.sd === null ? null : r.parameters.slope.sd * slopeScale, { label: '', factor: 1 }),
+    ],
   ];
   const gof: Child[] = [h('li', null, `${r.points} doses, ${r.tubes} tubes, ${r.responded} responded; ${r.dof} degrees of freedom.`)];
   if (r.pearsonChiSquare !== null && r.pearsonP !== null && r.dof > 0) {
