@@ -72,7 +72,7 @@ describe('the Calibrate page', () => {
     expect(svgText).toHaveLength(2);
     expect(svgText[0]).toContain('lag time (s)');
     expect(svgText[0]).toContain('mean-squared displacement (µm²)');
-    expect(svgText[1]).toContain('residual (µm²)');
+    expect(svgText[1]).toContain('residual (% of the fitted MSD)');
     // error bars from the sd column: one per point
     expect(api.sd).toHaveLength(api.points);
     expect(await page.textContent('figure figcaption')).toMatch(/bars ± 1 sd.*logarithmic axes/);

@@ -12,7 +12,7 @@
  */
 import { mountPage } from '../lib/layout.js';
 import './calibrate.css';
-import { api } from '../lib/api.js';
+import { api, ApiError } from '../lib/api.js';
 import { field, h, put, table, type Child } from '../lib/dom.js';
 import { quantityField, type QuantityField } from '../lib/fields.js';
 import { figure, Plot, ACCENT, INK, MUTED } from '../lib/plot.js';
@@ -257,11 +257,11 @@ function spansDecades(values: number[]): boolean {
   return v.length > 1 && v.every((x) => x > 0) && Math.max(...v) / Math.min(...v) >= 10;
 }
 
-/** Ticks of a log axis from lo to hi: 1, 2, 5 × 10^k over up to three decades, else powers of ten. */
+/** Ticks of a log axis from lo to hi: 1, 2, 5 × 10^k when lo to hi spans up to three decades, else powers of ten. */
 function logTicks(lo: number, hi: number): number[] {
   const a = Math.floor(Math.log10(lo));
   const b = Math.ceil(Math.log10(hi));
-  const mult = b - a <= 3 ? [1, 2, 5] : [1];
+  const mult = Math.log10(hi / lo) <= 3 ? [1, 2, 5] : [1];
   const out: number[] = [];
   for (let k = a; k <= b; k++) for (const m of mult) {
     const v = Number((m * 10 ** k).toPrecision(6));
@@ -270,11 +270,21 @@ function logTicks(lo: number, hi: number): number[] {
   return out;
 }
 
-/** An axis: its label, log or linear, ticks written as brink writes numbers (never "200m" for 0.2). */
+/** v, or its log10 on a log axis (drawn as a linear axis of log10 values: see `axis`). */
+const lg = (log: boolean) => (v: number) => (log ? Math.log10(v) : v);
+
+/**
+ * An axis: its label, log or linear, ticks written as brink writes numbers (never "200m" for 0.2). A log
+ * axis is a linear axis of log10 values with ticks at 1, 2, 5 × 10^k labelled with the values themselves:
+ * Plot's own log axis passes a tick format through d3's, which blanks the labels of some ticks asked for.
+ * The marks then take log10 of their values (`lg`).
+ */
 function axis(label: string, log: boolean, values: number[], extra: Record<string, unknown> = {}): Record<string, unknown> {
-  const v = values.filter((x) => Number.isFinite(x) && (!log || x > 0));
+  const fmt = (d: number) => formatNumber(d, 3);
+  if (!log) return { label, type: 'linear', tickFormat: fmt, ...extra };
+  const v = values.filter((x) => Number.isFinite(x) && x > 0);
   const dom = (extra.domain as [number, number] | undefined) ?? [Math.min(...v), Math.max(...v)];
-  return { label, type: log ? 'log' : 'linear', tickFormat: (d: number) => formatNumber(d, 3), ...(log && v.length ? { ticks: logTicks(dom[0], dom[1]) } : {}), ...extra };
+  return { label, type: 'linear', ...extra, ...(v.length || extra.domain ? { ticks: logTicks(dom[0], dom[1]).map(Math.log10) } : {}), tickFormat: (d: number) => fmt(10 ** d), ...(extra.domain ? { domain: dom.map(Math.log10) } : {}) };
 }
 
 /** n points from a to b, log-spaced or even. */
@@ -483,7 +493,7 @@ fileInput.addEventListener('change', async () => {
   const f = fileInput.files?.[0];
   if (!f) return;
   if (f.size > 5_000_000) {
-    page.say(`${f.name} is ${formatNumber(f.size / 1e6, 3)} MB: the service takes at most 5 MB of CSV text in one fit.`, 'error');
+    page.say(`${f.name} is ${formatNumber(f.size / 1e6, 3)} MB: the service takes at most 5 000 000 characters of CSV in one fit. Split the file, or fit tracked positions over fewer frames.`, 'error');
     return;
   }
   const text = await f.text();
@@ -495,10 +505,12 @@ fileInput.addEventListener('change', async () => {
 
 methodSelect.addEventListener('change', () => {
   showFor(method());
-  // a result of another method says nothing about this one
-  if (current && current.method !== method()) {
+  // a result (or a fit under way) of another method says nothing about this one
+  if ((current && current.method !== method()) || fitButton.disabled) {
     current = null;
     seq++;
+    fitButton.disabled = false;
+    put(document.getElementById('fit-status')!, '');
     emptyState();
   }
 });
@@ -664,35 +676,43 @@ function renderFit(f: Fitted, r: FitRun): void {
   const xs = grid(logX ? lo : r.method === 'drift' ? Math.min(lo, 0) : Math.min(lo, 0), logX ? hi : r.method === 'drift' ? Math.max(hi, 0) : hi, logX);
   const line = fitted ? xs.map((x) => ({ x: x / ux.factor, y: fitted(x) / uy.factor })) : [];
   const logY = logX && spansDecades(y) && line.every((d) => d.y > 0);
-  const pts = r.x.map((x, i) => ({ x: x / ux.factor, y: y[i]! / uy.factor, sd: sd ? sd[i]! / uy.factor : null, res: r.residuals[i]! / uy.factor }));
+  // an MSD spans decades: its residuals read best relative to the curve (in %), others in the data's unit
+  const relative = r.method === 'msd' && r.fitted.every((f) => f > 0);
+  const resScale = (i: number) => (relative ? 100 / r.fitted[i]! : 1 / uy.factor);
+  const pts = r.x.map((x, i) => ({ x: x / ux.factor, y: y[i]! / uy.factor, sd: sd ? sd[i]! / uy.factor : null, res: r.residuals[i]! * resScale(i), resSd: sd ? sd[i]! * resScale(i) : null }));
   const yMin = logY ? Math.min(...pts.map((d) => d.y), ...line.map((d) => d.y)) / 2 : 0;
   const bars = sd ? pts.map((d) => ({ x: d.x, y1: logY ? Math.max(d.y - d.sd!, yMin) : d.y - d.sd!, y2: d.y + d.sd! })) : [];
   const xLabel = withUnit(ax.x.name, ux);
   const yLabel = withUnit(ax.y.name, uy);
+  const fx = lg(logX);
+  const fy = lg(logY);
+  type XY = { x: number; y: number };
+  type Bar = { x: number; y1: number; y2: number };
+  type Pt = (typeof pts)[number];
   const main = figure({
     caption: `Data (dots${sd ? ', bars ± 1 sd' : ''}) and the fitted ${r.model} model (line)${logX ? '; logarithmic axes' : ''}.${bars.some((b, i) => logY && b.y1 === yMin && pts[i]!.y - pts[i]!.sd! <= yMin) ? ' A bar that reaches the bottom of the plot extends below it.' : ''}`,
     x: axis(xLabel, logX, [...xAll(pts), ...xAll(line)]),
     y: axis(yLabel, logY, [...pts.map((d) => d.y), ...line.map((d) => d.y)], logY ? { domain: [yMin, Math.max(...pts.map((d) => d.y + (d.sd ?? 0)), ...line.map((d) => d.y)) * 1.2] } : {}),
     marks: [
       ...(logY ? [] : [Plot.ruleY([0], { stroke: MUTED })]),
-      Plot.line(line, { x: 'x', y: 'y', stroke: INK, strokeWidth: 1.6 }),
-      ...(bars.length ? [Plot.ruleX(bars, { x: 'x', y1: 'y1', y2: 'y2', stroke: ACCENT, strokeWidth: 1.2 })] : []),
-      Plot.dot(pts, { x: 'x', y: 'y', fill: ACCENT, r: 3.5, title: (d: { x: number; y: number }) => `${formatNumber(d.x)} ${ux.label}: ${formatNumber(d.y)} ${uy.label}` }),
+      Plot.line(line, { x: (d: XY) => fx(d.x), y: (d: XY) => fy(d.y), stroke: INK, strokeWidth: 1.6 }),
+      ...(bars.length ? [Plot.ruleX(bars, { x: (d: Bar) => fx(d.x), y1: (d: Bar) => fy(d.y1), y2: (d: Bar) => fy(d.y2), stroke: ACCENT, strokeWidth: 1.2 })] : []),
+      Plot.dot(pts, { x: (d: XY) => fx(d.x), y: (d: XY) => fy(d.y), fill: ACCENT, r: 3.5, title: (d: XY) => `${formatNumber(d.x)} ${ux.label}: ${formatNumber(d.y)} ${uy.label}` }),
     ],
   });
   const resid = figure({
-    caption: `Residuals: data minus the fitted curve${sd ? ' (bars ± 1 sd)' : ''}. ${
+    caption: `Residuals: data minus the fitted curve${relative ? ', as a percentage of the curve' : ''}${sd ? ' (bars ± 1 sd)' : ''}. ${
       r.method === 'msd'
         ? 'The lags of an MSD share the same displacements, so neighbouring residuals lean the same way even when the model is right; a trend far outside the bars says it misses something.'
         : 'A pattern here (a run of points on one side, a trend) says the model misses something the numbers below do not.'
     }`,
     height: 240,
     x: axis(xLabel, logX, [...xAll(pts), ...xAll(line)], { domain: [Math.min(...xAll(pts), ...xAll(line)), Math.max(...xAll(pts), ...xAll(line))] }),
-    y: axis(withUnit('residual', uy), false, []),
+    y: axis(relative ? 'residual (% of the fitted MSD)' : withUnit('residual', uy), false, []),
     marks: [
       Plot.ruleY([0], { stroke: MUTED }),
-      ...(sd ? [Plot.ruleX(pts, { x: 'x', y1: (d: { res: number; sd: number }) => d.res - d.sd, y2: (d: { res: number; sd: number }) => d.res + d.sd, stroke: ACCENT, strokeWidth: 1.2 })] : []),
-      Plot.dot(pts, { x: 'x', y: 'res', fill: ACCENT, r: 3.5 }),
+      ...(sd ? [Plot.ruleX(pts, { x: (d: Pt) => fx(d.x), y1: (d: Pt) => d.res - d.resSd!, y2: (d: Pt) => d.res + d.resSd!, stroke: ACCENT, strokeWidth: 1.2 })] : []),
+      Plot.dot(pts, { x: (d: Pt) => fx(d.x), y: 'res', fill: ACCENT, r: 3.5 }),
     ],
   });
   put(
@@ -768,9 +788,9 @@ function warnings(r: FitRun): HTMLElement | null {
 let storeButton: HTMLButtonElement | null = null;
 function refreshStoreLabel(): void {
   const sp = chosenSpecies();
-  if (storeButton) {
+  if (storeButton && storeButton.dataset.stored !== 'yes') {
     storeButton.textContent = sp ? `Store as a measurement of ${sp.name}` : 'Store as a measurement (choose a species)';
-    storeButton.disabled = !sp || storeButton.dataset.stored === 'yes';
+    storeButton.disabled = !sp;
   }
 }
 
@@ -903,10 +923,19 @@ async function applyPanel(m: Measurement, stored: SpeciesRev): Promise<HTMLEleme
         ),
       );
     } catch (e) {
-      applyButton.disabled = false;
       useSelect.disabled = false;
       put(outcome);
       page.fail(e);
+      if (e instanceof ApiError && e.status === 409) {
+        // the species changed since the table was drawn: show its values now, then the user decides again
+        try {
+          sp = await api<SpeciesRev>(`/api/species/${encodeURIComponent(stored.id)}`);
+          draw();
+          page.say(`${sp.name} was changed by someone else (now revision ${sp.revision}): the table shows its current values. Apply again if the change still stands.`, 'error');
+        } catch (e2) {
+          page.fail(e2);
+        }
+      } else applyButton.disabled = false;
     }
   });
   put(
@@ -961,15 +990,16 @@ function renderQuantal(f: Fitted, r: QuantalRun): void {
       : [];
   const pts = r.data.map((d) => ({ x: d.dose / ux.factor, y: d.responded / d.tubes, n: d.tubes, k: d.responded }));
   const xLabel = withUnit('dose', ux);
+  const qx = lg(logX);
   const plot = figure({
     caption: `Fraction of tubes that responded at each dose (dots) and the fitted ${r.link} curve (line)${logX ? '; logarithmic dose axis' : ''}.${line.length ? '' : ' No curve: the data give no estimate (see below).'}`,
     x: axis(xLabel, logX, [...pts.map((d) => d.x), ...line.map((d) => d.x)]),
     y: axis('fraction responded (of the tubes at the dose)', false, [], { domain: [0, 1] }),
     marks: [
       Plot.ruleY([0.5], { stroke: MUTED, strokeDasharray: '4,3' }),
-      Plot.line(line, { x: 'x', y: 'y', stroke: INK, strokeWidth: 1.6 }),
-      Plot.dot(pts, { x: 'x', y: 'y', fill: ACCENT, r: 4, title: (d: { k: number; n: number }) => `${d.k} of ${d.n} responded` }),
-      ...(e.value !== null ? [Plot.ruleX([e.value / ux.factor], { stroke: ACCENT, strokeDasharray: '2,3' })] : []),
+      Plot.line(line, { x: (d: { x: number }) => qx(d.x), y: 'y', stroke: INK, strokeWidth: 1.6 }),
+      Plot.dot(pts, { x: (d: { x: number }) => qx(d.x), y: 'y', fill: ACCENT, r: 4, title: (d: { k: number; n: number }) => `${d.k} of ${d.n} responded` }),
+      ...(e.value !== null ? [Plot.ruleX([qx(e.value / ux.factor)], { stroke: ACCENT, strokeDasharray: '2,3' })] : []),
     ],
   });
   const dataTable = table(
