@@ -144,7 +144,7 @@ describe('the Calibrate page', () => {
     await page.click('#run');
     await page.waitForSelector('#quantal-data');
     const api = (await app.inject({ method: 'POST', url: '/api/fits/quantal', payload: { data: beetles, options: { link: 'logit', scale: 'linear' } } })).json();
-    const rows = await page.$$eval('#quantal-data tbody tr', (trs) => trs.map((tr) => [...tr.querySelectorAll('td')].map((td) => td.textContent)));
+    const rows = await page.$$eval('#quantal-data tbody tr', (trs) => trs.map((tr) => Array.from(tr.querySelectorAll('td'), (td) => td.textContent)));
     expect(rows).toHaveLength(api.data.length);
     expect(rows.map((r) => Number(r[2]))).toEqual(api.data.map((x: { responded: number }) => x.responded));
     const [ed50] = readValue((await page.textContent('#parameters tbody tr:first-child'))!);
