@@ -156,7 +156,7 @@ describe('the Calibrate page', () => {
     await page.screenshot({ path: `${shots}/calibrate-quantal.png`, fullPage: true });
 
     await page.selectOption('#method', 'stokes-einstein');
-    await page.fill('#se-species-radius ~ .field input, #se-options input[placeholder="e.g. 1 um"]', '1 um');
+    await page.fill('#se-options input[placeholder="e.g. 1 um"]', '1 um');
     await page.click('#run');
     await page.waitForSelector('#parameters');
     const se = (await app.inject({ method: 'POST', url: '/api/fits/stokes-einstein', payload: { radius: '1 um' } })).json();
@@ -173,7 +173,10 @@ describe('the Calibrate page', () => {
     const { page, errors } = await open('/calibrate?species=ptj-1um-b07');
     await page.waitForFunction(() => (document.getElementById('species') as HTMLSelectElement).value === 'ptj-1um-b07');
     await page.selectOption('#method', 'kinetics');
-    await page.fill('#data', puromycin);
+    // loaded as a file this time: the text box shows it, and the measurement keeps its name
+    await page.setInputFiles('#file', `${root}tests/calibrate/puromycin-treated.csv`);
+    await page.waitForFunction(() => (document.getElementById('data') as HTMLTextAreaElement).value.startsWith('conc,rate'));
+    expect(await page.inputValue('#data')).toBe(puromycin);
     await page.click('#run');
     await page.waitForSelector('#parameters');
     const k = (await app.inject({ method: 'POST', url: '/api/fits/kinetics', payload: { data: puromycin, options: {} } })).json();
@@ -183,8 +186,11 @@ describe('the Calibrate page', () => {
     const svg = await page.textContent('figure svg');
     expect(svg).toContain('substrate concentration (conc; no unit given)');
     // no turnover per particle and no units: the page says why it cannot go on the shelf
+    expect(await page.textContent('#results')).toContain('12 data rows from puromycin-treated.csv');
     await page.click('#store');
     await page.waitForSelector('#apply-blocked');
+    const mId = Number(/measurement (\d+)/.exec((await page.textContent('#stored'))!)![1]);
+    expect((await app.inject({ method: 'GET', url: `/api/measurements/${mId}` })).json()).toMatchObject({ fileName: 'puromycin-treated.csv', data: puromycin, method: 'kinetics' });
     expect(await page.textContent('#apply-blocked')).toMatch(/no turnover per particle/);
     expect(await page.isDisabled('#apply-button')).toBe(true);
     await page.screenshot({ path: `${shots}/calibrate-kinetics.png`, fullPage: true });
