@@ -430,6 +430,8 @@ function showFor(m: Method): void {
   put(columnsHint, def.columns ? ['Columns by position: ', def.columns] : null);
   dataBox.placeholder = def.placeholder;
   chemicalField.hidden = !(m === 'kinetics' || m === 'drift');
+  // a quantal fit is not stored and uses nothing of a species
+  speciesSet.hidden = m === 'quantal';
   const stores = m === 'msd' || m === 'kinetics' || m === 'drift';
   put(
     byHint(),
@@ -1004,7 +1006,7 @@ function renderQuantal(f: Fitted, r: QuantalRun): void {
   });
   const dataTable = table(
     ['dose', 'tubes n', 'responded', 'fraction', 'fitted probability'],
-    r.data.map((d) => [valueText(d.dose, null, ux), String(d.tubes), String(d.responded), formatNumber(d.responded / d.tubes, 3), d.fitted === null ? '—' : formatNumber(d.fitted, 3)]),
+    r.data.map((d) => [`${formatNumber(d.dose / ux.factor, 6)}${ux.label ? ` ${ux.label}` : ''}`, String(d.tubes), String(d.responded), formatNumber(d.responded / d.tubes, 3), d.fitted === null ? '—' : formatNumber(d.fitted, 3)]),
     { id: 'quantal-data' },
   );
   // on the dose itself the slope is per SI unit of dose: per the unit shown, it is times that unit's size
