@@ -32,7 +32,7 @@ afterAll(async () => {
   await app?.close();
 });
 
-/** A page that records console errors and page errors. */
+/** A page that records console errors, page errors and content-security-policy violations. */
 async function open(path: string): Promise<{ page: Page; errors: string[] }> {
   const page = await browser.newPage({ viewport: { width: 1280, height: 800 } });
   const errors: string[] = [];
@@ -40,6 +40,11 @@ async function open(path: string): Promise<{ page: Page; errors: string[] }> {
     if (m.type() === 'error') errors.push(m.text());
   });
   page.on('pageerror', (e) => errors.push(e.message));
+  // a content-security-policy violation is reported to the page too: count it as an error
+  await page.exposeFunction('__cspViolation', (text: string) => errors.push(text));
+  await page.addInitScript(() => {
+    document.addEventListener('securitypolicyviolation', (e) => (window as unknown as { __cspViolation(t: string): void }).__cspViolation(`CSP: ${e.violatedDirective} blocked ${e.blockedURI || '(inline)'}`));
+  });
   await page.goto(`${base}${path}`);
   return { page, errors };
 }
