@@ -106,6 +106,11 @@ type RunResult = FitResult & {
    * unweighted) and so understate the uncertainty; true for GLS with the covariance from tracks
    */
   standardErrorsHonest?: boolean;
+  /**
+   * the standard deviation of each point as the data gave it (an sd column; for tracks, from the
+   * covariance), in the units of the residuals: for error bars, whether or not the fit weighted by it
+   */
+  sd?: number[];
 };
 
 /** Group position rows by track, on a regular frame grid; problems name the line. */
@@ -190,6 +195,7 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
         input,
         ...(gls ? { covarianceSource: m.covarianceSource } : {}),
         standardErrorsHonest: gls,
+        sd: m.sd,
         tracks: {
           tracks: m.tracks,
           positions: m.positions,
@@ -234,7 +240,7 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
     fit.notes.push(
       `${useSd ? 'weighted by 1/sd² lag by lag' : unweighted ? 'unweighted on purpose (options.weighting)' : 'weighted by the variance model'}: an MSD curve carries no covariance between its lags, and those of overlapping windows are strongly correlated, so the standard errors understate the uncertainty (standardErrorsHonest: false; on a simulated single track with 400 consecutive lags, by a factor of 7 to 30); fit the tracked positions (track, t, x, y) for honest ones.`,
     );
-    return { ...fit, input, standardErrorsHonest: false };
+    return { ...fit, input, standardErrorsHonest: false, ...(sd ? { sd } : {}) };
   }
   if (method === 'kinetics') {
     const o = options as FitOptions['kinetics'];
@@ -263,11 +269,12 @@ export function runFit<M extends FitMethod>(method: M, data: unknown, options: F
         }),
       ),
       input,
+      ...(c.sd ? { sd: c.sd.values } : {}),
     };
   }
   const c = siColumns(t, [
     { role: 'concentration gradient', dimension: { amount: 1, length: -4 } },
     { role: 'drift velocity', dimension: { length: 1, time: -1 } },
   ], [{ role: 'sd', dimension: { length: 1, time: -1 } }]);
-  return { ...engineErrors(() => fitDrift(c['concentration gradient']!.values, c['drift velocity']!.values, c.sd?.values)), input };
+  return { ...engineErrors(() => fitDrift(c['concentration gradient']!.values, c['drift velocity']!.values, c.sd?.values)), input, ...(c.sd ? { sd: c.sd.values } : {}) };
 }

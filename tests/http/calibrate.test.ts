@@ -49,6 +49,15 @@ describe('fits over HTTP', () => {
     expect(e.json().problems[0].message).toMatch(/regular grid/);
   });
 
+  it("a fit carries the data's sd column in SI (for error bars), and none without one", async () => {
+    const withSd = 'lag [s],msd [um^2],sd [um^2]\n0.1,0.092,0.01\n0.2,0.175,0.02\n0.5,0.44,0.05\n1,0.90,0.1\n';
+    const r = (await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: withSd } })).json();
+    expect(r.sd.map((s: number) => s / 1e-14)).toEqual([1, 2, 5, 10].map((x) => expect.closeTo(x, 12)));
+    const drift = (await app.inject({ method: 'POST', url: '/api/fits/drift', payload: { data: 'gradient [mM/mm],velocity [um/s],sd [nm/s]\n-1,0.09,20\n1,-0.11,30\n' } })).json();
+    expect(drift.sd.map((s: number) => s / 1e-9)).toEqual([20, 30].map((x) => expect.closeTo(x, 12)));
+    expect((await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: msdCsv } })).json().sd).toBeUndefined();
+  });
+
   it('a table past the row bound is refused with a clear message', async () => {
     const rows = Array.from({ length: 500_001 }, (_, i) => `${i + 1},1`).join('\n');
     const r = await app.inject({ method: 'POST', url: '/api/fits/msd', payload: { data: `lag [s],msd [um^2]\n${rows}\n` } });
