@@ -422,7 +422,9 @@ function responsePlot(dr: DoseResponse): HTMLElement {
     caption,
     width: 720,
     height: 340,
-    x: { type: 'log', domain: [lo, hi], label: 'dopant dose delivered (particles/mL, log scale)', tickFormat: (v: number) => formatNumber(v) },
+    marginTop: 28,
+    // label the 1, 2, 5 ticks of each decade only: the others crowd at this width
+    x: { type: 'log', domain: [lo, hi], label: 'dopant dose delivered (particles/mL, log scale)', tickFormat: (v: number) => ([1, 2, 5].includes(Math.round(v / Math.pow(10, Math.floor(Math.log10(v) + 1e-9)))) ? formatNumber(v) : '') },
     y: { domain: [0, 1], label: 'fraction of tubes that crossed (0–1)' },
     marks,
   });
@@ -437,7 +439,9 @@ function responseWords(dr: DoseResponse): HTMLElement {
   if (dr.predicted) items.push(`The plan predicted the threshold at ${dr.predicted.anyDose ? 'any dose above 0' : dose(dr.predicted.threshold)}, with its band (5 % · median · 95 %) ${bandText(dr.predicted)}.`);
   const zero = dr.groups.find((g) => g.dose === 0);
   if (zero) items.push(`Dose 0 (no dopant: ${zero.codes.join(', ') || '—'}): ${zero.responded} of ${zero.tubes} crossed — not drawn on the log dose axis.`);
-  items.push(...dr.notes, ...dr.fit.notes);
+  // the fit's own notes give doses in SI (1/m^3): shown here as the sheet prints doses
+  const asPerMl = (t: string) => t.replace(/(\d+(?:\.\d+)?(?:e[+-]?\d+)?) 1\/m\^3/g, (_m, x: string) => dose(Number(x)));
+  items.push(...dr.notes, ...dr.fit.notes.map(asPerMl));
   return h('ul', { id: 'dr-words' }, items.map((x) => h('li', null, x)));
 }
 
@@ -556,15 +560,27 @@ async function applyUpdate(): Promise<void> {
   button.disabled = true;
   try {
     const a = await api<Applied>(`/api/plans/${planId}/update/apply`, { body: { job: updateJob.id, ...(applyAuthor.value.trim() ? { author: applyAuthor.value.trim() } : {}) } });
-    const changes = a.revisions.flatMap((r) => r.changes.map((c) => [`${r.type} ${r.key}`, `${c.field}${c.chemical ? ` on ${c.chemical}` : ''}`, `${withSd(c.from, 0, c.field)}`, `${c.to.value}${c.to.sd ? ` ± ${c.to.sd}` : ''}`, h('a', { href: `/shelf/${r.type === 'species' ? 'species' : 'chemicals'}/${encodeURIComponent(r.key)}` }, `revision id ${r.revisionId}`)]));
+    const coeffs = updateJob.result?.update.coefficients ?? [];
+    const changes = a.revisions.flatMap((r) =>
+      r.changes.map((c) => {
+        const k = coeffs.find((x) => x.owner === r.type && x.id === r.key && x.field === c.field && x.chemical === c.chemical);
+        return [
+          `${r.type} ${r.key}`,
+          `${c.field}${c.chemical ? ` on ${c.chemical}` : ''}`,
+          k ? withSd(k.value, k.sd, c.field) : withSd(c.from, 0, c.field),
+          h('span', null, k ? withSd(k.posteriorMean, k.posteriorSd, c.field) : '', h('br'), h('span', { class: 'muted' }, `written as ${c.to.value}${c.to.sd ? `, sd ${c.to.sd}` : ''}`)),
+          h('a', { href: `/shelf/${r.type === 'species' ? 'species' : 'chemicals'}/${encodeURIComponent(r.key)}` }, `revision id ${r.revisionId}`),
+        ];
+      }),
+    );
     put(
       out,
       h('div', { class: 'msg ok', id: 'applied' }, h('p', null, `Applied: ${a.revisions.length} shelf item${a.revisions.length === 1 ? '' : 's'} got a new revision.`)),
-      table(['item', 'coefficient', 'was', 'now (as written, ± sd)', 'new revision'], changes, { id: 'applied-changes' }),
+      table(['item', 'coefficient', 'was (± sd)', 'now (± sd)', 'new revision'], changes, { id: 'applied-changes' }),
       a.kept.length ? h('details', null, h('summary', null, `${a.kept.length} coefficient${a.kept.length === 1 ? '' : 's'} kept as the shelf has them`), h('ul', null, a.kept.map((k) => h('li', null, `${coefficientName(k)}: ${k.reason}`)))) : null,
       h('p', null, 'Plans already stored keep the revisions they were computed with; the next series below is planned on the updated shelf.'),
     );
-    button.hidden = true;
+    button.remove();
   } catch (e) {
     if (e instanceof ApiError && e.status === 409) {
       put(
