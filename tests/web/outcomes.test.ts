@@ -102,8 +102,7 @@ describe('the Outcomes page', () => {
     expect(axisText).toContain('0/3');
     expect(await page.textContent('#dr-words')).toMatch(/the response switches between 1\.43 × 10⁸ particles\/mL and 1\.79 × 10⁸ particles\/mL/);
     expect(await page.textContent('#dr-words')).toMatch(/Dose 0 \(no dopant: C0a, C0b, C0c\): 0 of 3 crossed/);
-    await page.locator('#dose-response').scrollIntoViewIfNeeded();
-    await page.screenshot({ path: 'screenshots/outcomes-dose-response.png' });
+    await page.locator('#dose-response').screenshot({ path: 'screenshots/outcomes-dose-response.png' });
 
     // the update, as a job
     const before = await revisionOf('ptj-1um-b07');
@@ -113,6 +112,7 @@ describe('the Outcomes page', () => {
     expect(await page.textContent('#band-update')).toMatch(/Threshold band of ptj-1um-b07 .* before → .* after the outcomes/);
     expect(await page.textContent('#coefficients')).toMatch(/species ptj-1um-b07: mobility on h2o2/);
     expect(await page.textContent('#coefficients')).toMatch(/µm²\/\(s·mM\)/);
+    await page.locator('#dose-response figure').screenshot({ path: 'screenshots/outcomes-dose-response-updated.png' });
     await page.locator('#update').scrollIntoViewIfNeeded();
     await page.screenshot({ path: 'screenshots/outcomes-update.png' });
 

@@ -45,7 +45,7 @@ async function open(url: string): Promise<{ page: Page; errors: string[] }> {
 }
 
 /** The cells of the pipetting table's tube rows, as the page shows them. */
-const pipettingRows = (page: Page) => page.$$eval('#sec-pipetting tr[data-tube]', (trs) => trs.map((tr) => [...tr.querySelectorAll('td')].map((td) => td.textContent ?? '')));
+const pipettingRows = (page: Page) => page.$$eval('#sec-pipetting tr[data-tube]', (trs) => trs.map((tr) => Array.from(tr.querySelectorAll('td'), (td) => td.textContent ?? '')));
 
 /** The same rows from the service's JSON sheet for the same options (its sections are what the page draws). */
 async function serviceRows(query: string): Promise<string[][]> {
@@ -93,6 +93,7 @@ describe('the Bench sheet page', () => {
     expect(js.options).toMatchObject({ replicates: 2, sampleVolume: { value: 200 } });
     expect(await page.getAttribute('#to-outcomes', 'href')).toMatch(new RegExp(`^/plans/${planId}/outcomes\\?.*replicates=2`));
     await page.screenshot({ path: 'screenshots/sheet-options.png', fullPage: false });
+    await page.locator('#sec-pipetting').screenshot({ path: 'screenshots/sheet-pipetting.png' });
     expect(errors).toEqual([]);
     await page.close();
   }, 120_000);
@@ -105,6 +106,7 @@ describe('the Bench sheet page', () => {
     expect(await page.isVisible('#glance')).toBe(false);
     expect(await page.isVisible('#sec-pipetting')).toBe(true);
     expect(await page.isVisible('#sec-hazards')).toBe(true);
+    await page.screenshot({ path: 'screenshots/sheet-print-media.png', fullPage: false });
     const pdf = await page.pdf({ preferCSSPageSize: true, printBackground: true });
     expect(pdf.subarray(0, 5).toString()).toBe('%PDF-');
     writeFileSync('screenshots/sheet-print.pdf', pdf);

@@ -423,8 +423,8 @@ function responsePlot(dr: DoseResponse): HTMLElement {
     width: 720,
     height: 340,
     marginTop: 28,
-    // label the 1, 2, 5 ticks of each decade only: the others crowd at this width
-    x: { type: 'log', domain: [lo, hi], label: 'dopant dose delivered (particles/mL, log scale)', tickFormat: (v: number) => ([1, 2, 5].includes(Math.round(v / Math.pow(10, Math.floor(Math.log10(v) + 1e-9)))) ? formatNumber(v) : '') },
+    // label the 1, 2, 3, 5 ticks of each decade only: the others crowd at this width
+    x: { type: 'log', domain: [lo, hi], label: 'dopant dose delivered (particles/mL, log scale)', tickFormat: (v: number) => ([1, 2, 3, 5].includes(Math.round(v / Math.pow(10, Math.floor(Math.log10(v) + 1e-9)))) ? formatNumber(v) : '') },
     y: { domain: [0, 1], label: 'fraction of tubes that crossed (0–1)' },
     marks,
   });
