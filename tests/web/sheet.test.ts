@@ -141,6 +141,18 @@ describe('the Bench sheet page', () => {
     await page.close();
   }, 120_000);
 
+  it('a candidate that does not cross offers the one that does, as a button', async () => {
+    const { page, errors } = await open(`${base}/plans/${planId}/sheet?candidate=catb-0.22-l04`);
+    await page.waitForSelector('#fixes .not-fit');
+    expect(await page.textContent('#fixes')).toMatch(/cannot cross the boundary/);
+    await page.click('#fixes button.fix[data-option="candidate"]');
+    await page.waitForSelector('#sec-pipetting tr[data-tube]');
+    expect(await page.inputValue('#sheet-options select[name="candidate"]')).toBe('ptj-1um-b07');
+    expect(page.url()).toContain('candidate=ptj-1um-b07');
+    expect(errors).toEqual([]);
+    await page.close();
+  }, 60_000);
+
   it('a refused option is shown beside its field, in words', async () => {
     const { page, errors } = await open(`${base}/plans/${planId}/sheet`);
     await page.waitForSelector('#sec-pipetting tr[data-tube]');

@@ -230,11 +230,20 @@ function putLinks(o: SheetOptions): void {
       outcomes,
     );
   } else {
+    // a plain link cannot send an access token: with one in this tab, the link fetches with it and saves the file
+    const withToken = (format: 'md' | 'json' | 'html', type: string) => (ev: MouseEvent) => {
+      if (Object.keys(authHeaders()).length === 0) return;
+      ev.preventDefault();
+      void fetch(sheetUrl(format, o), { headers: authHeaders() })
+        .then((r) => r.text())
+        .then((t) => download(`plan-${planId}-sheet.${format}`, t, type))
+        .catch(page.fail);
+    };
     put(
       links,
-      h('a', { href: sheetUrl('md', o), id: 'link-md', type: 'text/markdown' }, 'Markdown'),
-      h('a', { href: sheetUrl('json', o), id: 'link-json', type: 'application/json' }, 'JSON'),
-      h('a', { href: sheetUrl('html', o), id: 'link-html' }, 'the service’s print page'),
+      h('a', { href: sheetUrl('md', o), id: 'link-md', type: 'text/markdown', onclick: withToken('md', 'text/markdown') }, 'Markdown'),
+      h('a', { href: sheetUrl('json', o), id: 'link-json', type: 'application/json', onclick: withToken('json', 'application/json') }, 'JSON'),
+      h('a', { href: sheetUrl('html', o), id: 'link-html', onclick: withToken('html', 'text/html') }, 'the service’s print page'),
       outcomes,
     );
   }
