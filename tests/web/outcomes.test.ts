@@ -62,6 +62,7 @@ describe('the Outcomes page', () => {
     expect(await page.textContent('tr.problem[data-problem-for="D5a"]')).toMatch(/D5a: tube D5a is entered as stable but with an onset time: a stable tube shows no pattern/);
     expect(await page.getAttribute('input[name="onset-D5a"]', 'aria-invalid')).toBe('true');
     expect(await page.textContent('#messages')).toMatch(/Not saved: 1 problem/);
+    await page.screenshot({ path: 'screenshots/outcomes-row-problem.png' });
     // nothing was stored
     expect(((await app.inject({ method: 'GET', url: `/api/plans/${planId}/outcomes` })).json() as { current: unknown }).current).toBeNull();
     // the refused request (400) shows in the console as a failed resource load; nothing else may
