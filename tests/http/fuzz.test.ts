@@ -58,7 +58,7 @@ interface RouteCase {
 
 const ids = { chemical: ['h2o2', 'glucose'], species: ['ptj-1um-b07', 'gox-e1'] };
 const listQuery = ['q', 'kind', 'includeRetired', 'limit', 'offset'];
-const sheetQuery = ['format', 'paper', 'candidate', 'sampleVolume', 'replicates', 'minVolume', 'overage', 'buffer', 'doses', 'operator', 'tubeVolume', 'chamberVolume', 'closedChamber'];
+const sheetQuery = ['format', 'paper', 'notFitStatus', 'candidate', 'sampleVolume', 'replicates', 'minVolume', 'overage', 'buffer', 'doses', 'operator', 'tubeVolume', 'chamberVolume', 'closedChamber'];
 
 /** Every route of the app, by `METHOD url`, with what the fuzzer needs to reach it. */
 function routeCases(plan: string, measurement: string, job: string): Record<string, RouteCase> {
@@ -97,7 +97,7 @@ function routeCases(plan: string, measurement: string, job: string): Record<stri
     'POST /api/plans/:id/update/apply': { body: () => ({ job: 'no-such-job' }), params: { id: [plan] } },
     'POST /api/plans/:id/next': { body: () => ({ tubes: 4 }), params: { id: [plan] } },
     'GET /api/plans/:id/sheet': { body: null, params: { id: [plan] }, query: sheetQuery },
-    'POST /api/plans/:id/sheet': { body: () => ({ replicates: 2, doses: ['0', '1e6 1/mL', '1e7 1/mL'] }), params: { id: [plan] }, query: ['format', 'paper'] },
+    'POST /api/plans/:id/sheet': { body: () => ({ replicates: 2, doses: ['0', '1e6 1/mL', '1e7 1/mL'] }), params: { id: [plan] }, query: ['format', 'paper', 'notFitStatus'] },
     'GET /api/jobs': { body: null },
     'GET /api/jobs/:id': { body: null, params: { id: [job] } },
     'DELETE /api/jobs/:id': { body: null, params: { id: [job] } },

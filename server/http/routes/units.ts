@@ -11,8 +11,15 @@ import { LIMITS } from '../../schema/limits.js';
 import { DIMENSIONS, formatDimension, parseQuantity, UnitError, type Sign } from '../../units/index.js';
 import { fmt, fmtWithSd, type DisplayKind } from '../../units/display.js';
 
+/**
+ * The readable quantities: the shelf's dimensions and a volume (a sample, a tube or a chamber, as the bench
+ * sheet's options take them), which the shelf itself has no field of.
+ */
+const READABLE = { ...DIMENSIONS, volume: { length: 3 } } as const;
+type Readable = keyof typeof READABLE;
+
 /** How each readable quantity is shown (server/units/display.ts). */
-const DISPLAY: Record<keyof typeof DIMENSIONS, DisplayKind> = {
+const DISPLAY: Record<Readable, DisplayKind> = {
   dimensionless: 'fraction',
   length: 'length',
   time: 'time',
@@ -26,9 +33,10 @@ const DISPLAY: Record<keyof typeof DIMENSIONS, DisplayKind> = {
   molarMass: 'molarMass',
   temperature: 'temperature',
   viscosity: 'viscosity',
+  volume: 'volume',
 };
 
-const SI_UNIT: Record<keyof typeof DIMENSIONS, string> = {
+const SI_UNIT: Record<Readable, string> = {
   dimensionless: '1',
   length: 'm',
   time: 's',
@@ -42,10 +50,11 @@ const SI_UNIT: Record<keyof typeof DIMENSIONS, string> = {
   molarMass: 'kg/mol',
   temperature: 'K',
   viscosity: 'Pa*s',
+  volume: 'm^3',
 };
 
 const text = z.union([z.string().max(LIMITS.name), z.number()]);
-const quantities = Object.keys(DIMENSIONS) as [keyof typeof DIMENSIONS, ...(keyof typeof DIMENSIONS)[]];
+const quantities = Object.keys(READABLE) as [Readable, ...Readable[]];
 
 export const unitRoutes: FastifyPluginAsync = async (base) => {
   const app = base.withTypeProvider<ZodTypeProvider>();
@@ -63,14 +72,14 @@ export const unitRoutes: FastifyPluginAsync = async (base) => {
     handler: async (req, reply) => {
       const { value, quantity, sign } = req.body;
       try {
-        const q = parseQuantity(value, { dimension: DIMENSIONS[quantity], sign: sign as Sign }, 'value');
+        const q = parseQuantity(value, { dimension: READABLE[quantity], sign: sign as Sign }, 'value');
         const kind = DISPLAY[quantity];
         return {
           si: q.value,
           sd: q.sd,
           siUnit: SI_UNIT[quantity],
           unit: q.unit,
-          dimension: formatDimension(DIMENSIONS[quantity]),
+          dimension: formatDimension(READABLE[quantity]),
           display: q.sd > 0 ? fmtWithSd(q.value, q.sd, kind) : fmt(q.value, kind),
         };
       } catch (e) {

@@ -21,7 +21,9 @@ export type Quantity =
   | 'massDensity'
   | 'molarMass'
   | 'temperature'
-  | 'viscosity';
+  | 'viscosity'
+  /** a volume (sample, tube, chamber): not a shelf field, read by /api/units/read all the same */
+  | 'volume';
 
 interface ReadAnswer {
   si: number;
