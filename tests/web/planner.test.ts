@@ -53,7 +53,7 @@ describe('the Planner page', () => {
     const base0 = page.getByRole('group', { name: /base species 1/ });
     expect(await base0.getByLabel('species').inputValue()).toBe('ptj-1um-b09');
     expect(await base0.getByLabel('amount (volume fraction)', { exact: true }).inputValue()).toBe('0.1 %');
-    await base0.getByText('= 0.001').waitFor(); // the service read it (SI shown inline)
+    await base0.getByText('= 0.1 %').waitFor(); // the service read it (SI shown inline)
     const chem0 = page.getByRole('group', { name: /chemical level: h2o2/ });
     expect(await chem0.getByLabel('concentration', { exact: true }).inputValue()).toBe('200 mM');
     await chem0.getByText('= 200 mM').waitFor();
@@ -79,7 +79,7 @@ describe('the Planner page', () => {
     const row2 = page.getByRole('group', { name: /base species 2/ });
     await row2.getByLabel('species').selectOption('catb-0.22-l04');
     await row2.getByLabel('amount (volume fraction)', { exact: true }).fill('0.05 %');
-    await row2.getByText('= 5 × 10⁻⁴').or(row2.getByText('= 0.0005')).waitFor();
+    await row2.getByText('= 0.05 %').waitFor();
     // the candidate pool leaves out the base; tick two
     const pool = page.getByRole('group', { name: 'candidate species' });
     expect(await pool.getByRole('checkbox').count()).toBe(6); // 8 demo species, 2 in the base
@@ -94,7 +94,7 @@ describe('the Planner page', () => {
     // a cap the schema refuses (at most 0.74): the service's words, beside the field
     expected.add('POST /api/plans 400');
     await page.getByLabel('cap: largest total volume fraction', { exact: true }).fill('80 %');
-    await page.getByText('= 0.8').waitFor();
+    await page.getByText('= 80 %').waitFor();
     await page.getByRole('button', { name: 'Run the plan' }).click();
     const capField = page.locator('.field.has-problem', { has: page.getByLabel('cap: largest total volume fraction', { exact: true }) });
     await capField.locator('.problem').waitFor();
