@@ -57,7 +57,14 @@ export function jobView(label: string): { el: HTMLElement; update(j: Job): void;
     if (!jobId) return;
     cancel.disabled = true;
     stage.textContent = 'cancelling…';
-    await api(`/api/jobs/${encodeURIComponent(jobId)}`, { method: 'DELETE' }).catch(() => undefined);
+    try {
+      await api(`/api/jobs/${encodeURIComponent(jobId)}`, { method: 'DELETE' });
+    } catch (e) {
+      // the job goes on: say why it could not be stopped
+      cancel.disabled = false;
+      stage.textContent = `could not cancel: ${e instanceof Error ? e.message : String(e)}`;
+      return;
+    }
     after?.();
   });
   return {

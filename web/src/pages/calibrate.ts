@@ -128,6 +128,9 @@ interface Fitted {
   fileName: string | null;
   at: Date;
   result: FitRun | QuantalRun | StokesRun;
+  /** the species and chemical chosen when it was fitted: Store and Apply keep to them, whatever is chosen later */
+  speciesId: string | null;
+  chemical: string;
 }
 
 // ------------------------------------------------------------------ words
@@ -530,7 +533,8 @@ function markChanged(): void {
 }
 form.addEventListener('input', (ev) => {
   const t = ev.target as HTMLElement;
-  if (t === speciesSelect || t === chemicalSelect) return;
+  // another species or chemical after the fit: Store and Apply still keep to those it was fitted for, and say so
+  if ((t === speciesSelect || t === chemicalSelect) && current && current.speciesId === speciesSelect.value && current.chemical === chemicalSelect.value) return;
   markChanged();
 });
 
@@ -605,7 +609,7 @@ async function runFit(): Promise<void> {
   try {
     const result = await api<FitRun | QuantalRun | StokesRun>(req.path, { body: req.body });
     if (mine !== seq) return;
-    current = { method: m, request: m === 'stokes-einstein' ? req.body : { method: m, ...req.body, ...(fileName ? { fileName } : {}) }, fileName, at: new Date(), result };
+    current = { method: m, request: m === 'stokes-einstein' ? req.body : { method: m, ...req.body, ...(fileName ? { fileName } : {}) }, fileName, at: new Date(), result, speciesId: speciesSelect.value || null, chemical: chemicalSelect.value };
     render(current);
     put(document.getElementById('fit-status')!, 'done: the result is below');
     document.getElementById('results-title')?.focus();
@@ -630,7 +634,7 @@ function header(f: Fitted, title: string): Child[] {
       { class: 'muted' },
       f.method === 'stokes-einstein' ? `Computed at ${f.at.toLocaleTimeString()}.` : `Fitted at ${f.at.toLocaleTimeString()}: ${rows ?? '?'} data rows from ${f.fileName ?? 'pasted data'}.`,
     ),
-    h('p', { class: 'warn', id: 'changed-since', hidden: true }, 'The data or options have changed since this fit. What is shown — and what Store would keep — is the data as fitted; press Fit again to use the changes.'),
+    h('p', { class: 'warn', id: 'changed-since', hidden: true }, 'The data, options, species or chemical have changed since this fit. What is shown — and what Store and Apply would keep — is the data as fitted, for the species and chemical it was fitted for; press Fit again to use the changes.'),
   ];
 }
 
@@ -788,8 +792,10 @@ function warnings(r: FitRun): HTMLElement | null {
 // ------------------------------------------------------------------ store and apply
 
 let storeButton: HTMLButtonElement | null = null;
+/** The species a fit belongs to: the one chosen when it was fitted. */
+const fittedSpecies = (f: Fitted | null) => (f ? (species.find((s) => s.id === f.speciesId) ?? null) : chosenSpecies());
 function refreshStoreLabel(): void {
-  const sp = chosenSpecies();
+  const sp = fittedSpecies(current);
   if (storeButton && storeButton.dataset.stored !== 'yes') {
     storeButton.textContent = sp ? `Store as a measurement of ${sp.name}` : 'Store as a measurement (choose a species)';
     storeButton.disabled = !sp;
@@ -803,7 +809,7 @@ function storeSection(f: Fitted, r: FitRun): HTMLElement {
   const btn = storeButton;
   refreshStoreLabel();
   btn.addEventListener('click', async () => {
-    const sp = chosenSpecies();
+    const sp = fittedSpecies(f);
     if (!sp || current !== f) return;
     btn.disabled = true;
     put(out, h('p', { class: 'muted' }, 'storing…'));
@@ -882,7 +888,7 @@ async function applyPanel(m: Measurement, stored: SpeciesRev): Promise<HTMLEleme
     page.fail(e);
     return box;
   }
-  const chemical = m.method === 'msd' ? '' : chemicalSelect.value;
+  const chemical = m.method === 'msd' ? '' : (current?.chemical ?? chemicalSelect.value);
   const active = m.method === 'msd' && 'effectiveDiffusivity' in m.fit.parameters;
   const useSelect = h(
     'select',

@@ -285,7 +285,8 @@ function asked(): HTMLElement {
     const stored = b.species.find((x) => x.id === s.id);
     const given = Object.entries(s)
       .filter(([k]) => k !== 'id')
-      .map(([k, v]) => `${k === 'volumeFraction' ? 'volume fraction' : k} ${typed(v).replace(/ percent$/, ' %')}`)
+      // a bare number is SI: a volume fraction 0.001 is 0.1 %, said so (never left to be misread as 0.001 %)
+      .map(([k, v]) => `${k === 'volumeFraction' ? 'volume fraction' : k} ${k === 'volumeFraction' && typeof v === 'number' ? fmt(v, 'fraction') : typed(v).replace(/ percent$/, ' %')}`)
       .join(', ');
     return h('li', null, h('a', { href: `/shelf/species/${encodeURIComponent(s.id)}` }, info(s.id).name), ` (${s.id}): ${given || 'as on the shelf'}`, stored ? ` = ${amount(s.id, stored.density)}` : null);
   });
@@ -346,9 +347,11 @@ function onsetText(c: Candidate): Child {
   const boundary = String(plan.request.boundary);
   if (!on) return null;
   const t = c.threshold?.density;
-  if (boundary !== 'restore' && on.state !== boundary && (t === undefined || on.density < t * (1 + 1e-5)))
+  // 'any' asks for whichever state comes first, and 'restore' for the way back: neither has "something else first"
+  const other = boundary !== 'restore' && boundary !== 'any';
+  if (other && on.state !== boundary && (t === undefined || on.density < t * (1 + 1e-5)))
     return h('div', { class: 'flag' }, `Something else happens first: from ${amount(c.species, on.density)} the mixture turns ${on.state}${t !== undefined ? `, below the ${boundary} threshold` : ''}.`);
-  if (boundary !== 'restore' && t !== undefined && on.density < t * (1 - 1e-5)) return h('div', { class: 'flag' }, `It already turns ${on.state} from ${amount(c.species, on.density)}, below this threshold.`);
+  if (other && t !== undefined && on.density < t * (1 - 1e-5)) return h('div', { class: 'flag' }, `It already turns ${on.state} from ${amount(c.species, on.density)}, below this threshold.`);
   return null;
 }
 
@@ -676,11 +679,12 @@ function mapPanel(c: Candidate): HTMLElement | null {
   for (const b of m.boundaries) marks.push(Plot.line(b.points.map(([f, x]) => ({ f, x: sc.of(x) })), { x: 'x', y: 'f', stroke: INK, strokeWidth: 2 }));
   marks.push(Plot.ruleY([1], { stroke: INK, strokeDasharray: '2,3' }));
   if (c.threshold && c.threshold.density > 0) marks.push(Plot.ruleX([sc.of(c.threshold.density)], { stroke: ACCENT, strokeWidth: 2 }));
-  const series = m.doseSeries.filter((x) => x > 0 && x >= de[0]![0] && x <= de[de.length - 1]![1]);
+  const planned = m.doseSeries.filter((x) => x > 0);
+  const series = planned.filter((x) => x >= de[0]![0] && x <= de[de.length - 1]![1]);
   if (series.length) marks.push(Plot.dot(series.map((x) => ({ x: sc.of(x), f: 1 })), { x: 'x', y: 'f', r: 4.5, fill: '#ffffff', stroke: INK, strokeWidth: 1.5, symbol: 'diamond' }));
   const what = m.baseAxis.species ? `the density of ${m.baseAxis.species}` : 'every base species together';
   const f = figure({
-    caption: `State of the mixture over the dose of ${c.species} and ${what} (× the planned level), both on log axes. Solid black lines: the boundaries between states; orange line: the threshold at the planned base; dotted line: the planned base (× 1); white diamonds: the bench sheet's planned dose series (${series.length} doses).`,
+    caption: `State of the mixture over the dose of ${c.species} and ${what} (× the planned level), both on log axes. Solid black lines: the boundaries between states; orange line: the threshold at the planned base; dotted line: the planned base (× 1); white diamonds: the bench sheet's planned doses${series.length === planned.length ? ` (${series.length})` : ` (${series.length} of its ${planned.length} doses lie within the map; the others are off its dose range)`}.`,
     width: 640,
     height: 360,
     x: { type: 'log', label: sc.label, domain: [sc.of(de[0]![0]), sc.of(de[de.length - 1]![1])], ticks: 5, tickFormat: (v: number) => formatNumber(v, 2) },

@@ -235,7 +235,14 @@ function putLinks(o: SheetOptions): void {
       if (Object.keys(authHeaders()).length === 0) return;
       ev.preventDefault();
       void fetch(sheetUrl(format, o), { headers: authHeaders() })
-        .then((r) => r.text())
+        .then(async (r) => {
+          // a refusal (a revoked token, a sheet that no longer fits) is said, never saved as if it were the sheet
+          if (!r.ok) {
+            const b = (await r.json().catch(() => ({}))) as { error?: string; message?: string };
+            throw new ApiError(r.status, b.error ?? String(r.status), b.message ?? `the service answered ${r.status}`, b);
+          }
+          return r.text();
+        })
         .then((t) => download(`plan-${planId}-sheet.${format}`, t, type))
         .catch(page.fail);
     };
