@@ -98,11 +98,26 @@ function dimensionOf(u: Unit): Dimension {
   return out;
 }
 
-/** Replace the micro signs and `%` so mathjs can read the string. */
+const SUPERSCRIPT: Record<string, string> = { '⁻': '-', '⁰': '0', '¹': '1', '²': '2', '³': '3', '⁴': '4', '⁵': '5', '⁶': '6', '⁷': '7', '⁸': '8', '⁹': '9' };
+const fromSuperscript = (t: string) => t.split('').map((c) => SUPERSCRIPT[c] ?? c).join('');
+
+/**
+ * Text as people write it (and as brink shows it, server/units/display.ts) → text mathjs reads:
+ * the micro signs → `u`; `%` → `percent`; the minus sign − → `-`; `1.43 × 10⁸` (or `× 10^8`) → `1.43e8`;
+ * superscript powers `µm²`, `s⁻¹` → `um^2`, `s^-1`; the middle dots `·` `⋅` → `*`; `°C` → `degC`;
+ * a count per volume, `particles/mL` (or molecules, cells, beads; `per mL`) → `1/mL`.
+ */
 export function normaliseUnitText(text: string): string {
   return text
     .trim()
     .replace(/[\u00B5\u03BC]/g, 'u')
+    .replace(/\u2212/g, '-')
+    .replace(/(?<=[\d.])\s*[×x]\s*10\s*\^?\s*([-+]?\d+|[⁻⁰¹²³⁴⁵⁶⁷⁸⁹]+)/g, (_m, e: string) => `e${fromSuperscript(e)}`)
+    .replace(/([A-Za-z)])([⁻⁰¹²³⁴⁵⁶⁷⁸⁹]+)/g, (_m, a: string, e: string) => `${a}^${fromSuperscript(e)}`)
+    .replace(/[\u00B7\u22C5]/g, '*')
+    .replace(/°\s*C\b/g, 'degC')
+    .replace(/\b(?:particles|molecules|cells|beads|copies)\s*(?:\/|per\s+)/gi, '1/')
+    .replace(/(^|[\d.\s])per\s+(?=[A-Za-z])/g, '$11/')
     .replace(/%/g, ' percent')
     .replace(/\s+/g, ' ');
 }
