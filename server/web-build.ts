@@ -73,7 +73,8 @@ export function pagesStale(): string | null {
 /** Build the pages with Vite (web/vite.config.ts) into dist/web/. */
 export async function buildPages(): Promise<void> {
   const vite = await import('vite');
-  await vite.build({ configFile: join(WEB_SRC, 'vite.config.ts'), logLevel: 'warn' });
+  // root and output named here too: always this package's web/ and dist/web/, wherever the config file resolves
+  await vite.build({ configFile: join(WEB_SRC, 'vite.config.ts'), root: WEB_SRC, logLevel: 'warn', build: { outDir: WEB_OUT, emptyOutDir: true } });
   writeFileSync(STAMP, `${new Date().toISOString()}\n`);
 }
 

@@ -10,7 +10,7 @@
  * report how fast it starts.
  */
 import { spawn, spawnSync } from 'node:child_process';
-import { copyFileSync, existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, symlinkSync } from 'node:fs';
+import { copyFileSync, cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, symlinkSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -62,6 +62,8 @@ describe('the compiled package', () => {
     copyFileSync(join(root, 'bin/brink.js'), join(copy, 'bin/brink.js'));
     copyFileSync(join(root, 'package.json'), join(copy, 'package.json'));
     for (const d of ['migrations', 'seeds', 'web', 'node_modules']) symlinkSync(join(root, d), join(copy, d), 'dir');
+    // the pages as built (the test setup built them): a package carries dist/web/ beside dist/server/
+    cpSync(join(root, 'dist/web'), join(copy, 'dist/web'), { recursive: true });
   }, 120_000);
 
   afterAll(() => {
@@ -115,7 +117,7 @@ describe('the compiled package', () => {
       });
       const page = await fetch(url);
       expect(page.status).toBe(200);
-      expect(await page.text()).toBe(readFileSync(join(root, 'web/index.html'), 'utf8'));
+      expect(await page.text()).toBe(readFileSync(join(copy, 'dist/web/index.html'), 'utf8'));
       const health = (await (await fetch(`${url}api/health`)).json()) as { version: string; species: number };
       expect(health.version).toBe(pkg.version);
       expect(health.species).toBeGreaterThan(0);

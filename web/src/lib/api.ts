@@ -60,6 +60,7 @@ async function read(r: Response): Promise<unknown> {
 
 export async function api<T = unknown>(path: string, o: ApiOptions = {}, ask = true): Promise<T> {
   const method = o.method ?? (o.body === undefined ? 'GET' : 'POST');
+  const sentToken = sessionStorage.getItem(TOKEN_KEY);
   const init: RequestInit = { method, headers: { ...(method !== 'GET' ? { 'content-type': 'application/json' } : {}), ...authHeaders() } };
   if (o.body !== undefined) init.body = JSON.stringify(o.body);
   else if (method !== 'GET') init.body = '{}';
@@ -74,6 +75,10 @@ export async function api<T = unknown>(path: string, o: ApiOptions = {}, ask = t
   const body = await read(r);
   if (r.status === 401 && ask) {
     const b = (body ?? {}) as { error?: string; message?: string };
+    // refused for want of a token that this tab has been given since the request left (a request sent
+    // at the same moment as the one that asked): send it again with the token, without asking twice
+    const now = sessionStorage.getItem(TOKEN_KEY);
+    if (now && now !== sentToken) return api<T>(path, o, false);
     if (b.error !== 'token-required') sessionStorage.removeItem(TOKEN_KEY);
     if (await askToken(b.message ?? 'This service needs an access token.')) return api<T>(path, o, false);
   }
