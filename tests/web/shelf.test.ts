@@ -111,7 +111,7 @@ describe('the Shelf pages', () => {
     // the inline reading: the display text and the SI value (0.3 µm²/s = 3e-13 m²/s)
     const dOut = page.locator('.coef[data-key="diffusivity"] output');
     await expect.poll(() => dOut.textContent()).toContain('0.3 ± 0.03 µm²/s');
-    expect(await dOut.textContent()).toContain('SI 3e-13 m^2/s ± 3e-14');
+    expect(await dOut.textContent()).toContain('SI 3 × 10⁻¹³ m^2/s ± 3 × 10⁻¹⁴');
     await page.fill('input[name="radius"]', '1 uu');
     await expect.poll(() => page.locator('.coef[data-key="radius"] output').getAttribute('class')).toContain('error');
     await page.fill('input[name="radius"]', '1 um');

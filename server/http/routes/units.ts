@@ -62,7 +62,7 @@ export const unitRoutes: FastifyPluginAsync = async (base) => {
     schema: {
       tags: ['meta'],
       summary: 'Read a value as typed for one kind of quantity: its SI value, uncertainty and display text (nothing stored)',
-      description: `quantity is one of ${quantities.join(', ')}. value is a number (SI), a string with a unit, or { value, sd }. sign: positive, nonnegative or any (default any). A value the parser cannot read, or of another dimension, is a 400 whose message says what was expected.`,
+      description: `quantity is one of ${quantities.join(', ')}. value is a number (SI), a string with a unit, or { value, sd }. sign: positive, nonnegative or any (default any). A value the parser cannot read, or of another dimension, is still a 200 — reading is what was asked, and "cannot" is an answer — with ok: false and a message that says what was expected (a page checks every keystroke: a refusal is no error). A malformed request is a 400.`,
       body: z.strictObject({
         value: z.union([text, z.strictObject({ value: text, sd: text.optional() })]),
         quantity: z.enum(quantities),
@@ -75,6 +75,7 @@ export const unitRoutes: FastifyPluginAsync = async (base) => {
         const q = parseQuantity(value, { dimension: READABLE[quantity], sign: sign as Sign }, 'value');
         const kind = DISPLAY[quantity];
         return {
+          ok: true as const,
           si: q.value,
           sd: q.sd,
           siUnit: SI_UNIT[quantity],
@@ -83,7 +84,7 @@ export const unitRoutes: FastifyPluginAsync = async (base) => {
           display: q.sd > 0 ? fmtWithSd(q.value, q.sd, kind) : fmt(q.value, kind),
         };
       } catch (e) {
-        if (e instanceof UnitError) return reply.code(400).send({ error: 'unit', message: e.message });
+        if (e instanceof UnitError) return { ok: false as const, error: 'unit', message: e.message };
         throw e;
       }
     },

@@ -7,6 +7,7 @@
 import { api, ApiError } from './api.js';
 import { debounce, h, uid } from './dom.js';
 import { problemWords } from './words.js';
+import { formatNumber } from './format.js';
 
 export type Quantity =
   | 'dimensionless'
@@ -25,12 +26,11 @@ export type Quantity =
   /** a volume (sample, tube, chamber): not a shelf field, read by /api/units/read all the same */
   | 'volume';
 
-interface ReadAnswer {
-  si: number;
-  sd: number;
-  siUnit: string;
-  display: string;
-}
+/** What the unit reader answers: the value read, or (still a 200) why it cannot be read. */
+export type ReadAnswer = { ok: true; si: number; sd: number; siUnit: string; display: string } | { ok: false; error: string; message: string };
+
+/** A number in SI written compactly for the preview line (2 × 10¹⁴, not 200000000000000). */
+const siText = (x: number) => formatNumber(x, 4);
 
 export interface QuantityField {
   el: HTMLElement;
@@ -75,8 +75,9 @@ export function quantityField(o: { label: string; quantity: Quantity; sign?: 'po
     try {
       const r = await api<ReadAnswer>('/api/units/read', { body: { value: s ? { value: v, sd: s } : v, quantity: o.quantity, sign: o.sign ?? 'any' } });
       if (mine !== seq) return;
+      if (!r.ok) throw new ApiError(200, r.error, r.message, r);
       bad = false;
-      out.textContent = `= ${r.display}  (SI ${r.siUnit === '1' ? 'fraction ' : ''}${Number(r.si.toPrecision(4))}${r.siUnit === '1' ? '' : ` ${r.siUnit}`}${r.sd > 0 ? ` ± ${Number(r.sd.toPrecision(2))}` : ''})`;
+      out.textContent = `= ${r.display}  (SI ${r.siUnit === '1' ? 'fraction ' : ''}${siText(r.si)}${r.siUnit === '1' ? '' : ` ${r.siUnit}`}${r.sd > 0 ? ` ± ${formatNumber(r.sd, 2)}` : ''})`;
       out.className = 'si ok';
     } catch (e) {
       if (mine !== seq) return;

@@ -899,6 +899,10 @@ async function applyPanel(m: Measurement, stored: SpeciesRev): Promise<HTMLEleme
   const preview = h('div', { id: 'apply-preview' });
   const applyButton = h('button', { type: 'button', id: 'apply-button' }, 'Apply to the shelf');
   const outcome = h('div', { id: 'apply-outcome' });
+  const author = h('input', { type: 'text', id: 'apply-author', name: 'apply-author', placeholder: 'who applies it (kept in the revision)', autocomplete: 'name' });
+  // an uncertainty the fit itself calls too small goes on the shelf only when the user says so
+  const understated = (m.fit as { standardErrorsHonest?: boolean }).standardErrorsHonest === false;
+  const accept = h('input', { type: 'checkbox', id: 'accept-understated' });
   const draw = () => {
     const plan = plannedChange(m, sp, active ? useSelect.value : 'diffusivity', chemical);
     put(
@@ -906,9 +910,10 @@ async function applyPanel(m: Measurement, stored: SpeciesRev): Promise<HTMLEleme
       plan.changes.length ? table(['coefficient', `now (revision ${sp.revision})`, 'after applying'], plan.changes.map((c) => [c.what, c.old, h('strong', null, c.next)]), { id: 'apply-table' }) : null,
       plan.blocked ? h('p', { class: 'warn', id: 'apply-blocked' }, plan.blocked) : null,
     );
-    applyButton.disabled = plan.blocked !== null;
+    applyButton.disabled = plan.blocked !== null || (understated && !accept.checked);
   };
   useSelect.addEventListener('change', draw);
+  accept.addEventListener('change', draw);
   draw();
   applyButton.addEventListener('click', async () => {
     applyButton.disabled = true;
@@ -916,7 +921,7 @@ async function applyPanel(m: Measurement, stored: SpeciesRev): Promise<HTMLEleme
     put(outcome, h('p', { class: 'muted' }, 'applying…'));
     try {
       const rev = await api<SpeciesRev & { revisionId: number }>(`/api/measurements/${m.id}/apply`, {
-        body: { baseRevision: sp.revision, ...(active ? { use: useSelect.value } : {}), ...(chemical ? { chemical } : {}) },
+        body: { baseRevision: sp.revision, ...(active ? { use: useSelect.value } : {}), ...(chemical ? { chemical } : {}), ...(author.value.trim() ? { author: author.value.trim() } : {}) },
       });
       const at = species.findIndex((s) => s.id === rev.id);
       if (at >= 0) species[at] = rev;
@@ -952,6 +957,10 @@ async function applyPanel(m: Measurement, stored: SpeciesRev): Promise<HTMLEleme
     active ? field('Which diffusivity goes on the shelf', useSelect) : null,
     preview,
     h('p', { class: 'hint' }, 'The value is written in the unit the shelf already uses for it, rounded to the precision its standard error supports. The planner then uses it, with its uncertainty, in every new plan.'),
+    understated
+      ? h('div', { class: 'warn', id: 'understated-apply' }, h('p', null, 'The ± this fit gives is too small (the lags of an MSD curve are correlated; see above), and every plan made after applying would take it at its word: its bands would be too narrow. Fit the tracked positions for an honest uncertainty, or apply knowing this.'), h('label', { for: 'accept-understated' }, accept, ' I know the uncertainty written is too small; apply anyway'))
+      : null,
+    field('Applied by', author),
     h('div', { class: 'actions' }, applyButton),
     outcome,
   );

@@ -222,7 +222,7 @@ function renderEntry(): void {
       const state = h('select', { name: `state-${lid}`, 'aria-label': `state seen in tube ${lid}` }, h('option', { value: '' }, '— not observed'), STATES.map((s) => h('option', { value: s }, s)));
       state.value = was?.state ?? '';
       const onset = h('input', { type: 'text', name: `onset-${lid}`, 'aria-label': `onset time of tube ${lid}`, placeholder: 'e.g. 12 min', value: was?.onsetTime != null ? `${formatNumber(was.onsetTime / 60)} min` : '', size: 9 });
-      const length = h('input', { type: 'text', name: `length-${lid}`, 'aria-label': `pattern length in tube ${lid}`, placeholder: 'e.g. 0.4 mm', value: was?.patternLength != null ? `${formatNumber(was.patternLength * 1e3)} mm` : '', size: 9 });
+      const length = h('input', { type: 'text', name: `length-${lid}`, 'aria-label': `pattern wavelength (cluster to cluster) in tube ${lid}`, placeholder: 'e.g. 0.4 mm', value: was?.patternLength != null ? `${formatNumber(was.patternLength * 1e3)} mm` : '', size: 9 });
       const notes = h('input', { type: 'text', name: `notes-${lid}`, 'aria-label': `notes on tube ${lid}`, value: was?.notes ?? '', class: 'notes' });
       const tr = h(
         'tr',
@@ -246,8 +246,13 @@ function renderEntry(): void {
   const tbl = h(
     'table',
     { id: 'tubes', class: 'entry' },
-    h('caption', null, `One row per tube of the sheet (${sheet.candidate.id}); a tube left “not observed” is recorded as not observed, never as stable.`),
-    h('thead', null, h('tr', null, ['tube', 'sample', 'dose delivered', 'replicate', 'expected', 'state seen', 'onset time', 'pattern length', 'notes'].map((x) => h('th', { scope: 'col' }, x)))),
+    h(
+      'caption',
+      null,
+      `One row per tube of the sheet (${sheet.candidate.id}); a tube left “not observed” is recorded as not observed, never as stable. `,
+      h('span', { id: 'wavelength-hint' }, 'Wavelength: the distance from one cluster or band to the next, the length the model predicts. Where a single cluster or band spans the chamber between its walls, that is half a wavelength: enter twice the chamber length. Leave it empty when unsure: a wrong length counts against the model.'),
+    ),
+    h('thead', null, h('tr', null, ['tube', 'sample', 'dose delivered', 'replicate', 'expected', 'state seen', 'onset time', 'wavelength (cluster to cluster)', 'notes'].map((x) => h('th', { scope: 'col' }, x)))),
     h('tbody', null, body),
   );
   const opts = describeOptions(options, sheet);

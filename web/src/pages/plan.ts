@@ -175,8 +175,17 @@ const info = (sid: string): SpeciesInfo => species.get(sid) ?? { name: sid, ctx:
 const amount = (sid: string, x: number | null | undefined) => fmtAmountOf(x, info(sid).ctx);
 /** An engine message with its doses (written "2.50e+7 per mL") as the bench writes them for this species. */
 const say = (sid: string | null, text: string) => text.replace(/(\d+(?:\.\d+)?) mol\/m\^3/g, '$1 mM').replace(/(\d+(?:\.\d+)?(?:e[+-]?\d+)?) per mL/g, (_, x: string) => (sid ? amount(sid, Number(x) * 1e6) : fmt(Number(x) * 1e6, 'numberDensity')));
-/** A candidate's warnings in words, without the earlier-onset one the dose-path column already says. */
-const candidateWarnings = (c: Candidate) => c.warnings.filter((w) => w.code !== 'earlier-instability').map((w) => say(c.species, w.message));
+/**
+ * A candidate's warnings in words, without the earlier-onset one the dose-path column already says, and
+ * those of the sample at its margin dose (the fuel running out before a growth time, gas, settling: what
+ * the bench sheet warns of too) that the plan's general warnings do not already say.
+ */
+const candidateWarnings = (c: Candidate) => {
+  const general = new Set(plan.result.warnings.map((w) => w.message));
+  const own = c.warnings.filter((w) => w.code !== 'earlier-instability').map((w) => say(c.species, w.message));
+  const atMargin = (c.atMargin?.warnings ?? []).filter((w) => !general.has(w.message)).map((w) => `At the margin dose: ${say(c.species, w.message)}`);
+  return [...new Set([...own, ...atMargin])];
+};
 
 function render(): void {
   page.main.replaceChildren();
@@ -277,6 +286,17 @@ function typed(v: unknown): string {
   return t.sd ? `${t.value} ± ${t.sd}` : t.value;
 }
 
+/** What to do about a candidate that does not cross, where the reason suggests it. */
+function reasonHint(c: Candidate): Child {
+  if (c.reason !== 'base-already-past') return null;
+  const b = c.band;
+  const share = b ? ` With the shelf's uncertainties the base is past the boundary in ${pct(b.alreadyPast)} of the draws${b.feasibleFraction - b.alreadyPast > 0 ? '' : ' and the rest never cross below the cap'}.` : '';
+  return h('span', { class: 'hint' }, ` This is said of the shelf's values as they stand.${share} To find the dose that makes the base stay mixed instead, plan again with the boundary “restore”.`);
+}
+
+/** How a base amount was given, in words. */
+const AMOUNT_WORDS: Record<string, string> = { volumeFraction: 'volume fraction', density: 'number density', massConcentration: 'mass concentration', molarConcentration: 'molar concentration' };
+
 function asked(): HTMLElement {
   const r = plan.request;
   const b = plan.inputs.base;
@@ -286,7 +306,7 @@ function asked(): HTMLElement {
     const given = Object.entries(s)
       .filter(([k]) => k !== 'id')
       // a bare number is SI: a volume fraction 0.001 is 0.1 %, said so (never left to be misread as 0.001 %)
-      .map(([k, v]) => `${k === 'volumeFraction' ? 'volume fraction' : k} ${k === 'volumeFraction' && typeof v === 'number' ? fmt(v, 'fraction') : typed(v).replace(/ percent$/, ' %')}`)
+      .map(([k, v]) => `${AMOUNT_WORDS[k] ?? k} ${k === 'volumeFraction' && typeof v === 'number' ? fmt(v, 'fraction') : typed(v).replace(/ percent$/, ' %')}`)
       .join(', ');
     return h('li', null, h('a', { href: `/shelf/species/${encodeURIComponent(s.id)}` }, info(s.id).name), ` (${s.id}): ${given || 'as on the shelf'}`, stored ? ` = ${amount(s.id, stored.density)}` : null);
   });
@@ -439,7 +459,7 @@ function ranked(): HTMLElement {
           h(
             'ul',
             { class: 'infeasible' },
-            infeasible.map((c) => h('li', null, h('strong', null, info(c.species).name), ` (${c.species}): `, say(c.species, c.message ?? c.reason ?? 'no reason given'), c.warnings.length ? h('ul', { class: 'plain small' }, c.warnings.map((w) => h('li', null, say(c.species, w.message)))) : null)),
+            infeasible.map((c) => h('li', { 'data-species': c.species }, h('button', { type: 'button', class: 'link pick', 'aria-controls': 'detail', 'aria-pressed': 'false', 'data-species': c.species, onclick: () => choose(c.species, true) }, h('strong', null, info(c.species).name)), ` (${c.species}): `, say(c.species, c.message ?? c.reason ?? 'no reason given'), reasonHint(c), c.warnings.length ? h('ul', { class: 'plain small' }, c.warnings.map((w) => h('li', null, say(c.species, w.message)))) : null)),
           ),
         ]
       : null,
@@ -449,7 +469,7 @@ function ranked(): HTMLElement {
 // ------------------------------------------------------------------ one candidate in detail
 
 function choose(sid: string, focus: boolean): void {
-  for (const tr of document.querySelectorAll<HTMLTableRowElement>('table.ranked tbody tr')) {
+  for (const tr of document.querySelectorAll<HTMLElement>('table.ranked tbody tr, ul.infeasible li')) {
     const on = tr.dataset.species === sid;
     tr.classList.toggle('selected', on);
     tr.querySelector('button.pick')?.setAttribute('aria-pressed', String(on));
@@ -666,7 +686,7 @@ function fuelPanel(c: Candidate): HTMLElement | null {
 function mapPanel(c: Candidate): HTMLElement | null {
   const m = plan.result.stateMap;
   if (!m || m.candidate !== c.species) {
-    if (plan.request.stateMap && m) return panel('State map', h('p', { class: 'muted' }, `The plan's state map is of ${m.candidate}; choose it in the table to see it.`));
+    if (plan.request.stateMap && m) return panel('State map', h('p', { class: 'muted' }, `The plan's state map is of ${m.candidate}; choose it (in the table, or in the list of candidates that do not cross) to see it.`));
     return null;
   }
   const sc = doseScale(info(c.species).ctx);
@@ -706,11 +726,21 @@ function mapWords(m: StateMapData, c: Candidate): string {
   const dist = m.baseAxis.factor.map((f) => Math.abs(Math.log(f)));
   const i0 = dist.indexOf(Math.min(...dist));
   const row = m.states[i0] ?? [];
+  const f0 = m.baseAxis.factor[i0] ?? 1;
   const runs: string[] = [];
   row.forEach((s, j) => {
-    if (j === 0 || s !== row[j - 1]) runs.push(j === 0 ? s : `${s} from about ${amount(c.species, m.doseAxis[j]!)}`);
+    if (j === 0) return runs.push(s);
+    if (s === row[j - 1]) return;
+    // the change as bisected on this row (the boundary line's point), else between the two grid doses
+    const lo = m.doseAxis[j - 1]!;
+    const hi = m.doseAxis[j]!;
+    const at = m.boundaries
+      .filter((b) => b.from === row[j - 1] && b.to === s)
+      .flatMap((b) => b.points)
+      .find(([f, x]) => Math.abs(f / f0 - 1) < 1e-9 && x >= lo * (1 - 1e-9) && x <= hi * (1 + 1e-9));
+    runs.push(at ? `${s} from ${amount(c.species, at[1])}` : `${s} somewhere between ${amount(c.species, lo)} and ${amount(c.species, hi)}`);
   });
-  return `Along the row nearest the planned base (× ${formatNumber(m.baseAxis.factor[i0] ?? 1, 3)}) the mixture is ${runs.join(', then ')} as the dose rises over the map (grid points; the boundary lines are bisected between them).`;
+  return `Along the row nearest the planned base (× ${formatNumber(f0, 3)}) the mixture is ${runs.join(', then ')} as the dose rises over the map (each change bisected along the row, as the boundary lines are).`;
 }
 
 // ------------------------------------------------------------------ rerun against today's shelf

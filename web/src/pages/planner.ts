@@ -10,7 +10,7 @@ import { mountPage } from '../lib/layout.js';
 import './planner.css';
 import { api, ApiError, type Problem } from '../lib/api.js';
 import { debounce, field, h, put, uid, type Child } from '../lib/dom.js';
-import { quantityField, typedText, type Quantity, type QuantityField } from '../lib/fields.js';
+import { quantityField, typedText, type Quantity, type QuantityField, type ReadAnswer } from '../lib/fields.js';
 import { followJob, jobOutcome, jobView, type Job } from '../lib/job.js';
 
 const page = mountPage('Planner', 'planner');
@@ -463,7 +463,8 @@ const q = (f: QuantityField) => f.value();
 async function readNumber(f: QuantityField): Promise<number | undefined> {
   const v = f.value();
   if (v === undefined) return undefined;
-  const r = await api<{ si: number }>('/api/units/read', { body: { value: typeof v === 'string' ? v : v.value, quantity: 'dimensionless', sign: 'positive' } });
+  const r = await api<ReadAnswer>('/api/units/read', { body: { value: typeof v === 'string' ? v : v.value, quantity: 'dimensionless', sign: 'positive' } });
+  if (!r.ok) throw new ApiError(400, r.error, r.message, r);
   return r.si;
 }
 
