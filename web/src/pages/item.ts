@@ -49,6 +49,9 @@ page.main.append(h('p', null, h('a', { href: '/' }, '← Shelf')), head, conflic
 // ---------------------------------------------------------------- the form
 
 /** A time as the lab reads it: `2026-12-05 03:38` (local time). */
+/** A revision's action in words (the API's create, update, retire, restore, import). */
+const actionWords = (a: string) => ({ create: 'created', update: 'edited', retire: 'retired', restore: 'restored', import: 'imported' })[a] ?? a;
+
 function when(iso: string, withTime = true): string {
   const d = new Date(iso);
   if (Number.isNaN(d.getTime())) return iso;
@@ -565,7 +568,7 @@ function renderHead(rev: Revision | null): void {
     h('h1', null, title),
     parts.length ? h('nav', { class: 'item-nav', 'aria-label': 'Parts of this page' }, parts.map(([id, label]) => h('a', { href: `#${id}` }, label))) : null,
     rev
-      ? h('span', { class: 'meta' }, `${type === 'species' ? `${rev.kind ?? ''} species` : 'chemical'} “${rev.id}” — revision ${rev.revision}, ${rev.action} by ${rev.author}, ${when(rev.createdAt)}`, rev.retired ? h('span', { class: 'tag retired' }, ' retired') : null)
+      ? h('span', { class: 'meta' }, `${type === 'species' ? `${rev.kind ?? ''} species` : 'chemical'} “${rev.id}” — revision ${rev.revision}, ${actionWords(rev.action)} by ${rev.author}, ${when(rev.createdAt)}`, rev.retired ? h('span', { class: 'tag retired' }, ' retired') : null)
       : h('span', { class: 'meta' }, type === 'species' ? 'a particle or an enzyme, with how it couples to chemicals' : 'a fuel, product or other solute species act on'),
     rev && type === 'species' ? h('a', { class: 'button secondary', href: `/calibrate?species=${encodeURIComponent(rev.id)}`, id: 'calibrate-link' }, 'Calibrate this species') : null,
   );
@@ -616,7 +619,7 @@ async function renderHistory(rev: Revision): Promise<void> {
           'li',
           { 'data-revision': r.revision },
           h('strong', null, `Revision ${r.revision}`),
-          ` — ${r.action}, by ${r.author}, ${when(r.createdAt)}`,
+          ` — ${actionWords(r.action)} by ${r.author}, ${when(r.createdAt)}`,
           r.note ? h('div', { class: 'muted' }, `Note: ${r.note}`) : null,
           first
             ? h('div', { class: 'muted' }, `The first revision: ${changes.length} field${changes.length === 1 ? '' : 's'} given.`)

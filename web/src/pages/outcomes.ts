@@ -6,6 +6,7 @@
  * applying it to the shelf (old → new coefficients with their uncertainties; a refusal explained in words);
  * and the next series designed from the outcomes, with a link to the plan it makes.
  */
+import { prettyUnits } from './shelf-logic.js';
 import { mountPage, pathId } from '../lib/layout.js';
 import { api, ApiError, type Problem } from '../lib/api.js';
 import { field, h, put, table } from '../lib/dom.js';
@@ -573,7 +574,7 @@ async function applyUpdate(): Promise<void> {
           `${r.type} ${r.key}`,
           `${c.field}${c.chemical ? ` on ${c.chemical}` : ''}`,
           k ? withSd(k.value, k.sd, c.field) : withSd(c.from, 0, c.field),
-          h('span', null, k ? withSd(k.posteriorMean, k.posteriorSd, c.field) : '', h('br'), h('span', { class: 'muted' }, `written as ${c.to.value}${c.to.sd ? `, sd ${c.to.sd}` : ''}`)),
+          h('span', null, k ? withSd(k.posteriorMean, k.posteriorSd, c.field) : '', h('br'), h('span', { class: 'muted' }, `kept on the shelf as ${prettyUnits(String(c.to.value)).replace(/(\d(?:\.\d+)?)e([+-]?\d+)/g, (_m, m: string, e: string) => formatNumber(Number(`${m}e${e}`)))}${c.to.sd ? ` ± ${prettyUnits(String(c.to.sd)).replace(/(\d(?:\.\d+)?)e([+-]?\d+)/g, (_m, m: string, e: string) => formatNumber(Number(`${m}e${e}`)))}` : ''}`)),
           h('a', { href: `/shelf/${r.type === 'species' ? 'species' : 'chemicals'}/${encodeURIComponent(r.key)}` }, `revision id ${r.revisionId}`),
         ];
       }),
