@@ -234,12 +234,12 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   };
 
   const linearEnd = () => {
-    // the linear window closes once any species' largest relative deviation passes 0.1 %
+    // the linear window closes once any species' largest relative deviation passes 1 %
     for (let a = 0; a < M; a++) {
       const mean = integ.mean[a]!;
       if (!(mean > 0)) continue;
       const r = integ.rho[a]!;
-      for (let i = 0; i < field.size; i++) if (Math.abs(r[i]! - mean) > 1e-3 * mean) return true;
+      for (let i = 0; i < field.size; i++) if (Math.abs(r[i]! - mean) > 1e-2 * mean) return true;
     }
     return false;
   };

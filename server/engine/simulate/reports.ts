@@ -61,8 +61,9 @@ export interface Measured {
  * one sampling interval Δ is fitted by least squares to the recorded amplitudes
  * (u_{j+1} ≈ A u_j, real and imaginary parts as two trajectories of the same real
  * A); its eigenvalues z give λ = ln z / Δ. The fastest mode is the one whose
- * largest Re λ is largest among the modes that are not lost in the others' noise
- * (final amplitude ≥ 1 % of the largest). An oscillation is reported only when
+ * largest Re λ is largest among the modes that end the window with at least 10 %
+ * of the largest amplitude (weaker ones may be fed by harmonics of the strong).
+ * Each pair of samples is weighted equally (normalised by |u_j|). An oscillation is reported only when
  * the window holds at least half of its period.
  */
 export function measureGrowth(field: SpectralField, modes: number[], samples: Float64Array[], interval: number, mean: Float64Array): Measured {
@@ -87,13 +88,21 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
   if (!(top > 0)) return none;
   let best: { re: number; im: number; q: number } | null = null;
   for (let q = 0; q < modes.length; q++) {
-    if (amp(J, q) < 1e-2 * top) continue;
+    if (amp(J, q) < 0.1 * top) continue;
     const G = new Float64Array(n * n);
     const H = new Float64Array(n * n);
     for (let j = 0; j < J; j++) {
       for (let part = 0; part < 2; part++) {
         const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / mean[a]!);
         const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / mean[a]!);
+        // each pair weighted equally (normalised by |x|): the late, largest samples, where harmonics of the
+        // strongest modes begin to feed the weaker ones, do not dominate the fit
+        const norm = Math.hypot(...x);
+        if (!(norm > 0)) continue;
+        for (let r = 0; r < n; r++) {
+          x[r] = x[r]! / norm;
+          y[r] = y[r]! / norm;
+        }
         for (let r = 0; r < n; r++) {
           for (let c = 0; c < n; c++) {
             G[r * n + c]! += x[r]! * x[c]!;
