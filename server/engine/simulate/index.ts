@@ -22,7 +22,7 @@ export interface SimulateOptions {
   duration?: number;
   /** local error tolerance relative to the fluctuations (default 1e-4) */
   tolerance?: number;
-  /** relative amplitude of the starting white noise (default 1e-4) */
+  /** rms relative amplitude of the starting perturbation (smooth random field of the chamber modes up to NOISE_MODES; default 1e-5) */
   noise?: number;
   seed?: number;
   /** frames stored, evenly spaced, first and last included (default 201 in 1D, 41 in 2D) */
@@ -99,6 +99,63 @@ export interface SimulationResult {
   frames: Frames;
 }
 
+/** The starting perturbation holds the chamber modes up to this index along each axis. */
+export const NOISE_MODES = 32;
+
+/**
+ * A smooth random field on the chamber's cell centres: Σ a_pq B_p(x) B_q(y) over the
+ * modes up to `modes` along each axis (cosines nπx/L for sealed walls; cosines and
+ * sines 2πnx/L for periodic ones), a_pq standard normal drawn in a fixed order, the
+ * mean removed and the rms scaled to 1. The same seed gives the same function on
+ * every grid fine enough to hold it, so runs at different resolutions start alike.
+ */
+export function smoothNoise(rng: Random, points: number, dims: 1 | 2, periodic: boolean, modes: number): Float64Array {
+  const K = Math.min(modes, Math.floor(points / 2) - 1);
+  const basis: Float64Array[] = [];
+  const at = (i: number) => (i + 0.5) / points; // x/L
+  basis.push(new Float64Array(points).fill(1));
+  for (let k = 1; k <= K; k++) {
+    if (periodic) {
+      basis.push(Float64Array.from({ length: points }, (_, i) => Math.cos(2 * Math.PI * k * at(i))));
+      basis.push(Float64Array.from({ length: points }, (_, i) => Math.sin(2 * Math.PI * k * at(i))));
+    } else basis.push(Float64Array.from({ length: points }, (_, i) => Math.cos(Math.PI * k * at(i))));
+  }
+  const P = basis.length;
+  const cells = dims === 2 ? points * points : points;
+  const out = new Float64Array(cells);
+  if (dims === 1) {
+    for (let p = 1; p < P; p++) {
+      const a = rng.normal();
+      const b = basis[p]!;
+      for (let i = 0; i < points; i++) out[i]! += a * b[i]!;
+    }
+  } else {
+    const col = new Float64Array(points);
+    for (let p = 0; p < P; p++) {
+      col.fill(0);
+      for (let q = 0; q < P; q++) {
+        const a = rng.normal();
+        if (p === 0 && q === 0) continue;
+        const b = basis[q]!;
+        for (let y = 0; y < points; y++) col[y]! += a * b[y]!;
+      }
+      const bx = basis[p]!;
+      for (let y = 0; y < points; y++) for (let x = 0; x < points; x++) out[y * points + x]! += col[y]! * bx[x]!;
+    }
+  }
+  let mean = 0;
+  for (let i = 0; i < cells; i++) mean += out[i]!;
+  mean /= cells;
+  let ss = 0;
+  for (let i = 0; i < cells; i++) {
+    out[i] = out[i]! - mean;
+    ss += out[i]! * out[i]!;
+  }
+  const rms = Math.sqrt(ss / cells);
+  if (rms > 0) for (let i = 0; i < cells; i++) out[i] = out[i]! / rms;
+  return out;
+}
+
 function isPow2(n: number): boolean {
   return Number.isInteger(n) && n >= 8 && (n & (n - 1)) === 0;
 }
@@ -114,7 +171,7 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   if (!isPow2(points) || points > (dims === 1 ? 65536 : 1024)) throw new EngineInputError('points', `must be a power of two from 8 to ${dims === 1 ? 65536 : 1024}`);
   const tolerance = options.tolerance ?? 1e-4;
   if (!(tolerance > 0 && tolerance < 1)) throw new EngineInputError('tolerance', 'must be between 0 and 1');
-  const noise = options.noise ?? 1e-4;
+  const noise = options.noise ?? 1e-5;
   if (!(noise >= 0 && noise < 0.5)) throw new EngineInputError('noise', 'must be in [0, 0.5)');
   const phiMax = options.maxVolumeFraction ?? CLOSE_PACKING;
   const warnings: SimulationWarning[] = [];
@@ -164,14 +221,8 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
         v[i] = options.initial(a, x, y);
       }
     } else {
-      const xi = new Float64Array(cells);
-      let m = 0;
-      for (let i = 0; i < cells; i++) {
-        xi[i] = Math.max(-4, Math.min(4, rng.normal()));
-        m += xi[i]!;
-      }
-      m /= cells;
-      for (let i = 0; i < cells; i++) v[i] = rho0 * (1 + noise * (xi[i]! - m));
+      const xi = smoothNoise(rng, n, dims, walls === 'periodic', NOISE_MODES);
+      for (let i = 0; i < cells; i++) v[i] = rho0 * (1 + noise * xi[i]!);
     }
     const out = new Float64Array(field.size);
     field.fromChamber(v, out);

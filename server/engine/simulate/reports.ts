@@ -64,7 +64,7 @@ export interface Measured {
  * largest Re λ is largest among the modes that end the window with at least 10 %
  * of the largest amplitude (weaker ones may be fed by harmonics of the strong).
  * Each pair of samples is weighted equally (normalised by |u_j|). An oscillation is reported only when
- * the window holds at least half of its period.
+ * the window holds at least a quarter of its period.
  */
 export function measureGrowth(field: SpectralField, modes: number[], samples: Float64Array[], interval: number, mean: Float64Array): Measured {
   const none: Measured = { growthRate: null, wavelength: null, oscillationPeriod: null, mode: null, window: interval * Math.max(0, samples.length - 1) };
@@ -133,7 +133,7 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
   return {
     growthRate: best.re,
     wavelength: (2 * Math.PI) / k,
-    oscillationPeriod: period !== null && window >= period / 2 ? period : null,
+    oscillationPeriod: period !== null && window >= period / 4 ? period : null,
     mode: field.grid.dims === 2 ? [Math.abs(field.jx[i]!), Math.abs(field.jy[i]!)] : [Math.abs(field.jx[i]!)],
     window,
   };
