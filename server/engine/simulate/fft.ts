@@ -90,6 +90,8 @@ export class FFTGrid {
   readonly fx: FFT;
   readonly fy: FFT | null;
   readonly size: number;
+  private readonly colRe: Float64Array;
+  private readonly colIm: Float64Array;
   constructor(
     readonly nx: number,
     readonly ny: number,
@@ -97,11 +99,28 @@ export class FFTGrid {
     this.fx = new FFT(nx);
     this.fy = ny > 1 ? new FFT(ny) : null;
     this.size = nx * ny;
+    this.colRe = new Float64Array(ny);
+    this.colIm = new Float64Array(ny);
   }
 
   /** In place; `inverse` includes the 1/(nx·ny). */
   transform(re: Float64Array, im: Float64Array, inverse = false): void {
     for (let y = 0; y < this.ny; y++) this.fx.transform(re, im, inverse, y * this.nx, 1);
-    if (this.fy) for (let x = 0; x < this.nx; x++) this.fy.transform(re, im, inverse, x, this.nx);
+    if (!this.fy) return;
+    // columns through a contiguous copy (strided access is slow on large grids)
+    const cr = this.colRe;
+    const ci = this.colIm;
+    const nx = this.nx;
+    for (let x = 0; x < nx; x++) {
+      for (let y = 0; y < this.ny; y++) {
+        cr[y] = re[y * nx + x]!;
+        ci[y] = im[y * nx + x]!;
+      }
+      this.fy.transform(cr, ci, inverse);
+      for (let y = 0; y < this.ny; y++) {
+        re[y * nx + x] = cr[y]!;
+        im[y * nx + x] = ci[y]!;
+      }
+    }
   }
 }
