@@ -80,7 +80,7 @@ usage:
   brink analyze <mixture.json> [--format json|text]   linear stability of one sample
   brink screen <request.json> [--format json|text]   smallest dose of each candidate that crosses a boundary
   brink simulate <mixture.json> [--dims 1|2] [--points N] [--duration T] [--out DIR]
-              [--tolerance E] [--noise A] [--seed N] [--frames N]
+              [--tolerance E] [--noise A] [--seed N] [--frames N] [--max-steps N]
                                                      simulate the sample past onset (nonlinear model, docs/model.md §10):
                                                      prints a JSON summary (SI units): the linear and the measured early
                                                      growth, the dominant length over time, clusters and their make-up,
@@ -88,7 +88,8 @@ usage:
                                                      (Float32, little-endian, frame by frame, species by species, x fastest)
                                                      --points: cells per side, a power of two (default 512 in 1D, 128 in 2D)
                                                      --duration: e.g. "20 min" or seconds (default: the mixture's duration,
-                                                     else 20 growth times)
+                                                     else 20 growth times); --max-steps (default 100000): a run that
+                                                     needs more steps stops there and says so (run.completed false)
   brink fit <msd|kinetics|drift> <file.csv|file.json> [options]   coefficients from raw data
       msd:      --model passive-2d|passive-3d|active-2d|active-3d|active-focal  --offset
                 --radius R (fix the rotation time by Stokes–Einstein–Debye)  --temperature T
@@ -390,7 +391,7 @@ async function cmdRestore(args: string[], io: Io): Promise<number> {
 const PAST_WORD = { stationary: 'stationary', oscillatory: 'oscillatory', any: 'unstable', restore: 'stable' } as const;
 
 function cmdSimulate(args: string[], io: Io): number {
-  const usage = 'usage: brink simulate <mixture.json> [--dims 1|2] [--points N] [--duration T] [--out DIR] [--tolerance E] [--noise A] [--seed N] [--frames N]';
+  const usage = 'usage: brink simulate <mixture.json> [--dims 1|2] [--points N] [--duration T] [--out DIR] [--tolerance E] [--noise A] [--seed N] [--frames N] [--max-steps N]';
   const { values, positionals } = parseArgs({
     args,
     allowPositionals: true,
@@ -403,6 +404,7 @@ function cmdSimulate(args: string[], io: Io): number {
       noise: { type: 'string' },
       seed: { type: 'string' },
       frames: { type: 'string' },
+      'max-steps': { type: 'string' },
     },
   });
   if (positionals.length !== 1) throw new UsageError(usage);
@@ -430,6 +432,7 @@ function cmdSimulate(args: string[], io: Io): number {
       ...(values.noise !== undefined ? { noise: numberFlag('noise', values.noise)! } : {}),
       ...(values.seed !== undefined ? { seed: numberFlag('seed', values.seed, true)! } : {}),
       ...(values.frames !== undefined ? { frames: numberFlag('frames', values.frames, true)! } : {}),
+      ...(values['max-steps'] !== undefined ? { maxSteps: numberFlag('max-steps', values['max-steps'], true)! } : {}),
       ...(bar ? { progress: bar.update } : {}),
     });
   } finally {

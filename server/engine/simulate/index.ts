@@ -31,7 +31,7 @@ export interface SimulateOptions {
   maxVolumeFraction?: number;
   /** a starting state instead of the noise: density of species m at a cell centre (x, y in m) */
   initial?: (m: number, x: number, y: number) => number;
-  /** give up after this many accepted steps (default 2,000,000); the summary says so */
+  /** give up after this many accepted steps (default 100,000); the summary says so (run.completed false, warning step-limit) */
   maxSteps?: number;
   progress?: (fraction: number, stage: string) => void;
   /** checked once per step; when true the run throws SimulationCancelled */
@@ -300,7 +300,7 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   const floor = duration * 1e-12;
   let nextFrame = 1;
   let nextSample = 1;
-  const maxSteps = options.maxSteps ?? 2_000_000;
+  const maxSteps = options.maxSteps ?? 100_000;
   record(0);
   recordFrame(0);
   let completed = true;

@@ -242,9 +242,11 @@ export interface Bands {
  * at fixed points is below 1 % of its variance in space: null. Otherwise the
  * speed is the median over consecutive frame pairs of the shift that maximises
  * their cross-correlation (circular when periodic, zero-padded when sealed;
- * parabolic sub-cell refinement), and the period is that of the strongest
- * frequency of the point-wise time series (summed power), when at least two
- * periods fit in the window.
+ * parabolic sub-cell refinement) within half of the dominant wavelength (a
+ * pattern that moves further between frames is aliased: store more frames), and the period is that of the strongest
+ * frequency of the point-wise time series (summed power, scanned finer than the
+ * window's DFT bins), when at least two periods fit in the window and that
+ * frequency holds at least a fifth of the power at the DFT bins.
  */
 export function findBands(rows: Float64Array[], times: number[], periodic: boolean, cellSize: number): Bands | null {
   const F = rows.length;
@@ -297,7 +299,17 @@ export function findBands(rows: Float64Array[], times: number[], periodic: boole
       im[i] = prev.re[i]! * cur.im[i]! - prev.im[i]! * cur.re[i]!;
     }
     fft.transform(re, im, true);
-    const limit = circular ? size / 2 : n - 1;
+    // the pattern repeats every wavelength: look for the shift within half of the dominant wavelength of the earlier frame
+    let jBest = 1;
+    let pBest = -1;
+    for (let q = 1; q <= size / 2; q++) {
+      const p = prev.re[q]! * prev.re[q]! + prev.im[q]! * prev.im[q]!;
+      if (p > pBest) {
+        pBest = p;
+        jBest = q;
+      }
+    }
+    const limit = Math.max(2, Math.min(circular ? size / 2 : n - 1, Math.floor(size / jBest / 2)));
     let bestS = 0;
     let bestV = -Infinity;
     for (let s = -limit + 1; s < limit; s++) {
@@ -319,25 +331,40 @@ export function findBands(rows: Float64Array[], times: number[], periodic: boole
   shifts.sort((p, q) => p - q);
   const median = shifts[Math.floor(shifts.length / 2)]!;
   const speed = Math.abs(median * (t[T - 1]! - t[0]!)) < 2 ? 0 : median * cellSize;
-  // dominant temporal frequency (direct DFT over the frames, summed over points)
+  // dominant temporal frequency: the power of the point-wise series (time mean removed), summed over points,
+  // scanned in fiftieths of a DFT bin (a zero-padded DFT), so the period is not rounded to the window's bins
   const span = t[T - 1]! - t[0]!;
   const dt = span / (T - 1);
+  const series = Array.from({ length: n }, (_, i) => {
+    const v = new Float64Array(T);
+    let m = 0;
+    for (let j = 0; j < T; j++) m += u[j]![i]!;
+    m /= T;
+    for (let j = 0; j < T; j++) v[j] = u[j]![i]! - m;
+    return v;
+  });
   let bestF = 0;
   let bestP = 0;
   let totalP = 0;
-  for (let q = 1; q <= Math.floor(T / 2); q++) {
+  const cs = new Float64Array(T);
+  const sn = new Float64Array(T);
+  for (let q = 0.5; q <= T / 2; q += 0.02) {
+    for (let j = 0; j < T; j++) {
+      cs[j] = Math.cos((2 * Math.PI * q * j) / T);
+      sn[j] = Math.sin((2 * Math.PI * q * j) / T);
+    }
     let p = 0;
     for (let i = 0; i < n; i++) {
+      const v = series[i]!;
       let cr = 0;
       let ci = 0;
       for (let j = 0; j < T; j++) {
-        const ang = (-2 * Math.PI * q * j) / T;
-        cr += u[j]![i]! * Math.cos(ang);
-        ci += u[j]![i]! * Math.sin(ang);
+        cr += v[j]! * cs[j]!;
+        ci += v[j]! * sn[j]!;
       }
       p += cr * cr + ci * ci;
     }
-    totalP += p;
+    if (Math.abs(q - Math.round(q)) < 1e-9 && q >= 1) totalP += p;
     if (p > bestP) {
       bestP = p;
       bestF = q / (T * dt);
