@@ -81,7 +81,7 @@ usage:
   brink screen <request.json> [--format json|text]   smallest dose of each candidate that crosses a boundary
   brink simulate <mixture.json> [--dims 1|2] [--points N] [--duration T] [--out DIR]
               [--tolerance E] [--noise A] [--seed N] [--frames N] [--max-steps N]
-                                                     simulate the sample past onset (nonlinear model, docs/model.md §10):
+                                                     simulate the sample past onset (nonlinear model, docs/model.md §14):
                                                      prints a JSON summary (SI units): the linear and the measured early
                                                      growth, the dominant length over time, clusters and their make-up,
                                                      travelling bands; --out writes frames.json (header) and frames.f32

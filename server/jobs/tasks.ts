@@ -39,7 +39,7 @@ export interface Tasks {
   /** The update, then the design of the next round of doses (engine/design.ts). */
   design: { input: DesignInput; output: { update: UpdateResult; design: DesignResult } };
   /**
-   * The nonlinear simulation past onset (engine/simulate/, docs/model.md §10–§12): progress is the simulated
+   * The nonlinear simulation past onset (engine/simulate/, docs/model.md §14–§16): progress is the simulated
    * fraction of the duration; cancellation is the pool's signal (the worker is ended). The frames come back as
    * Float32Arrays (structured clone copies them; at most frames × species × points^dims × 4 bytes).
    */

@@ -2,7 +2,7 @@
  * Convergence of the simulation past onset (issue 15): halving the grid spacing and
  * the error tolerance together must leave the cluster count unchanged and change the
  * final dominant length by less than 5 % and each species' fraction inside clusters
- * by less than 0.05 (the amounts stated in docs/model.md §12). The case: attracted
+ * by less than 0.05 (the amounts stated in docs/model.md §16). The case: attracted
  * producers with a screened chemical (a peaked growth spectrum, fastest mode n = 4 of
  * a 1 mm periodic chamber) run for 20 growth times, through clustering into close-packed
  * bands held by the volume-filling factor. The starting perturbation is the same smooth

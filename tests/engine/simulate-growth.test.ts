@@ -1,9 +1,9 @@
 /**
  * The simulation's early growth against the linear stability analysis of the same
- * mixture (`analyze`, docs/model.md §3–§5): the nonlinear model of §10 linearises to
+ * mixture (`analyze`, docs/model.md §3–§5): the nonlinear model of §14 linearises to
  * exactly the J(k) of §3, so the growth rate and the wavelength measured from a
  * small random perturbation (the propagator of each Fourier mode fitted to its
- * recorded amplitudes, §12) must agree with the eigenvalue analysis to 2 %, and the
+ * recorded amplitudes, §16) must agree with the eigenvalue analysis to 2 %, and the
  * oscillation period near onset to 5 % (issue 15).
  *
  * The mixtures are drawn by a seeded generator in the style of the holdout tests

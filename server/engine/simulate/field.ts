@@ -1,5 +1,5 @@
 /**
- * The nonlinear model of docs/model.md §10 on a spectral grid: the particle
+ * The nonlinear model of docs/model.md §14 on a spectral grid: the particle
  * densities ρ_m(x, t) in real space, the quasi-static chemical fields solved
  * exactly in Fourier space at every evaluation, and the explicit part of the
  * particle equation in conservative flux form,
@@ -239,7 +239,7 @@ export class SpectralField {
    * chemical. Saturating kinetics: the fixed point
    *   (D_s k² + κ_s + w̄_s) ĉ_s ← FFT[ F_s(c) + w̄_s c_s ],  w̄_s = max_x w_s(x),
    * with w_s the local turnover slope Σ ρ_m V_m K_m/(K_m + c_s)², which contracts
-   * because 0 ≤ w̄_s − w_s ≤ w̄_s < κ_s + w̄_s + D_s k² (docs/model.md §10).
+   * because 0 ≤ w̄_s − w_s ≤ w̄_s < κ_s + w̄_s + D_s k² (docs/model.md §14).
    */
   solveChemistry(rho: Float64Array[], chemRe: Float64Array[], chemIm: Float64Array[]): void {
     const { S, M, size } = this;

@@ -1,10 +1,11 @@
 /**
- * Past onset: the nonlinear model of docs/model.md §10–§12 on a 1D or 2D
+ * Past onset: the nonlinear model of docs/model.md §14–§16 on a 1D or 2D
  * chamber, from a small seeded random perturbation of the uniform state.
  * Pure: SI in, SI out, no I/O; the caller (server/jobs/tasks.ts, server/cli.ts)
  * stores the frames.
  */
 import { analyze, type AnalysisResult, type State } from '../analyze.js';
+import { eigenvaluesAt } from '../probe.js';
 import { Random } from '../random.js';
 import { EngineDomainError, EngineInputError, type Mixture } from '../types.js';
 import { SpectralField } from './field.js';
@@ -340,6 +341,20 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
 
   const measured: Measured = measureGrowth(field, modes, samples, sampleStep, integ.mean);
   if (measured.growthRate === null) warnings.push({ code: 'no-linear-window', message: 'too few samples before the pattern left the linear regime to measure the early growth' });
+  const linearWl = analysis.fastestMode.wavelength;
+  if (measured.wavelength !== null && linearWl !== null && Math.abs(measured.wavelength - linearWl) > 1e-6 * linearWl) {
+    // the linear growth at the mode the run found fastest, for comparison (the same J(k), docs/model.md §3)
+    let atMeasured: number | null = null;
+    try {
+      atMeasured = eigenvaluesAt(mix, (2 * Math.PI) / measured.wavelength)[0]?.re ?? null;
+    } catch {
+      atMeasured = null;
+    }
+    warnings.push({
+      code: 'measured-mode-differs',
+      message: `the fastest mode in the run has wavelength ${measured.wavelength.toPrecision(4)} m, not the predicted ${linearWl.toPrecision(4)} m; ${atMeasured !== null ? `the linear growth rate of that mode is ${atMeasured.toPrecision(4)} 1/s against ${lambda.toPrecision(4)} 1/s at the predicted one: ` : ''}modes whose growth differs by less than the early measurement resolves (about 0.1 %) cannot be told apart`,
+    });
+  }
 
   // clusters and bands from the last frame / the kymograph of the total volume fraction
   const vol = mix.species.map((s) => (4 / 3) * Math.PI * s.radius ** 3);

@@ -1,5 +1,5 @@
 /**
- * Time stepping (docs/model.md §11): exponential time differencing of first
+ * Time stepping (docs/model.md §15): exponential time differencing of first
  * order (ETD1, Cox & Matthews, J. Comput. Phys. 176 (2002) 430–455) — the
  * diffusion D̃_m ∇² is integrated exactly in Fourier space, the drift N_m
  * explicitly —

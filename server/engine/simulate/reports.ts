@@ -1,5 +1,5 @@
 /**
- * What a run reports (docs/model.md §12), each a pure function of the fields:
+ * What a run reports (docs/model.md §16), each a pure function of the fields:
  * the dominant length from the structure factor's first moment, the measured
  * early growth of the fastest mode, clusters by thresholding and connected
  * components, and the speed and period of travelling bands from the kymograph.
