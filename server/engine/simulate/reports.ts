@@ -46,6 +46,9 @@ export function trackedModes(field: SpectralField, limit: number): number[] {
   return out;
 }
 
+/** A mode's recorded history counts as linear when one fitted propagator explains it to this relative residual. */
+export const RESIDUAL_LIMIT = 1e-3;
+
 export interface Measured {
   growthRate: number | null;
   wavelength: number | null;
@@ -63,7 +66,9 @@ export interface Measured {
  * A); its eigenvalues z give λ = ln z / Δ. The fastest mode is the one whose
  * largest Re λ is largest among the modes that end the window with at least 10 %
  * of the largest amplitude (weaker ones may be fed by harmonics of the strong).
- * Each pair of samples is weighted equally (normalised by |u_j|). An oscillation is reported only when
+ * Each pair of samples is weighted equally (normalised by |u_j|), and a mode whose
+ * history one propagator does not explain to RESIDUAL_LIMIT (0.1 %, relative
+ * residual) is passed over when any mode is so explained. An oscillation is reported only when
  * the window holds at least a quarter of its period.
  */
 export function measureGrowth(field: SpectralField, modes: number[], samples: Float64Array[], interval: number, mean: Float64Array): Measured {
@@ -87,6 +92,7 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
   for (let q = 0; q < modes.length; q++) top = Math.max(top, amp(J, q));
   if (!(top > 0)) return none;
   let best: { re: number; im: number; q: number } | null = null;
+  const fits: { re: number; im: number; q: number; residual: number }[] = [];
   for (let q = 0; q < modes.length; q++) {
     if (amp(J, q) < 0.1 * top) continue;
     const G = new Float64Array(n * n);
@@ -115,6 +121,24 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
     // H now holds Aᵀ; transpose into A
     const A = new Float64Array(n * n);
     for (let r = 0; r < n; r++) for (let c = 0; c < n; c++) A[r * n + c] = H[c * n + r]!;
+    // how well one linear propagator explains this mode's history (relative residual of the normalised pairs)
+    let res = 0;
+    let tot = 0;
+    for (let j = 0; j < J; j++) {
+      for (let part = 0; part < 2; part++) {
+        const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / mean[a]!);
+        const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / mean[a]!);
+        const norm = Math.hypot(...x);
+        if (!(norm > 0)) continue;
+        for (let r = 0; r < n; r++) {
+          let ax = 0;
+          for (let c = 0; c < n; c++) ax += A[r * n + c]! * x[c]!;
+          res += ((y[r]! - ax) / norm) ** 2;
+          tot += (y[r]! / norm) ** 2;
+        }
+      }
+    }
+    const residual = tot > 0 ? Math.sqrt(res / tot) : Infinity;
     const sp = eigenvalues(A, n);
     if (!sp.converged) continue;
     for (let e = 0; e < n; e++) {
@@ -122,9 +146,13 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
       if (!(mod > 0)) continue;
       const lre = Math.log(mod) / interval;
       const lim = Math.atan2(sp.im[e]!, sp.re[e]!) / interval;
-      if (best === null || lre > best.re) best = { re: lre, im: lim, q };
+      fits.push({ re: lre, im: lim, q, residual });
     }
   }
+  // a mode fed by the harmonics of stronger ones is not linear: keep the fits a single propagator explains to
+  // RESIDUAL_LIMIT (all of them when none is), then the largest growth
+  const clean = fits.filter((f) => f.residual <= RESIDUAL_LIMIT);
+  for (const f of clean.length > 0 ? clean : fits) if (best === null || f.re > best.re) best = f;
   if (best === null) return none;
   const i = modes[best.q]!;
   const k = Math.sqrt(field.k2[i]!);
