@@ -76,6 +76,8 @@ export interface SimulationSummary {
     largestRepair: number;
     /** smallest density seen at a frame, relative to the species' mean (≥ 0: positivity kept) */
     minRelativeDensity: number;
+    /** largest local volume fraction at a frame (≤ φ_max when the clusters are resolved) */
+    maxVolumeFraction: number;
     chemistryIterations: number;
     measuredMode: number[] | null;
     measuredWindow: number;
@@ -246,6 +248,8 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   const dominant: [number, number | null][] = [];
   let maxConsErr = 0;
   let minRel = Infinity;
+  let maxPhi = 0;
+  const phiSum = new Float64Array(cells);
 
   const record = (t: number) => {
     const { re, im } = integ.spectra();
@@ -271,7 +275,10 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       data.set(tmp, a * cells);
       const mean = mix.species[a]!.density;
       if (mean > 0) for (let i = 0; i < cells; i++) minRel = Math.min(minRel, tmp[i]! / mean);
+      const v = field.volume[a]!;
+      for (let i = 0; i < cells; i++) phiSum[i] = (a === 0 ? 0 : phiSum[i]!) + v * tmp[i]!;
     }
+    for (let i = 0; i < cells; i++) if (phiSum[i]! > maxPhi) maxPhi = phiSum[i]!;
     frames.push(data);
     times.push(t);
     dominant.push([t, dominantLength(field, re, im, integ.mean)]);
@@ -382,6 +389,9 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   if (integ.stats.positivityRepairs > 0) {
     warnings.push({ code: 'positivity-repaired', message: `${integ.stats.positivityRepairs} step(s) would have left a negative density at the smallest step; the negative part (at most ${integ.stats.largestRepair.toExponential(2)} of a species' particles) was cut off and the rest rescaled: the grid is probably too coarse for the clusters that formed` });
   }
+  if (maxPhi > phiMax * 1.001) {
+    warnings.push({ code: 'above-close-packing', message: `the local volume fraction reached ${maxPhi.toPrecision(3)}, above the close-packing limit ${phiMax}: the clusters are narrower than the grid resolves (the volume-filling factor acts at cell centres); use more points` });
+  }
   if (field.chemUnconverged > 0) warnings.push({ code: 'chemistry-not-converged', message: `the saturating chemistry did not converge in ${field.chemUnconverged} solve(s) (2,000 iterations)` });
   if (dims === 2) warnings.push({ code: 'linear-modes-1d', message: 'the linear prediction is for modes along one axis; in 2D the fastest mode may lie off the axes' });
 
@@ -402,6 +412,7 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       positivityRepairs: integ.stats.positivityRepairs,
       largestRepair: integ.stats.largestRepair,
       minRelativeDensity: minRel,
+      maxVolumeFraction: maxPhi,
       chemistryIterations: field.chemIterationsMax,
       measuredMode: measured.mode,
       measuredWindow: measured.window,
