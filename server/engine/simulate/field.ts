@@ -97,6 +97,8 @@ export class SpectralField {
   private readonly rx: Float64Array[];
   private readonly ry: Float64Array[];
   private readonly f: Float64Array;
+  private readonly fluxX: Float64Array;
+  private readonly fluxY: Float64Array;
 
   constructor(
     mix: Mixture,
@@ -205,6 +207,8 @@ export class SpectralField {
     this.rx = Array.from({ length: mix.crowding ? M : 0 }, () => new Float64Array(this.size));
     this.ry = Array.from({ length: mix.crowding && grid.dims === 2 ? M : 0 }, () => new Float64Array(this.size));
     this.f = new Float64Array(this.size);
+    this.fluxX = new Float64Array(this.size);
+    this.fluxY = new Float64Array(grid.dims === 2 ? this.size : 0);
   }
 
   /** Forward transform of a real field into (re, im). */
@@ -356,8 +360,8 @@ export class SpectralField {
         if (two) this.derivative(rRe[a]!, rIm[a]!, 1, this.ry[a]!);
       }
     }
-    const fx = new Float64Array(size);
-    const fy = two ? new Float64Array(size) : null;
+    const fx = this.fluxX;
+    const fy = two ? this.fluxY : null;
     for (let a = 0; a < M; a++) {
       const r = rho[a]!;
       const Dm = this.dSpecies[a]!;

@@ -40,6 +40,9 @@ export class Integrator {
   private readonly hIm: Float64Array[];
   private readonly yFull: Float64Array[];
   private readonly yHalf: Float64Array[];
+  private readonly sRe: Float64Array[];
+  private readonly sIm: Float64Array[];
+  private readonly y2: Float64Array[];
   private readonly re: Float64Array;
   private readonly im: Float64Array;
   /** whether rRe/nRe hold the spectra of the current rho */
@@ -66,6 +69,9 @@ export class Integrator {
     this.cIm = mk(S);
     this.yFull = mk(M);
     this.yHalf = mk(M);
+    this.sRe = mk(M);
+    this.sIm = mk(M);
+    this.y2 = mk(M);
     this.re = new Float64Array(size);
     this.im = new Float64Array(size);
     this.mean = Float64Array.from(this.rho.map((r) => r.reduce((a, b) => a + b, 0) / size));
@@ -120,10 +126,10 @@ export class Integrator {
     const hRho = this.yHalf;
     const tmpNRe = this.hRe;
     const tmpNIm = this.hIm;
-    const sRe = Array.from({ length: f.M }, () => new Float64Array(f.size));
-    const sIm = Array.from({ length: f.M }, () => new Float64Array(f.size));
+    const sRe = this.sRe;
+    const sIm = this.sIm;
     f.explicit(hRho, sRe, sIm, tmpNRe, tmpNIm, this.cRe, this.cIm);
-    const y2 = Array.from({ length: f.M }, () => new Float64Array(f.size));
+    const y2 = this.y2;
     this.etd(sRe, sIm, tmpNRe, tmpNIm, h / 2, y2);
     // error: max over species of |y2 − y1| against tol × the species' fluctuation (floor 1e-8 of its mean)
     let err = 0;

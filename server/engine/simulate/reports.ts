@@ -371,12 +371,9 @@ export function findBands(rows: Float64Array[], times: number[], periodic: boole
     for (let j = 0; j < T; j++) v[j] = u[j]![i]! - m;
     return v;
   });
-  let bestF = 0;
-  let bestP = 0;
-  let totalP = 0;
   const cs = new Float64Array(T);
   const sn = new Float64Array(T);
-  for (let q = 0.5; q <= T / 2; q += 0.02) {
+  const power = (q: number) => {
     for (let j = 0; j < T; j++) {
       cs[j] = Math.cos((2 * Math.PI * q * j) / T);
       sn[j] = Math.sin((2 * Math.PI * q * j) / T);
@@ -392,7 +389,24 @@ export function findBands(rows: Float64Array[], times: number[], periodic: boole
       }
       p += cr * cr + ci * ci;
     }
-    if (Math.abs(q - Math.round(q)) < 1e-9 && q >= 1) totalP += p;
+    return p;
+  };
+  // the DFT bins first, then fiftieths of a bin around the strongest one
+  let totalP = 0;
+  let binQ = 1;
+  let binP = -1;
+  for (let q = 1; q <= Math.floor(T / 2); q++) {
+    const p = power(q);
+    totalP += p;
+    if (p > binP) {
+      binP = p;
+      binQ = q;
+    }
+  }
+  let bestF = 0;
+  let bestP = 0;
+  for (let q = Math.max(0.5, binQ - 1); q <= Math.min(T / 2, binQ + 1) + 1e-9; q += 0.02) {
+    const p = power(q);
     if (p > bestP) {
       bestP = p;
       bestF = q / (T * dt);
