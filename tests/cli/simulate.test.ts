@@ -44,13 +44,12 @@ describe('brink simulate', () => {
     expect(header.times).toHaveLength(7);
     const bin = readFileSync(join(out, 'frames.f32'));
     expect(bin.length).toBe(4 * 7 * 2 * 64);
-    // the first frame is the uniform sample plus a 1e-5 perturbation: the swimmers' density, in m⁻³
-    const analyzed = JSON.parse((await run(['analyze', join(root, 'seeds/examples/oscillatory-travelling-bands.json')])).out);
-    expect(analyzed.state).toBe('oscillatory');
-    const first = bin.readFloatLE(0);
-    const summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8'));
-    expect(summary).toEqual(s);
-    expect(first).toBeGreaterThan(0);
+    // every stored density is a finite number ≥ 0 (m⁻³), and summary.json is the printed summary
+    for (let i = 0; i < bin.length; i += 4) {
+      const v = bin.readFloatLE(i);
+      expect(Number.isFinite(v) && v >= 0).toBe(true);
+    }
+    expect(JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8'))).toEqual(s);
   });
 
   it('2D with --dims 2', async () => {
