@@ -8,6 +8,8 @@
  *   state-map  a 200 × 200 state map (base level × dose) of one candidate
  *   design     the next-experiment design against the default fixed series on the same simulated truths: tubes
  *              needed to bring the 5–95 % threshold band within a factor of 1.2 of the true threshold (bench/design.ts)
+ *   simulate-1d  the nonlinear simulation (engine/simulate/) on 1,024 cells over ten growth times (target < 2 s)
+ *   simulate-2d  the same mixture on 256 × 256 cells over five growth times (target < 60 s)
  *   service    the HTTP service on 127.0.0.1 while the screen runs as a plan job, under a bounded load
  *              on GET /api/species: latency p50/p99, requests/s, the main event loop's delay, peak RSS
  *
@@ -38,6 +40,7 @@ import { findDose, screen, stateMap, type CandidateResult, type ScreenOptions, t
 import { Random } from '../server/engine/random.js';
 import type { ScanOptions } from '../server/engine/scan.js';
 import type { Mixture, Species } from '../server/engine/types.js';
+import { simulate } from '../server/engine/simulate/index.js';
 import { benchDesign } from './design.js';
 import { benchShelf, mixtureOf, randomMixture } from './inputs.js';
 
@@ -555,4 +558,42 @@ if (wanted('design')) {
     seconds_fixed: round(b.fixed.seconds),
   });
 }
+// ------------------------------------------------------------------ simulation past onset
+/**
+ * One invented mixture (Tarn Street bench style): 1 µm beads at 5 % volume fraction that make a screened
+ * chemical and climb its gradient, in a 1 mm periodic chamber (fastest mode n = 4; the convergence test's case).
+ * Each run is timed whole (never cut to a subset); `max_rel_disagreement` is the measured early growth rate
+ * against analyze()'s, `reference_s` is null (there is no second path).
+ */
+function benchSimulate(dims: 1 | 2) {
+  const rho = 0.05 / ((4 / 3) * Math.PI * 1e-18);
+  const mix: Mixture = {
+    chemicals: [{ id: 'c', diffusivity: 1e-9, lossRate: 0.05, concentration: 50, solubility: null }],
+    species: [{ id: 'bead', diffusivity: 2e-13, radius: 1e-6, density: rho, materialDensity: null, couplings: [{ chemical: 'c', activity: { kind: 'constant', rate: 1e-16 }, mobility: -1e-12 }] }],
+    chamber: { walls: 'periodic', length: 1e-3, depth: null },
+    crowding: false,
+    conditions: { temperature: 298.15, solventDensity: 997.05, duration: null, fieldOfView: null },
+  };
+  const a = analyze(mix);
+  const growthTimes = dims === 1 ? 10 : 5;
+  const points = dims === 1 ? 1024 : 256;
+  log(`simulate ${dims}D: ${points}${dims === 2 ? ` × ${points}` : ''} cells over ${growthTimes} growth times`);
+  const t = now();
+  const r = simulate(mix, { dims, points, duration: growthTimes / a.growthRate });
+  const seconds = now() - t;
+  line({
+    workload: `simulate-${dims}d`,
+    fast_s: seconds,
+    reference_s: null,
+    max_rel_disagreement: rel(r.summary.measured.growthRate, a.growthRate),
+    notes: `${points}${dims === 2 ? `×${points}` : ''} cells, periodic 1 mm, ${growthTimes} growth times (${(growthTimes / a.growthRate).toFixed(0)} s simulated); target < ${dims === 1 ? 2 : 60} s; disagreement = measured early growth rate vs analyze()`,
+    steps: r.summary.run.steps,
+    rejected: r.summary.run.rejected,
+    conservation: r.summary.conservation.maxRelativeError,
+    clusters: r.summary.clusters.count,
+  });
+}
+if (wanted('simulate-1d')) benchSimulate(1);
+if (wanted('simulate-2d')) benchSimulate(2);
+
 log(`done in ${(now() - t0).toFixed(0)} s`);

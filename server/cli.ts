@@ -3,6 +3,7 @@
  *
  *   brink analyze <mixture.json> [--format json|text]      linear stability of one sample
  *   brink screen <request.json> [--format json|text]       smallest dose of each candidate (no database)
+ *   brink simulate <mixture.json> [--dims 1|2] [--points N] [--duration T] [--out DIR]   what forms past onset
  *   brink fit <msd|kinetics|drift> <file> [options]        coefficients from raw measurements
  *   brink fit quantal <file> [--link …] [--scale …]        quantal dose–response (ED50) from dose, tubes, responded
  *   brink sheet <plan-id> [--db PATH] [options]            the bench sheet of a stored plan
@@ -23,10 +24,13 @@
  * for an internal error, which exits with status 1).
  */
 import { fmt, fmtDuration, formatNumber } from './units/display.js';
-import { existsSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { createInterface } from 'node:readline/promises';
 import { parseArgs } from 'node:util';
 import { analyze, type AnalysisResult } from './engine/analyze.js';
+import { simulate } from './engine/simulate/index.js';
+import { DIMENSIONS, parseQuantity } from './units/index.js';
 import { EngineDomainError, EngineInputError } from './engine/types.js';
 import { formatPath, MixtureFileError, parseMixture } from './schema/mixture.js';
 import { LIMITS } from './schema/limits.js';
@@ -76,6 +80,17 @@ const USAGE = `brink — experiment-design planner for catalytic mixtures
 usage:
   brink analyze <mixture.json> [--format json|text]   linear stability of one sample
   brink screen <request.json> [--format json|text]   smallest dose of each candidate that crosses a boundary
+  brink simulate <mixture.json> [--dims 1|2] [--points N] [--duration T] [--out DIR]
+              [--tolerance E] [--noise A] [--seed N] [--frames N] [--max-steps N]
+                                                     simulate the sample past onset (nonlinear model, docs/model.md §14):
+                                                     prints a JSON summary (SI units): the linear and the measured early
+                                                     growth, the dominant length over time, clusters and their make-up,
+                                                     travelling bands; --out writes frames.json (header) and frames.f32
+                                                     (Float32, little-endian, frame by frame, species by species, x fastest)
+                                                     --points: cells per side, a power of two (default 512 in 1D, 128 in 2D)
+                                                     --duration: e.g. "20 min" or seconds (default: the mixture's duration,
+                                                     else 20 growth times); --max-steps (default 100000): a run that
+                                                     needs more steps stops there and says so (run.completed false)
   brink fit <msd|kinetics|drift> <file.csv|file.json> [options]   coefficients from raw data
       msd:      --model passive-2d|passive-3d|active-2d|active-3d|active-focal  --offset
                 --radius R (fix the rotation time by Stokes–Einstein–Debye)  --temperature T
@@ -369,6 +384,87 @@ async function cmdRestore(args: string[], io: Io): Promise<number> {
 
 /** How `brink screen` names the side of the boundary a window holds (its window.stateAbove says what follows). */
 const PAST_WORD = { stationary: 'stationary', oscillatory: 'oscillatory', any: 'unstable', restore: 'stable' } as const;
+
+function cmdSimulate(args: string[], io: Io): number {
+  const usage = 'usage: brink simulate <mixture.json> [--dims 1|2] [--points N] [--duration T] [--out DIR] [--tolerance E] [--noise A] [--seed N] [--frames N] [--max-steps N]';
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    options: {
+      dims: { type: 'string' },
+      points: { type: 'string' },
+      duration: { type: 'string' },
+      out: { type: 'string' },
+      tolerance: { type: 'string' },
+      noise: { type: 'string' },
+      seed: { type: 'string' },
+      frames: { type: 'string' },
+      'max-steps': { type: 'string' },
+    },
+  });
+  if (positionals.length !== 1) throw new UsageError(usage);
+  const dims = values.dims === undefined ? 1 : Number(values.dims);
+  if (dims !== 1 && dims !== 2) throw new UsageError(`--dims: expected 1 or 2, got "${values.dims}"`);
+  let duration: number | undefined;
+  if (values.duration !== undefined) {
+    const text = values.duration.trim();
+    try {
+      duration = /^[0-9.eE+-]+$/.test(text) ? Number(text) : parseQuantity(text, { dimension: DIMENSIONS.time, sign: 'positive' }, '--duration').value;
+    } catch (e) {
+      throw new UsageError(`--duration: ${(e as Error).message}`);
+    }
+    if (!(duration > 0 && Number.isFinite(duration))) throw new UsageError(`--duration: expected a positive time such as "20 min" or seconds, got "${values.duration}"`);
+  }
+  const mixture = parseMixture(readJson(positionals[0]!));
+  const bar = io.errColumns ? progressBar(io.err, io.errColumns) : null;
+  let result: ReturnType<typeof simulate>;
+  try {
+    result = simulate(mixture, {
+      dims,
+      ...(values.points !== undefined ? { points: numberFlag('points', values.points, true)! } : {}),
+      ...(duration !== undefined ? { duration } : {}),
+      ...(values.tolerance !== undefined ? { tolerance: numberFlag('tolerance', values.tolerance)! } : {}),
+      ...(values.noise !== undefined ? { noise: numberFlag('noise', values.noise)! } : {}),
+      ...(values.seed !== undefined ? { seed: numberFlag('seed', values.seed, true)! } : {}),
+      ...(values.frames !== undefined ? { frames: numberFlag('frames', values.frames, true)! } : {}),
+      ...(values['max-steps'] !== undefined ? { maxSteps: numberFlag('max-steps', values['max-steps'], true)! } : {}),
+      ...(bar ? { progress: bar.update } : {}),
+    });
+  } finally {
+    bar?.done();
+  }
+  if (values.out !== undefined) writeFrames(values.out, result);
+  io.out(JSON.stringify(result.summary, null, 2) + '\n');
+  return 0;
+}
+
+/** frames.json (what the binary holds) and frames.f32 (Float32 little-endian: frame, species, y, x with x fastest). */
+function writeFrames(dir: string, result: ReturnType<typeof simulate>): void {
+  const { frames, summary } = result;
+  mkdirSync(dir, { recursive: true });
+  const per = frames.data[0]?.length ?? 0;
+  const buf = Buffer.alloc(4 * per * frames.data.length);
+  frames.data.forEach((d, f) => {
+    for (let i = 0; i < per; i++) buf.writeFloatLE(d[i]!, 4 * (f * per + i));
+  });
+  const header = {
+    format: 'brink-frames/1',
+    file: 'frames.f32',
+    encoding: 'float32-le',
+    layout: 'frame, species, y, x (x fastest); values are number densities in 1/m^3 at cell centres',
+    dims: frames.dims,
+    points: frames.points,
+    species: frames.species,
+    times: frames.times,
+    length: summary.grid.length,
+    cellSize: summary.grid.cellSize,
+    walls: summary.grid.walls,
+    fuelRunOut: summary.fuelRunOut,
+  };
+  writeFileSync(join(dir, 'frames.f32'), buf);
+  writeFileSync(join(dir, 'frames.json'), JSON.stringify(header, null, 2) + '\n');
+  writeFileSync(join(dir, 'summary.json'), JSON.stringify(summary, null, 2) + '\n');
+}
 
 function cmdScreen(args: string[], io: Io): number {
   const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { format: { type: 'string', default: 'json' } } });
@@ -904,6 +1000,8 @@ export async function main(argv: string[], io: Io = defaultIo): Promise<number> 
         return await cmdNext(rest, io);
       case 'screen':
         return cmdScreen(rest, io);
+      case 'simulate':
+        return cmdSimulate(rest, io);
       case 'serve':
         return await cmdServe(rest);
       case 'seed':

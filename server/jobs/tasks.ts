@@ -18,6 +18,10 @@ import type { PlanResult } from '../shelf/run-plan.js';
 import type { DesignResult } from '../engine/design.js';
 import type { UpdateResult } from '../engine/update.js';
 import type { DesignInput, UpdateInput } from '../outcomes/run-update.js';
+import type { SimulateOptions, SimulationResult } from '../engine/simulate/index.js';
+
+/** The options of a simulation that can cross a thread (no callbacks). */
+export type SimulateTaskOptions = Omit<SimulateOptions, 'progress' | 'cancelled' | 'initial' | 'onStep' | 'analysis'>;
 
 /** Progress callback a task may call: fraction of its work done (0–1) and what it is doing. */
 export type TaskProgress = (fraction: number, stage: string) => void;
@@ -37,6 +41,12 @@ export interface Tasks {
   update: { input: UpdateInput; output: UpdateResult };
   /** The update, then the design of the next round of doses (engine/design.ts). */
   design: { input: DesignInput; output: { update: UpdateResult; design: DesignResult } };
+  /**
+   * The nonlinear simulation past onset (engine/simulate/, docs/model.md §14–§16): progress is the simulated
+   * fraction of the duration; cancellation is the pool's signal (the worker is ended). The frames come back as
+   * Float32Arrays (structured clone copies them; at most frames × species × points^dims × 4 bytes).
+   */
+  simulate: { input: { mixture: Mixture; options: SimulateTaskOptions }; output: SimulationResult };
 }
 
 export type TaskKind = keyof Tasks;
@@ -72,5 +82,9 @@ export const LOADERS: { [K in TaskKind]: () => Promise<TaskFunction<K>> } = {
   design: async () => {
     const { runDesign } = await import('../outcomes/run-update.js');
     return (input, progress) => runDesign(input, progress);
+  },
+  simulate: async () => {
+    const { simulate } = await import('../engine/simulate/index.js');
+    return (input, progress) => simulate(input.mixture, { ...input.options, progress });
   },
 };

@@ -1,0 +1,426 @@
+/**
+ * Past onset: the nonlinear model of docs/model.md §14–§16 on a 1D or 2D
+ * chamber, from a small seeded random perturbation of the uniform state.
+ * Pure: SI in, SI out, no I/O; the caller (server/jobs/tasks.ts, server/cli.ts)
+ * stores the frames.
+ */
+import { analyze, type AnalysisResult, type State } from '../analyze.js';
+import { eigenvaluesAt } from '../probe.js';
+import { Random } from '../random.js';
+import { EngineDomainError, EngineInputError, type Mixture } from '../types.js';
+import { SpectralField } from './field.js';
+import { Integrator } from './integrate.js';
+import { dominantLength, findBands, findClusters, measureGrowth, trackedModes, type Bands, type Clusters, type Measured } from './reports.js';
+
+/** Random close packing of equal spheres (Scott & Kilgour, J. Phys. D 2 (1969) 863: φ ≈ 0.637; from memory). */
+export const CLOSE_PACKING = 0.64;
+
+export interface SimulateOptions {
+  dims?: 1 | 2;
+  /** cells per axis, a power of two (default 512 in 1D, 128 in 2D) */
+  points?: number;
+  /** simulated time, s (default: conditions.duration, else 20 growth times; 5 decay times when stable) */
+  duration?: number;
+  /** local error tolerance relative to the fluctuations (default 1e-4) */
+  tolerance?: number;
+  /** rms relative amplitude of the starting perturbation (smooth random field of the chamber modes up to NOISE_MODES; default 1e-5) */
+  noise?: number;
+  seed?: number;
+  /** frames stored, evenly spaced, first and last included (default 201 in 1D, 41 in 2D) */
+  frames?: number;
+  /** φ_max of the volume-filling factor (default CLOSE_PACKING) */
+  maxVolumeFraction?: number;
+  /** a starting state instead of the noise: density of species m at a cell centre (x, y in m) */
+  initial?: (m: number, x: number, y: number) => number;
+  /** give up after this many accepted steps (default 100,000); the summary says so (run.completed false, warning step-limit) */
+  maxSteps?: number;
+  progress?: (fraction: number, stage: string) => void;
+  /** checked once per step; when true the run throws SimulationCancelled */
+  cancelled?: () => boolean;
+  /** called after every attempted step (diagnostics) */
+  onStep?: (info: { t: number; h: number; err: number; taken: boolean; negative: boolean }) => void;
+  /** the analysis of the mixture, when the caller has it already */
+  analysis?: AnalysisResult;
+}
+
+export class SimulationCancelled extends Error {
+  override readonly name = 'SimulationCancelled';
+  constructor() {
+    super('the simulation was cancelled');
+  }
+}
+
+export interface SimulationWarning {
+  code: string;
+  message: string;
+}
+
+export interface SimulationSummary {
+  linear: { growthRate: number; wavelength: number | null; state: State; oscillationPeriod: number | null };
+  measured: { growthRate: number | null; wavelength: number | null; oscillationPeriod: number | null };
+  /** [t (s), dominant length (m) or null when uniform] at each frame */
+  dominantLength: [number, number | null][];
+  clusters: { count: number; sizes: number[]; composition: { species: string; fraction: number }[] };
+  bands: Bands | null;
+  conservation: { maxRelativeError: number };
+  /** the earliest time a consumed chemical runs out (the fuel check, docs/model.md §8), s; null when none is consumed */
+  fuelRunOut: { chemical: string; time: number } | null;
+  grid: { dims: 1 | 2; points: number; length: number; cellSize: number; walls: 'sealed' | 'periodic' };
+  /** simulated time reached, s, and the time asked for */
+  time: number;
+  duration: number;
+  run: {
+    steps: number;
+    rejected: number;
+    positivityRepairs: number;
+    largestRepair: number;
+    /** smallest density seen at a frame, relative to the species' mean (≥ 0: positivity kept) */
+    minRelativeDensity: number;
+    /** largest local volume fraction at a frame (≤ φ_max when the clusters are resolved) */
+    maxVolumeFraction: number;
+    chemistryIterations: number;
+    measuredMode: number[] | null;
+    measuredWindow: number;
+    clusterThreshold: number | null;
+    clusterCoveredFraction: number;
+    completed: boolean;
+  };
+  warnings: SimulationWarning[];
+}
+
+export interface Frames {
+  dims: 1 | 2;
+  points: number;
+  species: string[];
+  times: number[];
+  /** one array per frame: species after species, each points^dims Float32 values (m⁻³), x fastest */
+  data: Float32Array[];
+}
+
+export interface SimulationResult {
+  summary: SimulationSummary;
+  frames: Frames;
+}
+
+/** The starting perturbation holds the chamber modes up to this index along each axis. */
+export const NOISE_MODES = 32;
+
+/**
+ * A smooth random field on the chamber's cell centres: Σ a_pq B_p(x) B_q(y) over the
+ * modes up to `modes` along each axis (cosines nπx/L for sealed walls; cosines and
+ * sines 2πnx/L for periodic ones), a_pq standard normal drawn in a fixed order, the
+ * mean removed and the rms scaled to 1. The same seed gives the same function on
+ * every grid fine enough to hold it, so runs at different resolutions start alike.
+ */
+export function smoothNoise(rng: Random, points: number, dims: 1 | 2, periodic: boolean, modes: number): Float64Array {
+  const K = Math.min(modes, Math.floor(points / 2) - 1);
+  const basis: Float64Array[] = [];
+  const at = (i: number) => (i + 0.5) / points; // x/L
+  basis.push(new Float64Array(points).fill(1));
+  for (let k = 1; k <= K; k++) {
+    if (periodic) {
+      basis.push(Float64Array.from({ length: points }, (_, i) => Math.cos(2 * Math.PI * k * at(i))));
+      basis.push(Float64Array.from({ length: points }, (_, i) => Math.sin(2 * Math.PI * k * at(i))));
+    } else basis.push(Float64Array.from({ length: points }, (_, i) => Math.cos(Math.PI * k * at(i))));
+  }
+  const P = basis.length;
+  const cells = dims === 2 ? points * points : points;
+  const out = new Float64Array(cells);
+  if (dims === 1) {
+    for (let p = 1; p < P; p++) {
+      const a = rng.normal();
+      const b = basis[p]!;
+      for (let i = 0; i < points; i++) out[i]! += a * b[i]!;
+    }
+  } else {
+    const col = new Float64Array(points);
+    for (let p = 0; p < P; p++) {
+      col.fill(0);
+      for (let q = 0; q < P; q++) {
+        const a = rng.normal();
+        if (p === 0 && q === 0) continue;
+        const b = basis[q]!;
+        for (let y = 0; y < points; y++) col[y]! += a * b[y]!;
+      }
+      const bx = basis[p]!;
+      for (let y = 0; y < points; y++) for (let x = 0; x < points; x++) out[y * points + x]! += col[y]! * bx[x]!;
+    }
+  }
+  let mean = 0;
+  for (let i = 0; i < cells; i++) mean += out[i]!;
+  mean /= cells;
+  let ss = 0;
+  for (let i = 0; i < cells; i++) {
+    out[i] = out[i]! - mean;
+    ss += out[i]! * out[i]!;
+  }
+  const rms = Math.sqrt(ss / cells);
+  if (rms > 0) for (let i = 0; i < cells; i++) out[i] = out[i]! / rms;
+  return out;
+}
+
+function isPow2(n: number): boolean {
+  return Number.isInteger(n) && n >= 8 && (n & (n - 1)) === 0;
+}
+
+/**
+ * Simulate a mixture past onset.
+ * @throws EngineInputError for malformed options, EngineDomainError when the model cannot be set up
+ */
+export function simulate(mix: Mixture, options: SimulateOptions = {}): SimulationResult {
+  const dims = options.dims ?? 1;
+  if (dims !== 1 && dims !== 2) throw new EngineInputError('dims', 'must be 1 or 2');
+  const points = options.points ?? (dims === 1 ? 512 : 128);
+  if (!isPow2(points) || points > (dims === 1 ? 65536 : 1024)) throw new EngineInputError('points', `must be a power of two from 8 to ${dims === 1 ? 65536 : 1024}`);
+  const tolerance = options.tolerance ?? 1e-4;
+  if (!(tolerance > 0 && tolerance < 1)) throw new EngineInputError('tolerance', 'must be between 0 and 1');
+  const noise = options.noise ?? 1e-5;
+  if (!(noise >= 0 && noise < 0.5)) throw new EngineInputError('noise', 'must be in [0, 0.5)');
+  const phiMax = options.maxVolumeFraction ?? CLOSE_PACKING;
+  const warnings: SimulationWarning[] = [];
+
+  const analysis = options.analysis ?? analyze(mix);
+  const lambda = analysis.growthRate;
+  const period = analysis.fastestMode.oscillationPeriod;
+  let walls: 'sealed' | 'periodic';
+  let length: number;
+  if (mix.chamber.walls === 'unbounded') {
+    walls = 'periodic';
+    const wl = analysis.fastestMode.wavelength;
+    const fov = mix.conditions.fieldOfView;
+    if (fov !== null && fov > 0) length = fov;
+    else if (wl !== null) length = 8 * wl;
+    else throw new EngineInputError('chamber.length', 'an unbounded chamber without a fastest wavelength or a field of view: give a chamber length to simulate');
+    warnings.push({ code: 'unbounded-as-periodic', message: `the unbounded chamber is simulated as a periodic box ${length.toExponential(3)} m wide (${fov !== null && fov > 0 ? 'the field of view' : 'eight fastest wavelengths'})` });
+  } else {
+    walls = mix.chamber.walls;
+    length = mix.chamber.length!;
+  }
+
+  let phi0 = 0;
+  for (const s of mix.species) phi0 += s.density * ((4 / 3) * Math.PI * s.radius ** 3);
+  if (!(phi0 < phiMax)) throw new EngineDomainError('packed', `the sample's volume fraction ${phi0.toPrecision(3)} is not below the close-packing limit ${phiMax}`);
+
+  const scaleTime = lambda !== 0 ? 1 / Math.abs(lambda) : 1;
+  const duration = options.duration ?? mix.conditions.duration ?? (lambda > 0 ? 20 / lambda : 5 * scaleTime);
+  if (!(duration > 0 && Number.isFinite(duration))) throw new EngineInputError('duration', 'must be a positive number of seconds');
+
+  const field = new SpectralField(mix, { dims, points, length, mirror: walls === 'sealed' }, phiMax);
+  const M = field.M;
+  const n = points;
+  const cells = dims === 2 ? n * n : n;
+  const h = field.cellSize;
+
+  // starting state on the chamber, then onto the computational grid
+  const rng = new Random(options.seed ?? 1);
+  const initial: Float64Array[] = [];
+  for (let a = 0; a < M; a++) {
+    const v = new Float64Array(cells);
+    const rho0 = mix.species[a]!.density;
+    if (options.initial) {
+      for (let i = 0; i < cells; i++) {
+        const x = ((i % n) + 0.5) * h;
+        const y = (Math.floor(i / n) + 0.5) * h;
+        v[i] = options.initial(a, x, y);
+      }
+    } else {
+      const xi = smoothNoise(rng, n, dims, walls === 'periodic', NOISE_MODES);
+      for (let i = 0; i < cells; i++) v[i] = rho0 * (1 + noise * xi[i]!);
+    }
+    const out = new Float64Array(field.size);
+    field.fromChamber(v, out);
+    initial.push(out);
+  }
+  const integ = new Integrator(field, initial, tolerance);
+  const total0 = integ.rho.map((r) => field.chamberSum(r));
+
+  // output and sampling times
+  const F = Math.max(2, options.frames ?? (dims === 1 ? 201 : 41));
+  const frameTimes = Array.from({ length: F }, (_, f) => (duration * f) / (F - 1));
+  const sampleStep = Math.min(scaleTime / 8, period !== null ? period / 16 : Infinity, duration / 16);
+  const windowMax = Math.min(12 * scaleTime, duration);
+  const modes = trackedModes(field, dims === 1 ? Math.min(field.nx / 2, 256) : Math.min(field.nx / 2, 16));
+  const samples: Float64Array[] = [];
+  let sampling = true;
+
+  const frames: Float32Array[] = [];
+  const times: number[] = [];
+  const dominant: [number, number | null][] = [];
+  let maxConsErr = 0;
+  let minRel = Infinity;
+  let maxPhi = 0;
+  const phiSum = new Float64Array(cells);
+
+  const record = (t: number) => {
+    const { re, im } = integ.spectra();
+    if (sampling) {
+      const row = new Float64Array(modes.length * M * 2);
+      modes.forEach((i, q) => {
+        for (let a = 0; a < M; a++) {
+          row[(q * M + a) * 2] = re[a]![i]!;
+          row[(q * M + a) * 2 + 1] = im[a]![i]!;
+        }
+      });
+      samples.push(row);
+    }
+    return { re, im, t };
+  };
+
+  const recordFrame = (t: number) => {
+    const { re, im } = integ.spectra();
+    const data = new Float32Array(M * cells);
+    const tmp = new Float64Array(cells);
+    for (let a = 0; a < M; a++) {
+      field.toChamber(integ.rho[a]!, tmp);
+      data.set(tmp, a * cells);
+      const mean = mix.species[a]!.density;
+      if (mean > 0) for (let i = 0; i < cells; i++) minRel = Math.min(minRel, tmp[i]! / mean);
+      const v = field.volume[a]!;
+      for (let i = 0; i < cells; i++) phiSum[i] = (a === 0 ? 0 : phiSum[i]!) + v * tmp[i]!;
+    }
+    for (let i = 0; i < cells; i++) if (phiSum[i]! > maxPhi) maxPhi = phiSum[i]!;
+    frames.push(data);
+    times.push(t);
+    dominant.push([t, dominantLength(field, re, im, integ.mean)]);
+  };
+
+  const checkConservation = () => {
+    for (let a = 0; a < M; a++) {
+      if (!(total0[a]! > 0)) continue;
+      const e = Math.abs(field.chamberSum(integ.rho[a]!) - total0[a]!) / total0[a]!;
+      if (e > maxConsErr) maxConsErr = e;
+    }
+  };
+
+  const linearEnd = () => {
+    // the linear window closes once any species' largest relative deviation passes 1 %
+    for (let a = 0; a < M; a++) {
+      const mean = integ.mean[a]!;
+      if (!(mean > 0)) continue;
+      const r = integ.rho[a]!;
+      for (let i = 0; i < field.size; i++) if (Math.abs(r[i]! - mean) > 1e-2 * mean) return true;
+    }
+    return false;
+  };
+
+  let t = 0;
+  let dt = Math.min(sampleStep, duration / 100) / 10;
+  const floor = duration * 1e-12;
+  let nextFrame = 1;
+  let nextSample = 1;
+  const maxSteps = options.maxSteps ?? 100_000;
+  record(0);
+  recordFrame(0);
+  let completed = true;
+  while (t < duration) {
+    if (options.cancelled?.()) throw new SimulationCancelled();
+    if (integ.stats.accepted >= maxSteps) {
+      completed = false;
+      warnings.push({ code: 'step-limit', message: `stopped after ${maxSteps} steps at t = ${t.toPrecision(4)} s of ${duration.toPrecision(4)} s` });
+      break;
+    }
+    const target = Math.min(frameTimes[nextFrame] ?? duration, sampling ? nextSample * sampleStep : Infinity, duration);
+    const step = Math.min(dt, target - t);
+    const clamped = step < dt;
+    const r = integ.tryStep(step, floor);
+    options.onStep?.({ t, h: step, err: r.err, taken: r.taken, negative: r.negative });
+    if (!r.taken) {
+      dt = r.negative ? step / 4 : step * Math.max(0.1, 0.9 / Math.sqrt(r.err));
+      if (dt < floor) dt = floor;
+      continue;
+    }
+    const proposal = step * Math.min(4, 0.9 / Math.sqrt(Math.max(r.err, 1e-8)));
+    dt = clamped ? Math.max(dt, proposal) : proposal;
+    t = target - t - step <= 1e-12 * duration ? target : t + step;
+    checkConservation();
+    if (sampling && t >= nextSample * sampleStep * (1 - 1e-12)) {
+      record(t);
+      nextSample++;
+      if (linearEnd() || t >= windowMax) sampling = false;
+    }
+    while (nextFrame < F && t >= frameTimes[nextFrame]! * (1 - 1e-12)) {
+      recordFrame(t);
+      nextFrame++;
+    }
+    options.progress?.(Math.min(1, t / duration), 'simulating');
+  }
+  if (times[times.length - 1] !== t) recordFrame(t);
+
+  const measured: Measured = measureGrowth(field, modes, samples, sampleStep, integ.mean);
+  if (measured.growthRate === null) warnings.push({ code: 'no-linear-window', message: 'too few samples before the pattern left the linear regime to measure the early growth' });
+  const linearWl = analysis.fastestMode.wavelength;
+  if (measured.wavelength !== null && linearWl !== null && Math.abs(measured.wavelength - linearWl) > 1e-6 * linearWl) {
+    // the linear growth at the mode the run found fastest, for comparison (the same J(k), docs/model.md §3)
+    let atMeasured: number | null = null;
+    try {
+      atMeasured = eigenvaluesAt(mix, (2 * Math.PI) / measured.wavelength)[0]?.re ?? null;
+    } catch {
+      atMeasured = null;
+    }
+    warnings.push({
+      code: 'measured-mode-differs',
+      message: `the fastest mode in the run has wavelength ${measured.wavelength.toPrecision(4)} m, not the predicted ${linearWl.toPrecision(4)} m; ${atMeasured !== null ? `the linear growth rate of that mode is ${atMeasured.toPrecision(4)} 1/s against ${lambda.toPrecision(4)} 1/s at the predicted one: ` : ''}modes whose growth differs by less than the early measurement resolves (about 0.1 %) cannot be told apart`,
+    });
+  }
+
+  // clusters and bands from the last frame / the kymograph of the total volume fraction
+  const vol = mix.species.map((s) => (4 / 3) * Math.PI * s.radius ** 3);
+  const phiOf = (data: Float32Array) => {
+    const phi = new Float64Array(cells);
+    for (let a = 0; a < M; a++) for (let i = 0; i < cells; i++) phi[i]! += vol[a]! * data[a * cells + i]!;
+    return phi;
+  };
+  const last = frames[frames.length - 1]!;
+  const rhoLast = Array.from({ length: M }, (_, a) => Float64Array.from(last.subarray(a * cells, (a + 1) * cells)));
+  const clusters: Clusters = findClusters(phiOf(last), rhoLast, mix.species.map((s) => s.id), n, dims, walls === 'periodic', h);
+  const bands = dims === 1 ? findBands(frames.map(phiOf), times, walls === 'periodic', h) : null;
+
+  // fuel run-out from the checks
+  let fuelRunOut: SimulationSummary['fuelRunOut'] = null;
+  for (const fc of analysis.checks.fuel) {
+    if (fuelRunOut === null || fc.lifetime < fuelRunOut.time) fuelRunOut = { chemical: fc.chemical, time: fc.lifetime };
+  }
+  if (fuelRunOut !== null && fuelRunOut.time < duration) {
+    warnings.push({
+      code: 'fuel-runs-out-first',
+      message: `${fuelRunOut.chemical} would run out after about ${fuelRunOut.time.toPrecision(3)} s, before the end of the run (${duration.toPrecision(3)} s); the model holds the fuel at its starting level, so what is shown after that time would not happen in the sample`,
+    });
+  }
+  if (integ.stats.positivityRepairs > 0) {
+    warnings.push({ code: 'positivity-repaired', message: `${integ.stats.positivityRepairs} step(s) would have left a negative density at the smallest step; the negative part (at most ${integ.stats.largestRepair.toExponential(2)} of a species' particles) was cut off and the rest rescaled: the grid is probably too coarse for the clusters that formed` });
+  }
+  if (maxPhi > phiMax * 1.001) {
+    warnings.push({ code: 'above-close-packing', message: `the local volume fraction reached ${maxPhi.toPrecision(3)}, above the close-packing limit ${phiMax}: the clusters are narrower than the grid resolves (the volume-filling factor acts at cell centres); use more points` });
+  }
+  if (field.chemUnconverged > 0) warnings.push({ code: 'chemistry-not-converged', message: `the saturating chemistry did not converge in ${field.chemUnconverged} solve(s) (2,000 iterations)` });
+  if (dims === 2) warnings.push({ code: 'linear-modes-1d', message: 'the linear prediction is for modes along one axis; in 2D the fastest mode may lie off the axes' });
+
+  const summary: SimulationSummary = {
+    linear: { growthRate: lambda, wavelength: analysis.fastestMode.wavelength, state: analysis.state, oscillationPeriod: period },
+    measured: { growthRate: measured.growthRate, wavelength: measured.wavelength, oscillationPeriod: measured.oscillationPeriod },
+    dominantLength: dominant,
+    clusters: { count: clusters.count, sizes: clusters.sizes, composition: clusters.composition },
+    bands,
+    conservation: { maxRelativeError: maxConsErr },
+    fuelRunOut,
+    grid: { dims, points, length, cellSize: h, walls },
+    time: t,
+    duration,
+    run: {
+      steps: integ.stats.accepted,
+      rejected: integ.stats.rejected,
+      positivityRepairs: integ.stats.positivityRepairs,
+      largestRepair: integ.stats.largestRepair,
+      minRelativeDensity: minRel,
+      maxVolumeFraction: maxPhi,
+      chemistryIterations: field.chemIterationsMax,
+      measuredMode: measured.mode,
+      measuredWindow: measured.window,
+      clusterThreshold: clusters.threshold,
+      clusterCoveredFraction: clusters.coveredFraction,
+      completed,
+    },
+    warnings,
+  };
+  return { summary, frames: { dims, points, species: mix.species.map((s) => s.id), times, data: frames } };
+}

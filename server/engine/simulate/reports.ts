@@ -1,0 +1,418 @@
+/**
+ * What a run reports (docs/model.md §16), each a pure function of the fields:
+ * the dominant length from the structure factor's first moment, the measured
+ * early growth of the fastest mode, clusters by thresholding and connected
+ * components, and the speed and period of travelling bands from the kymograph.
+ */
+import { eigenvalues } from '../linalg/eigen.js';
+import { solveInPlace } from '../linalg/dense.js';
+import { FFT } from './fft.js';
+import type { SpectralField } from './field.js';
+
+/**
+ * Dominant length 2π/k̄ with k̄ = Σ|k| S(k)/Σ S(k) over the chamber's modes k ≠ 0,
+ * S(k) = Σ_m |ρ̂_m(k)/ρ̄_m|² (the structure factor of the relative fluctuations).
+ * null when the fields are uniform.
+ */
+export function dominantLength(field: SpectralField, re: Float64Array[], im: Float64Array[], mean: Float64Array): number | null {
+  let num = 0;
+  let den = 0;
+  for (let i = 0; i < field.size; i++) {
+    if (i === 0) continue;
+    let s = 0;
+    for (let a = 0; a < field.M; a++) {
+      if (!(mean[a]! > 0)) continue;
+      const r = re[a]![i]! / mean[a]!;
+      const q = im[a]![i]! / mean[a]!;
+      s += r * r + q * q;
+    }
+    num += Math.sqrt(field.k2[i]!) * s;
+    den += s;
+  }
+  if (!(den > 0) || !(num > 0)) return null;
+  return (2 * Math.PI * den) / num;
+}
+
+/** The modes whose early amplitudes are recorded: k ≠ 0, one of each ±k pair, |j| ≤ limit per axis. */
+export function trackedModes(field: SpectralField, limit: number): number[] {
+  const out: number[] = [];
+  for (let i = 0; i < field.size; i++) {
+    const jx = field.jx[i]!;
+    const jy = field.jy[i]!;
+    if (Math.abs(jx) > limit || Math.abs(jy) > limit) continue;
+    if (jy < 0 || (jy === 0 && jx <= 0)) continue;
+    out.push(i);
+  }
+  return out;
+}
+
+/** A mode's recorded history counts as linear when one fitted propagator explains it to this relative residual. */
+export const RESIDUAL_LIMIT = 1e-3;
+
+export interface Measured {
+  growthRate: number | null;
+  wavelength: number | null;
+  oscillationPeriod: number | null;
+  /** mode numbers along x (and y) of the fastest mode */
+  mode: number[] | null;
+  /** time span of the linear window used, s */
+  window: number;
+}
+
+/**
+ * The early growth, measured: for each recorded mode the M×M propagator A over
+ * one sampling interval Δ is fitted by least squares to the recorded amplitudes
+ * (u_{j+1} ≈ A u_j, real and imaginary parts as two trajectories of the same real
+ * A); its eigenvalues z give λ = ln z / Δ. The fastest mode is the one whose
+ * largest Re λ is largest among the modes that end the window with at least 10 %
+ * of the largest amplitude (weaker ones may be fed by harmonics of the strong).
+ * Each pair of samples is weighted equally (normalised by |u_j|), and a mode whose
+ * history one propagator does not explain to RESIDUAL_LIMIT (0.1 %, relative
+ * residual) is passed over when any mode is so explained. An oscillation is reported only when
+ * the window holds at least a quarter of its period.
+ */
+export function measureGrowth(field: SpectralField, modes: number[], samples: Float64Array[], interval: number, mean: Float64Array): Measured {
+  const none: Measured = { growthRate: null, wavelength: null, oscillationPeriod: null, mode: null, window: interval * Math.max(0, samples.length - 1) };
+  const live: number[] = [];
+  for (let a = 0; a < field.M; a++) if (mean[a]! > 0) live.push(a);
+  const n = live.length;
+  const J = samples.length - 1;
+  if (n === 0 || J < n + 2) return none;
+  const M = field.M;
+  const amp = (j: number, q: number) => {
+    let s = 0;
+    for (const a of live) {
+      const r = samples[j]![(q * M + a) * 2]! / mean[a]!;
+      const i = samples[j]![(q * M + a) * 2 + 1]! / mean[a]!;
+      s += r * r + i * i;
+    }
+    return Math.sqrt(s);
+  };
+  let top = 0;
+  for (let q = 0; q < modes.length; q++) top = Math.max(top, amp(J, q));
+  if (!(top > 0)) return none;
+  let best: { re: number; im: number; q: number } | null = null;
+  const fits: { re: number; im: number; q: number; residual: number }[] = [];
+  for (let q = 0; q < modes.length; q++) {
+    if (amp(J, q) < 0.1 * top) continue;
+    const G = new Float64Array(n * n);
+    const H = new Float64Array(n * n);
+    for (let j = 0; j < J; j++) {
+      for (let part = 0; part < 2; part++) {
+        const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / mean[a]!);
+        const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / mean[a]!);
+        // each pair weighted equally (normalised by |x|): the late, largest samples, where harmonics of the
+        // strongest modes begin to feed the weaker ones, do not dominate the fit
+        const norm = Math.hypot(...x);
+        if (!(norm > 0)) continue;
+        for (let r = 0; r < n; r++) {
+          x[r] = x[r]! / norm;
+          y[r] = y[r]! / norm;
+        }
+        for (let r = 0; r < n; r++) {
+          for (let c = 0; c < n; c++) {
+            G[r * n + c]! += x[r]! * x[c]!;
+            H[c * n + r]! += y[r]! * x[c]!; // Hᵀ: G Aᵀ = Hᵀ with H = Σ y xᵀ
+          }
+        }
+      }
+    }
+    if (!solveInPlace(G, n, H, n)) continue;
+    // H now holds Aᵀ; transpose into A
+    const A = new Float64Array(n * n);
+    for (let r = 0; r < n; r++) for (let c = 0; c < n; c++) A[r * n + c] = H[c * n + r]!;
+    // how well one linear propagator explains this mode's history (relative residual of the normalised pairs)
+    let res = 0;
+    let tot = 0;
+    for (let j = 0; j < J; j++) {
+      for (let part = 0; part < 2; part++) {
+        const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / mean[a]!);
+        const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / mean[a]!);
+        const norm = Math.hypot(...x);
+        if (!(norm > 0)) continue;
+        for (let r = 0; r < n; r++) {
+          let ax = 0;
+          for (let c = 0; c < n; c++) ax += A[r * n + c]! * x[c]!;
+          res += ((y[r]! - ax) / norm) ** 2;
+          tot += (y[r]! / norm) ** 2;
+        }
+      }
+    }
+    const residual = tot > 0 ? Math.sqrt(res / tot) : Infinity;
+    const sp = eigenvalues(A, n);
+    if (!sp.converged) continue;
+    for (let e = 0; e < n; e++) {
+      const mod = Math.hypot(sp.re[e]!, sp.im[e]!);
+      if (!(mod > 0)) continue;
+      const lre = Math.log(mod) / interval;
+      const lim = Math.atan2(sp.im[e]!, sp.re[e]!) / interval;
+      fits.push({ re: lre, im: lim, q, residual });
+    }
+  }
+  // a mode fed by the harmonics of stronger ones is not linear: keep the fits a single propagator explains to
+  // RESIDUAL_LIMIT (all of them when none is), then the largest growth
+  const clean = fits.filter((f) => f.residual <= RESIDUAL_LIMIT);
+  for (const f of clean.length > 0 ? clean : fits) if (best === null || f.re > best.re) best = f;
+  if (best === null) return none;
+  const i = modes[best.q]!;
+  const k = Math.sqrt(field.k2[i]!);
+  const window = interval * J;
+  const period = Math.abs(best.im) > 0 ? (2 * Math.PI) / Math.abs(best.im) : null;
+  return {
+    growthRate: best.re,
+    wavelength: (2 * Math.PI) / k,
+    oscillationPeriod: period !== null && window >= period / 4 ? period : null,
+    mode: field.grid.dims === 2 ? [Math.abs(field.jx[i]!), Math.abs(field.jy[i]!)] : [Math.abs(field.jx[i]!)],
+    window,
+  };
+}
+
+export interface Clusters {
+  count: number;
+  /** 1D: lengths (m); 2D: diameters of the circle of equal area (m); largest first */
+  sizes: number[];
+  /** per species, the fraction of its particles inside the clusters */
+  composition: { species: string; fraction: number }[];
+  /** total volume fraction that marks a cell as clustered (null when the field has too little contrast) */
+  threshold: number | null;
+  /** share of the chamber's area (length in 1D) inside the clusters */
+  coveredFraction: number;
+}
+
+/** A field counts as patterned when its largest volume fraction exceeds the mean by this share of the mean. */
+export const CLUSTER_CONTRAST = 0.2;
+
+/**
+ * Clusters of a chamber field: cells whose total volume fraction φ exceeds the
+ * half-height threshold φ̄ + (max φ − φ̄)/2, joined into connected components
+ * (nearest neighbours; across the edges when the chamber is periodic). No
+ * clusters when max φ < (1 + CLUSTER_CONTRAST) φ̄ (no pattern to speak of).
+ */
+export function findClusters(phi: Float64Array, rho: Float64Array[], speciesIds: string[], points: number, dims: 1 | 2, periodic: boolean, cellSize: number): Clusters {
+  const cells = phi.length;
+  let mean = 0;
+  let max = -Infinity;
+  for (let i = 0; i < cells; i++) {
+    mean += phi[i]!;
+    max = Math.max(max, phi[i]!);
+  }
+  mean /= cells;
+  const empty = (): Clusters => ({ count: 0, sizes: [], composition: speciesIds.map((species) => ({ species, fraction: 0 })), threshold: null, coveredFraction: 0 });
+  if (!(mean > 0) || max < (1 + CLUSTER_CONTRAST) * mean) return empty();
+  const threshold = mean + (max - mean) / 2;
+  const label = new Int32Array(cells).fill(-1);
+  const sizes: number[] = [];
+  const ny = dims === 2 ? points : 1;
+  const stack: number[] = [];
+  let inside = 0;
+  for (let start = 0; start < cells; start++) {
+    if (label[start] !== -1 || phi[start]! <= threshold) continue;
+    const id = sizes.length;
+    let count = 0;
+    label[start] = id;
+    stack.push(start);
+    while (stack.length > 0) {
+      const c = stack.pop()!;
+      count++;
+      const x = c % points;
+      const y = (c - x) / points;
+      const nb: [number, number][] = [
+        [x - 1, y],
+        [x + 1, y],
+      ];
+      if (dims === 2) nb.push([x, y - 1], [x, y + 1]);
+      for (let [u, v] of nb) {
+        if (periodic) {
+          u = (u + points) % points;
+          v = (v + ny) % ny;
+        } else if (u < 0 || u >= points || v < 0 || v >= ny) continue;
+        const d = v * points + u;
+        if (label[d] === -1 && phi[d]! > threshold) {
+          label[d] = id;
+          stack.push(d);
+        }
+      }
+    }
+    inside += count;
+    sizes.push(count);
+  }
+  const composition = speciesIds.map((species, a) => {
+    let total = 0;
+    let inC = 0;
+    const r = rho[a]!;
+    for (let i = 0; i < cells; i++) {
+      total += r[i]!;
+      if (label[i]! >= 0) inC += r[i]!;
+    }
+    return { species, fraction: total > 0 ? inC / total : 0 };
+  });
+  const size = (count: number) => (dims === 1 ? count * cellSize : 2 * Math.sqrt((count * cellSize * cellSize) / Math.PI));
+  return {
+    count: sizes.length,
+    sizes: sizes.map(size).sort((a, b) => b - a),
+    composition,
+    threshold,
+    coveredFraction: inside / cells,
+  };
+}
+
+export interface Bands {
+  /** m/s, signed (+ towards larger x); 0 for a standing oscillation */
+  speed: number;
+  /** s, the dominant period at a fixed point; null when none is seen */
+  period: number | null;
+}
+
+/**
+ * Travelling or pulsating patterns in a 1D kymograph (rows = frames of the total
+ * volume fraction, equally spaced in time). Only the second half of the run is
+ * read (the pattern has formed). The pattern is static when its variance in time
+ * at fixed points is below 1 % of its variance in space: null. Otherwise the
+ * speed is the median over consecutive frame pairs of the shift that maximises
+ * their cross-correlation (circular when periodic, zero-padded when sealed;
+ * parabolic sub-cell refinement) within half of the dominant wavelength (a
+ * pattern that moves further between frames is aliased: store more frames), and the period is that of the strongest
+ * frequency of the point-wise time series (summed power, scanned finer than the
+ * window's DFT bins), when at least two periods fit in the window and that
+ * frequency holds at least a fifth of the power at the DFT bins.
+ */
+export function findBands(rows: Float64Array[], times: number[], periodic: boolean, cellSize: number): Bands | null {
+  const F = rows.length;
+  if (F < 8) return null;
+  const first = Math.floor(F / 2);
+  const use = rows.slice(first);
+  const t = times.slice(first);
+  const n = use[0]!.length;
+  const T = use.length;
+  // fluctuations about each frame's mean
+  const u = use.map((r) => {
+    let m = 0;
+    for (let i = 0; i < n; i++) m += r[i]!;
+    m /= n;
+    return Float64Array.from(r, (v) => v - m);
+  });
+  let spaceVar = 0;
+  let timeVar = 0;
+  for (let i = 0; i < n; i++) {
+    let m = 0;
+    for (let j = 0; j < T; j++) m += u[j]![i]!;
+    m /= T;
+    for (let j = 0; j < T; j++) {
+      spaceVar += u[j]![i]! * u[j]![i]!;
+      timeVar += (u[j]![i]! - m) ** 2;
+    }
+  }
+  if (!(spaceVar > 0) || timeVar < 1e-2 * spaceVar) return null;
+  // shift between consecutive frames by FFT cross-correlation
+  let size = 1;
+  while (size < (periodic ? n : 2 * n)) size <<= 1;
+  const circular = periodic && size === n;
+  const fft = new FFT(size);
+  const shifts: number[] = [];
+  const spec = (row: Float64Array) => {
+    const re = new Float64Array(size);
+    const im = new Float64Array(size);
+    re.set(row);
+    fft.transform(re, im);
+    return { re, im };
+  };
+  let prev = spec(u[0]!);
+  for (let j = 1; j < T; j++) {
+    const cur = spec(u[j]!);
+    // corr(s) = Σ_x prev(x) cur(x + s)  ⇒  ĉ = conj(P̂) Ĉ
+    const re = new Float64Array(size);
+    const im = new Float64Array(size);
+    for (let i = 0; i < size; i++) {
+      re[i] = prev.re[i]! * cur.re[i]! + prev.im[i]! * cur.im[i]!;
+      im[i] = prev.re[i]! * cur.im[i]! - prev.im[i]! * cur.re[i]!;
+    }
+    fft.transform(re, im, true);
+    // the pattern repeats every wavelength: look for the shift within half of the dominant wavelength of the earlier frame
+    let jBest = 1;
+    let pBest = -1;
+    for (let q = 1; q <= size / 2; q++) {
+      const p = prev.re[q]! * prev.re[q]! + prev.im[q]! * prev.im[q]!;
+      if (p > pBest) {
+        pBest = p;
+        jBest = q;
+      }
+    }
+    const limit = Math.max(2, Math.min(circular ? size / 2 : n - 1, Math.floor(size / jBest / 2)));
+    let bestS = 0;
+    let bestV = -Infinity;
+    for (let s = -limit + 1; s < limit; s++) {
+      const v = re[(s + size) % size]!;
+      if (v > bestV) {
+        bestV = v;
+        bestS = s;
+      }
+    }
+    const at = (s: number) => re[(s + size) % size]!;
+    const a = at(bestS - 1);
+    const b = at(bestS);
+    const c = at(bestS + 1);
+    const den = a - 2 * b + c;
+    const frac = den < 0 ? (0.5 * (a - c)) / den : 0;
+    shifts.push((bestS + Math.max(-0.5, Math.min(0.5, frac))) / (t[j]! - t[j - 1]!));
+    prev = cur;
+  }
+  shifts.sort((p, q) => p - q);
+  const median = shifts[Math.floor(shifts.length / 2)]!;
+  const speed = Math.abs(median * (t[T - 1]! - t[0]!)) < 2 ? 0 : median * cellSize;
+  // dominant temporal frequency: the power of the point-wise series (time mean removed), summed over points,
+  // scanned in fiftieths of a DFT bin (a zero-padded DFT), so the period is not rounded to the window's bins
+  const span = t[T - 1]! - t[0]!;
+  const dt = span / (T - 1);
+  const series = Array.from({ length: n }, (_, i) => {
+    const v = new Float64Array(T);
+    let m = 0;
+    for (let j = 0; j < T; j++) m += u[j]![i]!;
+    m /= T;
+    for (let j = 0; j < T; j++) v[j] = u[j]![i]! - m;
+    return v;
+  });
+  const cs = new Float64Array(T);
+  const sn = new Float64Array(T);
+  const power = (q: number) => {
+    for (let j = 0; j < T; j++) {
+      cs[j] = Math.cos((2 * Math.PI * q * j) / T);
+      sn[j] = Math.sin((2 * Math.PI * q * j) / T);
+    }
+    let p = 0;
+    for (let i = 0; i < n; i++) {
+      const v = series[i]!;
+      let cr = 0;
+      let ci = 0;
+      for (let j = 0; j < T; j++) {
+        cr += v[j]! * cs[j]!;
+        ci += v[j]! * sn[j]!;
+      }
+      p += cr * cr + ci * ci;
+    }
+    return p;
+  };
+  // the DFT bins first, then fiftieths of a bin around the strongest one
+  let totalP = 0;
+  let binQ = 1;
+  let binP = -1;
+  for (let q = 1; q <= Math.floor(T / 2); q++) {
+    const p = power(q);
+    totalP += p;
+    if (p > binP) {
+      binP = p;
+      binQ = q;
+    }
+  }
+  let bestF = 0;
+  let bestP = 0;
+  for (let q = Math.max(0.5, binQ - 1); q <= Math.min(T / 2, binQ + 1) + 1e-9; q += 0.02) {
+    const p = power(q);
+    if (p > bestP) {
+      bestP = p;
+      bestF = q / (T * dt);
+    }
+  }
+  const period = bestF > 0 && span * bestF >= 2 && bestP > 0.2 * totalP ? 1 / bestF : null;
+  if (speed === 0 && period === null) return null;
+  return { speed, period };
+}
