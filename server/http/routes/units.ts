@@ -69,7 +69,7 @@ export const unitRoutes: FastifyPluginAsync = async (base) => {
         sign: z.enum(['positive', 'nonnegative', 'any']).default('any'),
       }),
     },
-    handler: async (req, reply) => {
+    handler: async (req) => {
       const { value, quantity, sign } = req.body;
       try {
         const q = parseQuantity(value, { dimension: READABLE[quantity], sign: sign as Sign }, 'value');
