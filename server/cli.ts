@@ -23,7 +23,7 @@
  * status 2 and name the field; no stack traces (set BRINK_DEBUG=1 to see one
  * for an internal error, which exits with status 1).
  */
-import { fmt, fmtDuration, formatNumber } from './units/display.js';
+import { benchText, fmt, fmtAmountOf, fmtDuration, formatNumber, type AmountContext } from './units/display.js';
 import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { createInterface } from 'node:readline/promises';
@@ -216,7 +216,7 @@ export function formatText(r: AnalysisResult): string {
   }
   if (r.warnings.length > 0) {
     lines.push('warnings:');
-    for (const w of r.warnings) lines.push(`  - ${w.code}: ${w.message}`);
+    for (const w of r.warnings) lines.push(`  - ${w.code}: ${benchText(w.message)}`);
   }
   return lines.join('\n') + '\n';
 }
@@ -495,9 +495,15 @@ function cmdScreen(args: string[], io: Io): number {
     // sample at the margin dose warns of beyond these (a missing level is said once, per chemical)
     const said = (w: { code: string; message: string; chemical?: unknown }) => (w.code === 'no-concentration' ? `no-concentration:${String(w.chemical)}` : `${w.code}:${w.message}`);
     const top = new Set(out.warnings.map(said));
-    for (const w of out.warnings) lines.push(`warning ${w.code}: ${w.message}`);
+    for (const w of out.warnings) lines.push(`warning ${w.code}: ${benchText(w.message)}`);
+    // an engine message's doses for its candidate: particles/mL, with µg/mL when its size and material density are given
+    const ctxOf = (id: string): AmountContext => {
+      const sp = candidates.find((x) => x.id === id);
+      return sp ? { radius: sp.radius, materialDensity: sp.materialDensity ?? null } : {};
+    };
     for (const c of out.candidates) {
-      if (!c.feasible) lines.push(`${String(c.rank).padStart(2)}. ${c.species}: cannot (${c.reason}) — ${c.message}`);
+      const say = (m: string) => benchText(m, ctxOf(c.species));
+      if (!c.feasible) lines.push(`${String(c.rank).padStart(2)}. ${c.species}: cannot (${c.reason}) — ${say(c.message ?? '')}`);
       else {
         const q = (v: number | null | undefined) => (v === null || v === undefined ? 'above cap' : fmt(v, 'numberDensity'));
         const t = c.threshold!;
@@ -511,12 +517,12 @@ function cmdScreen(args: string[], io: Io): number {
       let p = 3;
       while (p < 12 && c.dosePath.some((iv) => perMlCompact(iv.from, p) === perMlCompact(iv.to, p))) p++;
       if (c.dosePath.length > 0) lines.push(`    dose path (particles/mL): ${c.dosePath.map((iv) => `${iv.state} (${perMlCompact(iv.from, p)}, ${perMlCompact(iv.to, p)}]`).join(', ')}${c.firstOnset ? `; first onset ${c.firstOnset.state} at ${fmt(c.firstOnset.density, 'numberDensity')}` : ''}`);
-      for (const w of c.warnings) lines.push(`    warning ${w.code}: ${w.message}`);
+      for (const w of c.warnings) lines.push(`    warning ${w.code}: ${say(w.message)}`);
       const seen = new Set(top);
       for (const w of c.atMargin?.warnings ?? []) {
         if (seen.has(said(w))) continue;
         seen.add(said(w));
-        lines.push(`    at ${req.margin}× the threshold, warning ${w.code}: ${w.message}`);
+        lines.push(`    at ${req.margin}× the threshold, warning ${w.code}: ${say(w.message)}`);
       }
     }
     io.out(lines.join('\n') + '\n');
@@ -721,7 +727,8 @@ function localServices(dbPath: string) {
   const pool = new WorkerPool({ size: 1, nice: 0 });
   // a job's error is kept as it was thrown (rebuilt as its class when it crossed from the worker), for main's handler
   const jobs = new JobRegistry({ describeError: (e) => ({ statusCode: 500, error: 'thrown', message: e.message, thrown: e }) });
-  const shelf = shelfService(shelfRepository(db));
+  const shelfRepo = shelfRepository(db);
+  const shelf = shelfService(shelfRepo);
   const plansRepo = plansRepository(db);
   const plans = planService(shelf, plansRepo, { pool, jobs });
   const outcomeSets = outcomesRepository(db);
@@ -730,6 +737,11 @@ function localServices(dbPath: string) {
     plans,
     updates,
     jobs,
+    /** What a species' amount is shown with (display.ts fmtAmountOf): its kind and molar mass from the shelf, its size and material density as the plan used them first. */
+    amountContext(id: string, used?: { radius?: number | null; materialDensity?: number | null }): AmountContext {
+      const rec = shelfRepo.get<{ kind?: string; molarMass?: { si: number }; radius?: { si: number }; materialDensity?: { si: number } }>('species', id)?.record;
+      return { kind: rec?.kind ?? null, molarMass: rec?.molarMass?.si ?? null, radius: used?.radius ?? rec?.radius?.si ?? null, materialDensity: used?.materialDensity ?? rec?.materialDensity?.si ?? null };
+    },
     async close() {
       jobs.close();
       await pool.close();
@@ -798,13 +810,21 @@ async function cmdPlan(args: string[], io: Io): Promise<number> {
   const s = localServices(values.db);
   try {
     const { planId } = await awaitJob(s.jobs, s.plans.start(request), io);
-    const plan = s.plans.get(planId) as { id: number; name: string; result: { candidates: { species: string; feasible: boolean; threshold: { density: number } | null; band?: Band | null; message?: string }[]; warnings: { code: string; message: string }[] } };
+    const plan = s.plans.get(planId) as { id: number; name: string; inputs: { candidates: { id: string; radius: number; materialDensity: number | null }[] }; result: { candidates: { species: string; feasible: boolean; threshold: { density: number } | null; band?: Band | null; message?: string }[]; warnings: { code: string; message: string }[] } };
     if (values.format === 'json') io.out(JSON.stringify({ planId, name: plan.name, candidates: plan.result.candidates.map((c) => ({ species: c.species, feasible: c.feasible, threshold: c.threshold?.density ?? null, band: c.band ?? null })), warnings: plan.result.warnings }, null, 2) + '\n');
     else {
       const lines = [`plan ${planId}: ${plan.name}`];
-      for (const c of plan.result.candidates)
-        lines.push(c.feasible && c.threshold ? `  ${c.species}: threshold ${perMl(c.threshold.density)} particles/mL${c.band ? `; band 5 % · median · 95 %: ${bandText(c.band)}` : ''}` : `  ${c.species}: does not cross${c.message ? ` (${c.message})` : ''}`);
-      for (const w of plan.result.warnings) lines.push(`  warning ${w.code}: ${w.message}`);
+      for (const c of plan.result.candidates) {
+        // the candidate's doses as the bench writes them: nM for an enzyme, particles/mL for a colloid (with µg/mL when the mass is known)
+        const ctx = s.amountContext(c.species, plan.inputs.candidates.find((x) => x.id === c.species));
+        const amount = (x: number | null) => (x === null ? 'above the cap' : fmtAmountOf(x, ctx));
+        lines.push(
+          c.feasible && c.threshold
+            ? `  ${c.species}: threshold ${amount(c.threshold.density)}${c.band ? `; band 5 % · median · 95 %: ${amount(c.band.p05)} · ${amount(c.band.median)} · ${amount(c.band.p95)}` : ''}`
+            : `  ${c.species}: does not cross${c.message ? ` (${benchText(c.message, ctx)})` : ''}`,
+        );
+      }
+      for (const w of plan.result.warnings) lines.push(`  warning ${w.code}: ${benchText(w.message)}`);
       lines.push(`bench sheet: brink sheet ${planId} --db ${values.db} --format md`);
       io.out(lines.join('\n') + '\n');
     }

@@ -208,3 +208,18 @@ export function fmtAmountOf(density: number | null | undefined, c: AmountContext
   const head = c.kind === 'enzyme' ? fmt(density / AVOGADRO, 'concentration', digits) : fmt(density, 'numberDensity', digits);
   return mass ? `${head} (${mass})` : head;
 }
+
+/**
+ * An engine message (server/engine: checks.ts, planner.ts) in the units the bench writes: a dose the
+ * engine wrote as "2.50e+7 per mL" becomes the species' amount (`fmtAmountOf`: nM for an enzyme,
+ * particles/mL for a colloid, with µg/mL when the mass is known; particles/mL when no species is
+ * given), and a concentration written "0.8 mol/m^3" becomes "0.8 mM" (or µM, nM, M by magnitude).
+ * The pages, the CLI's text output and the bench sheet all print engine messages through this, so a
+ * warning reads the same everywhere; the API's JSON keeps the engine's own wording.
+ */
+export function benchText(message: string, amountOf?: AmountContext | null, digits = 3): string {
+  const num = '(-?\\d+(?:\\.\\d+)?(?:e[+-]?\\d+)?)';
+  return message
+    .replace(new RegExp(`${num} mol/m\\^3`, 'g'), (_, x: string) => fmt(Number(x), 'concentration', digits))
+    .replace(new RegExp(`${num} per mL`, 'g'), (_, x: string) => (amountOf ? fmtAmountOf(Number(x) * 1e6, amountOf, digits) : fmt(Number(x) * 1e6, 'numberDensity', digits)));
+}

@@ -4,8 +4,9 @@
  * unit parser (server/units/index.ts, mathjs) so that what a page shows can be typed again.
  */
 import { describe, expect, it } from 'vitest';
-import { DISPLAY_UNITS, fmt, fmtAmountOf, fmtDose, fmtSi, fmtWithSd, formatNumber, formatQuantity, particleMass, type DisplayKind } from '../../server/units/display.js';
+import { benchText, DISPLAY_UNITS, fmt, fmtAmountOf, fmtDose, fmtSi, fmtWithSd, formatNumber, formatQuantity, particleMass, type DisplayKind } from '../../server/units/display.js';
 import { DIMENSIONS, parseQuantity } from '../../server/units/index.js';
+import { perMl } from '../../server/engine/planner.js';
 
 describe('display units', () => {
   it('shows the demo values in bench units', () => {
@@ -57,5 +58,20 @@ describe('display units', () => {
     expect(particleMass({ radius: 1e-6, materialDensity: 2000 })).toBeCloseTo(2000 * v, 25);
     expect(fmtSi(2.2e-13, 'm^2/s')).toBe('0.22 µm²/s');
     expect(fmtSi(3, 'furlong')).toBe('3 furlong');
+  });
+
+  it('an engine message in bench units: doses for the species, concentrations in mM or µM', () => {
+    // 1 nM of a molecule is N_A × 10⁻⁶ mol/m³ = 6.022 × 10¹⁷ /m³ = 6.02 × 10¹¹ per mL (SI 2019 Avogadro constant);
+    // at 250 kg/mol that is 0.25 µg/mL (as above). The message is written by the engine's own perMl.
+    const msg = `the mixture already turns stationary from ${perMl(6.02214076e17)}, below this threshold.`;
+    expect(msg).toContain('6.02e+11 per mL');
+    expect(benchText(msg, { kind: 'enzyme', molarMass: 250 })).toBe('the mixture already turns stationary from 1 nM (0.25 µg/mL), below this threshold.');
+    // no species: the dose in particles/mL (2.50e+7 per mL = 2.5 × 10⁷ particles/mL)
+    expect(benchText('cap (2.50e+7 per mL)')).toBe('cap (2.5 × 10⁷ particles/mL)');
+    // a colloid: particles/mL, with µg/mL from its radius and material density (1 µm, 2 g/mL: 8.378 pg each; 10⁹/mL → 8.38 mg/mL = 8380 µg/mL)
+    expect(benchText('from 1.00e+9 per mL', { kind: 'colloid', radius: 1e-6, materialDensity: 2000 })).toBe('from 1 × 10⁹ particles/mL (8380 µg/mL)');
+    // mol/m³ is mM; a small one reads in µM
+    expect(benchText('passes its solubility (1.20 mol/m^3) and (8.00e-3 mol/m^3)')).toBe('passes its solubility (1.2 mM) and (8 µM)');
+    expect(benchText('nothing to rewrite: 3 min')).toBe('nothing to rewrite: 3 min');
   });
 });

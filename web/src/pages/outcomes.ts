@@ -12,7 +12,7 @@ import { api, ApiError, type Problem } from '../lib/api.js';
 import { field, h, put, table } from '../lib/dom.js';
 import { followJob, jobView, type Job } from '../lib/job.js';
 import { figure, Plot, ACCENT, INK, MUTED } from '../lib/plot.js';
-import { fmt, fmtWithSd, formatNumber, kindOfSiUnit } from '../lib/format.js';
+import { fmtAmountOf, fmtWithSd, formatNumber, kindOfSiUnit, type AmountContext } from '../lib/format.js';
 import { optionsBody, optionsFromQuery, pageQuery, qs, type SheetOptions } from './sheet-options.js';
 import './outcomes.css';
 
@@ -141,6 +141,7 @@ interface PlanRow {
   id: number;
   name: string;
   request: { boundary: string };
+  inputs?: { candidates: { id: string; radius?: number | null; materialDensity?: number | null }[] };
   result: { candidates: { species: string; feasible: boolean }[] };
 }
 
@@ -165,8 +166,10 @@ const withSd = (si: number, sd: number, field: string): string => {
   const kind = kindOfSiUnit(FIELD_SI[field] ?? '');
   return kind ? fmtWithSd(si, sd, kind) : `${formatNumber(si)} ± ${formatNumber(sd, 2)} ${FIELD_SI[field] ?? ''}`;
 };
-const dose = (si: number | null | undefined) => fmt(si, 'numberDensity');
-const perMl = (x: number | null | undefined) => (x === null || x === undefined ? '—' : fmt(x * 1e6, 'numberDensity'));
+/** What the candidate's doses are shown with (loadAmountContext): nM for an enzyme, particles/mL for a colloid, with µg/mL when its mass is known, as on the Plan page. */
+let amountCtx: AmountContext = {};
+const dose = (si: number | null | undefined) => fmtAmountOf(si, amountCtx);
+const perMl = (x: number | null | undefined) => (x === null || x === undefined ? '—' : dose(x * 1e6));
 const bandText = (b: Band | { p05: number | null; median: number | null; p95: number | null }) => [b.p05, b.median, b.p95].map((x) => (x === null ? 'above the dose cap' : dose(x))).join(' · ');
 
 // ------------------------------------------------------------------ the page
@@ -430,7 +433,7 @@ function responsePlot(dr: DoseResponse): HTMLElement {
     height: 340,
     marginTop: 28,
     // label the 1, 2, 3, 5 ticks of each decade only: the others crowd at this width
-    x: { type: 'log', domain: [lo, hi], label: 'dopant dose delivered (particles/mL, log scale)', tickFormat: (v: number) => ([1, 2, 3, 5].includes(Math.round(v / Math.pow(10, Math.floor(Math.log10(v) + 1e-9)))) ? formatNumber(v) : '') },
+    x: { type: 'log', domain: [lo, hi], label: `dopant dose delivered (particles/mL, log scale${amountCtx.kind === 'enzyme' ? '; 1 nM = 6.022 × 10¹¹ molecules/mL' : ''})`, tickFormat: (v: number) => ([1, 2, 3, 5].includes(Math.round(v / Math.pow(10, Math.floor(Math.log10(v) + 1e-9)))) ? formatNumber(v) : '') },
     y: { domain: [0, 1], label: 'fraction of tubes that crossed (0–1)' },
     marks,
   });
@@ -684,6 +687,7 @@ async function start(): Promise<void> {
       return;
     }
     sheet = sh;
+    await loadAmountContext(sh.candidate.id);
     renderEntry();
     if (current) put(saveResult);
     await loadResponse();
@@ -691,6 +695,20 @@ async function start(): Promise<void> {
     renderNextIntro();
   } catch (e) {
     page.fail(e);
+  }
+}
+
+/** The candidate's kind and molar mass (GET /api/species/:id), its radius and material density as the plan used them first (as the Plan page does). */
+async function loadAmountContext(sid: string): Promise<void> {
+  const used = plan?.inputs?.candidates.find((c) => c.id === sid);
+  const base: AmountContext = { radius: used?.radius ?? null, materialDensity: used?.materialDensity ?? null };
+  try {
+    const r = await api<{ record: { kind?: string; molarMass?: { si: number } | null; radius?: { si: number }; materialDensity?: { si: number } } }>(`/api/species/${encodeURIComponent(sid)}`);
+    const rec = r.record;
+    amountCtx = { kind: rec.kind ?? null, molarMass: rec.molarMass?.si ?? null, radius: base.radius ?? rec.radius?.si ?? null, materialDensity: base.materialDensity ?? rec.materialDensity?.si ?? null };
+  } catch {
+    // a species no longer on the shelf: its doses in particles/mL (with µg/mL from the plan's own size, when known)
+    amountCtx = base;
   }
 }
 

@@ -7,7 +7,7 @@
  */
 import { api, ApiError, describeError } from '../lib/api.js';
 import { field, h, put, type Child } from '../lib/dom.js';
-import { fmt, fmtAmountOf, fmtDuration, formatNumber, type AmountContext } from '../lib/format.js';
+import { benchText, fmt, fmtAmountOf, fmtDuration, formatNumber, type AmountContext } from '../lib/format.js';
 import { followJob, jobView, type Job } from '../lib/job.js';
 import { mountPage, pathId } from '../lib/layout.js';
 import { figure, INK, MUTED, ACCENT, Plot, STATES, stateFill, stateLegend } from '../lib/plot.js';
@@ -173,8 +173,8 @@ async function loadSpecies(): Promise<void> {
 }
 const info = (sid: string): SpeciesInfo => species.get(sid) ?? { name: sid, ctx: {} };
 const amount = (sid: string, x: number | null | undefined) => fmtAmountOf(x, info(sid).ctx);
-/** An engine message with its doses (written "2.50e+7 per mL") as the bench writes them for this species. */
-const say = (sid: string | null, text: string) => text.replace(/(\d+(?:\.\d+)?) mol\/m\^3/g, '$1 mM').replace(/(\d+(?:\.\d+)?(?:e[+-]?\d+)?) per mL/g, (_, x: string) => (sid ? amount(sid, Number(x) * 1e6) : fmt(Number(x) * 1e6, 'numberDensity')));
+/** An engine message in bench units: its doses for this species (nM for an enzyme), its concentrations in mM (format.ts benchText). */
+const say = (sid: string | null, text: string) => benchText(text, sid ? info(sid).ctx : null);
 /**
  * A candidate's warnings in words, without the earlier-onset one the dose-path column already says, and
  * those of the sample at its margin dose (the fuel running out before a growth time, gas, settling: what
