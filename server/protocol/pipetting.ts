@@ -26,8 +26,8 @@
  * concentrations as made. A plan that cannot be carried out (stocks too dilute
  * for the sample volume) fails with what is wrong and what would fix it.
  */
-import { fmt } from '../units/display.js';
 import { WATER_DENSITY_25C } from '../engine/constants.js';
+import { fmt, fmtMolar, type AmountContext } from '../units/display.js';
 import { DomainError } from '../shelf/errors.js';
 import { classify, type HazardSet } from './hazards.js';
 import { decideWorking, nextUp125, ROUNDING_RULE, roundDownToPipette, roundToPipette, roundUpToPipette, tenfoldTake, WORKING_BELOW, workingConcentration, type WorkingDecision } from './dilution.js';
@@ -673,7 +673,10 @@ const KIND_TEXT: Record<SampleKind, string> = { 'no-dopant': 'no dopant', series
 
 /** An Amount of the JSON as printed: µL to 0.1 µL (mL from 10 mL), per mL, mM below 1 M and M above. */
 const vText = (a: Amount) => (a.value >= 10000 ? `${Number((a.value / 1000).toFixed(2))} mL` : `${a.value} µL`);
-const cText = (a: Amount) => (a.unit === 'particles/mL' ? `${num(a.value)} /mL` : a.unit === 'mM' ? (a.value >= 1000 ? `${num(a.value / 1000)} M` : `${num(a.value)} mM`) : `${num(a.value)} ${a.unit}`);
+const cTextOf = (a: Amount) => (a.unit === 'particles/mL' ? `${num(a.value)} /mL` : a.unit === 'mM' ? (a.value >= 1000 ? `${num(a.value / 1000)} M` : `${num(a.value)} mM`) : `${num(a.value)} ${a.unit}`);
+
+/** A number of molecules per mL as a molar concentration (nM, µM …; four figures). */
+const nM = (a: Amount) => fmtMolar(a.value * 1e6, 4);
 
 /**
  * The pipetting part of the sheet as one section (id "pipetting"), from the JSON
@@ -683,8 +686,11 @@ const cText = (a: Amount) => (a.unit === 'particles/mL' ? `${num(a.value)} /mL` 
  * "mixed, clock started"), and what every tube holds.
  * `doseLabel(t)` labels a dose row (e.g. "0.5 ×"); by default the sample's name.
  */
-export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: PipettingJson['tubes'][number]) => string } = {}): Section[] {
+export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: PipettingJson['tubes'][number]) => string; amountOf?: (species: string) => AmountContext } = {}): Section[] {
   const comp = new Map(p.components.map((c) => [c.id, c]));
+  // an enzyme's amount in nM, with its particles/mL beside it (the unit the volumes are worked out in)
+  const isEnzyme = (id: string) => options.amountOf?.(id).kind === 'enzyme';
+  const cText = (a: Amount, id: string) => (a.unit === 'particles/mL' && isEnzyme(id) ? `${nM(a)} (${cTextOf(a)})` : cTextOf(a));
   const label = (id: string) => comp.get(id)?.label ?? id;
   const blocks: Block[] = [];
   const R = p.replicates;
@@ -705,7 +711,7 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
       const from = x.transfers.filter((t) => !t.buffer);
       // in the master mix the base species go by their role (named once in the make cell), so the row stays short
       const role = (id: string) => (p.base.length === 1 ? 'base' : `base ${p.base.indexOf(id) + 1}`);
-      const handled = x.contents.map((c) => `${x.kind === 'master-mix' && p.base.length > 1 ? `${role(c.component)} ` : ''}${cText(c.concentration)}${c.massFraction !== null ? ` (${pct(c.massFraction)})` : ''}`);
+      const handled = x.contents.map((c) => `${x.kind === 'master-mix' && p.base.length > 1 ? `${role(c.component)} ` : ''}${cText(c.concentration, c.component)}${c.massFraction !== null ? ` (${pct(c.massFraction)})` : ''}`);
       const make = `${vText(x.volume)} ${x.kind === 'master-mix' ? `${x.label}${x.perTube !== null ? `, ${vText(x.perTube)} per tube` : ''} (${x.contents.map((c) => `${p.base.length > 1 ? `${role(c.component)}: ` : 'base: '}${label(c.component)}`).join('; ')})` : x.label}`;
       const fromText = (t: (typeof x.transfers)[number]) => (x.kind === 'master-mix' && t.base !== null ? `${vText(t.volume)} ${role(t.base)} ${t.from.endsWith(' stock') ? 'stock' : t.from.slice(label(t.base).length + 1)}` : `${vText(t.volume)} ${t.from}`);
       return { cells: [null, x.code, make, from.map(fromText).join(' + '), into.length ? `${vText(into[0]!.volume)} ${into[0]!.from}` : '—', handled.join('; ')] };
@@ -721,7 +727,10 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
   const topDose = Math.max(0, ...p.tubes.map((t) => Math.max(t.plannedDose?.value ?? 0, t.deliveredDose?.value ?? 0)));
   const decade = topDose > 0 ? Math.floor(Math.log10(topDose)) : 0;
   const scaleText = decade === 0 ? 'per mL' : `10${sup(decade)} /mL`;
-  const doseText = (a: Amount) => String(Number((a.value / Math.pow(10, decade)).toPrecision(4)));
+  // an enzyme dopant: its doses in nM (its stock, above, in nM too), the particles/mL in the caption's unit beside them
+  const enzymeDopant = isEnzyme(p.dopant);
+  const perDecade = (a: Amount) => String(Number((a.value / Math.pow(10, decade)).toPrecision(4)));
+  const doseText = (a: Amount) => (enzymeDopant ? `${nM(a)} (${perDecade(a)})` : perDecade(a));
   const cols: Column[] = [
     { id: 'tube', label: 'tubes' },
     { id: 'sample', label: 'sample' },
@@ -745,7 +754,7 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
   }));
   // the dopant is named once (its stock column needs no second line); every other short header is spelled out
   const legend = p.columns.filter((c) => c.short !== c.label && c.short !== 'dopant stock').map((c) => `${c.short}: ${c.label}`);
-  blocks.push(table(cols, rows, [`dopant: ${label(p.dopant)}, dose planned and delivered in ${scaleText} of sample`, ...legend].join('; ')));
+  blocks.push(table(cols, rows, [`dopant: ${label(p.dopant)}, dose planned and delivered in ${enzymeDopant ? `nM (in brackets: ${scaleText})` : scaleText} of sample`, ...legend].join('; ')));
 
   // What every tube holds besides the dopant: planned and delivered (the same in every tube that takes it, or a range).
   const held: string[] = [];
@@ -754,10 +763,10 @@ export function pipettingSections(p: PipettingJson, options: { doseLabel?: (t: P
     const pairs = p.tubes.flatMap((t) => t.concentrations.filter((x) => x.component === c.id && x.planned.value > 0));
     if (pairs.length === 0) continue;
     const range = (xs: Amount[]) => {
-      const texts = [...new Set(xs.map(cText))];
+      const texts = [...new Set(xs.map((x) => cText(x, c.id)))];
       const lo = xs.reduce((a, b) => (b.value < a.value ? b : a));
       const hi = xs.reduce((a, b) => (b.value > a.value ? b : a));
-      return texts.length === 1 ? texts[0]! : `${cText(lo)} – ${cText(hi)}`;
+      return texts.length === 1 ? texts[0]! : `${cText(lo, c.id)} – ${cText(hi, c.id)}`;
     };
     const who = p.base.includes(c.id) ? (p.base.length === 1 ? 'base' : `base ${p.base.indexOf(c.id) + 1}`) : c.label;
     held.push(`${who} ${range(pairs.map((x) => x.planned))} planned, ${range(pairs.map((x) => x.delivered))} delivered (${pairs.length} sample${pairs.length === 1 ? '' : 's'})`);

@@ -7,7 +7,7 @@
  * The model built here is the JSON format; render.ts renders it as HTML and Markdown.
  * Every number carries its unit. Nothing depends on the clock but `printedAt`.
  */
-import { fmt } from '../units/display.js';
+import { benchText, fmt, fmtDuration, fmtMolar, type AmountContext } from '../units/display.js';
 import { z } from 'zod';
 import { analyze, type AnalysisResult, type State } from '../engine/analyze.js';
 import { FUEL_GROWTH_TIMES } from '../engine/checks.js';
@@ -238,15 +238,24 @@ export function speciesStock(sp: SpeciesRecord, o: z.output<typeof stockSchema> 
   }
 }
 
-const per = (x: number) => `${x === 0 ? 0 : formatNumber(Number((x * 1e-6).toPrecision(3)))} particles/mL`;
+/** A dose in the sheet's words: particles/mL, an enzyme's in nM with its particles/mL beside it. */
+const per = (x: number, c: AmountContext = {}) => {
+  const p = `${x === 0 ? 0 : formatNumber(Number((x * 1e-6).toPrecision(3)))} particles/mL`;
+  return c.kind === 'enzyme' ? `${fmtMolar(x)} (${p})` : p;
+};
+/** What a species' amount is shown with: its kind and molar mass from the shelf, its size and material density as the plan used them. */
+function amountContext(ctx: Pick<SheetContext, 'speciesRecord'>, sp: Pick<Species, 'id' | 'radius' | 'materialDensity'>): AmountContext {
+  const rec = ctx.speciesRecord(sp.id);
+  return { kind: rec?.kind ?? null, molarMass: rec?.molarMass?.si ?? null, radius: sp.radius, materialDensity: sp.materialDensity };
+}
 
 /** One `dose-above-cap` warning for each dose of the series above the plan's dose cap (a relative 1e-9 for rounding). */
-export function aboveCap(cand: CandidateResult, series: number[]): Sheet['warnings'] {
+export function aboveCap(cand: CandidateResult, series: number[], c: AmountContext = {}): Sheet['warnings'] {
   const cap = cand.cap?.density;
   if (cap === undefined) return [];
   return series
     .filter((d) => d > cap * (1 + 1e-9))
-    .map((x) => ({ code: 'dose-above-cap', message: `the dose ${per(x)} is above the plan's dose cap (${per(cap)}, limited by ${cand.cap.limitedBy}): the plan did not search there, so the prediction does not cover it.` }));
+    .map((x) => ({ code: 'dose-above-cap', message: `the dose ${per(x, c)} is above the plan's dose cap (${per(cap, c)}, limited by ${cand.cap.limitedBy}): the plan did not search there, so the prediction does not cover it.` }));
 }
 
 /**
@@ -264,17 +273,17 @@ export interface ChosenSeries {
   seriesWarnings: Sheet['warnings'];
 }
 
-export function chooseSeries(cand: CandidateResult, req: SheetRequest, planSeries?: PlanSeriesSI): ChosenSeries {
+export function chooseSeries(cand: CandidateResult, req: SheetRequest, planSeries?: PlanSeriesSI, c: AmountContext = {}): ChosenSeries {
   const seriesWarnings: Sheet['warnings'] = [];
   if (req.doses && req.doseFactors) throw new InputError([{ path: 'doses', message: 'give doses or doseFactors, not both' }]);
   // the plan's own series (a next plan's designed doses) when none is asked for: with dose 0, the no-dopant control
   if (!req.doses && !req.doseFactors && planSeries && planSeries.candidate === cand.species) {
     const doses = [0, ...planSeries.doses].map((x) => ({ value: x, unit: null, sd: 0 })) as unknown as NonNullable<SheetRequest['doses']>;
-    const r: ChosenSeries = chooseSeries(cand, { ...req, doses });
+    const r: ChosenSeries = chooseSeries(cand, { ...req, doses }, undefined, c);
     const f = planSeries.from;
     const factor = (x: number | null) => (x === null ? 'not finite (the band reaches past the cap)' : `×${formatNumber(Number(x.toPrecision(3)))}`);
     const note = f
-      ? `designed from the outcomes of plan ${f.plan} (outcome set ${f.outcomeSet} revision ${f.outcomeRevision}) to minimise the ${f.criterion}: expected 95 %/5 % width of the threshold band after this round ${factor(f.expectedBandFactor.designed)}, against ${factor(f.expectedBandFactor.fixed)} with the default fixed series${f.fixedDoses !== null ? ` of ${f.fixedDoses} doses` : ''}; plus dose 0 (the no-dopant control).${f.posteriorBand ? ` The update's own band (5 % · median · 95 %, the coefficients' joint posterior) was ${[f.posteriorBand.p05, f.posteriorBand.median, f.posteriorBand.p95].map((x) => (x === null ? 'above the cap' : per(x))).join(' · ')}; the band of this plan comes from the shelf's coefficients and their sds, which keep no correlations between coefficients, so it can be wider.` : ''} ${r.seriesInfo.note.replace(/^the doses given; /, '')}. Give doses or doseFactors to print another series.`
+      ? `designed from the outcomes of plan ${f.plan} (outcome set ${f.outcomeSet} revision ${f.outcomeRevision}) to minimise the ${f.criterion}: expected 95 %/5 % width of the threshold band after this round ${factor(f.expectedBandFactor.designed)}, against ${factor(f.expectedBandFactor.fixed)} with the default fixed series${f.fixedDoses !== null ? ` of ${f.fixedDoses} doses` : ''}; plus dose 0 (the no-dopant control).${f.posteriorBand ? ` The update's own band (5 % · median · 95 %, the coefficients' joint posterior) was ${[f.posteriorBand.p05, f.posteriorBand.median, f.posteriorBand.p95].map((x) => (x === null ? 'above the cap' : per(x, c))).join(' · ')}; the band of this plan comes from the shelf's coefficients and their sds, which keep no correlations between coefficients, so it can be wider.` : ''} ${r.seriesInfo.note.replace(/^the doses given; /, '')}. Give doses or doseFactors to print another series.`
       : `the dose series stored with the plan, plus dose 0 (the no-dopant control); ${r.seriesInfo.note.replace(/^the doses given; /, '')}. Give doses or doseFactors to print another series.`;
     return { ...r, seriesInfo: { from: 'plan-series', note, ...(f ? { designedFrom: f } : {}) } as Sheet['prediction']['series'] };
   }
@@ -284,7 +293,7 @@ export function chooseSeries(cand: CandidateResult, req: SheetRequest, planSerie
   const scalable = scaledFrom === 'median' || cand.threshold!.density > 0;
   const scaledName = scaledFrom === 'median' ? 'median threshold of the Monte Carlo band' : 'threshold';
   if (!req.doses && !scalable) {
-    const path = cand.dosePath?.length ? `; dose path: ${cand.dosePath.map((iv) => `${iv.state} over (${per(iv.from)}, ${per(iv.to)}]`).join(', ')}` : '';
+    const path = cand.dosePath?.length ? `; dose path: ${cand.dosePath.map((iv) => `${iv.state} over (${per(iv.from, c)}, ${per(iv.to, c)}]`).join(', ')}` : '';
     throw new InputError([
       {
         path: 'doses',
@@ -295,9 +304,9 @@ export function chooseSeries(cand: CandidateResult, req: SheetRequest, planSerie
   if (!req.doses) {
     const { reference, doses } = doseSeries(cand, req.doseFactors);
     const from = req.doseFactors ? 'dose-factors' : 'default-factors';
-    const note = `${req.doseFactors ? 'the dose factors given' : `the default factors ${DEFAULT_DOSE_FACTORS.join(', ')}`} × the ${scaledName} (${per(reference)})${!req.doseFactors && cand.band ? ", plus the band's 5 % and 95 % doses" : ''}`;
+    const note = `${req.doseFactors ? 'the dose factors given' : `the default factors ${DEFAULT_DOSE_FACTORS.join(', ')}`} × the ${scaledName} (${per(reference, c)})${!req.doseFactors && cand.band ? ", plus the band's 5 % and 95 % doses" : ''}`;
     // factors × the reference (2 × the median, or the 95 % dose) can pass the cap as much as doses given can
-    seriesWarnings.push(...aboveCap(cand, doses));
+    seriesWarnings.push(...aboveCap(cand, doses, c));
     return { ref: reference, series: doses, referenceFrom: scaledFrom, seriesInfo: { from, note } as Sheet['prediction']['series'], seriesWarnings };
   }
   const series = [...new Set(req.doses.map((d) => Number(d.value.toPrecision(6))))].sort((a, b) => a - b);
@@ -312,8 +321,8 @@ export function chooseSeries(cand: CandidateResult, req: SheetRequest, planSerie
     ref = top;
     referenceFrom = 'largest-dose';
   }
-  seriesWarnings.push(...aboveCap(cand, series));
-  const note = `the doses given; 1 × (the dose of the no-fuel and dopant-alone controls) is ${referenceFrom === 'largest-dose' ? 'the largest of them, since any dose crosses and there is no threshold to scale by' : `the ${scaledName}`} (${per(ref)})`;
+  seriesWarnings.push(...aboveCap(cand, series, c));
+  const note = `the doses given; 1 × (the dose of the no-fuel and dopant-alone controls) is ${referenceFrom === 'largest-dose' ? 'the largest of them, since any dose crosses and there is no threshold to scale by' : `the ${scaledName}`} (${per(ref, c)})`;
   return { ref, series, referenceFrom, seriesInfo: { from: 'doses', note } as Sheet['prediction']['series'], seriesWarnings };
 }
 
@@ -390,7 +399,7 @@ function liquids(ctx: SheetContext, req: SheetRequest, tweak: Tweak = {}) {
   };
 
   // Reference dose and the series (engine/planner.ts: factors × median, plus the band's ends), or the doses given.
-  const chosenSeries = chooseSeries(cand, req, plan.request.series);
+  const chosenSeries = chooseSeries(cand, req, plan.request.series, amountContext(ctx, dopant));
   const { ref, referenceFrom, seriesInfo, seriesWarnings } = chosenSeries;
   const series = tweak.dropLargest ? chosenSeries.series.slice(0, Math.max(1, chosenSeries.series.length - tweak.dropLargest)) : chosenSeries.series;
   const scale = (id: string) => (tweak.stockScale?.id === id ? tweak.stockScale.factor : 1);
@@ -688,6 +697,8 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   const { plan } = ctx;
   const { cand, chosen, base, dopant, dosing, o, ref, referenceFrom, seriesInfo, stocks, components, fuelIds, pip, spIds } = P;
   const warnings = P.warnings;
+  // the dopant's doses in its own units (nM for an enzyme) wherever the sheet words them
+  const candAmount = amountContext(ctx, dopant);
   const tr = (t: { what: string; from: string; volume: number }) => ({ what: t.what, from: t.from, volume: ul(t.volume) });
 
   // Imaging plan from the numbers at the margin dose.
@@ -699,16 +710,16 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   let fuelLife: number | null = null;
   // the dose the imaging numbers are read at (the margin dose is the threshold itself when the planner made it so)
   const atWhich = cand.atMargin === cand.atThreshold ? 'threshold' : 'margin';
-  if (!m) notes.push(`no analysis at a margin dose (${cand.anyDose ? 'any dose crosses, so there is none' : 'none in this plan'}): the frame interval (${frame} s) and duration (${duration} s) are defaults, not predictions; set them from a trial run`);
+  if (!m) notes.push(`no analysis at a margin dose (${cand.anyDose ? 'any dose crosses, so there is none' : 'none in this plan'}): the frame interval (${fmtDuration(frame)}) and duration (${fmtDuration(duration)}) are defaults, not predictions; set them from a trial run`);
   if (m && tau) {
     frame = niceFloor(tau / 10);
     duration = 5 * tau;
     // an absent fuel (lifetime 0) is not a time to image for: the analysis' own warnings say it is missing
     const present = m.checks.fuel.filter((f) => !f.absent);
     fuelLife = present.length > 0 ? Math.min(...present.map((f) => f.lifetime)) : null;
-    notes.push(`frame interval at most a tenth of the ${m.growthTime ? 'growth' : 'decay'} time (${s(tau).value} s at the ${atWhich} dose)`);
+    notes.push(`frame interval at most a tenth of the ${m.growthTime ? 'growth' : 'decay'} time (${fmtDuration(tau)} at the ${atWhich} dose)`);
     if (fuelLife !== null && fuelLife < duration) {
-      warnings.push({ code: 'imaging-capped-by-fuel', message: `five growth times (${s(duration).value} s) outlast the fuel (about ${s(fuelLife).value} s): the imaging stops when the fuel runs out; refuel or use more fuel if the pattern needs longer.` });
+      warnings.push({ code: 'imaging-capped-by-fuel', message: `five growth times (${fmtDuration(duration)}) outlast the fuel (about ${fmtDuration(fuelLife)}): the imaging stops when the fuel runs out; refuel or use more fuel if the pattern needs longer.` });
       duration = fuelLife;
     }
   }
@@ -728,9 +739,9 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   }
   if (firstGas) {
     const name = ctx.chemicalRecord(firstGas.chemical)?.name ?? firstGas.chemical;
-    notes.push(`${name} is made at ${mM(firstGas.rate).value} mM/s (stoichiometric yields counted) at the ${atWhich} dose and passes its solubility (${mM(firstGas.solubility).value} mM) after about ${s(firstGas.time).value} s`);
+    notes.push(`${name} is made at ${mM(firstGas.rate).value} mM/s (stoichiometric yields counted) at the ${atWhich} dose and passes its solubility (${mM(firstGas.solubility).value} mM) after about ${fmtDuration(firstGas.time)}`);
     if (firstGas.time < duration && !m!.warnings.some((w) => w.code === 'gas-exceeds-solubility' && w.chemical === firstGas.chemical)) {
-      warnings.push({ code: 'gas-during-imaging', message: `${name} passes its solubility after about ${s(firstGas.time).value} s, within the ${s(duration).value} s of imaging: bubbles may form; vent the chamber or image for less time.` });
+      warnings.push({ code: 'gas-during-imaging', message: `${name} passes its solubility after about ${fmtDuration(firstGas.time)}, within the ${fmtDuration(duration)} of imaging: bubbles may form; vent the chamber or image for less time.` });
     }
   }
   const lambda = m?.fastestMode.wavelength ?? null;
@@ -761,7 +772,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   for (let i = 1; i < series.length; i++) {
     const [p, c] = [series[i - 1]!, series[i]!];
     if (Math.abs(c.delivered! - p.delivered!) <= 1e-9 * Math.max(c.delivered!, p.delivered!))
-      warnings.push({ code: 'same-delivered-dose', message: `tubes ${p.code} and ${c.code} deliver the same dose after rounding (${per(c.delivered!)}, planned ${per(p.planned!)} and ${per(c.planned!)}): they are one dose at the bench; use a larger sample volume or a more dilute dopant stock to tell them apart.` });
+      warnings.push({ code: 'same-delivered-dose', message: `tubes ${p.code} and ${c.code} deliver the same dose after rounding (${per(c.delivered!, candAmount)}, planned ${per(p.planned!, candAmount)} and ${per(c.planned!, candAmount)}): they are one dose at the bench; use a larger sample volume or a more dilute dopant stock to tell them apart.` });
   }
 
   // Expected outcome of each tube (docs/model.md §11).
@@ -826,7 +837,7 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
     let earlierInstability = false;
     if (onPath && onset && onset.density < threshold * (1 - 1e-5) && x >= onset.density && x < threshold) {
       earlierInstability = true;
-      flags.push(`turns ${onset.state} first (first onset ${pm(onset.density)}), below the ${plan.request.boundary} threshold: not the boundary asked for`);
+      flags.push(`turns ${onset.state} first (first onset ${per(onset.density, candAmount)}), below the ${plan.request.boundary} threshold: not the boundary asked for`);
     }
     const grows = state !== 'stable' && a.growthTime !== null;
     // a pattern that needs longer to grow than the fuel lasts in this tube is not what the bench will see (§8)
@@ -834,9 +845,9 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
       const present = a.checks.fuel.filter((f) => !f.absent && Number.isFinite(f.lifetime) && f.lifetime > 0);
       const life = present.length > 0 ? Math.min(...present.map((f) => f.lifetime)) : null;
       if (life !== null && life < a.growthTime!)
-        flags.push(`the fuel runs out in about ${s(life).value} s, before one growth time (${s(a.growthTime!).value} s): the pattern may not form at all`);
+        flags.push(`the fuel runs out in about ${fmtDuration(life)}, before one growth time (${fmtDuration(a.growthTime!)}): the pattern may not form at all`);
       else if (life !== null && life < FUEL_GROWTH_TIMES * a.growthTime!)
-        flags.push(`the fuel lasts only about ${(life / a.growthTime!).toFixed(1)} growth times (${s(life).value} s): the pattern may stop growing early`);
+        flags.push(`the fuel lasts only about ${(life / a.growthTime!).toFixed(1)} growth times (${fmtDuration(life)}): the pattern may stop growing early`);
     }
     return {
       tube: t.code,
@@ -1015,16 +1026,31 @@ export function buildSheet(ctx: SheetContext, req: SheetRequest): Sheet {
   };
   // a dose row is labelled by its factor of the 1 × dose (planned dose per mL / the reference per mL)
   const doseLabel = (t: { plannedDose: Amount | null }) => (t.plannedDose === null ? 'no dopant' : `${formatNumber(Number((t.plannedDose.value / (ref * 1e-6)).toPrecision(3)))} ×`);
-  return { ...data, sections: sheetSections(data, pipettingSections(data.pipetting, { doseLabel })) };
+  // what each species' amount is shown with: its kind and molar mass from the shelf, its size and material density as the plan used them
+  const amountOf = new Map([...base.species, dopant].map((sp) => [sp.id, amountContext(ctx, sp)] as const));
+  const amountFor = (id: string) => amountOf.get(id) ?? {};
+  return { ...data, sections: sheetSections(data, pipettingSections(data.pipetting, { doseLabel, amountOf: amountFor }), amountFor) };
 }
 
 // ------------------------------------------------------------------ the sections every rendering reads
 
-const a = fmtAmount;
-/** A band quantile: null means it lies above the dose cap (engine/planner.ts), not that it is unknown. */
-const q = (x: Amount | null | undefined) => (x ? a(x) : 'above the dose cap');
+/**
+ * An Amount of the JSON as the bench writes it (display.ts): times in the unit that reads best (2.3 h, not 8280 s),
+ * lengths likewise (100 µm, not 0.1 mm), and the rest as the JSON holds it (µL, mM, °C, particles/mL).
+ */
+const a = (x: Amount | null | undefined): string => {
+  if (!x) return '—';
+  if (x.unit === 's') return fmtDuration(x.value);
+  if (x.unit === 'mm') return fmt(x.value * 1e-3, 'length');
+  return fmtAmount(x);
+};
+/**
+ * A dose or a species' stock (an Amount in particles/mL) for that species: an enzyme in nM with its particles/mL
+ * beside it (the pipetting's own unit, so the arithmetic can be checked), anything else in particles/mL (four figures).
+ */
+const doseOf = (x: Amount | null | undefined, c: AmountContext): string => (x && x.unit === 'particles/mL' && c.kind === 'enzyme' ? `${fmtMolar(x.value * 1e6, 4)} (${fmtAmount(x)})` : a(x));
 /** Where the band puts the threshold, in words that read right when a quantile lies above the dose cap. */
-function bandSentence(boundary: string, b: { p05: Amount | null; p95: Amount | null }): string {
+function bandSentence(boundary: string, b: { p05: Amount | null; p95: Amount | null }, a: (x: Amount) => string): string {
   const head = `The band: in the Monte Carlo draws the ${boundary} threshold`;
   if (b.p05 && b.p95) return `${head} lies between ${a(b.p05)} (5 %) and ${a(b.p95)} (95 %).`;
   if (b.p05) return `${head} is above ${a(b.p05)} in 95 % of the draws (the 5 % point); its 95 % point lies above the dose cap.`;
@@ -1086,8 +1112,13 @@ const expectedText = (o: TubeOutcome) =>
     : [o.state, o.growthTime ? `grows in about ${a(o.growthTime)}` : null, o.wavelength ? `wavelength ${a(o.wavelength)}` : null, o.oscillationPeriod ? `period ${a(o.oscillationPeriod)}` : null].filter(Boolean).join('; ');
 
 /** The ordered sections of a sheet: the one source of the HTML and Markdown renderings (render.ts). */
-export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[]): Section[] {
+export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[], amountOf: (species: string) => AmountContext = () => ({})): Section[] {
   const p = sh.prediction;
+  // the candidate's doses in its own units (nM for an enzyme)
+  const cand = amountOf(sh.candidate.id);
+  const d = (x: Amount | null | undefined) => doseOf(x, cand);
+  /** A band quantile: null means it lies above the dose cap (engine/planner.ts), not that it is unknown. */
+  const q = (x: Amount | null | undefined) => (x ? d(x) : 'above the dose cap');
   const sections: Section[] = [];
   sections.push({
     id: 'title',
@@ -1099,15 +1130,15 @@ export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[])
     ],
   });
   const rows: { key: string; value: string }[] = [
-    { key: `threshold dose of ${sh.candidate.id} (${sh.plan.boundary})`, value: p.threshold.anyDose ? 'any dose above 0 (threshold 0⁺)' : `${a(p.threshold)} (volume fraction ${formatNumber(Number(p.threshold.volumeFraction.toPrecision(3)))})` },
+    { key: `threshold dose of ${sh.candidate.id} (${sh.plan.boundary})`, value: p.threshold.anyDose ? 'any dose above 0 (threshold 0⁺)' : `${d(p.threshold)} (volume fraction ${formatNumber(Number(p.threshold.volumeFraction.toPrecision(3)))})` },
   ];
   if (p.band) {
     const extra = p.band.alreadyPast !== null && p.band.feasibleFraction !== null ? `; already past without dopant in ${(100 * p.band.alreadyPast).toFixed(1)} % of draws; crosses at or below the cap in ${(100 * p.band.feasibleFraction).toFixed(1)} %` : '';
     rows.push({ key: `uncertainty band (${p.band.samples} Monte Carlo draws, seed ${p.band.seed}${extra}): 5 % · median · 95 %`, value: `${q(p.band.p05)} · ${q(p.band.median)} · ${q(p.band.p95)}` });
   } else rows.push({ key: 'uncertainty band', value: 'none: the plan ran without Monte Carlo draws, so no tube is flagged as within a band' });
-  rows.push({ key: 'reference dose (1 ×)', value: a(p.referenceDose) }, { key: 'dose series', value: p.series.note });
-  if (p.dosePath.length) rows.push({ key: 'dose path (state over the doses, whatever the boundary)', value: p.dosePath.map((iv) => `${iv.state} over (${a(iv.from)}, ${a(iv.to)}]`).join('; ') });
-  if (p.firstOnset) rows.push({ key: 'first onset (smallest dose at which anything grows)', value: `${p.firstOnset.state} from ${a(p.firstOnset.dose)}` });
+  rows.push({ key: 'reference dose (1 ×)', value: d(p.referenceDose) }, { key: 'dose series', value: p.series.note });
+  if (p.dosePath.length) rows.push({ key: 'dose path (state over the doses, whatever the boundary)', value: p.dosePath.map((iv) => `${iv.state} over (${d(iv.from)}, ${d(iv.to)}]`).join('; ') });
+  if (p.firstOnset) rows.push({ key: 'first onset (smallest dose at which anything grows)', value: `${p.firstOnset.state} from ${d(p.firstOnset.dose)}` });
   if (p.atMargin) {
     rows.push({ key: `above the threshold: state, growth time, wavelength${p.atMargin.oscillationPeriod ? ', period' : ''}`, value: `${p.atMargin.state}, ${a(p.atMargin.growthTime)}, ${a(p.atMargin.wavelength)}${p.atMargin.oscillationPeriod ? `, ${a(p.atMargin.oscillationPeriod)}` : ''}` });
     rows.push({ key: 'gather together · pushed out', value: `${p.atMargin.gathers.join(', ') || '—'} · ${p.atMargin.pushedOut.join(', ') || '—'}` });
@@ -1126,7 +1157,7 @@ export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[])
           { id: 'concentration', label: 'concentration', numeric: true },
           { id: 'from', label: 'from' },
         ],
-        sh.stocks.map((x) => ({ cells: [x.name, x.described, a(x.concentration), x.source] })),
+        sh.stocks.map((x) => ({ cells: [x.name, x.described, x.kind === 'species' ? doseOf(x.concentration, amountOf(x.id)) : a(x.concentration), x.source] })),
       ),
       { kind: 'paragraph', muted: true, text: `Sample volume ${a(sh.options.sampleVolume)}, ${sh.options.replicates} replicate tube(s) per sample, smallest volume pipetted ${a(sh.options.minVolume)}, master-mix overage ${Math.round(sh.options.overage * 100)} %, diluent: ${sh.options.buffer}.` },
     ],
@@ -1149,13 +1180,13 @@ export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[])
         ],
         sh.tubes.map((t) => {
           const o = byCode.get(t.code)!;
-          return { code: t.code, cells: [t.code, t.sample, t.dose ? a(t.dose) : '—', expectedText(o), o.flags.length ? o.flags.join('; ') : '—'] };
+          return { code: t.code, cells: [t.code, t.sample, t.dose ? d(t.dose) : '—', expectedText(o), o.flags.length ? o.flags.join('; ') : '—'] };
         }),
       ),
       {
         kind: 'paragraph',
         muted: true,
-        text: `Expected from the dose path (the state) and the analysis at each tube’s delivered dose (growth time, wavelength, period): ${Object.values(stateWords).join('; ')}. ${p.band ? bandSentence(sh.plan.boundary, p.band) : 'No band: the plan ran without Monte Carlo draws.'}${p.firstOnset && !p.threshold.anyDose ? ` First onset: ${p.firstOnset.state} from ${a(p.firstOnset.dose)}; the ${sh.plan.boundary} threshold is ${a(p.threshold)}.` : ''}`,
+        text: `Expected from the dose path (the state) and the analysis at each tube’s delivered dose (growth time, wavelength, period): ${Object.values(stateWords).join('; ')}. ${p.band ? bandSentence(sh.plan.boundary, p.band, d) : 'No band: the plan ran without Monte Carlo draws.'}${p.firstOnset && !p.threshold.anyDose ? ` First onset: ${p.firstOnset.state} from ${d(p.firstOnset.dose)}; the ${sh.plan.boundary} threshold is ${d(p.threshold)}.` : ''}`,
       },
     ],
   });
@@ -1222,7 +1253,7 @@ export function sheetSections(sh: Omit<Sheet, 'sections'>, pipetting: Section[])
   } else gasBlocks.push({ kind: 'paragraph', text: 'No tube holds a fuel together with something that turns it into a gas.' });
   sections.push({ id: 'gas', title: 'Gas', blocks: gasBlocks });
 
-  if (sh.warnings.length) sections.push({ id: 'warnings', title: 'Practical warnings', blocks: [{ kind: 'list', items: sh.warnings.map((w) => `${w.code}: ${w.message}`) }] });
+  if (sh.warnings.length) sections.push({ id: 'warnings', title: 'Practical warnings', blocks: [{ kind: 'list', items: sh.warnings.map((w) => `${w.code}: ${benchText(w.message, cand)}`) }] });
   sections.push({ id: 'hazards', title: 'Hazards and safe handling', blocks: [...sh.hazards.flatMap(hazardBlocks), { kind: 'heading', text: 'General cautions' }, { kind: 'list', items: sh.safety }] });
   sections.push({
     id: 'traceability',

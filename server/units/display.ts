@@ -196,6 +196,12 @@ export function particleMass(c: AmountContext): number | null {
   return null;
 }
 
+/** A number density of molecules (1/m³) as a molar concentration, n / N_A: `3.39 nM` (µM, mM by magnitude); zero reads `0 nM`. */
+export function fmtMolar(density: number | null | undefined, digits = 3): string {
+  if (density === null || density === undefined) return '—';
+  return density === 0 ? '0 nM' : fmt(density / AVOGADRO, 'concentration', digits);
+}
+
 /**
  * An amount of a species (number density, 1/m³) as the bench writes it: an enzyme in nM (molar
  * concentration of the molecule) and µg/mL; a colloid in particles/mL and µg/mL. The mass is left
@@ -205,7 +211,7 @@ export function fmtAmountOf(density: number | null | undefined, c: AmountContext
   if (density === null || density === undefined) return '—';
   const m = particleMass(c);
   const mass = m === null ? '' : fmt(density * m, 'massConcentration', digits);
-  const head = c.kind === 'enzyme' ? fmt(density / AVOGADRO, 'concentration', digits) : fmt(density, 'numberDensity', digits);
+  const head = c.kind === 'enzyme' ? fmtMolar(density, digits) : fmt(density, 'numberDensity', digits);
   return mass ? `${head} (${mass})` : head;
 }
 

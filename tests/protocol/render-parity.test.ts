@@ -64,12 +64,26 @@ describe('every text of the model appears in HTML and Markdown', () => {
     const osc = swim.json.outcomes.filter((o: { state: string }) => o.state === 'oscillatory');
     expect(osc.length).toBeGreaterThan(0);
     for (const o of osc) expect(o.oscillationPeriod).not.toBeNull();
-    expect(swim.md).toMatch(/\| oscillatory; grows in about [\d.]+ s; wavelength [\d.]+ mm; period [\d.]+ s \|/);
+    // times and lengths in the unit that reads best (display.ts): s, min or h; µm or mm
+    expect(swim.md).toMatch(/\| oscillatory; grows in about [\d.]+ (?:s|min|h); wavelength [\d.]+ (?:µm|mm); period [\d.]+ (?:s|min|h) \|/);
     const cat = three(id, { candidate: 'catalase-e3' });
     expect(cat.status).toBe(200);
     expect(cat.json.prediction.band.p95).toBeNull();
     expectParity(cat.json.sections, cat.html, cat.md);
     expect(cat.md).toContain('above the dose cap');
+    // an enzyme's doses and stock in nM, its particles/mL beside them (the pipetting's unit): n / N_A, N_A = 6.02214076e23 /mol (SI 2019)
+    const nM = (perMl: number) => Number(((perMl * 1e6) / 6.02214076e23 / 1e-6).toPrecision(4));
+    const ref = cat.json.prediction.referenceDose.value as number;
+    expect(nM(ref)).toBeGreaterThan(0.001);
+    expect(nM(ref)).toBeLessThan(1000);
+    expect(cat.md).toContain(`**reference dose (1 ×)**: ${nM(ref)} nM (`);
+    const stock = cat.json.stocks.find((x: { id: string }) => x.id === 'catalase-e3').concentration.value as number;
+    expect(cat.md).toMatch(new RegExp(`\\| ${nM(stock) >= 1000 ? '[\\d.]+ µM' : `${String(nM(stock)).replace('.', '\\.')} nM`} \\([\\d.]+ × 10[⁰¹²³⁴⁵⁶⁷⁸⁹]+ particles/mL\\) \\|`));
+    expect(cat.md).toContain('dose planned and delivered in nM (in brackets: 10');
+    // the flags and the dose path word the enzyme's doses the same way (a zero dose too)
+    expect(cat.md).toMatch(/first onset [\d.]+ nM \([\d.]+ × 10[⁰¹²³⁴⁵⁶⁷⁸⁹]+ particles\/mL\)/);
+    expect(cat.md).toContain('stable over (0 nM (0 particles/mL), ');
+    expect(cat.md).not.toMatch(/ mM \(0 particles/);
     // the enzyme's hazards by form (seeds/demo-species-hazards.json, from memory): the powder as a respiratory
     // sensitiser with the dust precautions, in both renderings
     const enzyme = cat.json.hazards.find((h: { chemical: string }) => h.chemical === 'catalase-e3');

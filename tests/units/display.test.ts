@@ -4,7 +4,7 @@
  * unit parser (server/units/index.ts, mathjs) so that what a page shows can be typed again.
  */
 import { describe, expect, it } from 'vitest';
-import { benchText, DISPLAY_UNITS, fmt, fmtAmountOf, fmtDose, fmtSi, fmtWithSd, formatNumber, formatQuantity, particleMass, type DisplayKind } from '../../server/units/display.js';
+import { benchText, DISPLAY_UNITS, fmt, fmtAmountOf, fmtMolar, fmtDose, fmtSi, fmtWithSd, formatNumber, formatQuantity, particleMass, type DisplayKind } from '../../server/units/display.js';
 import { DIMENSIONS, parseQuantity } from '../../server/units/index.js';
 import { perMl } from '../../server/engine/planner.js';
 
@@ -73,5 +73,8 @@ describe('display units', () => {
     // mol/m³ is mM; a small one reads in µM
     expect(benchText('passes its solubility (1.20 mol/m^3) and (8.00e-3 mol/m^3)')).toBe('passes its solubility (1.2 mM) and (8 µM)');
     expect(benchText('nothing to rewrite: 3 min')).toBe('nothing to rewrite: 3 min');
+    // a zero dose of an enzyme stays in nM (not "0 mM"); 6.022 × 10²⁰ /m³ is 1 µM
+    expect(fmtMolar(0)).toBe('0 nM');
+    expect(fmtMolar(6.02214076e20)).toBe('1 µM');
   });
 });
