@@ -23,7 +23,7 @@
  * status 2 and name the field; no stack traces (set BRINK_DEBUG=1 to see one
  * for an internal error, which exits with status 1).
  */
-import { benchText, fmt, fmtAmountOf, fmtDuration, formatNumber, type AmountContext } from './units/display.js';
+import { benchText, fmt, fmtAmountOf, fmtDuration, fmtWithSd, formatNumber, kindOfSiUnit, type AmountContext } from './units/display.js';
 import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { createInterface } from 'node:readline/promises';
@@ -798,8 +798,13 @@ function bodyFromFlags(values: Record<string, unknown>, numeric: [string, string
   return body;
 }
 
-const perMl = (x: number | null) => (x === null ? 'above the cap' : formatNumber(x * 1e-6, 3));
-const bandText = (b: Band) => `${perMl(b.p05)} · ${perMl(b.median)} · ${perMl(b.p95)}`;
+/** A band's 5 %, median and 95 % doses in the species' units (nM for an enzyme; display.ts fmtAmountOf). */
+const bandText = (b: Band, c: AmountContext = {}) => [b.p05, b.median, b.p95].map((x) => (x === null ? 'above the cap' : fmtAmountOf(x, c))).join(' · ');
+/** A coefficient with its sd in the unit people write it in (µm²/s, mM, fmol/s …); SI with its unit when display.ts has no kind for it. */
+const withSdText = (v: number, sd: number, siUnit: string | undefined) => {
+  const kind = siUnit === undefined ? null : kindOfSiUnit(siUnit.replace(/ /g, '*'));
+  return kind === null ? `${g(v)} ± ${g(sd)} ${siUnit ?? ''}`.trimEnd() : fmtWithSd(v, sd, kind);
+};
 
 /** `brink plan <request.json>`: compute and store a plan, as POST /api/plans does. */
 async function cmdPlan(args: string[], io: Io): Promise<number> {
@@ -862,16 +867,16 @@ function ignoredText(ignored: UpdateJobResult['ignored']): string {
   return [...by].map(([reason, tubes]) => `${tubes.join(', ')} (${reason})`).join('; ');
 }
 
-function updateText(r: UpdateJobResult): string[] {
+function updateText(r: UpdateJobResult, amountOf: (species: string) => AmountContext = () => ({})): string[] {
   const u = r.update;
   const lines = [
     `update of plan ${r.planId} from outcome set ${r.outcomes.id} revision ${r.outcomes.revision} (candidate ${r.outcomes.candidate}; ${u.tubes.used} tubes used, ${u.tubes.unclear} unclear${r.ignored.length ? `; ignored: ${ignoredText(r.ignored)}` : ''})`,
     `method: ${u.method === 'importance' ? `importance sampling over the plan's ${u.samples} draws` : `sequential Monte Carlo from ${u.samples} prior draws (importance sampling's ESS, ${u.importanceEss.toFixed(0)}, was below ${u.options.minEss})`}, effective sample size ${u.ess.toFixed(0)}; misclassification ε = ${u.options.misclassification}`,
     `consistency: ${u.consistency.consistent ? 'consistent' : 'INCONSISTENT'}: ${u.consistency.message}`,
-    'coefficients (SI): before (value ± sd) → after (posterior mean ± sd)',
-    ...u.coefficients.map((c) => `  ${c.owner} ${c.id} ${c.field}${c.chemical ? ` on ${c.chemical}` : ''}: ${g(c.value)} ± ${g(c.sd)} → ${g(c.posteriorMean)} ± ${g(c.posteriorSd)} ${SI_UNIT[c.field] ?? ''}`.trimEnd()),
-    'threshold band, particles/mL (5 % · median · 95 %): before → after',
-    ...u.bands.map((b) => `  ${b.species}: ${bandText(b.prior)} → ${bandText(b.posterior)}`),
+    'coefficients: before (value ± sd) → after (posterior mean ± sd)',
+    ...u.coefficients.map((c) => `  ${c.owner} ${c.id} ${c.field}${c.chemical ? ` on ${c.chemical}` : ''}: ${withSdText(c.value, c.sd, SI_UNIT[c.field])} → ${withSdText(c.posteriorMean, c.posteriorSd, SI_UNIT[c.field])}`),
+    'threshold band (5 % · median · 95 %): before → after',
+    ...u.bands.map((b) => `  ${b.species}: ${bandText(b.prior, amountOf(b.species))} → ${bandText(b.posterior, amountOf(b.species))}`),
   ];
   return lines;
 }
@@ -917,7 +922,7 @@ async function cmdUpdate(args: string[], io: Io): Promise<number> {
     }
     if (values.format === 'json') io.out(JSON.stringify({ ...updateSummary(r), ...(values.apply ? { applied: applied ? applied.revisions : null, kept: applied ? applied.kept : null } : {}) }, null, 2) + '\n');
     else {
-      const lines = updateText(r);
+      const lines = updateText(r, (sid) => s.amountContext(sid));
       if (applied) {
         lines.push(`applied: ${applied.revisions.map((x) => `${x.type} ${x.key} (revision id ${x.revisionId})`).join(', ') || 'nothing'}`);
         if (applied.kept.length > 0) lines.push(`kept (barely informed by the outcomes, the shelf value stands): ${applied.kept.map((k) => `${k.type} ${k.key} ${k.field}${k.chemical ? ` on ${k.chemical}` : ''}`).join(', ')}`);

@@ -72,6 +72,12 @@ describe('brink screen', () => {
     expect(r.out).toMatch(/ptj-swim-0\.5-s02: .*\n\s+dose path \(particles\/mL\): stable \(0, [^\]]+\], oscillatory .*first onset oscillatory at/);
     expect(r.out).toMatch(/warning earlier-instability: the mixture already turns oscillatory/);
     expect(r.out).toMatch(/already past in 0\.0 % of 100 draws/);
+    // the engine's doses ("2.50e+7 per mL" in the JSON) in the text as the pages write them (display.ts benchText)
+    const json = JSON.parse((await run(['screen', file])).out);
+    const earlier = json.candidates.flatMap((c: { warnings: { code: string; message: string }[] }) => c.warnings).find((w: { code: string }) => w.code === 'earlier-instability');
+    expect(earlier.message).toMatch(/\d per mL/);
+    expect(r.out).not.toMatch(/ per mL|mol\/m\^3/);
+    expect(r.out).toMatch(/warning earlier-instability: the mixture already turns oscillatory from [\d.]+ × 10[⁰¹²³⁴⁵⁶⁷⁸⁹]+ particles\/mL/);
   }, 60_000);
 
   it('finds the narrow oscillatory window of seeds/screens/narrow-window.json between two scan doses', async () => {
