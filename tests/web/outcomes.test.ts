@@ -101,7 +101,7 @@ describe('the Outcomes page', () => {
     expect(axisText).toContain('fraction of tubes that crossed (0–1)');
     expect(axisText).toContain('3/3');
     expect(axisText).toContain('0/3');
-    expect(await page.textContent('#dr-words')).toMatch(/the response switches between 1\.43 × 10⁸ particles\/mL and 1\.79 × 10⁸ particles\/mL/);
+    expect(await page.textContent('#dr-words')).toMatch(/the response switches between 1\.43 × 10⁸ particles\/mL \(\d+ µg\/mL\) and 1\.79 × 10⁸ particles\/mL \(\d+ µg\/mL\)/);
     expect(await page.textContent('#dr-words')).toMatch(/Dose 0 \(no dopant: C0a, C0b, C0c\): 0 of 3 crossed/);
     await page.locator('#dose-response').screenshot({ path: 'screenshots/outcomes-dose-response.png' });
 
