@@ -984,11 +984,11 @@ async function cmdNext(args: string[], io: Io): Promise<number> {
       const f = (x: number | null) => (x === null ? 'not finite (the band reaches past the cap)' : `×${g(x)}`);
       const lines = [
         `next plan ${r.nextPlanId} (after plan ${r.planId}): ${d.designed.doses.length} doses of ${d.candidate} designed to minimise the ${d.criterion}`,
-        `  designed doses, particles/mL: ${d.designed.doses.map((x) => g(x * 1e-6)).join(', ')}`,
+        `  designed doses, particles/mL: ${d.designed.doses.map((x) => formatNumber(x * 1e-6, 3)).join(', ')}`,
         `  expected 5–95 % band width after the round: ${f(d.designed.expectedBandFactor)} (now ${f(d.current.bandFactor)})`,
-        d.fixed ? `  default fixed series (${d.fixed.doses.length} doses: ${d.fixed.doses.map((x) => g(x * 1e-6)).join(', ')}): ${f(d.fixed.expectedBandFactor)}` : '  default fixed series: none (the posterior median is 0 or above the cap)',
+        d.fixed ? `  default fixed series (${d.fixed.doses.length} doses: ${d.fixed.doses.map((x) => formatNumber(x * 1e-6, 3)).join(', ')} particles/mL): ${f(d.fixed.expectedBandFactor)}` : '  default fixed series: none (the posterior median is 0 or above the cap)',
         `  both scored on ${d.simulations} simulated rounds independent of those the doses were chosen on (same truths and misreadings for both)${d.difference ? `; expected variance of log10 threshold, designed − fixed: ${g(d.difference.variance)} ± ${g(d.difference.se)} (standard error)` : ''}`,
-        `  dose grid, particles/mL: ${g(d.grid.from * 1e-6)} to ${g(d.grid.to * 1e-6)}${d.grid.ratio !== null ? ` by ×${d.grid.ratio}` : ''}; its lowest dose ${d.grid.lowest === 'minDose' ? 'given (--min-dose)' : d.grid.lowest === 'grid' ? 'from the grid given' : 'the posterior 5 % dose / 3 (the sheet dilutes serially and sets none; --min-dose gives your bench’s)'}`,
+        `  dose grid, particles/mL: ${formatNumber(d.grid.from * 1e-6, 3)} to ${formatNumber(d.grid.to * 1e-6, 3)}${d.grid.ratio !== null ? ` by ×${d.grid.ratio}` : ''}; its lowest dose ${d.grid.lowest === 'minDose' ? 'given (--min-dose)' : d.grid.lowest === 'grid' ? 'from the grid given' : 'the posterior 5 % dose / 3 (the sheet dilutes serially and sets none; --min-dose gives your bench’s)'}`,
         `  update: ${r.update.method === 'importance' ? 'importance sampling' : 'sequential Monte Carlo'}, ESS ${r.update.ess.toFixed(0)}; ${r.update.consistency.consistent ? 'consistent' : `INCONSISTENT: ${r.update.consistency.message}`}`,
         `  ${r.shelf.note}`,
         `its sheet (the designed doses, plus the no-dopant control): brink sheet ${r.nextPlanId} --db ${values.db} --format md`,
