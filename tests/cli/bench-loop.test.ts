@@ -119,4 +119,29 @@ describe('brink plan, update, next', () => {
     expect(await run('update', '99')).toBe(2);
     expect(err).toBe("no plan 99\n");
   }, 240_000);
+
+  it('brink plan words an enzyme candidate in nM, as the Plan page does', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'brink-enzyme-'));
+    const db = join(dir, 'b.sqlite');
+    let out = '';
+    let err = '';
+    const io = { out: (t: string) => (out += t), err: (t: string) => (err += t) };
+    const run = async (...args: string[]) => {
+      out = '';
+      err = '';
+      return main([...args, '--db', db], io);
+    };
+    expect(await run('seed')).toBe(0);
+    const req = join(dir, 'plan.json');
+    writeFileSync(req, JSON.stringify({ ...planRequest, name: 'catalase as the dopant', candidates: ['catalase-e3'] }));
+    expect(await run('plan', req, '--format', 'json'), err).toBe(0);
+    const threshold = JSON.parse(out).candidates[0].threshold as number;
+    expect(await run('plan', req), err).toBe(0);
+    // molecules per m³ / N_A (6.02214076e23 /mol, SI 2019) = mol/m³ = mM; × 10⁶ = nM
+    const nM = Number(((threshold / 6.02214076e23) * 1e6).toPrecision(3));
+    expect(nM).toBeGreaterThan(0.01);
+    expect(nM).toBeLessThan(1000);
+    expect(out).toContain(`  catalase-e3: threshold ${nM} nM (`);
+    expect(out).not.toMatch(/ per mL|mol\/m\^3/);
+  }, 60_000);
 });
