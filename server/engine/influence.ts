@@ -81,13 +81,24 @@ export function influence(mix: Mixture): Influence {
   const perturbed = new Set(sources);
   for (let grew = true; grew; ) {
     grew = false;
-    for (const [f, ps] of makes) if (perturbed.has(f)) for (const p of ps) if (!perturbed.has(p)) perturbed.add(p), (grew = true);
+    for (const [f, ps] of makes) {
+      if (!perturbed.has(f)) continue;
+      for (const p of ps) {
+        if (perturbed.has(p)) continue;
+        perturbed.add(p);
+        grew = true;
+      }
+    }
   }
   // reaches: the moved, closed backward (a fuel whose product reaches)
   const reaches = new Set(moved);
   for (let grew = true; grew; ) {
     grew = false;
-    for (const [f, ps] of makes) if (!reaches.has(f) && [...ps].some((p) => reaches.has(p))) reaches.add(f), (grew = true);
+    for (const [f, ps] of makes) {
+      if (reaches.has(f) || ![...ps].some((p) => reaches.has(p))) continue;
+      reaches.add(f);
+      grew = true;
+    }
   }
   const matters = new Set([...perturbed].filter((s) => reaches.has(s)));
   const why = (s: string): string | null => {

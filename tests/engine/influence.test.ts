@@ -9,7 +9,7 @@ import { describe, expect, it } from 'vitest';
 import { influence } from '../../server/engine/influence.js';
 import { buildModel, jacobian } from '../../server/engine/model.js';
 import type { Coupling, Mixture } from '../../server/engine/types.js';
-import { chemical, constant, mixture, rel, species } from '../helpers/mixtures.js';
+import { chemical, constant, mixture, species } from '../helpers/mixtures.js';
 
 function saturating(fuel: string, maxRate: number, michaelis: number, product: string | null, mobility = 0, productYield?: number): Coupling {
   return { chemical: fuel, activity: { kind: 'saturating', maxRate, michaelis, product, ...(productYield !== undefined ? { productYield } : {}) }, mobility };
