@@ -855,6 +855,7 @@ function updateSummary(r: UpdateJobResult) {
     tubes: u.tubes,
     misclassification: u.options.misclassification,
     coefficients: u.coefficients.map((c) => ({ owner: c.owner, id: c.id, field: c.field, chemical: c.chemical, before: { value: c.value, sd: c.sd }, after: { value: c.posteriorMean, sd: c.posteriorSd }, unit: SI_UNIT[c.field] ?? 'SI' })),
+    unaffected: (u.unaffected ?? []).map((c) => ({ owner: c.owner, id: c.id, field: c.field, chemical: c.chemical, value: c.value, sd: c.sd, unit: SI_UNIT[c.field] ?? 'SI', reason: c.reason })),
     bands: u.bands.map((b) => ({ species: b.species, unit: 'm^-3', before: b.prior, after: b.posterior })),
     consistency: u.consistency,
   };
@@ -875,6 +876,7 @@ function updateText(r: UpdateJobResult, amountOf: (species: string) => AmountCon
     `consistency: ${u.consistency.consistent ? 'consistent' : 'INCONSISTENT'}: ${u.consistency.message}`,
     'coefficients: before (value ± sd) → after (posterior mean ± sd)',
     ...u.coefficients.map((c) => `  ${c.owner} ${c.id} ${c.field}${c.chemical ? ` on ${c.chemical}` : ''}: ${withSdText(c.value, c.sd, SI_UNIT[c.field])} → ${withSdText(c.posteriorMean, c.posteriorSd, SI_UNIT[c.field])}`),
+    ...((u.unaffected ?? []).length ? ['not updated (the tubes cannot tell; the shelf value stands):', ...(u.unaffected ?? []).map((c) => `  ${c.owner} ${c.id} ${c.field}${c.chemical ? ` on ${c.chemical}` : ''}: ${c.reason}`)] : []),
     'threshold band (5 % · median · 95 %): before → after',
     ...u.bands.map((b) => `  ${b.species}: ${bandText(b.prior, amountOf(b.species))} → ${bandText(b.posterior, amountOf(b.species))}`),
   ];

@@ -41,6 +41,7 @@
  */
 import { stateOf, type State } from './analyze.js';
 import { stationaryDoseClosedForm } from './dose.js';
+import { influence, tubesMixture } from './influence.js';
 import { buildModel } from './model.js';
 import { doseCap, findDose, streamSeed, withDose, type DoseOptions } from './planner.js';
 import { Random } from './random.js';
@@ -151,10 +152,46 @@ export function quantityOf(p: Pick<UncertainParameter, 'kind' | 'value' | 'sd'>,
   return Math.exp(Math.log(p.value) - s2 / 2 + Math.sqrt(s2) * z);
 }
 
-/** The base and dopant of a point z of the perturbation space. */
-export function applyDeviates(base: Mixture, d: Species, z: ArrayLike<number>): { base: Mixture; dopant: Species } {
+/**
+ * The base and dopant of a point z of the perturbation space. With `used` (one flag per quantity of
+ * `uncertainParameters`, in its order), z holds the deviates of the used quantities only and the others keep
+ * their shelf values: the update's space leaves out what the tubes' model does not depend on (`tubeSpace`).
+ */
+export function applyDeviates(base: Mixture, d: Species, z: ArrayLike<number>, used?: readonly boolean[]): { base: Mixture; dopant: Species } {
   let j = 0;
-  return walk(base, d, (_p, kind, value, sd) => quantityOf({ kind, value, sd }, z[j++]!));
+  let k = 0;
+  return walk(base, d, (_p, kind, value, sd) => (used && !used[k++] ? value : quantityOf({ kind, value, sd }, z[j++]!)));
+}
+
+/** The deviates of the used quantities (`used` as in applyDeviates) out of a point of the whole space. */
+export function usedDeviates(z: Float64Array, used: readonly boolean[]): Float64Array {
+  return Float64Array.from(used.flatMap((u, j) => (u ? [z[j]!] : [])));
+}
+
+/** An uncertain quantity the tubes' model does not depend on, and why (docs/model.md §13). */
+export interface UnaffectedParameter extends UncertainParameter {
+  reason: string;
+}
+
+/**
+ * The update's perturbation space: of the uncertain quantities of the base and candidate `d` (`all`, the plan's
+ * order), those the predicted state of the tubes (the base with `d` at a dose) can depend on (`params`, flagged in
+ * `used`), and the others with the reason (influence.ts). The plan's draws are drawn over `all` (planDeviates) and
+ * restricted to `used`, so the update's deviates of the quantities it keeps are the plan's, draw for draw.
+ */
+export function tubeSpace(base: Mixture, d: Species): { all: UncertainParameter[]; used: boolean[]; params: UncertainParameter[]; unaffected: UnaffectedParameter[] } {
+  const all = uncertainParameters(base, d);
+  const inf = influence(tubesMixture(base, d));
+  const used: boolean[] = [];
+  const params: UncertainParameter[] = [];
+  const unaffected: UnaffectedParameter[] = [];
+  for (const p of all) {
+    const reason = inf.reason(p);
+    used.push(reason === null);
+    if (reason === null) params.push(p);
+    else unaffected.push({ ...p, reason });
+  }
+  return { all, used, params, unaffected };
 }
 
 /** The deviates of the plan's draw i (seed, index): the base's stream then the candidate's, as `perturb` and `thresholdBand` draw them. */
@@ -489,7 +526,13 @@ export interface Particle {
 
 export interface Posterior {
   method: 'importance' | 'smc';
+  /** the quantities the sampler draws: those the tubes' model depends on (tubeSpace); a particle's z holds their deviates */
   params: UncertainParameter[];
+  /** every uncertain quantity of the base and the candidate, in the plan's order, and which of them are `params` */
+  all: UncertainParameter[];
+  used: boolean[];
+  /** the quantities the tubes' model does not depend on: left at the shelf's values, never updated */
+  unaffected: UnaffectedParameter[];
   particles: Particle[];
   /** normalised weights of the particles */
   weights: Float64Array;
@@ -543,11 +586,11 @@ function systematic(w: ArrayLike<number>, rng: Random): number[] {
 export function posterior(base: Mixture, d: Species, o: DoseOptions, tubes: Tube[], u: UpdateOptions): Posterior {
   const l = likOptions(u);
   if (!(u.samples >= 10)) throw new EngineInputError('samples', 'the update needs the plan’s Monte Carlo draws (at least 10)');
-  const params = uncertainParameters(base, d);
+  const { all, used, params, unaffected } = tubeSpace(base, d);
   const N = u.samples;
   const progress = u.progress ?? (() => {});
   const make = (z: Float64Array, index: number): Particle => {
-    const m = applyDeviates(base, d, z);
+    const m = applyDeviates(base, d, z, used);
     const pred = new Predictor(m.base, m.dopant, o);
     const { ll, mismatches } = logLikelihood(pred, tubes, l);
     return { z, index, ll, mismatches, pred };
@@ -560,7 +603,7 @@ export function posterior(base: Mixture, d: Species, o: DoseOptions, tubes: Tube
   const every = Math.max(1, Math.floor(N / 50));
   for (let i = 0; i < N; i++) {
     if (i % every === 0) progress((0.3 * i) / N, `likelihood of the plan's draw ${i + 1} of ${N}`);
-    const p = make(planDeviates(params, u.seed, i, d.id), i);
+    const p = make(usedDeviates(planDeviates(all, u.seed, i, d.id), used), i);
     seen(p);
     particles.push(p);
   }
@@ -570,7 +613,7 @@ export function posterior(base: Mixture, d: Species, o: DoseOptions, tubes: Tube
   const minEss = u.minEss ?? Math.max(50, N / 5);
   if (importanceEss >= minEss || params.length === 0) {
     progress(0.6, 'importance sampling');
-    return { method: 'importance', params, particles, weights: isWeights, importanceEss, ess: importanceEss, smc: null, prior, best, tubes, lik: l };
+    return { method: 'importance', params, all, used, unaffected, particles, weights: isWeights, importanceEss, ess: importanceEss, smc: null, prior, best, tubes, lik: l };
   }
   // ---- SMC: tempering from the plan's draws (φ = 0) to the posterior (φ = 1)
   const rng = new Random(streamSeed(u.seed, 0x5eed, 'smc'));
@@ -678,6 +721,9 @@ export function posterior(base: Mixture, d: Species, o: DoseOptions, tubes: Tube
   return {
     method: 'smc',
     params,
+    all,
+    used,
+    unaffected,
     particles,
     weights,
     importanceEss,
@@ -783,7 +829,7 @@ function consistency(post: Posterior, seed: number, alpha: number, fresh: { base
   const rngP = new Random(streamSeed(seed, 0xb0c5, 'prior-pc'));
   let below = 0;
   for (let r = 0; r < RP; r++) {
-    const m = applyDeviates(fresh.base, fresh.d, planDeviates(post.params, (seed ^ 0x5bd1e995) >>> 0, r, fresh.d.id));
+    const m = applyDeviates(fresh.base, fresh.d, usedDeviates(planDeviates(post.all, (seed ^ 0x5bd1e995) >>> 0, r, fresh.d.id), post.used), post.used);
     const truth = new Predictor(m.base, m.dopant, fresh.o);
     const rep = replicate(truth, withState, l, rngP);
     if (logEvidence(Uint8Array.from(rep, (t) => STATES.indexOf(t.state as State))) <= zObs + 1e-12) below++;
@@ -823,6 +869,12 @@ export interface UpdateResult {
   smc: Posterior['smc'];
   options: { misclassification: number; onsetSd: number; lengthSd: number; onsetEFolds: number; unexplainedFraction: number; minEss: number };
   coefficients: CoefficientUpdate[];
+  /**
+   * the uncertain quantities the tubes' model does not depend on (docs/model.md §13: a chemical no species in the
+   * tubes moves in, nor turns into one it moves in; one absent and never made; solubilities, material densities),
+   * with the reason: never drawn by the update, never reported as updated, never written
+   */
+  unaffected: UnaffectedParameter[];
   /** the threshold band of every candidate before (the plan's draws, equal weights) and after */
   bands: { species: string; prior: Band; posterior: Band }[];
   consistency: Consistency;
@@ -855,7 +907,12 @@ export function updateModel(base: Mixture, candidates: Species[], observed: stri
     const { mean, sd } = moments(vals, w);
     return { ...p, posteriorMean: mean, posteriorSd: sd };
   });
-  const nBase = post.params.filter((p) => p.stream === 'base').length;
+  // the base's quantities come first in every candidate's space (uncertainParameters), in the same order: where
+  // the posterior's deviate of each base quantity it drew sits in a particle's z
+  const basePosition: [number, number][] = [];
+  post.all.forEach((p, j) => {
+    if (p.stream === 'base' && post.used[j]) basePosition.push([j, basePosition.length]);
+  });
   const equal = new Float64Array(u.samples).fill(1 / u.samples);
   const bands = candidates.map((c, ci) => {
     progress(0.6 + (0.35 * ci) / candidates.length, `threshold band of ${c.id}`);
@@ -877,8 +934,9 @@ export function updateModel(base: Mixture, candidates: Species[], observed: stri
     else {
       for (const [k, p] of post.particles.entries()) {
         if (k % every === 0) progress(0.6 + (0.35 * (ci + 0.5 + (0.5 * k) / post.particles.length)) / candidates.length, `threshold band of ${c.id}: posterior draw ${k + 1}`);
+        // the base's quantities the update left out keep their prior draw (their posterior is their prior)
         const zc = planDeviates(cParams, u.seed, p.index, c.id);
-        zc.set(p.z.subarray(0, nBase), 0);
+        for (const [j, k] of basePosition) zc[j] = p.z[k]!;
         const m = applyDeviates(base, c, zc);
         postT.push(new Predictor(m.base, m.dopant, o).threshold());
       }
@@ -900,6 +958,7 @@ export function updateModel(base: Mixture, candidates: Species[], observed: stri
     smc: post.smc,
     options: { misclassification: l.eps, onsetSd: l.onsetSd, lengthSd: l.lengthSd, onsetEFolds: l.eFolds, unexplainedFraction: l.eta, minEss: u.minEss ?? Math.max(50, u.samples / 5) },
     coefficients,
+    unaffected: post.unaffected,
     bands,
     consistency: cons,
     posterior: post,

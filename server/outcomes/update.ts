@@ -215,7 +215,10 @@ export function barelyInformed(c: CoefficientUpdate): boolean {
   return c.posteriorSd >= 0.9 * c.sd && Math.abs(c.posteriorMean - c.value) <= 0.25 * c.sd;
 }
 
-/** A coefficient an apply leaves as the shelf has it (barelyInformed), as the answer lists it. */
+/**
+ * A coefficient an apply leaves as the shelf has it, as the answer lists it: one the tubes' model does not depend
+ * on (the update's `unaffected`, never drawn), or one the outcomes barely informed (barelyInformed).
+ */
 export interface KeptCoefficient {
   type: 'species' | 'chemical';
   key: string;
@@ -233,6 +236,11 @@ export function plannedRevisions(shelf: ShelfService, plan: PlanRow, outcomes: O
   };
   const byItem = new Map<string, CoefficientUpdate[]>();
   const kept: KeptCoefficient[] = [];
+  // what the tubes' model does not depend on was never part of the update (docs/model.md §13): the shelf's value stands
+  for (const c of result.unaffected ?? []) {
+    if (!SHELF_FIELDS.has(c.field)) continue;
+    kept.push({ type: c.owner, key: c.id, field: c.field, chemical: c.chemical, reason: `not updated: ${c.reason}; the shelf value stands` });
+  }
   for (const c of result.coefficients) {
     if (!SHELF_FIELDS.has(c.field)) continue;
     if (barelyInformed(c)) {

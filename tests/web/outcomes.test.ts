@@ -113,6 +113,9 @@ describe('the Outcomes page', () => {
     expect(await page.textContent('#band-update')).toMatch(/Threshold band of ptj-1um-b07 .* before → .* after the outcomes/);
     expect(await page.textContent('#coefficients')).toMatch(/species ptj-1um-b07: mobility on h2o2/);
     expect(await page.textContent('#coefficients')).toMatch(/µm²\/\(s·mM\)/);
+    // what the tubes cannot tell (o2: made, moved in by nobody) is not in the table but listed with the reason (docs/model.md §13)
+    expect(await page.textContent('#coefficients')).not.toMatch(/on o2/);
+    expect(await page.textContent('#unaffected')).toMatch(/chemical o2: diffusivity: no species in the tubes moves in o2/);
     await page.locator('#dose-response figure').screenshot({ path: 'screenshots/outcomes-dose-response-updated.png' });
     await page.locator('#update').scrollIntoViewIfNeeded();
     await page.screenshot({ path: 'screenshots/outcomes-update.png' });

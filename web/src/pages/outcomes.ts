@@ -118,6 +118,8 @@ interface UpdateJobResult {
     importanceEss: number;
     samples: number;
     coefficients: Coefficient[];
+    /** coefficients the tubes' model does not depend on: never updated (docs/model.md §13) */
+    unaffected?: { owner: string; id: string; field: string; chemical: string | null; reason: string }[];
     bands: { species: string; prior: Band; posterior: Band }[];
     consistency: { consistent: boolean; message: string };
   };
@@ -550,6 +552,9 @@ function showUpdate(r: UpdateJobResult): void {
     band ? h('p', { id: 'band-update' }, h('strong', null, `Threshold band of ${band.species} (5 % · median · 95 %): `), `${bandText(band.prior)} before → ${bandText(band.posterior)} after the outcomes.`) : null,
     h('h3', null, 'Coefficients: the shelf now → after the outcomes (value ± standard uncertainty)'),
     table(['coefficient', 'shelf now', 'after the outcomes', 'moved', ''], rowsC, { id: 'coefficients' }),
+    u.unaffected?.length
+      ? h('details', { id: 'unaffected' }, h('summary', null, `${u.unaffected.length} coefficient${u.unaffected.length === 1 ? '' : 's'} these tubes cannot tell anything about: not updated`), h('ul', null, u.unaffected.map((c) => h('li', null, `${coefficientName(c)}: ${c.reason}`))))
+      : null,
     h('p', { class: 'hint' }, 'Applying writes a new revision of each item whose coefficients the outcomes informed, with provenance naming this plan and outcome set; coefficients they barely informed keep the shelf’s value and provenance, and are listed after the apply.'),
     u.consistency.consistent
       ? h('form', { id: 'apply-form', class: 'row' }, field('Applied by', applyAuthor), h('div', { class: 'actions' }, h('button', { type: 'submit', id: 'apply' }, 'Apply to the shelf')))
