@@ -52,7 +52,7 @@ describe('the What forms page', () => {
     expect(await page.textContent('h1')).toBe('What forms past onset');
     await page.screenshot({ path: 'screenshots/forms-empty.png' });
     await page.selectOption('#points', '32');
-    await page.fill('#growth-times', '6');
+    // the default 12 growth times: a clear pattern at every dose that grows
     await page.click('form.options button[type="submit"]');
     await page.waitForSelector('section.dose', { timeout: 120_000 });
     const sections = await page.$$('section.dose');

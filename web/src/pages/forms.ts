@@ -260,7 +260,14 @@ function doseSection(d: Dose, show: Show, index: number): HTMLElement {
   const s = d.summary;
   const title = `${perMl(d.dose)}${d.factor !== null ? ` (${formatNumber(d.factor, 3)} × the sheet's 1 × dose)` : ''}${d.dose === 0 ? ' — the no-dopant control' : ''}`;
   const bands = s.bands
-    ? h('p', null, s.bands.speed === 0 ? 'The pattern changes in time but does not travel' : `Bands travel at ${fmt(Math.abs(s.bands.speed), 'speed')}`, s.bands.period !== null ? `, period ${fmtDuration(s.bands.period)}` : '', '.')
+    ? h(
+        'p',
+        null,
+        s.bands.speed === 0 ? 'The pattern changes in time but does not travel' : `Bands travel at ${fmt(Math.abs(s.bands.speed), 'speed')}`,
+        s.bands.period !== null ? `, period ${fmtDuration(s.bands.period)}` : '',
+        '.',
+        s.warnings.some((w) => w.code === 'positivity-repaired' || w.code === 'above-close-packing') ? h('span', { class: 'flag' }, ' The grid is too coarse for the cluster edges (see the warnings): this motion may come from the grid, not the sample; run with more points before trusting it.') : null,
+      )
     : s.grid.dims === 1
       ? h('p', { class: 'muted' }, 'No travelling bands: the pattern is static over the second half of the run.')
       : null;
