@@ -11,6 +11,7 @@ import { analyze } from '../../server/engine/analyze.js';
 import { withDose } from '../../server/engine/planner.js';
 import { simulate } from '../../server/engine/simulate/index.js';
 import type { Mixture, Species } from '../../server/engine/types.js';
+import { SIMULATE_BOUNDS } from '../../server/http/routes/forms.js';
 import { freshApp } from '../helpers/app.js';
 import { planRequest, postPlan } from '../helpers/plans.js';
 
@@ -52,7 +53,7 @@ describe('simulate at doses of a plan', () => {
     const mix = withDose(plan.inputs.base, d, dose, plan.request.dosing ?? 'add');
     const a = analyze(mix);
     expect(a.growthRate).toBeGreaterThan(0);
-    const direct = simulate(mix, { dims: 1, points: 64, seed: 7, frames: 200, maxSteps: 20_000, duration: 8 / a.growthRate });
+    const direct = simulate(mix, { dims: 1, points: 64, seed: 7, frames: 200, maxSteps: SIMULATE_BOUNDS.maxSteps[1], duration: 8 / a.growthRate });
     // the summary as it crossed the worker and JSON
     expect(got.summary).toEqual(JSON.parse(JSON.stringify(direct.summary)));
     expect(got.linear.growthRate).toBe(a.growthRate);

@@ -30,7 +30,7 @@ export const SIMULATE_BOUNDS = {
   doses: 12,
   points: { 1: { min: 32, max: 512, default: 128 }, 2: { min: 16, max: 64, default: 32 } },
   /** accepted steps per dose before the run stops (the summary then says step-limit) */
-  maxSteps: { 1: 20_000, 2: 3_000 },
+  maxSteps: { 1: 50_000, 2: 3_000 },
   growthTimes: { min: 1, max: 40, default: 12 },
   /** the longest simulated time one may ask for, s (30 days) */
   maxDuration: 30 * 86_400,

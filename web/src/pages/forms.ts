@@ -259,7 +259,12 @@ function clustersView(d: Dose): HTMLElement {
 function doseSection(d: Dose, show: Show, index: number): HTMLElement {
   const s = d.summary;
   const title = `${perMl(d.dose)}${d.factor !== null ? ` (${formatNumber(d.factor, 3)} × the sheet's 1 × dose)` : ''}${d.dose === 0 ? ' — the no-dopant control' : ''}`;
-  const bands = s.bands
+  // the largest departure from the mean at the end of the run: a decaying or barely grown pattern has no bands to speak of
+  const lastRel = d.kymograph ? d.kymograph.relative.map((rows) => rows[rows.length - 1] ?? []) : d.frames ? d.frames.relative.map((fr) => fr[fr.length - 1] ?? []) : [];
+  const departure = Math.max(0, ...lastRel.flat().map((v) => Math.abs(v - 1)));
+  const bands = s.bands && departure < 0.01
+    ? h('p', { class: 'muted' }, `No pattern to speak of at the end (densities within ${formatNumber(100 * departure, 2)} % of their means): no bands.`)
+    : s.bands
     ? h(
         'p',
         null,
@@ -326,6 +331,10 @@ async function main(): Promise<void> {
     location.search = `?candidate=${encodeURIComponent(pick.value)}`;
   });
   const dims = h('select', { id: 'dims' }, h('option', { value: '1' }, '1D: a line across the chamber'), h('option', { value: '2' }, '2D: a square of the chamber'));
+  const dimsHint = h('span', null, '1D takes seconds; 2D a minute or more');
+  dims.addEventListener('change', () => {
+    dimsHint.textContent = dims.value === '2' ? '2D takes a minute or more, and a dose that clusters may reach its step limit (its warnings say so)' : '1D takes seconds; 2D a minute or more';
+  });
   const points = h('select', { id: 'points' });
   const fillPoints = () => {
     const two = dims.value === '2';
@@ -352,7 +361,7 @@ async function main(): Promise<void> {
     'form',
     { class: 'options', 'aria-label': 'Simulation options' },
     field('Candidate', pick),
-    field('Chamber', dims),
+    field('Chamber', dims, dimsHint),
     field('Points per side', points, 'more points resolve sharper clusters and take longer'),
     field('Duration in', mode),
     growthField,
