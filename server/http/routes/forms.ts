@@ -8,7 +8,8 @@
  * inputs), dose after dose in the worker pool, progress over all doses, cancellable. Without doses it takes
  * the candidate's default bench-sheet series (sheetService.series: the sheet's own chooseSeries). The result
  * holds per dose the summary, the linear prediction with the mode's composition, and the frames downsampled
- * for JSON (1D: a kymograph; 2D: a few frames), densities relative to each species' mean, 4 significant digits.
+ * for JSON (1D: a kymograph; 2D: a few frames): each species' departure from its mean (density ÷ mean − 1, so the
+ * tiny starting perturbation survives the rounding), 4 significant digits.
  */
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
@@ -74,10 +75,10 @@ export interface SimulatedDose {
   linear: { state: AnalysisResult['state']; growthRate: number; growthTime: number | null; wavelength: number | null; oscillationPeriod: number | null; composition: AnalysisResult['composition'] };
   summary: SimulationSummary;
   species: { id: string; mean: number; particleVolume: number }[];
-  /** 1D: times (s), positions (m, cell centres), per species its density ÷ its mean at [time][position] */
-  kymograph: { times: number[]; positions: number[]; relative: number[][][] } | null;
-  /** 2D: times (s), points per side, cell size (m), per species per frame its density ÷ its mean, rows of y with x fastest */
-  frames: { times: number[]; points: number; cellSize: number; relative: number[][][] } | null;
+  /** 1D: times (s), positions (m, cell centres), per species its departure from its mean, density ÷ mean − 1, at [time][position] */
+  kymograph: { times: number[]; positions: number[]; deviation: number[][][] } | null;
+  /** 2D: times (s), points per side, cell size (m), per species per frame density ÷ mean − 1, rows of y with x fastest */
+  frames: { times: number[]; points: number; cellSize: number; deviation: number[][][] } | null;
 }
 
 /** The frames, downsampled and rounded for JSON (see SimulatedDose). */
@@ -92,26 +93,26 @@ export function shrink(result: SimulationResult, means: number[]): Pick<Simulate
     const bin = Math.max(1, Math.ceil(n / SIMULATE_BOUNDS.kymograph.positions));
     const P = Math.floor(n / bin);
     const positions = Array.from({ length: P }, (_, p) => sig4((p * bin + bin / 2) * summary.grid.cellSize));
-    const relative = Array.from({ length: M }, (_, a) =>
+    const deviation = Array.from({ length: M }, (_, a) =>
       tIdx.map((f) => {
         const d = frames.data[f]!;
         const row: number[] = [];
         for (let p = 0; p < P; p++) {
           let acc = 0;
           for (let i = p * bin; i < (p + 1) * bin; i++) acc += d[a * n + i]!;
-          row.push(means[a]! > 0 ? sig4(acc / bin / means[a]!) : 0);
+          row.push(means[a]! > 0 ? sig4(acc / bin / means[a]! - 1) : 0);
         }
         return row;
       }),
     );
-    return { kymograph: { times: tIdx.map((f) => sig4(frames.times[f]!)), positions, relative }, frames: null };
+    return { kymograph: { times: tIdx.map((f) => sig4(frames.times[f]!)), positions, deviation }, frames: null };
   }
   const T = frames.times.length;
   const keepT = Math.min(T, SIMULATE_BOUNDS.frames2d);
   const tIdx = Array.from({ length: keepT }, (_, j) => (keepT === 1 ? 0 : Math.round((j * (T - 1)) / (keepT - 1))));
   const cells = n * n;
-  const relative = Array.from({ length: M }, (_, a) => tIdx.map((f) => Array.from(frames.data[f]!.subarray(a * cells, (a + 1) * cells), (v) => (means[a]! > 0 ? sig4(v / means[a]!) : 0))));
-  return { kymograph: null, frames: { times: tIdx.map((f) => sig4(frames.times[f]!)), points: n, cellSize: summary.grid.cellSize, relative } };
+  const deviation = Array.from({ length: M }, (_, a) => tIdx.map((f) => Array.from(frames.data[f]!.subarray(a * cells, (a + 1) * cells), (v) => (means[a]! > 0 ? sig4(v / means[a]! - 1) : 0))));
+  return { kymograph: null, frames: { times: tIdx.map((f) => sig4(frames.times[f]!)), points: n, cellSize: summary.grid.cellSize, deviation } };
 }
 
 export const formsRoutes: FastifyPluginAsync = async (base) => {
@@ -121,7 +122,7 @@ export const formsRoutes: FastifyPluginAsync = async (base) => {
       tags: ['planner'],
       summary: "Start a job that simulates what forms past onset at each dose of a candidate's bench-sheet series (or the doses given)",
       description:
-        "Answers 202 with the job (header location: /api/jobs/:id). For each dose, the plan's base with the candidate at that dose (on the plan's stored SI inputs, as the spectrum route builds it) is simulated with the nonlinear model of docs/model.md §14–§16 from a seeded random perturbation; the job's result is { plan, candidate, dims, points, seed, durationFrom, series: { from, note } | null, doses: [{ dose, factor, linear: { state, growthRate, growthTime, wavelength, oscillationPeriod, composition }, summary (as `brink simulate` prints it), species: [{ id, mean, particleVolume }], kymograph (1D: times, positions, relative[species][time][position]) | null, frames (2D: times, points, cellSize, relative[species][frame][y·points + x]) | null }] }, densities relative to each species' mean, rounded to 4 significant digits, at most 200 times × 256 positions (1D) or 12 frames (2D). " +
+        "Answers 202 with the job (header location: /api/jobs/:id). For each dose, the plan's base with the candidate at that dose (on the plan's stored SI inputs, as the spectrum route builds it) is simulated with the nonlinear model of docs/model.md §14–§16 from a seeded random perturbation; the job's result is { plan, candidate, dims, points, seed, durationFrom, series: { from, note } | null, doses: [{ dose, factor, linear: { state, growthRate, growthTime, wavelength, oscillationPeriod, composition }, summary (as `brink simulate` prints it), species: [{ id, mean, particleVolume }], kymograph (1D: times, positions, deviation[species][time][position]) | null, frames (2D: times, points, cellSize, deviation[species][frame][y·points + x]) | null }] }, deviation = density ÷ the species' mean − 1, rounded to 4 significant digits, at most 200 times × 256 positions (1D) or 12 frames (2D). " +
         `Bounds (the work budget of one request): at most ${SIMULATE_BOUNDS.doses} doses; points a power of two, 32–512 in 1D, 16–64 in 2D; duration at most 30 days, or growthTimes 1–40; each dose stops after ${SIMULATE_BOUNDS.maxSteps[1]} steps in 1D, ${SIMULATE_BOUNDS.maxSteps[2]} in 2D (its summary then warns step-limit). Out of bounds: 400 before any job. A candidate that does not cross has no series: give doses.`,
       params: z.object({ id: z.coerce.number().int().min(1), species: keySchema }),
       body: bodySchema,

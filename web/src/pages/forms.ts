@@ -35,8 +35,8 @@ interface Dose {
   linear: { state: State; growthRate: number; growthTime: number | null; wavelength: number | null; oscillationPeriod: number | null; composition: { species: string; weight: number; magnitude: number }[] };
   summary: Summary;
   species: { id: string; mean: number; particleVolume: number }[];
-  kymograph: { times: number[]; positions: number[]; relative: number[][][] } | null;
-  frames: { times: number[]; points: number; cellSize: number; relative: number[][][] } | null;
+  kymograph: { times: number[]; positions: number[]; deviation: number[][][] } | null;
+  frames: { times: number[]; points: number; cellSize: number; deviation: number[][][] } | null;
 }
 interface Result {
   plan: number;
@@ -88,13 +88,13 @@ const WARNING_WORDS: Record<string, string> = {
 
 type Show = { kind: 'total' } | { kind: 'species'; index: number };
 function fieldOf(d: Dose, show: Show, frame: (m: number) => number[]): number[] {
-  if (show.kind === 'species') return frame(show.index);
+  if (show.kind === 'species') return frame(show.index).map((v) => 1 + v);
   // total volume fraction in %: Σ_m (ρ_m/ρ̄_m) ρ̄_m v_m
   let out: number[] | null = null;
   d.species.forEach((s, m) => {
     const r = frame(m);
     const w = s.mean * s.particleVolume * 100;
-    out = out ? out.map((v, i) => v + w * r[i]!) : r.map((v) => w * v);
+    out = out ? out.map((v, i) => v + w * (1 + r[i]!)) : r.map((v) => w * (1 + v));
   });
   return out ?? [];
 }
@@ -104,7 +104,7 @@ function kymograph(d: Dose, show: Show): HTMLElement {
   const k = d.kymograph!;
   const Lu = lengthUnit(d.summary.grid.length);
   const Tu = timeUnit(d.summary.time);
-  const values = k.times.flatMap((_, j) => fieldOf(d, show, (m) => k.relative[m]![j]!));
+  const values = k.times.flatMap((_, j) => fieldOf(d, show, (m) => k.deviation[m]![j]!));
   const fuel = d.summary.fuelRunOut && d.summary.fuelRunOut.time <= d.summary.time ? d.summary.fuelRunOut : null;
   return figure({
     caption: `Kymograph at ${perMl(d.dose)}: ${showLabel(d, show)} across the chamber (horizontal) over time (down).${fuel ? ` Dashed line: ${fuel.chemical} would run out (${fmtDuration(fuel.time)}).` : ''}`,
@@ -123,7 +123,7 @@ function kymograph(d: Dose, show: Show): HTMLElement {
 function framesView(d: Dose, show: Show): HTMLElement {
   const f = d.frames!;
   const n = f.points;
-  const data = f.times.map((_, j) => fieldOf(d, show, (m) => f.relative[m]![j]!));
+  const data = f.times.map((_, j) => fieldOf(d, show, (m) => f.deviation[m]![j]!));
   let lo = Infinity;
   let hi = -Infinity;
   for (const fr of data) for (const v of fr) {
@@ -174,7 +174,7 @@ function framesView(d: Dose, show: Show): HTMLElement {
       draw(j);
     }, 400);
   });
-  const legend = Plot.legend({ color: { type: 'linear', scheme: 'viridis', domain: [lo, hi], label: showLabel(d, show) } });
+  const legend = Plot.legend({ color: { type: 'linear', scheme: 'viridis', domain: [lo, hi], label: showLabel(d, show) }, marginLeft: 24, marginRight: 24, width: 320 });
   for (const s of legend.querySelectorAll('style')) s.remove();
   queueMicrotask(() => draw(f.times.length - 1));
   return h(
@@ -260,8 +260,8 @@ function doseSection(d: Dose, show: Show, index: number): HTMLElement {
   const s = d.summary;
   const title = `${perMl(d.dose)}${d.factor !== null ? ` (${formatNumber(d.factor, 3)} × the sheet's 1 × dose)` : ''}${d.dose === 0 ? ' — the no-dopant control' : ''}`;
   // the largest departure from the mean at the end of the run: a decaying or barely grown pattern has no bands to speak of
-  const lastRel = d.kymograph ? d.kymograph.relative.map((rows) => rows[rows.length - 1] ?? []) : d.frames ? d.frames.relative.map((fr) => fr[fr.length - 1] ?? []) : [];
-  const departure = Math.max(0, ...lastRel.flat().map((v) => Math.abs(v - 1)));
+  const lastRel = d.kymograph ? d.kymograph.deviation.map((rows) => rows[rows.length - 1] ?? []) : d.frames ? d.frames.deviation.map((fr) => fr[fr.length - 1] ?? []) : [];
+  const departure = Math.max(0, ...lastRel.flat().map((v) => Math.abs(v)));
   const bands = s.bands && departure < 0.01
     ? h('p', { class: 'muted' }, `No pattern to speak of at the end (densities within ${formatNumber(100 * departure, 2)} % of their means): no bands.`)
     : s.bands
