@@ -61,6 +61,9 @@ describe('the What forms page', () => {
     expect(await page.$$eval('section.dose figure.plot-figure', (f) => f.filter((x) => /Kymograph/.test(x.textContent ?? '')).length)).toBe(doses.length);
     const first = await page.textContent('section.dose:nth-of-type(1)');
     expect(first).toMatch(/0 particles\/mL/);
+    // the no-dopant control is stable: the page never says its pattern grows (a fit of its decaying unevenness is not growth)
+    expect(first).toMatch(/stable/);
+    expect(first).toMatch(/growthdecays \(×1\/e every [^)]*\)(not measurable: the pattern did not grow|decays)/);
     const text = await page.textContent('#results');
     expect(text).toMatch(/position across the chamber \(mm\)/);
     expect(text).toMatch(/time \((min|h|s)\)/);

@@ -98,7 +98,8 @@ function fieldOf(d: Dose, show: Show, frame: (m: number) => number[]): number[] 
   });
   return out ?? [];
 }
-const showLabel = (d: Dose, show: Show) => (show.kind === 'total' ? 'total volume fraction (%)' : `${d.species[show.index]!.id}: density ÷ its mean (×)`);
+const showLabel = (d: Dose, show: Show) =>
+  show.kind === 'total' ? 'total volume fraction (%)' : d.species[show.index]!.mean > 0 ? `${d.species[show.index]!.id}: density ÷ its mean (×)` : `${d.species[show.index]!.id} is absent at this dose`;
 
 function kymograph(d: Dose, show: Show): HTMLElement {
   const k = d.kymograph!;
@@ -205,15 +206,27 @@ function dominantPlot(d: Dose): HTMLElement {
   });
 }
 
+/** The largest |density ÷ mean − 1| of any species in the first and the last stored frame. */
+function departures(d: Dose): { first: number; last: number } {
+  const rows = d.kymograph ? d.kymograph.deviation : d.frames ? d.frames.deviation : [];
+  const at = (j: (n: number) => number) => Math.max(0, ...rows.flatMap((r) => (r[j(r.length)] ?? []).map(Math.abs)));
+  return { first: at(() => 0), last: at((n) => n - 1) };
+}
+
 function growthTable(d: Dose): HTMLElement {
   const s = d.summary;
+  // a growth the run itself does not bear out (the pattern grew by less than a tenth of the e-foldings the fit
+  // claims over the run — a stable sample whose tiny decaying unevenness the fit read as growth): rounding, not growth
+  const dep = departures(d);
+  const claimed = s.measured.growthRate !== null && s.measured.growthRate > 0 ? s.measured.growthRate * s.time : 0;
+  const unfounded = claimed > 0 && dep.first > 0 && Math.log(Math.max(dep.last, 1e-300) / dep.first) < 0.1 * claimed;
   const gt = (r: number | null) => (r === null ? '—' : r > 0 ? `grows ×e every ${fmtDuration(1 / r)}` : `decays (×1/e every ${fmtDuration(-1 / r)})`);
   const wl = (x: number | null) => (x === null ? 'none (uniform)' : fmt(x, 'length'));
   const rows: Child[][] = [
-    ['growth', gt(d.linear.growthRate), gt(s.measured.growthRate)],
-    ['wavelength', wl(d.linear.wavelength), wl(s.measured.wavelength)],
+    ['growth', gt(d.linear.growthRate), unfounded ? h('span', null, 'not measurable: ', h('span', { class: 'muted' }, `the pattern did not grow (largest departure from the mean ${dep.first.toExponential(1)} at the start, ${dep.last.toExponential(1)} at the end), so the early-window fit (${gt(s.measured.growthRate)}) saw rounding, not growth`)) : gt(s.measured.growthRate)],
+    ['wavelength', wl(d.linear.wavelength), unfounded ? '—' : wl(s.measured.wavelength)],
   ];
-  if (d.linear.oscillationPeriod !== null || s.measured.oscillationPeriod !== null) rows.push(['period', d.linear.oscillationPeriod === null ? '—' : fmtDuration(d.linear.oscillationPeriod), s.measured.oscillationPeriod === null ? '—' : fmtDuration(s.measured.oscillationPeriod)]);
+  if (d.linear.oscillationPeriod !== null || (!unfounded && s.measured.oscillationPeriod !== null)) rows.push(['period', d.linear.oscillationPeriod === null ? '—' : fmtDuration(d.linear.oscillationPeriod), s.measured.oscillationPeriod === null || unfounded ? '—' : fmtDuration(s.measured.oscillationPeriod)]);
   return h(
     'table',
     { class: 'compare', 'aria-label': 'Early growth: linear prediction and the run' },
