@@ -97,6 +97,12 @@ describe('the What forms page', () => {
     await page.screenshot({ path: 'screenshots/forms-cancelled.png' });
   }, 60_000);
 
+  it('the sheet page links here for its candidate', async () => {
+    await page.goto(`${base}/plans/${planId}/sheet?candidate=ptj-1um-b07`);
+    await page.waitForSelector('#to-forms');
+    expect(await page.getAttribute('#to-forms', 'href')).toBe(`/plans/${planId}/forms?candidate=ptj-1um-b07`);
+  }, 60_000);
+
   it('2D: the frames with a slider and Play', async () => {
     await page.goto(`${base}/plans/${planId}/forms?candidate=ptj-1um-b07`);
     await page.waitForSelector('form.options');
