@@ -94,6 +94,14 @@ describe('simulate at doses of a plan', () => {
     expect(job.result.doses[0].summary.duration).toBeCloseTo(longest, 3);
   }, 120_000);
 
+  it('a duration given as a time is the duration of every dose', async () => {
+    const { job } = await run({ doses: ['0', '2e8 1/mL'], points: 32, duration: '30 min' });
+    expect(job.state).toBe('done');
+    expect(job.result.durationFrom).toBe('given');
+    for (const d of job.result.doses) expect(d.summary.duration).toBe(1800);
+    expect(job.result.doses[1].factor).toBeNull();
+  }, 120_000);
+
   it('2D: at most 12 frames of points × points', async () => {
     const { job } = await run({ doses: ['3e8 1/mL'], dims: 2, points: 16, growthTimes: 1 });
     expect(job.state).toBe('done');
