@@ -11,7 +11,7 @@ import { defineConfig } from 'vite';
 const here = fileURLToPath(new URL('.', import.meta.url));
 
 /** Every page: its HTML file in web/ (the URL it is served at is in server/http/routes/pages.ts). */
-export const PAGES = ['index', 'item', 'calibrate', 'planner', 'plan', 'sheet', 'outcomes'] as const;
+export const PAGES = ['index', 'item', 'calibrate', 'planner', 'plan', 'sheet', 'outcomes', 'forms'] as const;
 
 export default defineConfig({
   root: here,

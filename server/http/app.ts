@@ -43,6 +43,7 @@ import { metaRoutes } from './routes/meta.js';
 import { pageRoutes } from './routes/pages.js';
 import { unitRoutes } from './routes/units.js';
 import { planRoutes } from './routes/plans.js';
+import { formsRoutes } from './routes/forms.js';
 import { outcomeUpdateRoutes } from './routes/outcomes-update.js';
 import { outcomeUpdateService, type ReadOutcomes } from '../outcomes/update.js';
 import { shelfIoRoutes } from './routes/shelf-io.js';
@@ -87,6 +88,7 @@ export const COMPUTE_ROUTES = [
   'POST /api/plans',
   'POST /api/plans/:id/rerun',
   'POST /api/plans/:id/candidates/:species/spectrum',
+  'POST /api/plans/:id/candidates/:species/simulate',
   'POST /api/fits/msd',
   'POST /api/fits/kinetics',
   'POST /api/fits/drift',
@@ -287,6 +289,7 @@ export async function buildApp({ config = {}, db, readOutcomes }: { config?: App
   await app.register(shelfIoRoutes);
   await app.register(analyzeRoutes);
   await app.register(planRoutes);
+  await app.register(formsRoutes);
   await app.register(jobRoutes);
   await app.register(calibrateRoutes);
   await app.register(protocolRoutes);

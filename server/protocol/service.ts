@@ -12,9 +12,9 @@ import type { ShelfRepository } from '../store/shelf.js';
 import type { HazardsRepository } from '../store/hazards.js';
 import { hazardLookup } from './hazards.js';
 import { renderHtml, renderMarkdown } from './render.js';
-import { buildSheet, sheetRequestSchema, type NotFitSheet, type Sheet } from './sheet.js';
+import { buildSheet, chooseSeries, sheetRequestSchema, type ChosenSeries, type NotFitSheet, type Sheet } from './sheet.js';
 import { issueList } from '../schema/mixture.js';
-import { InputError } from '../shelf/errors.js';
+import { DomainError, InputError } from '../shelf/errors.js';
 import { planSeriesSchema } from '../shelf/plans.js';
 import type { PlanSeriesSI } from './sheet.js';
 
@@ -57,6 +57,19 @@ export function sheetService(plans: PlansRepository, shelf: ShelfRepository, haz
       );
       // the options as sent (units as typed), so a filled-in sheet entered back rebuilds the same tubes
       return { ...sheet, request: { ...(rawOptions as Record<string, unknown> | undefined ?? {}), candidate: sheet.candidate.id } };
+    },
+    /**
+     * The default dose series of a candidate's bench sheet (the plan's own series, else the default factors × the
+     * reference), in SI, by the sheet's own code (chooseSeries) — without the stocks and volumes, so a sheet that
+     * does not fit the bench still has its series. @throws InputError (not a candidate), DomainError (does not cross)
+     */
+    series(id: number, candidate: string): ChosenSeries & { candidate: string } {
+      const plan = plans.get(id) as unknown as { request: unknown; result: { candidates: CandidateResult[] } };
+      const cand = plan.result.candidates.find((c) => c.species === candidate);
+      if (!cand) throw new InputError([{ path: 'candidate', message: `"${candidate}" is not a candidate of plan ${id}` }]);
+      if (!cand.feasible || !cand.threshold) throw new DomainError('candidate-infeasible', `"${candidate}" cannot cross the boundary (${cand.reason}): ${cand.message}; it has no bench-sheet series, give the doses`);
+      const req = sheetRequestSchema.parse({ candidate });
+      return { ...chooseSeries(cand, req, planSeries(plan.request)), candidate };
     },
     /** A sheet, or the explanation of one that does not fit, in one format: HTML and Markdown from its sections, JSON the model itself. */
     render(sheet: Sheet | NotFitSheet, format: SheetFormat, paper: 'A4' | 'Letter' = 'A4'): string {

@@ -93,6 +93,7 @@ describe('the Plan page', () => {
     expect(doseCell).toContain(fmtAmountOf(first.threshold.density, { kind: shelf.record.kind, radius: stored.radius, materialDensity: stored.materialDensity }));
     expect(await rows.first().locator('td').nth(3).textContent()).toMatch(/median .*5–95 % of 40 draws/);
     expect(await rows.first().locator('a', { hasText: 'bench sheet' }).getAttribute('href')).toBe(`/plans/${planId}/sheet?candidate=${encodeURIComponent(first.species)}`);
+    expect(await rows.first().locator('a', { hasText: 'What forms past onset' }).getAttribute('href')).toBe(`/plans/${planId}/forms?candidate=${encodeURIComponent(first.species)}`);
     const inf = await page.textContent('ul.infeasible');
     for (const c of infeasible) expect(inf).toContain(c.message);
     expect(await page.textContent('main')).toContain('supplier’s safety data sheet');

@@ -19,6 +19,7 @@ export const PAGE_ROUTES: { file: string; urls: string[] }[] = [
   { file: 'plan.html', urls: ['/plans/:id'] },
   { file: 'sheet.html', urls: ['/plans/:id/sheet'] },
   { file: 'outcomes.html', urls: ['/plans/:id/outcomes'] },
+  { file: 'forms.html', urls: ['/plans/:id/forms'] },
 ];
 
 const TYPES: Record<string, string> = {

@@ -430,7 +430,7 @@ function ranked(): HTMLElement {
           : h('span', { class: 'muted' }, 'no margin dose'),
       ),
       h('td', null, candidateWarnings(c).length ? h('ul', { class: 'plain small' }, candidateWarnings(c).map((w) => h('li', null, w))) : h('span', { class: 'muted' }, 'none')),
-      h('td', null, h('a', { href: `/plans/${plan.id}/sheet?candidate=${encodeURIComponent(c.species)}` }, 'bench sheet'), h('br'), h('a', { href: `/plans/${plan.id}/outcomes` }, 'outcomes')),
+      h('td', null, h('a', { href: `/plans/${plan.id}/sheet?candidate=${encodeURIComponent(c.species)}` }, 'bench sheet'), h('br'), h('a', { href: `/plans/${plan.id}/forms?candidate=${encodeURIComponent(c.species)}` }, 'What forms past onset'), h('br'), h('a', { href: `/plans/${plan.id}/outcomes` }, 'outcomes')),
     );
     row.addEventListener('click', (ev) => {
       if ((ev.target as HTMLElement).closest('a')) return;

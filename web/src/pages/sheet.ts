@@ -388,9 +388,13 @@ async function start(): Promise<void> {
   try {
     const plan = await api<PlanRow>(`/api/plans/${planId}`);
     document.title = `Bench sheet — plan ${plan.id} — brink`;
-    put(sub, `Plan ${plan.id}: ${plan.name} · `, h('a', { href: `/plans/${plan.id}` }, 'the plan'), ' · ', h('a', { href: `/plans/${plan.id}/outcomes` }, 'its outcomes'));
+    const forms = h('a', { href: `/plans/${plan.id}/forms`, id: 'to-forms' }, 'what forms past onset');
+    const formsHref = () => forms.setAttribute('href', `/plans/${plan.id}/forms${candidate.value ? `?candidate=${encodeURIComponent(candidate.value)}` : ''}`);
+    candidate.addEventListener('change', formsHref);
+    put(sub, `Plan ${plan.id}: ${plan.name} · `, h('a', { href: `/plans/${plan.id}` }, 'the plan'), ' · ', h('a', { href: `/plans/${plan.id}/outcomes` }, 'its outcomes'), ' · ', forms);
     for (const c of plan.result.candidates) candidate.append(h('option', { value: c.species, disabled: !c.feasible }, c.feasible ? c.species : `${c.species} — does not cross (${c.reason ?? 'no threshold'})`));
     if (initial.candidate) candidate.value = initial.candidate;
+    formsHref();
     if (initial.candidate && candidate.value !== initial.candidate) page.say(`"${initial.candidate}" is not a candidate of plan ${plan.id} that crosses: showing the top-ranked one instead.`, 'error');
   } catch (e) {
     page.fail(e);

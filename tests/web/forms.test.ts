@@ -1,0 +1,124 @@
+/// <reference lib="dom" />
+/**
+ * The "What forms past onset" page in a real browser (Debian's Chromium via playwright-core): from a plan
+ * over the demo shelf (tests/helpers/plans.ts), run with small settings, a kymograph per dose of the bench
+ * sheet's series (the doses the service's JSON sheet lists), the growth comparison and the cluster make-up;
+ * a second run cancelled; a 2D run with its frames; no console errors, failed requests or CSP violations.
+ */
+import { mkdirSync } from 'node:fs';
+import type { Browser, Page } from 'playwright-core';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { App } from '../../server/http/app.js';
+import { startBrowserApp } from '../helpers/browser.js';
+import { planRequest, postPlan } from '../helpers/plans.js';
+
+let app: App;
+let browser: Browser;
+let base = '';
+let planId = 0;
+let page: Page;
+const problems: string[] = [];
+
+beforeAll(async () => {
+  ({ app, browser, base } = await startBrowserApp());
+  const r = await postPlan(app, planRequest);
+  expect(r.statusCode).toBe(201);
+  planId = (r.json() as { id: number }).id;
+  mkdirSync('screenshots', { recursive: true });
+  page = await browser.newPage({ viewport: { width: 1280, height: 800 } });
+  page.on('console', (m) => {
+    if (m.type() === 'error') problems.push(`console: ${m.text()}`);
+  });
+  page.on('response', (r) => {
+    if (r.status() >= 400) problems.push(`HTTP ${r.status()}: ${r.request().method()} ${r.url()}`);
+  });
+  page.on('pageerror', (e) => problems.push(`page error: ${e.message}`));
+  await page.addInitScript(() => {
+    document.addEventListener('securitypolicyviolation', (e) => console.error(`CSP: ${e.violatedDirective} blocked ${e.blockedURI || '(inline)'}`));
+  });
+}, 120_000);
+
+afterAll(async () => {
+  await browser?.close();
+  await app?.close();
+});
+
+describe('the What forms page', () => {
+  it('runs the sheet series and shows a kymograph, the growth comparison and the cluster make-up per dose', async () => {
+    const sheet = (await app.inject({ method: 'GET', url: `/api/plans/${planId}/sheet?format=json&candidate=ptj-1um-b07` })).json();
+    const doses = sheet.tubes.filter((t: { kind: string }) => t.kind === 'series' || t.kind === 'no-dopant');
+    await page.goto(`${base}/plans/${planId}/forms?candidate=ptj-1um-b07`);
+    await page.waitForSelector('form.options');
+    expect(await page.textContent('h1')).toBe('What forms past onset');
+    await page.screenshot({ path: 'screenshots/forms-empty.png' });
+    await page.selectOption('#points', '32');
+    // the default 12 growth times: a clear pattern at every dose that grows
+    await page.click('form.options button[type="submit"]');
+    await page.waitForSelector('section.dose', { timeout: 120_000 });
+    const sections = await page.$$('section.dose');
+    expect(sections).toHaveLength(doses.length);
+    // one kymograph per dose, with its axes in units and a colour legend
+    expect(await page.$$eval('section.dose figure.plot-figure', (f) => f.filter((x) => /Kymograph/.test(x.textContent ?? '')).length)).toBe(doses.length);
+    const first = await page.textContent('section.dose:nth-of-type(1)');
+    expect(first).toMatch(/0 particles\/mL/);
+    // the no-dopant control is stable: the page never says its pattern grows (a fit of its decaying unevenness is not growth)
+    expect(first).toMatch(/stable/);
+    expect(first).toMatch(/growthdecays \(×1\/e every [^)]*\)(not measurable: the pattern did not grow|decays)/);
+    const text = await page.textContent('#results');
+    expect(text).toMatch(/position across the chamber \(mm\)/);
+    expect(text).toMatch(/time \((min|h|s)\)/);
+    expect(text).toMatch(/total volume fraction \(%\)/);
+    expect(text).toMatch(/linear prediction/);
+    expect(text).toMatch(/measured in the run/);
+    expect(text).toMatch(/share of its particles in clusters/);
+    expect(text).toMatch(/would run out/);
+    // the largest dose grows: its measured growth is a time, and a cluster formed with the candidate gathered
+    const lastDose = await page.textContent('section.dose:last-of-type');
+    expect(lastDose).toMatch(/grows ×e every/);
+    expect(lastDose).toMatch(/ptj-1um-b07\s*[\d.]+ %\s*gathered/);
+    await page.screenshot({ path: 'screenshots/forms-run.png', fullPage: false });
+    await page.$eval('section.dose:last-of-type', (el) => el.scrollIntoView());
+    await page.screenshot({ path: 'screenshots/forms-dose.png' });
+    // per species colour
+    await page.selectOption('#show', '1');
+    expect(await page.textContent('#results')).toMatch(/ptj-1um-b07: density ÷ its mean/);
+  }, 240_000);
+
+  it('cancels a second run', async () => {
+    await page.selectOption('#points', '512');
+    await page.fill('#growth-times', '30');
+    await page.click('form.options button[type="submit"]');
+    await page.waitForSelector('.job progress');
+    await page.click('.job button');
+    await page.waitForFunction(() => /cancelled/.test(document.querySelector('.job .stage')?.textContent ?? ''), null, { timeout: 30_000 });
+    expect(await page.textContent('#messages')).toMatch(/cancelled/);
+    // the results of the first run stay
+    expect((await page.$$('section.dose')).length).toBeGreaterThan(0);
+    await page.screenshot({ path: 'screenshots/forms-cancelled.png' });
+  }, 60_000);
+
+  it('the sheet page links here for its candidate', async () => {
+    await page.goto(`${base}/plans/${planId}/sheet?candidate=ptj-1um-b07`);
+    await page.waitForSelector('#to-forms');
+    expect(await page.getAttribute('#to-forms', 'href')).toBe(`/plans/${planId}/forms?candidate=ptj-1um-b07`);
+  }, 60_000);
+
+  it('2D: the frames with a slider and Play', async () => {
+    await page.goto(`${base}/plans/${planId}/forms?candidate=ptj-1um-b07`);
+    await page.waitForSelector('form.options');
+    await page.selectOption('#dims', '2');
+    await page.selectOption('#points', '16');
+    await page.fill('#growth-times', '2');
+    await page.click('form.options button[type="submit"]');
+    await page.waitForSelector('section.dose canvas', { timeout: 180_000 });
+    expect(await page.$$('section.dose canvas')).toHaveLength((await page.$$('section.dose')).length);
+    const slider = page.locator('section.dose:last-of-type input[type="range"]');
+    await slider.fill('0');
+    expect(await page.textContent('section.dose:last-of-type output')).toMatch(/frame 1 of 12/);
+    await page.click('section.dose:last-of-type button:has-text("Play")');
+    await page.waitForFunction(() => /frame [2-9]/.test(document.querySelector('section.dose:last-of-type output')?.textContent ?? ''), null, { timeout: 10_000 });
+    await page.$eval('section.dose:last-of-type', (el) => el.scrollIntoView());
+    await page.screenshot({ path: 'screenshots/forms-2d.png' });
+    expect(problems).toEqual([]);
+  }, 240_000);
+});

@@ -1,0 +1,440 @@
+/**
+ * What forms past onset (/plans/:id/forms?candidate=…): the nonlinear simulation (docs/model.md §14–§16)
+ * of the plan's base with one candidate at each dose of its bench-sheet series, run as a job
+ * (POST /api/plans/:id/candidates/:species/simulate). Per dose: the kymograph (1D) or the frames with a
+ * slider and Play (2D); the measured early growth beside the linear prediction; the dominant length over
+ * time with the fuel's run-out marked; the clusters and their make-up beside the linear composition;
+ * bands; the run's warnings in words.
+ */
+import { api } from '../lib/api.js';
+import { field, h, put, type Child } from '../lib/dom.js';
+import { fmt, fmtDuration, formatNumber } from '../lib/format.js';
+import { followJob, jobView, type Job } from '../lib/job.js';
+import { mountPage, pathId } from '../lib/layout.js';
+import { ACCENT, figure, INK, Plot, STATES } from '../lib/plot.js';
+import './forms.css';
+
+type State = 'stable' | 'stationary' | 'oscillatory';
+interface Summary {
+  linear: { growthRate: number; wavelength: number | null; state: State; oscillationPeriod: number | null };
+  measured: { growthRate: number | null; wavelength: number | null; oscillationPeriod: number | null };
+  dominantLength: [number, number | null][];
+  clusters: { count: number; sizes: number[]; composition: { species: string; fraction: number }[] };
+  bands: { speed: number; period: number | null } | null;
+  conservation: { maxRelativeError: number };
+  fuelRunOut: { chemical: string; time: number } | null;
+  grid: { dims: 1 | 2; points: number; length: number; cellSize: number; walls: string };
+  time: number;
+  duration: number;
+  run: { steps: number; completed: boolean; maxVolumeFraction: number; clusterCoveredFraction: number };
+  warnings: { code: string; message: string }[];
+}
+interface Dose {
+  dose: number;
+  factor: number | null;
+  linear: { state: State; growthRate: number; growthTime: number | null; wavelength: number | null; oscillationPeriod: number | null; composition: { species: string; weight: number; magnitude: number }[] };
+  summary: Summary;
+  species: { id: string; mean: number; particleVolume: number }[];
+  kymograph: { times: number[]; positions: number[]; deviation: number[][][] } | null;
+  frames: { times: number[]; points: number; cellSize: number; deviation: number[][][] } | null;
+}
+interface Result {
+  plan: number;
+  candidate: string;
+  dims: 1 | 2;
+  points: number;
+  seed: number;
+  durationFrom: string;
+  series: { from: string; note: string } | null;
+  doses: Dose[];
+}
+interface PlanLite {
+  id: number;
+  name: string;
+  result: { candidates: { species: string; feasible: boolean; rank: number }[] };
+}
+
+const page = mountPage('What forms past onset', 'plans');
+const planId = pathId(/^\/plans\/(\d+)\/forms/);
+
+// ------------------------------------------------------------------ units of the axes
+
+/** A length axis in µm or mm, whichever reads best for the chamber. */
+function lengthUnit(L: number): { label: string; f: number } {
+  return L < 1e-3 ? { label: 'µm', f: 1e6 } : { label: 'mm', f: 1e3 };
+}
+/** A time axis in s, min or h. */
+function timeUnit(T: number): { label: string; f: number } {
+  if (T >= 3 * 3600) return { label: 'h', f: 1 / 3600 };
+  if (T >= 180) return { label: 'min', f: 1 / 60 };
+  return { label: 's', f: 1 };
+}
+const perMl = (x: number) => (x === 0 ? '0 particles/mL' : fmt(x, 'numberDensity'));
+
+/** What the run's warnings mean, in words a researcher reads first (the engine's own message follows). */
+const WARNING_WORDS: Record<string, string> = {
+  'step-limit': 'The run stopped at its step limit before the end: what is shown ends early. Fewer points or a shorter duration reach the end.',
+  'positivity-repaired': 'The grid is too coarse for the sharpest cluster edges (under-resolved): a small negative part was cut off. Use more points to trust the cluster edges.',
+  'above-close-packing': 'The clusters reached close packing narrower than the grid resolves: use more points.',
+  'measured-mode-differs': 'The mode that grew fastest in the run is not the one the linear prediction names (neighbouring modes grow almost alike).',
+  'fuel-runs-out-first': 'The fuel would run out before the end of the run: the model holds the fuel at its starting level, so what is shown after the marked time would not happen in the sample.',
+  'no-linear-window': 'The pattern left the small-perturbation regime too early to measure its early growth.',
+  'linear-modes-1d': 'In 2D the linear prediction is for modes along one side; a diagonal mode may grow slightly faster.',
+  'unbounded-as-periodic': 'The open chamber is simulated as a periodic box.',
+  'chemistry-not-converged': 'The saturating chemistry did not converge in some steps: treat the numbers with care.',
+};
+
+// ------------------------------------------------------------------ the colour of a field
+
+type Show = { kind: 'total' } | { kind: 'species'; index: number };
+function fieldOf(d: Dose, show: Show, frame: (m: number) => number[]): number[] {
+  if (show.kind === 'species') return frame(show.index).map((v) => 1 + v);
+  // total volume fraction in %: Σ_m (ρ_m/ρ̄_m) ρ̄_m v_m
+  let out: number[] | null = null;
+  d.species.forEach((s, m) => {
+    const r = frame(m);
+    const w = s.mean * s.particleVolume * 100;
+    out = out ? out.map((v, i) => v + w * (1 + r[i]!)) : r.map((v) => w * (1 + v));
+  });
+  return out ?? [];
+}
+const showLabel = (d: Dose, show: Show) =>
+  show.kind === 'total' ? 'total volume fraction (%)' : d.species[show.index]!.mean > 0 ? `${d.species[show.index]!.id}: density ÷ its mean (×)` : `${d.species[show.index]!.id} is absent at this dose`;
+
+function kymograph(d: Dose, show: Show): HTMLElement {
+  const k = d.kymograph!;
+  const Lu = lengthUnit(d.summary.grid.length);
+  const Tu = timeUnit(d.summary.time);
+  const values = k.times.flatMap((_, j) => fieldOf(d, show, (m) => k.deviation[m]![j]!));
+  const fuel = d.summary.fuelRunOut && d.summary.fuelRunOut.time <= d.summary.time ? d.summary.fuelRunOut : null;
+  return figure({
+    caption: `Kymograph at ${perMl(d.dose)}: ${showLabel(d, show)} across the chamber (horizontal) over time (down).${fuel ? ` Dashed line: ${fuel.chemical} would run out (${fmtDuration(fuel.time)}).` : ''}`,
+    height: 300,
+    x: { label: `position across the chamber (${Lu.label})`, domain: [0, d.summary.grid.length * Lu.f] },
+    y: { label: `time (${Tu.label})`, domain: [0, d.summary.time * Tu.f], reverse: true, grid: false },
+    color: { type: 'linear', scheme: 'viridis', legend: true, label: showLabel(d, show) },
+    marks: [
+      Plot.raster(values, { width: k.positions.length, height: k.times.length, x1: 0, x2: d.summary.grid.length * Lu.f, y1: 0, y2: d.summary.time * Tu.f, imageRendering: 'pixelated' }),
+      fuel ? Plot.ruleY([fuel.time * Tu.f], { stroke: '#ffffff', strokeDasharray: '6,4', strokeWidth: 1.5 }) : null,
+    ],
+  });
+}
+
+/** 2D: the frames on a canvas with a slider and Play/Pause. */
+function framesView(d: Dose, show: Show): HTMLElement {
+  const f = d.frames!;
+  const n = f.points;
+  const data = f.times.map((_, j) => fieldOf(d, show, (m) => f.deviation[m]![j]!));
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (const fr of data) for (const v of fr) {
+    if (v < lo) lo = v;
+    if (v > hi) hi = v;
+  }
+  if (!(hi > lo)) hi = lo + 1e-9;
+  const scale = Plot.scale({ color: { type: 'linear', scheme: 'viridis', domain: [lo, hi] } });
+  const size = 320;
+  const canvas = h('canvas', { width: size, height: size, class: 'frame', role: 'img', 'aria-label': `${showLabel(d, show)} over the square chamber` });
+  const Lu = lengthUnit(d.summary.grid.length);
+  const Tu = timeUnit(d.summary.time);
+  const slider = h('input', { type: 'range', min: 0, max: f.times.length - 1, step: 1, value: f.times.length - 1, 'aria-label': 'frame' });
+  const when = h('output', null);
+  const draw = (j: number) => {
+    const ctx = canvas.getContext('2d');
+    if (!ctx) return;
+    const c = size / n;
+    const fr = data[j]!;
+    for (let y = 0; y < n; y++)
+      for (let x = 0; x < n; x++) {
+        ctx.fillStyle = String(scale.apply(fr[y * n + x]!));
+        ctx.fillRect(Math.floor(x * c), Math.floor((n - 1 - y) * c), Math.ceil(c), Math.ceil(c));
+      }
+    when.textContent = `t = ${formatNumber(f.times[j]! * Tu.f, 3)} ${Tu.label} (frame ${j + 1} of ${f.times.length})`;
+  };
+  slider.addEventListener('input', () => draw(Number(slider.value)));
+  const play = h('button', { type: 'button', class: 'secondary' }, 'Play');
+  let timer: number | null = null;
+  play.addEventListener('click', () => {
+    if (timer !== null) {
+      clearInterval(timer);
+      timer = null;
+      play.textContent = 'Play';
+      return;
+    }
+    if (Number(slider.value) >= f.times.length - 1) slider.value = '0';
+    play.textContent = 'Pause';
+    timer = window.setInterval(() => {
+      const j = Number(slider.value) + 1;
+      if (j >= f.times.length) {
+        clearInterval(timer!);
+        timer = null;
+        play.textContent = 'Play';
+        return;
+      }
+      slider.value = String(j);
+      draw(j);
+    }, 400);
+  });
+  const legend = Plot.legend({ color: { type: 'linear', scheme: 'viridis', domain: [lo, hi], label: showLabel(d, show) }, marginLeft: 24, marginRight: 24, width: 320 });
+  for (const s of legend.querySelectorAll('style')) s.remove();
+  queueMicrotask(() => draw(f.times.length - 1));
+  return h(
+    'figure',
+    { class: 'plot-figure frames' },
+    legend,
+    canvas,
+    h('div', { class: 'row' }, play, h('label', null, 'Frame ', slider), when),
+    h('figcaption', null, `${showLabel(d, show)} over the square chamber, ${formatNumber(d.summary.grid.length * Lu.f, 3)} ${Lu.label} a side (${n} × ${n} cells); one colour scale for all frames.`),
+  );
+}
+
+function dominantPlot(d: Dose): HTMLElement {
+  const Lu = lengthUnit(d.summary.grid.length);
+  const Tu = timeUnit(d.summary.time);
+  const pts = d.summary.dominantLength.filter((p): p is [number, number] => p[1] !== null).map(([t, l]) => ({ t: t * Tu.f, l: l * Lu.f }));
+  const fuel = d.summary.fuelRunOut && d.summary.fuelRunOut.time <= d.summary.time ? d.summary.fuelRunOut : null;
+  return figure({
+    caption: `Dominant length over time (the structure factor's mean wavelength)${d.linear.wavelength !== null ? '; dotted: the linear wavelength' : ''}${fuel ? `; dashed: ${fuel.chemical} would run out` : ''}.`,
+    height: 200,
+    x: { label: `time (${Tu.label})`, domain: [0, d.summary.time * Tu.f] },
+    y: { label: `dominant length (${Lu.label})`, zero: true },
+    marks: [
+      Plot.line(pts, { x: 't', y: 'l', stroke: INK, strokeWidth: 1.8 }),
+      d.linear.wavelength !== null ? Plot.ruleY([d.linear.wavelength * Lu.f], { stroke: INK, strokeDasharray: '2,3' }) : null,
+      fuel ? Plot.ruleX([fuel.time * Tu.f], { stroke: ACCENT, strokeDasharray: '6,4', strokeWidth: 1.5 }) : null,
+    ],
+  });
+}
+
+/** The largest |density ÷ mean − 1| of any species in the first and the last stored frame. */
+function departures(d: Dose): { first: number; last: number } {
+  const rows = d.kymograph ? d.kymograph.deviation : d.frames ? d.frames.deviation : [];
+  const at = (j: (n: number) => number) => Math.max(0, ...rows.flatMap((r) => (r[j(r.length)] ?? []).map(Math.abs)));
+  return { first: at(() => 0), last: at((n) => n - 1) };
+}
+
+function growthTable(d: Dose): HTMLElement {
+  const s = d.summary;
+  // a growth the run itself does not bear out (the pattern grew by less than a tenth of the e-foldings the fit
+  // claims over the run — a stable sample whose tiny decaying unevenness the fit read as growth): rounding, not growth
+  const dep = departures(d);
+  const claimed = s.measured.growthRate !== null && s.measured.growthRate > 0 ? s.measured.growthRate * s.time : 0;
+  const unfounded = claimed > 0 && dep.first > 0 && Math.log(Math.max(dep.last, 1e-300) / dep.first) < 0.1 * claimed;
+  const gt = (r: number | null) => (r === null ? '—' : r > 0 ? `grows ×e every ${fmtDuration(1 / r)}` : `decays (×1/e every ${fmtDuration(-1 / r)})`);
+  const wl = (x: number | null) => (x === null ? 'none (uniform)' : fmt(x, 'length'));
+  const rows: Child[][] = [
+    ['growth', gt(d.linear.growthRate), unfounded ? h('span', null, 'not measurable: ', h('span', { class: 'muted' }, `the pattern did not grow (largest departure from the mean ${dep.first.toExponential(1)} at the start, ${dep.last.toExponential(1)} at the end), so the early-window fit (${gt(s.measured.growthRate)}) saw rounding, not growth`)) : gt(s.measured.growthRate)],
+    ['wavelength', wl(d.linear.wavelength), unfounded ? '—' : wl(s.measured.wavelength)],
+  ];
+  if (d.linear.oscillationPeriod !== null || (!unfounded && s.measured.oscillationPeriod !== null)) rows.push(['period', d.linear.oscillationPeriod === null ? '—' : fmtDuration(d.linear.oscillationPeriod), s.measured.oscillationPeriod === null || unfounded ? '—' : fmtDuration(s.measured.oscillationPeriod)]);
+  return h(
+    'table',
+    { class: 'compare', 'aria-label': 'Early growth: linear prediction and the run' },
+    h('thead', null, h('tr', null, h('th', { scope: 'col' }, 'Early growth'), h('th', { scope: 'col' }, 'linear prediction'), h('th', { scope: 'col' }, 'measured in the run'))),
+    h('tbody', null, rows.map((r) => h('tr', null, h('th', { scope: 'row' }, r[0]), h('td', null, r[1]), h('td', null, r[2])))),
+  );
+}
+
+function clustersView(d: Dose): HTMLElement {
+  const c = d.summary.clusters;
+  const Lu = lengthUnit(d.summary.grid.length);
+  const covered = d.summary.run.clusterCoveredFraction;
+  const lin = new Map(d.linear.composition.map((x) => [x.species, x]));
+  const linWord = (id: string) => {
+    const e = lin.get(id);
+    if (!e || d.linear.state === 'stable') return 'no growing mode';
+    if (Math.abs(e.weight) < 0.05 * Math.max(...d.linear.composition.map((x) => Math.abs(x.weight)), 1e-30)) return 'hardly takes part';
+    const lead = d.linear.composition.reduce((a, b) => (Math.abs(b.weight) > Math.abs(a.weight) ? b : a));
+    return Math.sign(e.weight) === Math.sign(lead.weight) ? `gathers (weight ${formatNumber(e.weight, 2)})` : `pushed out (weight ${formatNumber(e.weight, 2)})`;
+  };
+  const runWord = (f: number) => (c.count === 0 ? '—' : f > covered * 1.1 ? 'gathered' : f < covered * 0.9 ? 'pushed out' : 'as elsewhere');
+  return h(
+    'div',
+    { class: 'clusters' },
+    h('p', null, c.count === 0 ? 'No clusters at the end of the run (nowhere is the volume fraction 1.2 × the mean).' : `${c.count} cluster${c.count === 1 ? '' : 's'} at the end, ${d.summary.grid.dims === 1 ? 'lengths' : 'diameters'} ${c.sizes.map((x) => `${formatNumber(x * Lu.f, 3)} ${Lu.label}`).join(', ')}; together they cover ${formatNumber(100 * covered, 3)} % of the chamber.`),
+    h(
+      'table',
+      { class: 'compare', 'aria-label': 'Cluster make-up beside the linear prediction' },
+      h('thead', null, h('tr', null, ['Species', 'share of its particles in clusters', 'in the run', 'linear prediction (mode composition)'].map((t) => h('th', { scope: 'col' }, t)))),
+      h(
+        'tbody',
+        null,
+        d.species.map((sp) => {
+          const f = c.composition.find((x) => x.species === sp.id)?.fraction ?? 0;
+          return h('tr', null, h('th', { scope: 'row', class: 'mono' }, sp.id), h('td', null, c.count === 0 ? '—' : `${formatNumber(100 * f, 3)} %`), h('td', null, runWord(f)), h('td', null, linWord(sp.id)));
+        }),
+      ),
+    ),
+    h('p', { class: 'muted' }, 'A species the clusters gather holds a larger share of its particles in them than the share of the chamber they cover; one they push out, a smaller share. The linear prediction: species whose weight in the fastest mode has the sign of the leading one gather with it.'),
+  );
+}
+
+function doseSection(d: Dose, show: Show, index: number): HTMLElement {
+  const s = d.summary;
+  const title = `${perMl(d.dose)}${d.factor !== null ? ` (${formatNumber(d.factor, 3)} × the sheet's 1 × dose)` : ''}${d.dose === 0 ? ' — the no-dopant control' : ''}`;
+  // the largest departure from the mean at the end of the run: a decaying or barely grown pattern has no bands to speak of
+  const lastRel = d.kymograph ? d.kymograph.deviation.map((rows) => rows[rows.length - 1] ?? []) : d.frames ? d.frames.deviation.map((fr) => fr[fr.length - 1] ?? []) : [];
+  const departure = Math.max(0, ...lastRel.flat().map((v) => Math.abs(v)));
+  const bands = s.bands && departure < 0.01
+    ? h('p', { class: 'muted' }, `No pattern to speak of at the end (densities within ${formatNumber(100 * departure, 2)} % of their means): no bands.`)
+    : s.bands
+    ? h(
+        'p',
+        null,
+        s.bands.speed === 0 ? 'The pattern changes in time but does not travel' : `Bands travel at ${fmt(Math.abs(s.bands.speed), 'speed')}`,
+        s.bands.period !== null ? `, period ${fmtDuration(s.bands.period)}` : '',
+        '.',
+        s.warnings.some((w) => w.code === 'positivity-repaired' || w.code === 'above-close-packing') ? h('span', { class: 'flag' }, ' The grid is too coarse for the cluster edges (see the warnings): this motion may come from the grid, not the sample; run with more points before trusting it.') : null,
+      )
+    : s.grid.dims === 1
+      ? h('p', { class: 'muted' }, 'No travelling bands: the pattern is static over the second half of the run.')
+      : null;
+  const warnings = s.warnings.filter((w) => w.code !== 'linear-modes-1d' || s.grid.dims === 2);
+  return h(
+    'section',
+    { class: 'dose', 'aria-labelledby': `dose-${index}` },
+    h('h3', { id: `dose-${index}` }, title, ' ', h('span', { class: `state state-${d.linear.state}` }, STATES[d.linear.state]?.label ?? d.linear.state)),
+    h('p', { class: 'muted' }, `Simulated ${fmtDuration(s.time)}${s.run.completed ? '' : ` of ${fmtDuration(s.duration)} asked for`} in ${s.run.steps} steps; particle numbers kept to ${s.conservation.maxRelativeError.toExponential(1)}; largest local volume fraction ${formatNumber(100 * s.run.maxVolumeFraction, 3)} %.`),
+    h('div', { class: 'dose-grid' }, h('div', null, s.grid.dims === 1 ? kymograph(d, show) : framesView(d, show)), h('div', null, growthTable(d), dominantPlot(d))),
+    h('h4', null, 'Clusters and their make-up'),
+    clustersView(d),
+    bands,
+    warnings.length
+      ? h('div', { class: 'warnings' }, h('h4', null, 'Warnings'), h('ul', null, warnings.map((w) => h('li', null, h('strong', null, WARNING_WORDS[w.code] ?? w.code), ' ', h('span', { class: 'muted' }, w.message)))))
+      : null,
+  );
+}
+
+// ------------------------------------------------------------------ the page
+
+async function main(): Promise<void> {
+  if (!planId) {
+    page.say('This address names no plan: open a plan from the planner, then "What forms past onset".', 'error');
+    return;
+  }
+  let plan: PlanLite;
+  try {
+    plan = await api<PlanLite>(`/api/plans/${planId}`);
+  } catch (e) {
+    page.fail(e);
+    put(page.main, h('div', { class: 'empty' }, `There is no plan ${planId} to show. `, h('a', { href: '/planner' }, 'Make a plan in the planner'), ', then come back here from its page.'));
+    return;
+  }
+  const feasible = plan.result.candidates.filter((c) => c.feasible).sort((a, b) => a.rank - b.rank);
+  const asked = new URLSearchParams(location.search).get('candidate');
+  const candidate = asked ?? feasible[0]?.species ?? null;
+
+  const head = h(
+    'div',
+    null,
+    h('h1', null, 'What forms past onset'),
+    h('p', null, 'Plan ', h('a', { href: `/plans/${plan.id}` }, plan.name), candidate ? [' · ', h('a', { href: `/plans/${plan.id}/sheet?candidate=${encodeURIComponent(candidate)}` }, 'its bench sheet')] : null),
+    h(
+      'p',
+      { class: 'muted' },
+      'The linear prediction says when the sample tips, how fast, at what length and which species gather. This page simulates what forms afterwards — clusters, their size and make-up, travelling bands — at each dose of the bench sheet, with the same shelf data. The model holds the fuel at its starting level (its run-out time is marked) and starts from a tiny random unevenness (the seed).',
+    ),
+  );
+  if (!candidate) {
+    put(page.main, head, h('div', { class: 'empty' }, 'No candidate of this plan crosses the boundary, so there is no dose series to simulate. Start a plan with other candidates in the ', h('a', { href: '/planner' }, 'planner'), '.'));
+    return;
+  }
+  const pick = h('select', { id: 'candidate' }, plan.result.candidates.map((c) => h('option', { value: c.species, ...(c.species === candidate ? { selected: true } : {}) }, `${c.species}${c.feasible ? '' : ' (does not cross: give doses via the API)'}`)));
+  pick.addEventListener('change', () => {
+    location.search = `?candidate=${encodeURIComponent(pick.value)}`;
+  });
+  const dims = h('select', { id: 'dims' }, h('option', { value: '1' }, '1D: a line across the chamber'), h('option', { value: '2' }, '2D: a square of the chamber'));
+  const dimsHint = h('span', null, '1D takes seconds; 2D a minute or more');
+  dims.addEventListener('change', () => {
+    dimsHint.textContent = dims.value === '2' ? '2D takes a minute or more, and a dose that clusters may reach its step limit (its warnings say so)' : '1D takes seconds; 2D a minute or more';
+  });
+  const points = h('select', { id: 'points' });
+  const fillPoints = () => {
+    const two = dims.value === '2';
+    const opts = two ? [16, 32, 64] : [32, 64, 128, 256, 512];
+    const def = two ? 32 : 128;
+    put(points, opts.map((n) => h('option', { value: n, ...(n === def ? { selected: true } : {}) }, two ? `${n} × ${n}` : String(n))));
+  };
+  fillPoints();
+  dims.addEventListener('change', fillPoints);
+  const mode = h('select', { id: 'duration-mode' }, h('option', { value: 'growth' }, 'growth times of each dose'), h('option', { value: 'time' }, 'a time for every dose'));
+  const growth = h('input', { id: 'growth-times', type: 'number', min: 1, max: 40, step: 1, value: 12 });
+  const time = h('input', { id: 'duration', type: 'text', value: '2 h', placeholder: 'e.g. 45 min' });
+  const seed = h('input', { id: 'seed', type: 'number', min: 0, step: 1, value: 1 });
+  const growthField = field('Growth times', growth, 'e-foldings of the fastest mode; a tiny unevenness becomes a clear pattern after about 12');
+  const timeField = field('Simulated time', time, 'with its unit, e.g. 45 min, 3 h');
+  timeField.hidden = true;
+  mode.addEventListener('change', () => {
+    growthField.hidden = mode.value !== 'growth';
+    timeField.hidden = mode.value !== 'time';
+  });
+  const showSel = h('select', { id: 'show' });
+  const run = h('button', { type: 'submit' }, 'Run');
+  const form = h(
+    'form',
+    { class: 'options', 'aria-label': 'Simulation options' },
+    field('Candidate', pick),
+    field('Chamber', dims, dimsHint),
+    field('Points per side', points, 'more points resolve sharper clusters and take longer'),
+    field('Duration in', mode),
+    growthField,
+    timeField,
+    field('Seed', seed, 'the same seed gives the same run'),
+    h('div', { class: 'actions' }, run),
+  );
+  const jobSlot = h('div', null);
+  const results = h('div', { id: 'results' }, h('div', { class: 'empty' }, 'Choose the options and Run: each dose of the bench sheet is simulated in turn (the defaults take seconds to a minute). The results appear here.'));
+  put(page.main, head, form, jobSlot, results);
+
+  let last: Result | null = null;
+  const render = () => {
+    if (!last) return;
+    const r = last;
+    const showOf = (): Show => (showSel.value === 'total' || showSel.value === '' ? { kind: 'total' } : { kind: 'species', index: Number(showSel.value) });
+    const sp = r.doses[0]?.species ?? [];
+    if (showSel.options.length !== sp.length + 1) put(showSel, h('option', { value: 'total' }, 'total volume fraction'), sp.map((s, i) => h('option', { value: i }, `${s.id} (÷ its mean)`)));
+    const show = showOf();
+    const fuel = r.doses.find((d) => d.summary.fuelRunOut)?.summary.fuelRunOut;
+    put(
+      results,
+      h('h2', null, `${r.candidate}: ${r.doses.length} dose${r.doses.length === 1 ? '' : 's'}, ${r.dims}D, ${r.dims === 1 ? r.points : `${r.points} × ${r.points}`} cells, ${r.durationFrom}, seed ${r.seed}`),
+      r.series ? h('p', { class: 'muted' }, `Doses: the bench sheet's series — ${r.series.note}`) : null,
+      fuel ? h('p', { class: 'flag' }, `${fuel.chemical} would run out after about ${fmtDuration(fuel.time)} at the lowest dose that consumes it (sooner at larger doses): the model does not deplete it, so anything later on the time axes would not happen in the sample unless the fuel is replenished.`) : null,
+      field('Colour shows', showSel),
+      r.doses.map((d, i) => doseSection(d, show, i)),
+    );
+  };
+  showSel.addEventListener('change', render);
+
+  form.addEventListener('submit', async (ev) => {
+    ev.preventDefault();
+    page.clear();
+    const body: Record<string, unknown> = { dims: Number(dims.value), points: Number(points.value), seed: Number(seed.value) };
+    if (mode.value === 'growth') body.growthTimes = Number(growth.value);
+    else body.duration = time.value.trim();
+    run.disabled = true;
+    const view = jobView('Simulating');
+    put(jobSlot, view.el);
+    let stopped = false;
+    view.onCancel(() => {
+      stopped = true;
+    });
+    try {
+      const job = await api<Job<Result>>(`/api/plans/${plan.id}/candidates/${encodeURIComponent(candidate)}/simulate`, { method: 'POST', body });
+      const end = await followJob(job, (j) => view.update(j));
+      if (end.state === 'done' && end.result) {
+        last = end.result;
+        render();
+        page.say(`Simulated ${end.result.doses.length} doses.`, 'ok');
+      } else if (end.state === 'cancelled' || stopped) page.say('The run was cancelled; the results shown (if any) are from the run before.', 'info');
+      else page.say(`The run ${end.state === 'timed-out' ? 'stopped at its time limit' : 'failed'}: ${end.error?.message ?? 'no reason given'}. Fewer points or a shorter duration take less work.`, 'error');
+    } catch (e) {
+      page.fail(e);
+      put(jobSlot);
+    } finally {
+      run.disabled = false;
+    }
+  });
+}
+
+void main();
