@@ -92,8 +92,6 @@ export function unitFor(si: number, kind: DisplayKind): DisplayUnit {
 
 /** SI → the value in a display unit. */
 export const toUnit = (si: number, unit: DisplayUnit): number => (si - (unit.offset ?? 0)) / unit.factor;
-/** A value in a display unit → SI. */
-export const fromUnit = (v: number, unit: DisplayUnit): number => v * unit.factor + (unit.offset ?? 0);
 
 export interface Formatted {
   /** `0.22 µm²/s` */
