@@ -12,7 +12,10 @@
  * wanted state with a fastest mode the grid resolves (index 2–20) and separated
  * from the next-fastest allowed mode by more than 1 % in growth rate (a finite
  * window cannot tell apart two modes closer than that, and the wavelength check
- * would then compare a coin toss). The draws are not tuned after the fact.
+ * would then compare a coin toss). Each case takes the first DRAWS such mixtures of
+ * its seeded stream, as the holdout tests do; the draws are not tuned after the fact.
+ * The simulation's own noise is its default (rms 1e-5, seed 1), so a fastest mode that
+ * happens to start weak must still be found.
  */
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
@@ -48,9 +51,11 @@ function separated(mix: Mixture, index: number): boolean {
   return true;
 }
 
-function find(seed: number, want: 'stationary' | 'oscillatory', M: number, walls: Walls, nearOnset: boolean): Mixture {
+/** The first `count` mixtures of the seeded stream in the wanted state (see the header). */
+function find(seed: number, want: 'stationary' | 'oscillatory', M: number, walls: Walls, nearOnset: boolean, count: number): Mixture[] {
   const rng = new Random(seed);
-  for (let i = 0; i < 20000; i++) {
+  const out: Mixture[] = [];
+  for (let i = 0; i < 200000 && out.length < count; i++) {
     const mix = draw(rng, M, walls, want === 'oscillatory');
     const a = analyze(mix);
     if (a.state !== want) continue;
@@ -58,10 +63,14 @@ function find(seed: number, want: 'stationary' | 'oscillatory', M: number, walls
     if (n < 2 || n > 20) continue;
     if (want === 'oscillatory' && nearOnset && !(a.growthRate * a.fastestMode.oscillationPeriod! < 0.5 * 2 * Math.PI)) continue;
     if (!separated(mix, n)) continue;
-    return mix;
+    out.push(mix);
   }
-  throw new Error('no draw found');
+  if (out.length < count) throw new Error(`only ${out.length} of ${count} draws found`);
+  return out;
 }
+
+/** draws per case */
+const DRAWS = 8;
 
 describe('early growth measured in the simulation vs analyze()', () => {
   const cases = [
@@ -71,23 +80,65 @@ describe('early growth measured in the simulation vs analyze()', () => {
     { name: 'oscillatory near onset, two species, periodic', want: 'oscillatory' as const, M: 2, walls: 'periodic' as const, seed: 1504 },
   ];
   for (const c of cases) {
-    it(c.name, () => {
-      const mix = find(c.seed, c.want, c.M, c.walls, true);
-      const a = analyze(mix);
-      const r = simulate(mix, { dims: 1, points: 256, duration: 8 / a.growthRate, frames: 11 });
-      const m = r.summary.measured;
-      console.log(c.name, { linear: r.summary.linear, measured: m, window: r.summary.run.measuredWindow, steps: r.summary.run.steps });
-      expect(m.growthRate).not.toBeNull();
-      expect(rel(m.growthRate!, a.growthRate)).toBeLessThan(0.02);
-      expect(rel(m.wavelength!, a.fastestMode.wavelength!)).toBeLessThan(0.02);
-      if (c.want === 'oscillatory') {
-        expect(m.oscillationPeriod).not.toBeNull();
-        expect(rel(m.oscillationPeriod!, a.fastestMode.oscillationPeriod!)).toBeLessThan(0.05);
-      } else {
-        expect(m.oscillationPeriod).toBeNull();
+    it(`${c.name}: ${DRAWS} draws`, () => {
+      const worst = { growth: 0, wavelength: 0, period: 0 };
+      for (const [j, mix] of find(c.seed, c.want, c.M, c.walls, true, DRAWS).entries()) {
+        const a = analyze(mix);
+        // six growth times hold the linear window (it closes at a departure of 1e-3 from the mean, about 3.5 growth times
+        // from the 1e-5 noise); what comes after is not read here
+        const r = simulate(mix, { dims: 1, points: 256, duration: 6 / a.growthRate, frames: 11 });
+        const m = r.summary.measured;
+        const where = `${c.name}, draw ${j}`;
+        expect(m.growthRate, where).not.toBeNull();
+        expect(rel(m.growthRate!, a.growthRate), where).toBeLessThan(0.02);
+        expect(rel(m.wavelength!, a.fastestMode.wavelength!), where).toBeLessThan(0.02);
+        expect(r.summary.warnings.map((w) => w.code), where).not.toContain('measured-mode-differs');
+        worst.growth = Math.max(worst.growth, rel(m.growthRate!, a.growthRate));
+        worst.wavelength = Math.max(worst.wavelength, rel(m.wavelength!, a.fastestMode.wavelength!));
+        if (c.want === 'oscillatory') {
+          expect(m.oscillationPeriod, where).not.toBeNull();
+          expect(rel(m.oscillationPeriod!, a.fastestMode.oscillationPeriod!), where).toBeLessThan(0.05);
+          worst.period = Math.max(worst.period, rel(m.oscillationPeriod!, a.fastestMode.oscillationPeriod!));
+        } else {
+          expect(m.oscillationPeriod, where).toBeNull();
+        }
       }
-    });
+      console.log(c.name, 'worst relative differences over', DRAWS, 'draws', worst);
+    }, 120_000);
   }
+
+  it('finds the fastest mode when it starts a thousand times weaker than a slower neighbour', () => {
+    // from the stationary one-species sealed stream: the first draw whose fastest mode is n = 3 with n = 2 growing
+    // too; seeded with mode 2 at 1e-5 and mode 3 at 1e-8 of the mean (3 is not a harmonic of 2, so mode 2 does not
+    // feed it at second order), mode 3 ends the linear window weaker than mode 2 but is still the fastest
+    const kOf = (mix: Mixture, n: number) => (n * Math.PI) / mix.chamber.length!;
+    const mix = find(1501, 'stationary', 1, 'sealed', true, 30).find((m) => analyze(m).fastestMode.index === 3 && eigenvaluesAt(m, kOf(m, 2))[0]!.re > 0)!;
+    expect(mix).toBeDefined();
+    const a = analyze(mix);
+    const L = mix.chamber.length!;
+    const r = simulate(mix, {
+      dims: 1,
+      points: 256,
+      duration: 12 / a.growthRate,
+      frames: 11,
+      initial: (m, x) => mix.species[m]!.density * (1 + 1e-5 * Math.cos((2 * Math.PI * x) / L) + 1e-8 * Math.cos((3 * Math.PI * x) / L)),
+    });
+    const m = r.summary.measured;
+    expect(r.summary.run.measuredMode).toEqual([3]);
+    expect(rel(m.growthRate!, a.growthRate)).toBeLessThan(0.02);
+    expect(rel(m.wavelength!, a.fastestMode.wavelength!)).toBeLessThan(0.02);
+  });
+
+  it('seeds the fastest mode when it lies beyond the first 32 chamber modes (mode 35 of a 1 cm periodic chamber)', () => {
+    const rho = 0.05 / ((4 / 3) * Math.PI * 1e-18);
+    const mix = mixture([chemical('c', 1e-9, 0.05)], [species('b', 2e-13, rho, [constant('c', 1e-16, -1e-12)], 1e-6)], 'periodic', 1e-2);
+    const a = analyze(mix);
+    expect(a.fastestMode.index).toBeGreaterThan(32);
+    const r = simulate(mix, { dims: 1, points: 1024, duration: 8 / a.growthRate, frames: 11 });
+    expect(rel(r.summary.measured.wavelength!, a.fastestMode.wavelength!)).toBeLessThan(0.02);
+    expect(rel(r.summary.measured.growthRate!, a.growthRate)).toBeLessThan(0.02);
+    expect(r.summary.run.seededModes).toBeGreaterThanOrEqual(4 * a.fastestMode.index!);
+  });
 
   it('2D (periodic and sealed): the measured growth equals the linear growth of the lattice mode it found', () => {
     // the 2D lattice has modes k = (2π/L)(n_x, n_y) (periodic) or (π/L)(n_x, n_y) (sealed) off the axes too; J(k)

@@ -15,7 +15,7 @@
  * Sealed (no-flux) walls: the field lives on the even (mirror) extension of the
  * chamber, 2n cells per axis, whose Fourier modes are the cosines cos(nπx/L) of
  * the sealed chamber; periodic walls: the chamber itself. The unbounded chamber is
- * simulated as a periodic box (simulate.ts chooses its length and says so).
+ * simulated as a periodic box (index.ts chooses its length and says so).
  */
 import { linearise, secondVirial } from '../model.js';
 import { sphereVolume } from '../checks.js';
@@ -85,7 +85,7 @@ export class SpectralField {
   readonly saturating: Saturating[];
   /** real-space chemical fields, kept between calls as the start of the next iteration */
   readonly c: Float64Array[];
-  /** worst chemistry iteration count and whether every solve converged */
+  /** worst chemistry iteration count (at most the 2,000 allowed) and how many solves did not converge */
   chemIterationsMax = 0;
   chemUnconverged = 0;
 
@@ -328,7 +328,7 @@ export class SpectralField {
       if (!nonlinear || change <= 1e-13 * scale) break;
     }
     if (nonlinear) {
-      this.chemIterationsMax = Math.max(this.chemIterationsMax, iter + 1);
+      this.chemIterationsMax = Math.max(this.chemIterationsMax, Math.min(iter + 1, maxIter));
       if (iter >= maxIter) this.chemUnconverged++;
     }
     for (let s = 0; s < S; s++) {

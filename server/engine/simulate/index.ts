@@ -23,7 +23,7 @@ export interface SimulateOptions {
   duration?: number;
   /** local error tolerance relative to the fluctuations (default 1e-4) */
   tolerance?: number;
-  /** rms relative amplitude of the starting perturbation (smooth random field of the chamber modes up to NOISE_MODES; default 1e-5) */
+  /** rms relative amplitude of the starting perturbation (smooth random field of the chamber modes up to noiseModes(); default 1e-5) */
   noise?: number;
   seed?: number;
   /** frames stored, evenly spaced, first and last included (default 201 in 1D, 41 in 2D) */
@@ -81,6 +81,8 @@ export interface SimulationSummary {
     chemistryIterations: number;
     measuredMode: number[] | null;
     measuredWindow: number;
+    /** the starting perturbation holds the chamber modes up to this index per axis (noiseModes) */
+    seededModes: number;
     clusterThreshold: number | null;
     clusterCoveredFraction: number;
     completed: boolean;
@@ -102,8 +104,27 @@ export interface SimulationResult {
   frames: Frames;
 }
 
-/** The starting perturbation holds the chamber modes up to this index along each axis. */
+/** The starting perturbation holds the chamber modes up to at least this index along each axis. */
 export const NOISE_MODES = 32;
+
+/**
+ * The highest chamber mode index (per axis) seeded: at least NOISE_MODES and four times the
+ * fastest mode's index, so the fastest mode and its neighbours start from the noise and not from
+ * rounding; at most what the grid holds (points/2 − 1).
+ */
+export function noiseModes(points: number, fastestIndex: number | null): number {
+  return Math.min(Math.floor(points / 2) - 1, Math.max(NOISE_MODES, 4 * Math.ceil(fastestIndex ?? 0)));
+}
+
+/**
+ * The early growth is recorded until any species departs from its mean by this share somewhere
+ * (the quadratic terms are then ~0.1 % of the linear ones, well inside the 2 % the measurement is
+ * held to), or until the departure has decayed to this share of where it started (a stable sample).
+ */
+export const LINEAR_WINDOW = 1e-3;
+
+/** At the end of an unstable run whose largest departure from the mean is below this share, nothing has formed yet. */
+export const STILL_LINEAR = 0.1;
 
 /**
  * A smooth random field on the chamber's cell centres: Σ a_pq B_p(x) B_q(y) over the
@@ -206,6 +227,21 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   if (!(duration > 0 && Number.isFinite(duration))) throw new EngineInputError('duration', 'must be a positive number of seconds');
 
   const field = new SpectralField(mix, { dims, points, length, mirror: walls === 'sealed' }, phiMax);
+  // the chamber mode index of the fastest wavelength along an axis (cos(nπx/L) sealed, e^{2πinx/L} periodic)
+  const linearWl = analysis.fastestMode.wavelength;
+  const fastestIndex = linearWl !== null && lambda > 0 ? (walls === 'sealed' ? 2 : 1) * (length / linearWl) : null;
+  const seeded = noiseModes(points, fastestIndex);
+  if (fastestIndex !== null && fastestIndex > seeded + 0.5) {
+    warnings.push({
+      code: 'fastest-mode-unresolved',
+      message: `the fastest mode (wavelength ${linearWl!.toPrecision(3)} m, mode ${fastestIndex.toFixed(1)} of the chamber) is finer than ${points} points hold (modes up to ${seeded} are seeded): the run cannot show it; use at least ${2 ** Math.ceil(Math.log2(4 * fastestIndex))} points`,
+    });
+  } else if (fastestIndex !== null && linearWl! < 8 * (length / points)) {
+    warnings.push({
+      code: 'fastest-mode-coarse',
+      message: `the fastest wavelength (${linearWl!.toPrecision(3)} m) spans only ${(linearWl! / (length / points)).toFixed(1)} grid cells: what forms from it is narrower still; use more points`,
+    });
+  }
   const M = field.M;
   const n = points;
   const cells = dims === 2 ? n * n : n;
@@ -224,7 +260,7 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
         v[i] = options.initial(a, x, y);
       }
     } else {
-      const xi = smoothNoise(rng, n, dims, walls === 'periodic', NOISE_MODES);
+      const xi = smoothNoise(rng, n, dims, walls === 'periodic', seeded);
       for (let i = 0; i < cells; i++) v[i] = rho0 * (1 + noise * xi[i]!);
     }
     const out = new Float64Array(field.size);
@@ -292,15 +328,23 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
     }
   };
 
-  const linearEnd = () => {
-    // the linear window closes once any species' largest relative deviation passes 1 %
+  /** the largest departure of any species from its mean, relative to the mean */
+  const largestDeparture = () => {
+    let worst = 0;
     for (let a = 0; a < M; a++) {
       const mean = integ.mean[a]!;
       if (!(mean > 0)) continue;
       const r = integ.rho[a]!;
-      for (let i = 0; i < field.size; i++) if (Math.abs(r[i]! - mean) > 1e-2 * mean) return true;
+      for (let i = 0; i < field.size; i++) worst = Math.max(worst, Math.abs(r[i]! - mean) / mean);
     }
-    return false;
+    return worst;
+  };
+  const startDeparture = largestDeparture();
+  // the linear window closes once any species departs from its mean by LINEAR_WINDOW, or the departure has
+  // decayed to LINEAR_WINDOW of its start (the fits would otherwise read rounding)
+  const linearEnd = () => {
+    const d = largestDeparture();
+    return d > LINEAR_WINDOW || d < LINEAR_WINDOW * startDeparture;
   };
 
   let t = 0;
@@ -348,7 +392,6 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
 
   const measured: Measured = measureGrowth(field, modes, samples, sampleStep, integ.mean);
   if (measured.growthRate === null) warnings.push({ code: 'no-linear-window', message: 'too few samples before the pattern left the linear regime to measure the early growth' });
-  const linearWl = analysis.fastestMode.wavelength;
   if (measured.wavelength !== null && linearWl !== null && Math.abs(measured.wavelength - linearWl) > 1e-6 * linearWl) {
     // the linear growth at the mode the run found fastest, for comparison (the same J(k), docs/model.md §3)
     let atMeasured: number | null = null;
@@ -359,7 +402,7 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
     }
     warnings.push({
       code: 'measured-mode-differs',
-      message: `the fastest mode in the run has wavelength ${measured.wavelength.toPrecision(4)} m, not the predicted ${linearWl.toPrecision(4)} m; ${atMeasured !== null ? `the linear growth rate of that mode is ${atMeasured.toPrecision(4)} 1/s against ${lambda.toPrecision(4)} 1/s at the predicted one: ` : ''}modes whose growth differs by less than the early measurement resolves (about 0.1 %) cannot be told apart`,
+      message: `the fastest mode in the run has wavelength ${measured.wavelength.toPrecision(4)} m, not the predicted ${linearWl.toPrecision(4)} m; ${atMeasured !== null ? `the linear growth rate of that mode is ${atMeasured.toPrecision(4)} 1/s against ${lambda.toPrecision(4)} 1/s at the predicted one (${lambda !== 0 ? `${(Math.abs(atMeasured - lambda) / Math.abs(lambda) * 100).toPrecision(2)} % apart` : 'apart'}): ` : ''}the early measurement resolves growth rates to about 1 % (docs/model.md §16), so modes closer than that cannot be told apart${dims === 2 ? '; in 2D the lattice also has modes off the axes, which the prediction along one axis does not list' : ''}`,
     });
   }
 
@@ -374,16 +417,19 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   const rhoLast = Array.from({ length: M }, (_, a) => Float64Array.from(last.subarray(a * cells, (a + 1) * cells)));
   const clusters: Clusters = findClusters(phiOf(last), rhoLast, mix.species.map((s) => s.id), n, dims, walls === 'periodic', h);
   const bands = dims === 1 ? findBands(frames.map(phiOf), times, walls === 'periodic', h) : null;
+  if (dims === 2 && analysis.state === 'oscillatory') {
+    warnings.push({ code: 'bands-not-read-in-2d', message: 'travelling bands are read only in 1D (a kymograph along the chamber): `bands` is null here whatever the frames show; run the same mixture in 1D for the band speed and period' });
+  }
 
   // fuel run-out from the checks
   let fuelRunOut: SimulationSummary['fuelRunOut'] = null;
   for (const fc of analysis.checks.fuel) {
     if (fuelRunOut === null || fc.lifetime < fuelRunOut.time) fuelRunOut = { chemical: fc.chemical, time: fc.lifetime };
   }
-  if (fuelRunOut !== null && fuelRunOut.time < duration) {
+  if (fuelRunOut !== null && fuelRunOut.time < t) {
     warnings.push({
       code: 'fuel-runs-out-first',
-      message: `${fuelRunOut.chemical} would run out after about ${fuelRunOut.time.toPrecision(3)} s, before the end of the run (${duration.toPrecision(3)} s); the model holds the fuel at its starting level, so what is shown after that time would not happen in the sample`,
+      message: `${fuelRunOut.chemical} would run out after about ${fuelRunOut.time.toPrecision(3)} s, before the end of the run (${t.toPrecision(3)} s reached); the model holds the fuel at its starting level, so what is shown after that time would not happen in the sample`,
     });
   }
   if (integ.stats.positivityRepairs > 0) {
@@ -393,6 +439,16 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
     warnings.push({ code: 'above-close-packing', message: `the local volume fraction reached ${maxPhi.toPrecision(3)}, above the close-packing limit ${phiMax}: the clusters are narrower than the grid resolves (the volume-filling factor acts at cell centres); use more points` });
   }
   if (field.chemUnconverged > 0) warnings.push({ code: 'chemistry-not-converged', message: `the saturating chemistry did not converge in ${field.chemUnconverged} solve(s) (2,000 iterations)` });
+  const endDeparture = largestDeparture();
+  if (analysis.state === 'stable') {
+    warnings.push({ code: 'stable-nothing-forms', message: `the linear analysis calls this sample stable: the starting perturbation decays (to ${endDeparture.toExponential(1)} of the mean by the end) and nothing forms` });
+  } else if (endDeparture < STILL_LINEAR) {
+    const more = lambda > 0 && endDeparture > 0 ? Math.log(1 / endDeparture) / lambda : null;
+    warnings.push({
+      code: 'nothing-formed-yet',
+      message: `at the end of the run the largest departure from the uniform sample is ${(endDeparture * 100).toPrecision(2)} % of the mean: the sample is still in its early, linear stage and nothing has formed yet. How soon something forms depends on the starting perturbation (rms ${noise} of the mean here, standing in for the sample's own unevenness; a stronger one forms patterns sooner)${more !== null ? `; at the linear growth rate, order-one patterns need about ${more.toPrecision(2)} s more` : ''}`,
+    });
+  }
   if (dims === 2) warnings.push({ code: 'linear-modes-1d', message: 'the linear prediction is for modes along one axis; in 2D the fastest mode may lie off the axes' });
 
   const summary: SimulationSummary = {
@@ -416,6 +472,7 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       chemistryIterations: field.chemIterationsMax,
       measuredMode: measured.mode,
       measuredWindow: measured.window,
+      seededModes: seeded,
       clusterThreshold: clusters.threshold,
       clusterCoveredFraction: clusters.coveredFraction,
       completed,
