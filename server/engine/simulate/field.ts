@@ -30,6 +30,8 @@ export interface GridSpec {
   length: number;
   /** true: sealed (mirror extension); false: periodic */
   mirror: boolean;
+  /** the chemical fields evolve in time (∂c/∂t = D∇²c − κc + sources) instead of being solved quasi-statically */
+  dynamic?: boolean;
 }
 
 interface Saturating {
@@ -44,6 +46,11 @@ interface Saturating {
 export class SpectralField {
   readonly M: number;
   readonly S: number;
+  /** fields evolved in time: the M particle densities, then (dynamic chemicals) the S chemical fields */
+  readonly N: number;
+  readonly dynamic: boolean;
+  /** per evolved field: the implicit linear rate is dImplicit k² + decay (decay = κ_s for a dynamic chemical, else 0) */
+  readonly decay: Float64Array;
   /** computational cells per axis (2·points when mirrored) */
   readonly nx: number;
   readonly ny: number;
@@ -61,7 +68,7 @@ export class SpectralField {
   readonly dk: number;
   readonly cellSize: number;
   readonly rho0: Float64Array;
-  /** implicit diffusivity D̃_m */
+  /** implicit diffusivity per evolved field: D̃_m for particles, D_s for dynamic chemicals */
   readonly dImplicit: Float64Array;
   readonly dSpecies: Float64Array;
   readonly volume: Float64Array;
@@ -142,10 +149,10 @@ export class SpectralField {
     this.phiMax = phiMax;
     this.crowding = mix.crowding;
     this.twoB = new Float64Array(M * M);
-    this.dImplicit = new Float64Array(M);
+    const dImplicit: number[] = [];
     for (let a = 0; a < M; a++) {
       for (let b = 0; b < M; b++) this.twoB[a * M + b] = mix.crowding ? 2 * secondVirial(mix.species[a]!.radius, mix.species[b]!.radius) : 0;
-      this.dImplicit[a] = this.dSpecies[a]! * (1 + this.rho0[a]! * this.twoB[a * M + a]!);
+      dImplicit.push(this.dSpecies[a]! * (1 + this.rho0[a]! * this.twoB[a * M + a]!));
     }
 
     // the chemicals the linear engine keeps (model.ts buildModel): those that move a particle, and fuels
@@ -199,6 +206,10 @@ export class SpectralField {
       if (q.product !== null) this.sigma[q.product]! -= q.yield * rate * this.rho0[q.m]!;
     }
 
+    this.dynamic = grid.dynamic === true && S > 0;
+    this.N = M + (this.dynamic ? S : 0);
+    this.dImplicit = Float64Array.from(this.dynamic ? [...dImplicit, ...this.dChem] : dImplicit);
+    this.decay = Float64Array.from({ length: this.N }, (_, a) => (a < M ? 0 : this.kappa[a - M]!));
     this.c = Array.from({ length: S }, (_, s) => new Float64Array(this.size).fill(this.c0[s]!));
     this.re = new Float64Array(this.size);
     this.im = new Float64Array(this.size);
@@ -338,6 +349,59 @@ export class SpectralField {
   }
 
   /**
+   * Dynamic chemicals (docs/model.md §14): the chemical fields are the evolved fields M … M+S−1 of
+   * `state`. Their spectra go to (rRe, rIm)[M + s] and their explicit part — the sources
+   * Σ_m α_ms(c) ρ_m + σ_s, saturating turnover evaluated in real space — to (nRe, nIm)[M + s]; the
+   * implicit part D_s k² + κ_s is the integrator's. ∇c_s for the drift is taken from the spectrum.
+   */
+  private dynamicChemistry(state: Float64Array[], rRe: Float64Array[], rIm: Float64Array[], nRe: Float64Array[], nIm: Float64Array[]): void {
+    const { M, S, size } = this;
+    const src = this.f;
+    for (let s = 0; s < S; s++) {
+      const cs = state[M + s]!;
+      this.c[s]!.set(cs);
+      this.forward(cs, rRe[M + s]!, rIm[M + s]!);
+    }
+    for (let s = 0; s < S; s++) {
+      src.fill(this.sigma[s]!);
+      for (let a = 0; a < M; a++) {
+        const al = this.alphaConst[a * S + s]!;
+        if (al === 0) continue;
+        const r = state[a]!;
+        for (let i = 0; i < size; i++) src[i]! += al * r[i]!;
+      }
+      for (const q of this.saturating) {
+        if (q.fuel !== s && q.product !== s) continue;
+        const r = state[q.m]!;
+        const cf = state[M + q.fuel]!;
+        const sign = q.fuel === s ? -1 : q.yield;
+        for (let i = 0; i < size; i++) {
+          const c = Math.max(cf[i]!, 0);
+          src[i]! += (sign * r[i]! * q.maxRate * c) / (q.michaelis + c);
+        }
+      }
+      this.forward(src, nRe[M + s]!, nIm[M + s]!);
+      this.derivative(rRe[M + s]!, rIm[M + s]!, 0, this.gx[s]!);
+      if (this.grid.dims === 2) this.derivative(rRe[M + s]!, rIm[M + s]!, 1, this.gy[s]!);
+    }
+  }
+
+  /** The quasi-static chemical fields of densities rho, in real space (the start of a dynamic run). */
+  quasiStatic(rho: Float64Array[]): Float64Array[] {
+    const re = Array.from({ length: this.S }, () => new Float64Array(this.size));
+    const im = Array.from({ length: this.S }, () => new Float64Array(this.size));
+    this.solveChemistry(rho, re, im);
+    return re.map((r, s) => {
+      const out = new Float64Array(this.size);
+      const a = Float64Array.from(r);
+      const b = Float64Array.from(im[s]!);
+      this.inverseReal(a, b, out);
+      this.symmetrise(out);
+      return out;
+    });
+  }
+
+  /**
    * The explicit part N̂_m in Fourier space (nRe, nIm), and ρ̂_m (rRe, rIm), at densities rho.
    * The k = 0 entry of N̂ is exactly 0 (a divergence, and k² = 0).
    */
@@ -345,7 +409,8 @@ export class SpectralField {
     const { M, S, size } = this;
     const two = this.grid.dims === 2;
     for (let a = 0; a < M; a++) this.forward(rho[a]!, rRe[a]!, rIm[a]!);
-    this.solveChemistry(rho, chemRe, chemIm);
+    if (this.dynamic) this.dynamicChemistry(rho, rRe, rIm, nRe, nIm);
+    else this.solveChemistry(rho, chemRe, chemIm);
     // volume-filling factor
     const f = this.f;
     const span = this.phiMax - this.phi0;

@@ -28,6 +28,11 @@ export interface SimulateOptions {
   seed?: number;
   /** frames stored, evenly spaced, first and last included (default 201 in 1D, 41 in 2D) */
   frames?: number;
+  /**
+   * 'quasi-static' (default): the chemical fields are solved exactly at every evaluation; 'dynamic': they evolve,
+   * ∂c/∂t = D∇²c − κc + sources, starting from the quasi-static fields of the starting densities (docs/model.md §14)
+   */
+  chemicals?: 'quasi-static' | 'dynamic';
   /** φ_max of the volume-filling factor (default CLOSE_PACKING) */
   maxVolumeFraction?: number;
   /** a starting state instead of the noise: density of species m at a cell centre (x, y in m) */
@@ -226,7 +231,9 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   const duration = options.duration ?? mix.conditions.duration ?? (lambda > 0 ? 20 / lambda : 5 * scaleTime);
   if (!(duration > 0 && Number.isFinite(duration))) throw new EngineInputError('duration', 'must be a positive number of seconds');
 
-  const field = new SpectralField(mix, { dims, points, length, mirror: walls === 'sealed' }, phiMax);
+  const chemicals = options.chemicals ?? 'quasi-static';
+  if (chemicals !== 'quasi-static' && chemicals !== 'dynamic') throw new EngineInputError('chemicals', "must be 'quasi-static' or 'dynamic'");
+  const field = new SpectralField(mix, { dims, points, length, mirror: walls === 'sealed', dynamic: chemicals === 'dynamic' }, phiMax);
   // the chamber mode index of the fastest wavelength along an axis (cos(nπx/L) sealed, e^{2πinx/L} periodic)
   const linearWl = analysis.fastestMode.wavelength;
   const fastestIndex = linearWl !== null && lambda > 0 ? (walls === 'sealed' ? 2 : 1) * (length / linearWl) : null;
@@ -267,6 +274,7 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
     field.fromChamber(v, out);
     initial.push(out);
   }
+  if (field.dynamic) initial.push(...field.quasiStatic(initial));
   const integ = new Integrator(field, initial, tolerance);
   const total0 = integ.rho.map((r) => field.chamberSum(r));
 
@@ -290,11 +298,12 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   const record = (t: number) => {
     const { re, im } = integ.spectra();
     if (sampling) {
-      const row = new Float64Array(modes.length * M * 2);
+      const Nf = field.N;
+      const row = new Float64Array(modes.length * Nf * 2);
       modes.forEach((i, q) => {
-        for (let a = 0; a < M; a++) {
-          row[(q * M + a) * 2] = re[a]![i]!;
-          row[(q * M + a) * 2 + 1] = im[a]![i]!;
+        for (let a = 0; a < Nf; a++) {
+          row[(q * Nf + a) * 2] = re[a]![i]!;
+          row[(q * Nf + a) * 2 + 1] = im[a]![i]!;
         }
       });
       samples.push(row);

@@ -56,22 +56,23 @@ export class Integrator {
     /** relative tolerance on the local error, measured against each species' fluctuation */
     readonly tolerance: number,
   ) {
-    const { M, S, size } = field;
+    const { N, S, size } = field;
+    if (initial.length !== N) throw new Error(`the integrator needs ${N} starting fields, got ${initial.length}`);
     const mk = (n: number) => Array.from({ length: n }, () => new Float64Array(size));
     this.rho = initial.map((v) => Float64Array.from(v));
-    this.rRe = mk(M);
-    this.rIm = mk(M);
-    this.nRe = mk(M);
-    this.nIm = mk(M);
-    this.hRe = mk(M);
-    this.hIm = mk(M);
+    this.rRe = mk(N);
+    this.rIm = mk(N);
+    this.nRe = mk(N);
+    this.nIm = mk(N);
+    this.hRe = mk(N);
+    this.hIm = mk(N);
     this.cRe = mk(S);
     this.cIm = mk(S);
-    this.yFull = mk(M);
-    this.yHalf = mk(M);
-    this.sRe = mk(M);
-    this.sIm = mk(M);
-    this.y2 = mk(M);
+    this.yFull = mk(N);
+    this.yHalf = mk(N);
+    this.sRe = mk(N);
+    this.sIm = mk(N);
+    this.y2 = mk(N);
     this.re = new Float64Array(size);
     this.im = new Float64Array(size);
     this.mean = Float64Array.from(this.rho.map((r) => r.reduce((a, b) => a + b, 0) / size));
@@ -94,14 +95,15 @@ export class Integrator {
     const f = this.field;
     const re = this.re;
     const im = this.im;
-    for (let a = 0; a < f.M; a++) {
+    for (let a = 0; a < f.N; a++) {
       const D = f.dImplicit[a]!;
+      const kappa = f.decay[a]!;
       const sr = sRe[a]!;
       const si = sIm[a]!;
       const nr = nRe[a]!;
       const ni = nIm[a]!;
       for (let i = 0; i < f.size; i++) {
-        const z = D * f.k2[i]! * h;
+        const z = (D * f.k2[i]! + kappa) * h;
         const e = Math.exp(-z);
         const phi = z === 0 ? h : (-Math.expm1(-z) / z) * h;
         re[i] = e * sr[i]! + phi * nr[i]!;
@@ -131,20 +133,24 @@ export class Integrator {
     f.explicit(hRho, sRe, sIm, tmpNRe, tmpNIm, this.cRe, this.cIm);
     const y2 = this.y2;
     this.etd(sRe, sIm, tmpNRe, tmpNIm, h / 2, y2);
-    // error: max over species of |y2 − y1| against tol × the species' fluctuation (floor 1e-8 of its mean)
+    // error: max over evolved fields of |y2 − y1| against tol × the field's fluctuation about its starting mean (floor
+    // 1e-8 of that mean; a dynamic chemical with a zero mean: of its largest value)
     let err = 0;
-    for (let a = 0; a < f.M; a++) {
+    for (let a = 0; a < f.N; a++) {
       const mean = this.mean[a]!;
-      if (mean === 0) continue;
       const y1 = this.yFull[a]!;
       const yb = y2[a]!;
       let diff = 0;
       let fluct = 0;
+      let largest = 0;
       for (let i = 0; i < f.size; i++) {
         diff = Math.max(diff, Math.abs(yb[i]! - y1[i]!));
         fluct = Math.max(fluct, Math.abs(yb[i]! - mean));
+        largest = Math.max(largest, Math.abs(yb[i]!));
       }
-      err = Math.max(err, diff / (this.tolerance * Math.max(fluct, 1e-8 * mean)));
+      const scale = a < f.M ? mean : Math.max(Math.abs(mean), largest);
+      if (scale === 0) continue;
+      err = Math.max(err, diff / (this.tolerance * Math.max(fluct, 1e-8 * scale)));
     }
     if (!(err <= 1)) {
       this.stats.rejected++;
@@ -174,13 +180,13 @@ export class Integrator {
       this.stats.rejected++;
       return { taken: false, err, negative: true };
     }
-    for (let a = 0; a < f.M; a++) {
+    for (let a = 0; a < f.N; a++) {
       const y1 = this.yFull[a]!;
       const yb = y2[a]!;
       if (!negExtrap) for (let i = 0; i < f.size; i++) yb[i] = 2 * yb[i]! - y1[i]!;
-      if (negHalf > 0) this.repair(yb, beyondRounding);
+      if (a < f.M && negHalf > 0) this.repair(yb, beyondRounding);
     }
-    for (let a = 0; a < f.M; a++) save[a]!.set(y2[a]!);
+    for (let a = 0; a < f.N; a++) save[a]!.set(y2[a]!);
     this.fresh = false;
     this.stats.accepted++;
     return { taken: true, err, negative: negHalf > 0 };

@@ -83,17 +83,24 @@ export interface Measured {
  */
 export function measureGrowth(field: SpectralField, modes: number[], samples: Float64Array[], interval: number, mean: Float64Array): Measured {
   const none: Measured = { growthRate: null, wavelength: null, oscillationPeriod: null, mode: null, window: interval * Math.max(0, samples.length - 1) };
+  // every evolved field enters the propagator (dynamic chemicals too: the state is not closed without them), each
+  // relative to its mean (a chemical with a zero mean: as it is); the amplitude that ranks modes is the particles' only
   const live: number[] = [];
-  for (let a = 0; a < field.M; a++) if (mean[a]! > 0) live.push(a);
+  const scale = new Float64Array(field.N);
+  for (let a = 0; a < field.N; a++) {
+    if (a < field.M ? mean[a]! > 0 : true) live.push(a);
+    scale[a] = a < field.M ? mean[a]! : Math.abs(mean[a]!) > 0 ? Math.abs(mean[a]!) : 1;
+  }
   const n = live.length;
   const J = samples.length - 1;
   if (n === 0 || J < n + 2) return none;
-  const M = field.M;
+  const M = field.N;
   const amp = (j: number, q: number) => {
     let s = 0;
     for (const a of live) {
-      const r = samples[j]![(q * M + a) * 2]! / mean[a]!;
-      const i = samples[j]![(q * M + a) * 2 + 1]! / mean[a]!;
+      if (a >= field.M) continue;
+      const r = samples[j]![(q * M + a) * 2]! / scale[a]!;
+      const i = samples[j]![(q * M + a) * 2 + 1]! / scale[a]!;
       s += r * r + i * i;
     }
     return Math.sqrt(s);
@@ -109,8 +116,8 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
     const H = new Float64Array(n * n);
     for (let j = 0; j < J; j++) {
       for (let part = 0; part < 2; part++) {
-        const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / mean[a]!);
-        const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / mean[a]!);
+        const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / scale[a]!);
+        const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / scale[a]!);
         // each pair weighted equally (normalised by |x|): the late, largest samples, where harmonics of the
         // strongest modes begin to feed the weaker ones, do not dominate the fit
         const norm = Math.hypot(...x);
@@ -136,8 +143,8 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
     let tot = 0;
     for (let j = 0; j < J; j++) {
       for (let part = 0; part < 2; part++) {
-        const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / mean[a]!);
-        const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / mean[a]!);
+        const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / scale[a]!);
+        const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / scale[a]!);
         const norm = Math.hypot(...x);
         if (!(norm > 0)) continue;
         for (let r = 0; r < n; r++) {
