@@ -44,7 +44,7 @@ describe('shrink', () => {
     k!.positions.forEach((x, p) => expect(Math.abs(x - (4 * p + 2) * (L / 512))).toBeLessThanOrEqual(5e-4 * x));
     expect(k!.block).toBe(4);
     expect(k!.simulated).toEqual({ points: 512, times: 201 });
-    expect(k!.downsampled).toBe('101 of the 201 stored times (one in 2); 128 positions, each the mean of 4 of the 512 simulated cells');
+    expect(k!.downsampled).toBe('101 of the 201 stored times, evenly spaced; 128 positions, each the mean of 4 of the 512 simulated cells');
     const dev = decode(k!.deviation);
     for (let j = 0; j < 101; j++) {
       const a = dev[0]![j]!;
@@ -88,7 +88,7 @@ describe('shrink', () => {
     const { kymograph: k } = shrink(frames(1, 128, 201, 5, 1), MEANS);
     expect(k!.block).toBe(1);
     expect(k!.positions).toHaveLength(128);
-    expect(k!.downsampled).toBe('101 of the 201 stored times (one in 2); all 128 simulated cells');
+    expect(k!.downsampled).toBe('101 of the 201 stored times, evenly spaced; all 128 simulated cells');
     const { frames: f } = shrink(frames(2, 32, 12, 5, 1), MEANS);
     expect(f!.block).toBe(1);
     expect(f!.points).toBe(32);
@@ -103,14 +103,21 @@ describe('shrink', () => {
 });
 
 describe('pickFrames', () => {
-  it('every k-th frame when k divides T − 1, else evenly by rounding; first and last always', () => {
-    expect(pickFrames(201, 101)).toEqual(Array.from({ length: 101 }, (_, j) => 2 * j));
-    expect(pickFrames(12, 12)).toEqual(Array.from({ length: 12 }, (_, j) => j));
-    expect(pickFrames(3, 12)).toEqual([0, 1, 2]);
-    const odd = pickFrames(200, 101);
-    expect(odd).toHaveLength(101);
-    expect(odd[0]).toBe(0);
-    expect(odd[100]).toBe(199);
+  it('the frames nearest to evenly spaced times, first and last always', () => {
+    const even = (T: number) => Array.from({ length: T }, (_, f) => 10 * f);
+    expect(pickFrames(even(201), 101)).toEqual(Array.from({ length: 101 }, (_, j) => 2 * j));
+    expect(pickFrames(even(12), 12)).toEqual(Array.from({ length: 12 }, (_, j) => j));
+    expect(pickFrames(even(3), 12)).toEqual([0, 1, 2]);
+    // the engine's extra frame at the end of a run a rounding short of its last frame time: still every 2nd, then the end
+    const extra = [...even(201), 2000 + 1e-9];
+    expect(pickFrames(extra, 101)).toEqual([...Array.from({ length: 100 }, (_, j) => 2 * j), 201]);
+    // a run stopped at its step limit at 1234 s: frames every 10 s to 1230, then 1234; 101 picks about 12.3 s apart
+    const stopped = [...even(124), 1234];
+    const got = pickFrames(stopped, 101);
+    expect(got).toHaveLength(101);
+    expect(got[0]).toBe(0);
+    expect(got[100]).toBe(124);
+    got.forEach((f, j) => expect(Math.abs(stopped[f]! - (1234 * j) / 100)).toBeLessThanOrEqual(5));
   });
 });
 

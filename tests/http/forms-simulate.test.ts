@@ -58,14 +58,15 @@ describe('simulate at doses of a plan', () => {
     expect(got.summary).toEqual(JSON.parse(JSON.stringify(direct.summary)));
     expect(got.linear.growthRate).toBe(a.growthRate);
     expect(got.linear.composition).toEqual(JSON.parse(JSON.stringify(a.composition)));
-    // the kymograph: every 2nd of the 201 stored frames, 128 positions each the mean of 2 of the 256 cells
+    // the kymograph: 101 of the 201 stored frames (evenly spaced: every 2nd), 128 positions each the mean of 2 of the 256 cells
     const k = got.kymograph;
     expect(got.frames).toBeNull();
     expect(k.times).toHaveLength(101);
     expect(k.positions).toHaveLength(128);
     expect(k.block).toBe(2);
     expect(k.simulated).toEqual({ points: 256, times: 201 });
-    expect(k.downsampled).toBe('101 of the 201 stored times (one in 2); 128 positions, each the mean of 2 of the 256 simulated cells');
+    expect(direct.frames.times).toHaveLength(201);
+    expect(k.downsampled).toBe('101 of the 201 stored times, evenly spaced; 128 positions, each the mean of 2 of the 256 simulated cells');
     const h = direct.summary.grid.cellSize;
     k.positions.forEach((x: number, p: number) => expect(Math.abs(x - (2 * p + 1) * h)).toBeLessThanOrEqual(5e-4 * x));
     k.times.forEach((t: number, j: number) => expect(Math.abs(t - direct.frames.times[2 * j]!)).toBeLessThanOrEqual(5e-4 * direct.frames.times[2 * j]!));

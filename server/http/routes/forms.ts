@@ -8,8 +8,8 @@
  * inputs), dose after dose in the worker pool, progress over all doses, cancellable. Without doses it takes
  * the candidate's default bench-sheet series (sheetService.series: the sheet's own chooseSeries). The result
  * holds per dose the summary, the linear prediction with the mode's composition, and the pictures made compact
- * for JSON (shrink; 1D: a kymograph of 101 of the engine's 201 frames at ≤ 128 positions; 2D: 12 frames of
- * ≤ 64 × 64 cells; cells averaged in blocks, which keeps each species' amount): each species' departure from its
+ * for JSON (shrink; 1D: a kymograph of 101 of the engine's 201 frames, evenly spaced in time, at ≤ 128
+ * positions; 2D: 12 frames of ≤ 64 × 64 cells; cells averaged in blocks, which keeps each species' amount): each species' departure from its
  * mean (density ÷ mean − 1) as integers in ±999 times a scale per species and frame, so the tiny starting
  * perturbation keeps its digits. Each picture says what it holds of the simulated grid (block, simulated,
  * downsampled); the summary is measured on the full grid.
@@ -40,7 +40,7 @@ export const SIMULATE_BOUNDS = {
   maxDuration: 30 * 86_400,
   /**
    * What the job keeps for the pictures (see shrink): 1D, the engine stores 201 frames (its summary — dominant
-   * length, bands — reads all of them) and the kymograph keeps every 2nd (101 times) at ≤ 128 positions, each
+   * length, bands — reads all of them) and the kymograph keeps 101 evenly spaced in time at ≤ 128 positions, each
    * the mean of a block of cells; 2D, 12 frames of ≤ 64 × 64 cells, each the mean of a block of cells.
    */
   kymograph: { engineFrames: 201, times: 101, positions: 128 },
@@ -79,12 +79,25 @@ export function decode(d: { scale: number[][]; values: number[][][] }): number[]
   return d.values.map((frames, m) => frames.map((row, j) => row.map((q) => q * d.scale[m]![j]!)));
 }
 
-/** Indices of at most `keep` of T evenly spaced frames, the first and the last included (every k-th when k divides T − 1). */
-export function pickFrames(T: number, keep: number): number[] {
+/**
+ * Which of the stored frames to keep: at most `keep`, the ones nearest to evenly spaced times from the first to
+ * the last (both kept). The engine's frames are evenly spaced but for one it adds at the end of the run when
+ * that falls between two (a run stopped at its step limit, or a last step a rounding short), so picking by
+ * index would not be even in time.
+ */
+export function pickFrames(times: number[], keep: number): number[] {
+  const T = times.length;
   if (T <= keep) return Array.from({ length: T }, (_, j) => j);
-  const k = Math.ceil((T - 1) / (keep - 1));
-  if ((T - 1) % k === 0) return Array.from({ length: (T - 1) / k + 1 }, (_, j) => j * k);
-  return Array.from({ length: keep }, (_, j) => Math.round((j * (T - 1)) / (keep - 1)));
+  const t0 = times[0]!;
+  const t1 = times[T - 1]!;
+  const out: number[] = [];
+  let i = 0;
+  for (let j = 0; j < keep; j++) {
+    const target = t0 + ((t1 - t0) * j) / (keep - 1);
+    while (i + 1 < T && Math.abs(times[i + 1]! - target) <= Math.abs(times[i]! - target)) i++;
+    if (out[out.length - 1] !== i) out.push(i);
+  }
+  return out;
 }
 
 const bodySchema = z
@@ -156,7 +169,7 @@ export function shrink(result: SimulationResult, means: number[]): Pick<Simulate
   const dims = frames.dims;
   const M = frames.species.length;
   const T = frames.times.length;
-  const tIdx = pickFrames(T, dims === 1 ? SIMULATE_BOUNDS.kymograph.times : SIMULATE_BOUNDS.frames2d.frames);
+  const tIdx = pickFrames(frames.times, dims === 1 ? SIMULATE_BOUNDS.kymograph.times : SIMULATE_BOUNDS.frames2d.frames);
   const bound = dims === 1 ? SIMULATE_BOUNDS.kymograph.positions : SIMULATE_BOUNDS.frames2d.points;
   const bin = Math.max(1, Math.ceil(n / bound));
   if (n % bin !== 0) throw new Error(`shrink: ${n} cells do not split into blocks of ${bin}`);
@@ -182,9 +195,7 @@ export function shrink(result: SimulationResult, means: number[]): Pick<Simulate
     deviation.values.push(values);
   }
   const times = tIdx.map((f) => sig4(frames.times[f]!));
-  const step = tIdx.length > 1 ? tIdx[1]! - tIdx[0]! : 1;
-  const every = step > 1 && tIdx.every((f, j) => f === j * step) ? ` (one in ${step})` : '';
-  const when = tIdx.length === T ? `all ${T} stored times` : `${tIdx.length} of the ${T} stored times${every}`;
+  const when = tIdx.length === T ? `all ${T} stored times` : `${tIdx.length} of the ${T} stored times, evenly spaced`;
   const simulated = { points: n, times: T };
   if (dims === 1) {
     const where = bin === 1 ? `all ${n} simulated cells` : `${P} positions, each the mean of ${bin} of the ${n} simulated cells`;
@@ -203,7 +214,7 @@ export const formsRoutes: FastifyPluginAsync = async (base) => {
       summary: "Start a job that simulates what forms past onset at each dose of a candidate's bench-sheet series (or the doses given)",
       description:
         "Answers 202 with the job (header location: /api/jobs/:id). For each dose, the plan's base with the candidate at that dose (on the plan's stored SI inputs, as the spectrum route builds it) is simulated with the nonlinear model of docs/model.md §14–§16 from a seeded random perturbation; the job's result is { plan, candidate, dims, points, seed, durationFrom, series: { from, note } | null, doses: [{ dose, factor, linear: { state, growthRate, growthTime, wavelength, oscillationPeriod, composition }, summary (as `brink simulate` prints it), species: [{ id, mean, particleVolume }], kymograph (1D: times, positions, block, simulated, downsampled, deviation) | null, frames (2D: times, points, cellSize, block, simulated, downsampled, deviation) | null }] }. " +
-        "The pictures are made compact: 1D keeps 101 of the engine's 201 stored times (one in 2) at ≤ 128 positions, 2D 12 frames of ≤ 64 × 64 cells; a shown cell is the mean of block (1D) or block × block (2D) simulated cells, so each species keeps its amount; points and cellSize are those of the shown cells, simulated: { points, times } the simulated cells per side and the engine's stored frames, downsampled the same in words; the summary (clusters, dominant length, bands, growth) is measured on the full grid and every stored frame. " +
+        "The pictures are made compact: 1D keeps 101 of the engine's 201 stored times (those nearest to evenly spaced times; the engine adds a frame at the end of a run that stops between two) at ≤ 128 positions, 2D 12 frames of ≤ 64 × 64 cells; a shown cell is the mean of block (1D) or block × block (2D) simulated cells, so each species keeps its amount; points and cellSize are those of the shown cells, simulated: { points, times } the simulated cells per side and the engine's stored frames, downsampled the same in words; the summary (clusters, dominant length, bands, growth) is measured on the full grid and every stored frame. " +
         "deviation: { scale[species][frame], values[species][frame][cell] }: density ÷ the species' mean − 1 = values × scale to within scale ÷ 2; values are integers in ±999, scale (3 significant digits) is 1/999 of that frame's largest departure (0 for a species absent at the dose); cells are positions in 1D, rows of y with x fastest in 2D. " +
         `Bounds (the work budget of one request): at most ${SIMULATE_BOUNDS.doses} doses; points a power of two, 32–512 in 1D, 16–64 in 2D; duration at most 30 days, or growthTimes 1–40; each dose stops after ${SIMULATE_BOUNDS.maxSteps[1]} steps in 1D, ${SIMULATE_BOUNDS.maxSteps[2]} in 2D (its summary then warns step-limit). Out of bounds: 400 before any job. A candidate that does not cross has no series: give doses.`,
       params: z.object({ id: z.coerce.number().int().min(1), species: keySchema }),

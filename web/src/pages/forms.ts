@@ -57,6 +57,12 @@ function devOf(d: Dose): number[][][] {
   return dev;
 }
 
+/** The note in the picture's caption, after its words. */
+function withNote(fig: HTMLElement, note: HTMLElement): HTMLElement {
+  (fig.querySelector('figcaption') ?? fig).append(note);
+  return fig;
+}
+
 /** Under a picture, in words: what it shows of the simulated grid (a display grid is not the simulation's). */
 function shownNote(d: Dose): HTMLElement {
   const s = (d.kymograph ?? d.frames)!;
@@ -340,7 +346,7 @@ function doseSection(d: Dose, show: Show, index: number): HTMLElement {
     { class: 'dose', 'aria-labelledby': `dose-${index}` },
     h('h3', { id: `dose-${index}` }, title, ' ', h('span', { class: `state state-${d.linear.state}` }, STATES[d.linear.state]?.label ?? d.linear.state)),
     h('p', { class: 'muted' }, `Simulated ${fmtDuration(s.time)}${s.run.completed ? '' : ` of ${fmtDuration(s.duration)} asked for`} in ${s.run.steps} steps; particle numbers kept to ${s.conservation.maxRelativeError.toExponential(1)}; largest local volume fraction ${formatNumber(100 * s.run.maxVolumeFraction, 3)} %.`),
-    h('div', { class: 'dose-grid' }, h('div', null, s.grid.dims === 1 ? kymograph(d, show) : framesView(d, show), shownNote(d)), h('div', null, growthTable(d), dominantPlot(d))),
+    h('div', { class: 'dose-grid' }, h('div', null, withNote(s.grid.dims === 1 ? kymograph(d, show) : framesView(d, show), shownNote(d))), h('div', null, growthTable(d), dominantPlot(d))),
     h('h4', null, 'Clusters and their make-up'),
     clustersView(d),
     bands,
