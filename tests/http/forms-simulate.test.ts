@@ -11,7 +11,7 @@ import { analyze } from '../../server/engine/analyze.js';
 import { withDose } from '../../server/engine/planner.js';
 import { simulate } from '../../server/engine/simulate/index.js';
 import type { Mixture, Species } from '../../server/engine/types.js';
-import { SIMULATE_BOUNDS } from '../../server/http/routes/forms.js';
+import { decode, SIMULATE_BOUNDS } from '../../server/http/routes/forms.js';
 import { freshApp } from '../helpers/app.js';
 import { planRequest, postPlan } from '../helpers/plans.js';
 
@@ -41,9 +41,9 @@ async function run(body: unknown, species = 'ptj-1um-b07') {
 }
 
 describe('simulate at doses of a plan', () => {
-  it('the job at one dose is simulate() on the same mixture with the same seed', async () => {
+  it('the job at one dose is simulate() on the same mixture with the same seed, its kymograph the block means of the frames', async () => {
     const dose = 2.5e14; // 2.5e8 per mL: above the B07 threshold of this plan (about 1.5e8 per mL)
-    const { job } = await run({ doses: ['2.5e8 1/mL'], dims: 1, points: 64, growthTimes: 8, seed: 7 });
+    const { job } = await run({ doses: ['2.5e8 1/mL'], dims: 1, points: 256, growthTimes: 8, seed: 7 });
     expect(job.state).toBe('done');
     const got = job.result.doses[0];
     expect(job.result.doses).toHaveLength(1);
@@ -53,28 +53,51 @@ describe('simulate at doses of a plan', () => {
     const mix = withDose(plan.inputs.base, d, dose, plan.request.dosing ?? 'add');
     const a = analyze(mix);
     expect(a.growthRate).toBeGreaterThan(0);
-    const direct = simulate(mix, { dims: 1, points: 64, seed: 7, frames: 200, maxSteps: SIMULATE_BOUNDS.maxSteps[1], duration: 8 / a.growthRate });
-    // the summary as it crossed the worker and JSON
+    const direct = simulate(mix, { dims: 1, points: 256, seed: 7, frames: 201, maxSteps: SIMULATE_BOUNDS.maxSteps[1], duration: 8 / a.growthRate });
+    // the summary as it crossed the worker and JSON (measured on the full grid and all 201 frames)
     expect(got.summary).toEqual(JSON.parse(JSON.stringify(direct.summary)));
     expect(got.linear.growthRate).toBe(a.growthRate);
     expect(got.linear.composition).toEqual(JSON.parse(JSON.stringify(a.composition)));
-    // the kymograph: density ÷ mean − 1 at 4 significant digits, every stored frame (200) at every cell (64)
+    // the kymograph: 101 of the 201 stored frames (evenly spaced: every 2nd), 128 positions each the mean of 2 of the 256 cells
     const k = got.kymograph;
-    expect(k.times).toHaveLength(200);
-    expect(k.positions).toHaveLength(64);
     expect(got.frames).toBeNull();
+    expect(k.times).toHaveLength(101);
+    expect(k.positions).toHaveLength(128);
+    expect(k.block).toBe(2);
+    expect(k.simulated).toEqual({ points: 256, times: 201 });
+    expect(direct.frames.times).toHaveLength(201);
+    expect(k.downsampled).toBe('101 of the 201 stored times, evenly spaced; 128 positions, each the mean of 2 of the 256 simulated cells');
+    const h = direct.summary.grid.cellSize;
+    k.positions.forEach((x: number, p: number) => expect(Math.abs(x - (2 * p + 1) * h)).toBeLessThanOrEqual(5e-4 * x));
+    k.times.forEach((t: number, j: number) => expect(Math.abs(t - direct.frames.times[2 * j]!)).toBeLessThanOrEqual(5e-4 * direct.frames.times[2 * j]!));
+    const dev = decode(k.deviation);
     for (const [m, sp] of mix.species.entries()) {
-      for (const f of [0, 57, 199]) {
-        const row = direct.frames.data[f]!.subarray(m * 64, (m + 1) * 64);
-        for (let i = 0; i < 64; i++) {
-          const dev = row[i]! / sp.density - 1;
-          // Float32 frames: the departure is known to about 1e-7 of the density
-          expect(Math.abs(k.deviation[m][f][i] - dev)).toBeLessThanOrEqual(1e-3 * Math.abs(dev) + 2e-7);
+      for (let j = 0; j < 101; j++) {
+        const scale = k.deviation.scale[m][j];
+        const q: number[] = k.deviation.values[m][j];
+        // integers in ±999, the largest at the top of the range (scale rounded up to 3 digits: ≥ 999/1.01)
+        expect(q.every((v) => Number.isInteger(v) && Math.abs(v) <= 999)).toBe(true);
+        expect(Math.max(...q.map(Math.abs))).toBeGreaterThanOrEqual(989);
+        const row = direct.frames.data[2 * j]!.subarray(m * 256, (m + 1) * 256);
+        let full = 0;
+        for (let p = 0; p < 128; p++) {
+          const block = (row[2 * p]! + row[2 * p + 1]!) / 2 / sp.density - 1;
+          // the block mean of the simulated cells, to within half the frame's scale
+          expect(Math.abs(dev[m]![j]![p]! - block)).toBeLessThanOrEqual(0.5 * scale * (1 + 1e-9) + 1e-12);
+          full += block / 128;
         }
+        // blocks keep the amount: the mean departure shown is that of the full grid, which is ~0 (the run keeps
+        // each species' particle number to conservation.maxRelativeError; Float32 frames add ~1e-7)
+        const shown = dev[m]![j]!.reduce((x, y) => x + y, 0) / 128;
+        expect(Math.abs(shown - full)).toBeLessThanOrEqual(0.5 * scale + 1e-12);
+        expect(Math.abs(shown)).toBeLessThanOrEqual(0.5 * scale + direct.summary.conservation.maxRelativeError + 1e-6);
       }
     }
+    // the starting perturbation (rms 1e-5 of the mean) keeps its digits: the first frame has its own scale
+    expect(k.deviation.scale[1][0]).toBeLessThan(1e-6);
+    expect(Math.max(...dev[1]![0]!.map(Math.abs))).toBeGreaterThan(5e-6);
     // something did form: the pattern departs from the uniform state by far more than the seed's 1e-5
-    const last = k.deviation[1][199] as number[];
+    const last = dev[1]![100]!;
     expect(Math.max(...last) - Math.min(...last)).toBeGreaterThan(0.01);
   }, 120_000);
 
@@ -102,15 +125,21 @@ describe('simulate at doses of a plan', () => {
     expect(job.result.doses[1].factor).toBeNull();
   }, 120_000);
 
-  it('2D: at most 12 frames of points × points', async () => {
+  it('2D: 12 frames of points × points (at most 64 × 64: see shrink below)', async () => {
     const { job } = await run({ doses: ['3e8 1/mL'], dims: 2, points: 16, growthTimes: 1 });
     expect(job.state).toBe('done');
     const f = job.result.doses[0].frames;
     expect(f.times).toHaveLength(12);
-    expect(f.deviation[0]).toHaveLength(12);
-    expect(f.deviation[0][0]).toHaveLength(256);
+    expect(f.points).toBe(16);
+    expect(f.block).toBe(1);
+    expect(f.simulated).toEqual({ points: 16, times: 12 });
+    expect(f.downsampled).toBe('all 12 stored times; all 16 × 16 simulated cells');
+    expect(f.cellSize).toBe(job.result.doses[0].summary.grid.cellSize);
+    expect(f.deviation.scale[0]).toHaveLength(12);
+    expect(f.deviation.values[0]).toHaveLength(12);
+    expect(f.deviation.values[0][0]).toHaveLength(256);
     // the starting perturbation (rms 1e-5 of the mean) survives the rounding
-    expect(Math.max(...f.deviation[0][0].map(Math.abs))).toBeGreaterThan(1e-6);
+    expect(Math.max(...decode(f.deviation)[0]![0]!.map(Math.abs))).toBeGreaterThan(1e-6);
     expect(job.result.doses[0].kymograph).toBeNull();
   }, 120_000);
 

@@ -51,7 +51,8 @@ describe('the What forms page', () => {
     await page.waitForSelector('form.options');
     expect(await page.textContent('h1')).toBe('What forms past onset');
     await page.screenshot({ path: 'screenshots/forms-empty.png' });
-    await page.selectOption('#points', '32');
+    // 256 cells: the kymograph shows 128 positions, each the mean of 2 cells, and says so under the plot
+    await page.selectOption('#points', '256');
     // the default 12 growth times: a clear pattern at every dose that grows
     await page.click('form.options button[type="submit"]');
     await page.waitForSelector('section.dose', { timeout: 120_000 });
@@ -68,6 +69,12 @@ describe('the What forms page', () => {
     expect(text).toMatch(/position across the chamber \(mm\)/);
     expect(text).toMatch(/time \((min|h|s)\)/);
     expect(text).toMatch(/total volume fraction \(%\)/);
+    // a display grid is not the simulation's: each picture says what it shows of it
+    // (the engine stores 201 frames, and one more at the end of a run that stops between two)
+    const notes = await page.$$eval('section.dose p.shown', (p) => p.map((x) => x.textContent));
+    expect(notes).toHaveLength(doses.length);
+    for (const note of notes)
+      expect(note).toMatch(/^Shown at 128 positions, each the mean of 2 of the 256 simulated cells, 101 of the 20[12] stored times\. Averaging keeps each species' amount but widens and lowers clusters narrower than a shown cell\. The clusters, lengths and growth on this page are measured on the full simulated grid\.$/);
     expect(text).toMatch(/linear prediction/);
     expect(text).toMatch(/measured in the run/);
     expect(text).toMatch(/share of its particles in clusters/);
@@ -115,6 +122,7 @@ describe('the What forms page', () => {
     const slider = page.locator('section.dose:last-of-type input[type="range"]');
     await slider.fill('0');
     expect(await page.textContent('section.dose:last-of-type output')).toMatch(/frame 1 of 12/);
+    expect(await page.textContent('section.dose:last-of-type p.shown')).toMatch(/^Shown at all 16 × 16 simulated cells, 12 frames\. The clusters/);
     await page.click('section.dose:last-of-type button:has-text("Play")');
     await page.waitForFunction(() => /frame [2-9]/.test(document.querySelector('section.dose:last-of-type output')?.textContent ?? ''), null, { timeout: 10_000 });
     await page.$eval('section.dose:last-of-type', (el) => el.scrollIntoView());

@@ -7,9 +7,12 @@
  * (docs/model.md §14–§16; the mixture at a dose as the spectrum route builds it, on the plan's stored SI
  * inputs), dose after dose in the worker pool, progress over all doses, cancellable. Without doses it takes
  * the candidate's default bench-sheet series (sheetService.series: the sheet's own chooseSeries). The result
- * holds per dose the summary, the linear prediction with the mode's composition, and the frames downsampled
- * for JSON (1D: a kymograph; 2D: a few frames): each species' departure from its mean (density ÷ mean − 1, so the
- * tiny starting perturbation survives the rounding), 4 significant digits.
+ * holds per dose the summary, the linear prediction with the mode's composition, and the pictures made compact
+ * for JSON (shrink; 1D: a kymograph of 101 of the engine's 201 frames, evenly spaced in time, at ≤ 128
+ * positions; 2D: 12 frames of ≤ 64 × 64 cells; cells averaged in blocks, which keeps each species' amount): each species' departure from its
+ * mean (density ÷ mean − 1) as integers in ±999 times a scale per species and frame, so the tiny starting
+ * perturbation keeps its digits. Each picture says what it holds of the simulated grid (block, simulated,
+ * downsampled); the summary is measured on the full grid.
  */
 import type { FastifyPluginAsync } from 'fastify';
 import type { ZodTypeProvider } from 'fastify-type-provider-zod';
@@ -35,13 +38,67 @@ export const SIMULATE_BOUNDS = {
   growthTimes: { min: 1, max: 40, default: 12 },
   /** the longest simulated time one may ask for, s (30 days) */
   maxDuration: 30 * 86_400,
-  /** stored: at most this many times × positions (1D), frames of points × points (2D) */
-  kymograph: { times: 200, positions: 256 },
-  frames2d: 12,
+  /**
+   * What the job keeps for the pictures (see shrink): 1D, the engine stores 201 frames (its summary — dominant
+   * length, bands — reads all of them) and the kymograph keeps 101 evenly spaced in time at ≤ 128 positions, each
+   * the mean of a block of cells; 2D, 12 frames of ≤ 64 × 64 cells, each the mean of a block of cells.
+   */
+  kymograph: { engineFrames: 201, times: 101, positions: 128 },
+  frames2d: { frames: 12, points: 64 },
+  /** the deviations are stored as integers in ±QUANTA times a scale per species and frame */
+  quanta: 999,
 } as const;
 
 const pow2 = (n: number) => Number.isInteger(n) && n > 0 && (n & (n - 1)) === 0;
 const sig4 = (x: number) => (x === 0 || !Number.isFinite(x) ? 0 : Number(x.toPrecision(4)));
+
+/** The smallest number of 3 significant digits ≥ x > 0. */
+function up3(x: number): number {
+  const p = 10 ** (Math.floor(Math.log10(x)) - 2);
+  let s = Number((Math.ceil(x / p - 1e-9) * p).toPrecision(3));
+  if (s < x) s = Number(((Math.round(s / p) + 1) * p).toPrecision(3));
+  return s;
+}
+
+/**
+ * One row of departures as integers and a scale: value × scale = the departure to within scale ÷ 2, where
+ * scale (3 significant digits) makes the row's largest |departure| about ±QUANTA. A row that is all zero
+ * (a species absent at this dose) has scale 0.
+ */
+export function quantise(row: ArrayLike<number>): { scale: number; values: number[] } {
+  let big = 0;
+  for (let i = 0; i < row.length; i++) big = Math.max(big, Math.abs(row[i]!));
+  if (!(big > 0) || !Number.isFinite(big)) return { scale: 0, values: Array.from({ length: row.length }, () => 0) };
+  const Q = SIMULATE_BOUNDS.quanta;
+  const scale = up3(big / Q);
+  return { scale, values: Array.from(row, (v) => Math.max(-Q, Math.min(Q, Math.round(v / scale))) || 0) };
+}
+
+/** The departures decoded: deviation[species][frame][cell] = values × scale. */
+export function decode(d: { scale: number[][]; values: number[][][] }): number[][][] {
+  return d.values.map((frames, m) => frames.map((row, j) => row.map((q) => q * d.scale[m]![j]!)));
+}
+
+/**
+ * Which of the stored frames to keep: at most `keep`, the ones nearest to evenly spaced times from the first to
+ * the last (both kept). The engine's frames are evenly spaced but for one it adds at the end of the run when
+ * that falls between two (a run stopped at its step limit, or a last step a rounding short), so picking by
+ * index would not be even in time.
+ */
+export function pickFrames(times: number[], keep: number): number[] {
+  const T = times.length;
+  if (T <= keep) return Array.from({ length: T }, (_, j) => j);
+  const t0 = times[0]!;
+  const t1 = times[T - 1]!;
+  const out: number[] = [];
+  let i = 0;
+  for (let j = 0; j < keep; j++) {
+    const target = t0 + ((t1 - t0) * j) / (keep - 1);
+    while (i + 1 < T && Math.abs(times[i + 1]! - target) <= Math.abs(times[i]! - target)) i++;
+    if (out[out.length - 1] !== i) out.push(i);
+  }
+  return out;
+}
 
 const bodySchema = z
   .strictObject({
@@ -68,6 +125,25 @@ const bodySchema = z
   })
   .nullish();
 
+/**
+ * The departures of a stored picture: for species m at stored frame j, density ÷ the species' mean − 1 at
+ * each shown cell = values[m][j][i] × scale[m][j] (values integers in ±999, scale of 3 significant digits:
+ * 1/999 of that frame's largest departure, so the tiny starting perturbation keeps its digits too).
+ */
+export interface Departures {
+  scale: number[][];
+  values: number[][][];
+}
+/** How much of what was simulated a picture holds. */
+export interface Shown {
+  /** simulated cells per shown cell along each axis (1: as simulated) */
+  block: number;
+  /** the simulated grid (cells per side) and the frames the engine stored */
+  simulated: { points: number; times: number };
+  /** the same in words */
+  downsampled: string;
+}
+
 export interface SimulatedDose {
   dose: number;
   /** dose ÷ the sheet's 1 × reference, when the doses are the sheet's series */
@@ -75,44 +151,59 @@ export interface SimulatedDose {
   linear: { state: AnalysisResult['state']; growthRate: number; growthTime: number | null; wavelength: number | null; oscillationPeriod: number | null; composition: AnalysisResult['composition'] };
   summary: SimulationSummary;
   species: { id: string; mean: number; particleVolume: number }[];
-  /** 1D: times (s), positions (m, cell centres), per species its departure from its mean, density ÷ mean − 1, at [time][position] */
-  kymograph: { times: number[]; positions: number[]; deviation: number[][][] } | null;
-  /** 2D: times (s), points per side, cell size (m), per species per frame density ÷ mean − 1, rows of y with x fastest */
-  frames: { times: number[]; points: number; cellSize: number; deviation: number[][][] } | null;
+  /** 1D: times (s), positions (m, centres of the shown cells), per species at [time][position] */
+  kymograph: ({ times: number[]; positions: number[]; deviation: Departures } & Shown) | null;
+  /** 2D: times (s), shown cells per side, their size (m), per species per frame, rows of y with x fastest */
+  frames: ({ times: number[]; points: number; cellSize: number; deviation: Departures } & Shown) | null;
 }
 
-/** The frames, downsampled and rounded for JSON (see SimulatedDose). */
+/**
+ * The frames made compact for JSON (see SimulatedDose): a subset of the stored times (pickFrames), the cells
+ * averaged in blocks (every species keeps its amount: the mean of the shown cells is the mean of the simulated
+ * ones, and a narrow cluster is widened and lowered, never missed), each species' departure from its mean
+ * quantised per frame (quantise).
+ */
 export function shrink(result: SimulationResult, means: number[]): Pick<SimulatedDose, 'kymograph' | 'frames'> {
   const { frames, summary } = result;
   const n = frames.points;
+  const dims = frames.dims;
   const M = frames.species.length;
-  if (frames.dims === 1) {
-    const T = frames.times.length;
-    const keepT = Math.min(T, SIMULATE_BOUNDS.kymograph.times);
-    const tIdx = Array.from({ length: keepT }, (_, j) => (keepT === 1 ? 0 : Math.round((j * (T - 1)) / (keepT - 1))));
-    const bin = Math.max(1, Math.ceil(n / SIMULATE_BOUNDS.kymograph.positions));
-    const P = Math.floor(n / bin);
-    const positions = Array.from({ length: P }, (_, p) => sig4((p * bin + bin / 2) * summary.grid.cellSize));
-    const deviation = Array.from({ length: M }, (_, a) =>
-      tIdx.map((f) => {
-        const d = frames.data[f]!;
-        const row: number[] = [];
-        for (let p = 0; p < P; p++) {
-          let acc = 0;
-          for (let i = p * bin; i < (p + 1) * bin; i++) acc += d[a * n + i]!;
-          row.push(means[a]! > 0 ? sig4(acc / bin / means[a]! - 1) : 0);
-        }
-        return row;
-      }),
-    );
-    return { kymograph: { times: tIdx.map((f) => sig4(frames.times[f]!)), positions, deviation }, frames: null };
-  }
   const T = frames.times.length;
-  const keepT = Math.min(T, SIMULATE_BOUNDS.frames2d);
-  const tIdx = Array.from({ length: keepT }, (_, j) => (keepT === 1 ? 0 : Math.round((j * (T - 1)) / (keepT - 1))));
-  const cells = n * n;
-  const deviation = Array.from({ length: M }, (_, a) => tIdx.map((f) => Array.from(frames.data[f]!.subarray(a * cells, (a + 1) * cells), (v) => (means[a]! > 0 ? sig4(v / means[a]! - 1) : 0))));
-  return { kymograph: null, frames: { times: tIdx.map((f) => sig4(frames.times[f]!)), points: n, cellSize: summary.grid.cellSize, deviation } };
+  const tIdx = pickFrames(frames.times, dims === 1 ? SIMULATE_BOUNDS.kymograph.times : SIMULATE_BOUNDS.frames2d.frames);
+  const bound = dims === 1 ? SIMULATE_BOUNDS.kymograph.positions : SIMULATE_BOUNDS.frames2d.points;
+  const bin = Math.max(1, Math.ceil(n / bound));
+  if (n % bin !== 0) throw new Error(`shrink: ${n} cells do not split into blocks of ${bin}`);
+  const P = n / bin;
+  const cells = n ** dims;
+  const deviation: Departures = { scale: [], values: [] };
+  const row = new Float64Array(P ** dims);
+  for (let a = 0; a < M; a++) {
+    const scales: number[] = [];
+    const values: number[][] = [];
+    for (const f of tIdx) {
+      const d = frames.data[f]!.subarray(a * cells, (a + 1) * cells);
+      row.fill(0);
+      if (dims === 1) for (let i = 0; i < n; i++) row[Math.floor(i / bin)]! += d[i]!;
+      else for (let y = 0; y < n; y++) for (let x = 0; x < n; x++) row[Math.floor(y / bin) * P + Math.floor(x / bin)]! += d[y * n + x]!;
+      const per = bin ** dims * means[a]!;
+      for (let i = 0; i < row.length; i++) row[i] = means[a]! > 0 ? row[i]! / per - 1 : 0;
+      const q = quantise(row);
+      scales.push(q.scale);
+      values.push(q.values);
+    }
+    deviation.scale.push(scales);
+    deviation.values.push(values);
+  }
+  const times = tIdx.map((f) => sig4(frames.times[f]!));
+  const when = tIdx.length === T ? `all ${T} stored times` : `${tIdx.length} of the ${T} stored times, evenly spaced`;
+  const simulated = { points: n, times: T };
+  if (dims === 1) {
+    const where = bin === 1 ? `all ${n} simulated cells` : `${P} positions, each the mean of ${bin} of the ${n} simulated cells`;
+    const positions = Array.from({ length: P }, (_, p) => sig4((p * bin + bin / 2) * summary.grid.cellSize));
+    return { kymograph: { times, positions, deviation, block: bin, simulated, downsampled: `${when}; ${where}` }, frames: null };
+  }
+  const where = bin === 1 ? `all ${n} × ${n} simulated cells` : `${P} × ${P} cells, each the mean of ${bin} × ${bin} of the ${n} × ${n} simulated cells`;
+  return { kymograph: null, frames: { times, points: P, cellSize: summary.grid.cellSize * bin, deviation, block: bin, simulated, downsampled: `${when}; ${where}` } };
 }
 
 export const formsRoutes: FastifyPluginAsync = async (base) => {
@@ -122,7 +213,9 @@ export const formsRoutes: FastifyPluginAsync = async (base) => {
       tags: ['planner'],
       summary: "Start a job that simulates what forms past onset at each dose of a candidate's bench-sheet series (or the doses given)",
       description:
-        "Answers 202 with the job (header location: /api/jobs/:id). For each dose, the plan's base with the candidate at that dose (on the plan's stored SI inputs, as the spectrum route builds it) is simulated with the nonlinear model of docs/model.md §14–§16 from a seeded random perturbation; the job's result is { plan, candidate, dims, points, seed, durationFrom, series: { from, note } | null, doses: [{ dose, factor, linear: { state, growthRate, growthTime, wavelength, oscillationPeriod, composition }, summary (as `brink simulate` prints it), species: [{ id, mean, particleVolume }], kymograph (1D: times, positions, deviation[species][time][position]) | null, frames (2D: times, points, cellSize, deviation[species][frame][y·points + x]) | null }] }, deviation = density ÷ the species' mean − 1, rounded to 4 significant digits, at most 200 times × 256 positions (1D) or 12 frames (2D). " +
+        "Answers 202 with the job (header location: /api/jobs/:id). For each dose, the plan's base with the candidate at that dose (on the plan's stored SI inputs, as the spectrum route builds it) is simulated with the nonlinear model of docs/model.md §14–§16 from a seeded random perturbation; the job's result is { plan, candidate, dims, points, seed, durationFrom, series: { from, note } | null, doses: [{ dose, factor, linear: { state, growthRate, growthTime, wavelength, oscillationPeriod, composition }, summary (as `brink simulate` prints it), species: [{ id, mean, particleVolume }], kymograph (1D: times, positions, block, simulated, downsampled, deviation) | null, frames (2D: times, points, cellSize, block, simulated, downsampled, deviation) | null }] }. " +
+        "The pictures are made compact: 1D keeps 101 of the engine's 201 stored times (those nearest to evenly spaced times; the engine adds a frame at the end of a run that stops between two) at ≤ 128 positions, 2D 12 frames of ≤ 64 × 64 cells; a shown cell is the mean of block (1D) or block × block (2D) simulated cells, so each species keeps its amount; points and cellSize are those of the shown cells, simulated: { points, times } the simulated cells per side and the engine's stored frames, downsampled the same in words; the summary (clusters, dominant length, bands, growth) is measured on the full grid and every stored frame. " +
+        "deviation: { scale[species][frame], values[species][frame][cell] }: density ÷ the species' mean − 1 = values × scale to within scale ÷ 2; values are integers in ±999, scale (3 significant digits) is 1/999 of that frame's largest departure (0 for a species absent at the dose); cells are positions in 1D, rows of y with x fastest in 2D. " +
         `Bounds (the work budget of one request): at most ${SIMULATE_BOUNDS.doses} doses; points a power of two, 32–512 in 1D, 16–64 in 2D; duration at most 30 days, or growthTimes 1–40; each dose stops after ${SIMULATE_BOUNDS.maxSteps[1]} steps in 1D, ${SIMULATE_BOUNDS.maxSteps[2]} in 2D (its summary then warns step-limit). Out of bounds: 400 before any job. A candidate that does not cross has no series: give doses.`,
       params: z.object({ id: z.coerce.number().int().min(1), species: keySchema }),
       body: bodySchema,
@@ -178,7 +271,7 @@ export const formsRoutes: FastifyPluginAsync = async (base) => {
           for (let i = 0; i < n; i++) {
             const a = analyses[i]!;
             const d = durationOf(a);
-            const options: SimulateTaskOptions = { dims, points, seed, frames: dims === 1 ? SIMULATE_BOUNDS.kymograph.times : SIMULATE_BOUNDS.frames2d, maxSteps: SIMULATE_BOUNDS.maxSteps[dims], ...(d !== undefined ? { duration: Math.min(d, SIMULATE_BOUNDS.maxDuration) } : {}) };
+            const options: SimulateTaskOptions = { dims, points, seed, frames: dims === 1 ? SIMULATE_BOUNDS.kymograph.engineFrames : SIMULATE_BOUNDS.frames2d.frames, maxSteps: SIMULATE_BOUNDS.maxSteps[dims], ...(d !== undefined ? { duration: Math.min(d, SIMULATE_BOUNDS.maxDuration) } : {}) };
             const label = `dose ${i + 1} of ${n}`;
             const result = await app.pool.run('simulate', { mixture: mixtures[i]!, options }, { ...ctx.runOptions, onProgress: (f, stage) => ctx.runOptions.onProgress?.((i + f) / n, `${label}: ${stage}`) });
             const means = mixtures[i]!.species.map((s) => s.density);

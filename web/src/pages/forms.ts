@@ -35,8 +35,59 @@ interface Dose {
   linear: { state: State; growthRate: number; growthTime: number | null; wavelength: number | null; oscillationPeriod: number | null; composition: { species: string; weight: number; magnitude: number }[] };
   summary: Summary;
   species: { id: string; mean: number; particleVolume: number }[];
-  kymograph: { times: number[]; positions: number[]; deviation: number[][][] } | null;
-  frames: { times: number[]; points: number; cellSize: number; deviation: number[][][] } | null;
+  kymograph: ({ times: number[]; positions: number[] } & Stored) | null;
+  frames: ({ times: number[]; points: number; cellSize: number } & Stored) | null;
+}
+/** What the job stores of a picture: departures as integers × a scale per species and frame, cells averaged in blocks. */
+interface Stored {
+  deviation: { scale: number[][]; values: number[][][] };
+  block: number;
+  simulated: { points: number; times: number };
+  downsampled: string;
+}
+/** The departures of a dose's picture, decoded once: [species][frame][cell] = density ÷ mean − 1 = values × scale. */
+const decoded = new WeakMap<Dose, number[][][]>();
+function devOf(d: Dose): number[][][] {
+  let dev = decoded.get(d);
+  if (!dev) {
+    const s = d.kymograph ?? d.frames;
+    dev = s ? s.deviation.values.map((frames, m) => frames.map((row, j) => row.map((q) => q * s.deviation.scale[m]![j]!))) : [];
+    decoded.set(d, dev);
+  }
+  return dev;
+}
+
+/** The note in the picture's caption, after its words. */
+function withNote(fig: HTMLElement, note: HTMLElement): HTMLElement {
+  (fig.querySelector('figcaption') ?? fig).append(note);
+  return fig;
+}
+
+/** Under a picture, in words: what it shows of the simulated grid (a display grid is not the simulation's). */
+function shownNote(d: Dose): HTMLElement {
+  const s = (d.kymograph ?? d.frames)!;
+  const n = s.simulated.points;
+  const when = d.kymograph
+    ? d.kymograph.times.length === s.simulated.times
+      ? `all ${s.simulated.times} stored times`
+      : `${d.kymograph.times.length} of the ${s.simulated.times} stored times`
+    : d.frames!.times.length === s.simulated.times
+      ? `${s.simulated.times} frames`
+      : `${d.frames!.times.length} of the ${s.simulated.times} stored frames`;
+  const where = d.kymograph
+    ? s.block === 1
+      ? `at all ${n} simulated cells`
+      : `at ${d.kymograph.positions.length} positions, each the mean of ${s.block} of the ${n} simulated cells`
+    : s.block === 1
+      ? `at all ${n} × ${n} simulated cells`
+      : `at ${d.frames!.points} × ${d.frames!.points} of the ${n} × ${n} simulated cells (each the mean of ${s.block} × ${s.block})`;
+  return h(
+    'p',
+    { class: 'muted shown' },
+    `Shown ${where}, ${when}.`,
+    s.block > 1 ? ' Averaging keeps each species\' amount but widens and lowers clusters narrower than a shown cell.' : '',
+    ' The clusters, lengths and growth on this page are measured on the full simulated grid.',
+  );
 }
 interface Result {
   plan: number;
@@ -105,7 +156,7 @@ function kymograph(d: Dose, show: Show): HTMLElement {
   const k = d.kymograph!;
   const Lu = lengthUnit(d.summary.grid.length);
   const Tu = timeUnit(d.summary.time);
-  const values = k.times.flatMap((_, j) => fieldOf(d, show, (m) => k.deviation[m]![j]!));
+  const values = k.times.flatMap((_, j) => fieldOf(d, show, (m) => devOf(d)[m]![j]!));
   const fuel = d.summary.fuelRunOut && d.summary.fuelRunOut.time <= d.summary.time ? d.summary.fuelRunOut : null;
   return figure({
     caption: `Kymograph at ${perMl(d.dose)}: ${showLabel(d, show)} across the chamber (horizontal) over time (down).${fuel ? ` Dashed line: ${fuel.chemical} would run out (${fmtDuration(fuel.time)}).` : ''}`,
@@ -124,7 +175,7 @@ function kymograph(d: Dose, show: Show): HTMLElement {
 function framesView(d: Dose, show: Show): HTMLElement {
   const f = d.frames!;
   const n = f.points;
-  const data = f.times.map((_, j) => fieldOf(d, show, (m) => f.deviation[m]![j]!));
+  const data = f.times.map((_, j) => fieldOf(d, show, (m) => devOf(d)[m]![j]!));
   let lo = Infinity;
   let hi = -Infinity;
   for (const fr of data) for (const v of fr) {
@@ -184,7 +235,7 @@ function framesView(d: Dose, show: Show): HTMLElement {
     legend,
     canvas,
     h('div', { class: 'row' }, play, h('label', null, 'Frame ', slider), when),
-    h('figcaption', null, `${showLabel(d, show)} over the square chamber, ${formatNumber(d.summary.grid.length * Lu.f, 3)} ${Lu.label} a side (${n} × ${n} cells); one colour scale for all frames.`),
+    h('figcaption', null, `${showLabel(d, show)} over the square chamber, ${formatNumber(d.summary.grid.length * Lu.f, 3)} ${Lu.label} a side; one colour scale for all frames.`),
   );
 }
 
@@ -208,7 +259,7 @@ function dominantPlot(d: Dose): HTMLElement {
 
 /** The largest |density ÷ mean − 1| of any species in the first and the last stored frame. */
 function departures(d: Dose): { first: number; last: number } {
-  const rows = d.kymograph ? d.kymograph.deviation : d.frames ? d.frames.deviation : [];
+  const rows = devOf(d);
   const at = (j: (n: number) => number) => Math.max(0, ...rows.flatMap((r) => (r[j(r.length)] ?? []).map(Math.abs)));
   return { first: at(() => 0), last: at((n) => n - 1) };
 }
@@ -273,7 +324,7 @@ function doseSection(d: Dose, show: Show, index: number): HTMLElement {
   const s = d.summary;
   const title = `${perMl(d.dose)}${d.factor !== null ? ` (${formatNumber(d.factor, 3)} × the sheet's 1 × dose)` : ''}${d.dose === 0 ? ' — the no-dopant control' : ''}`;
   // the largest departure from the mean at the end of the run: a decaying or barely grown pattern has no bands to speak of
-  const lastRel = d.kymograph ? d.kymograph.deviation.map((rows) => rows[rows.length - 1] ?? []) : d.frames ? d.frames.deviation.map((fr) => fr[fr.length - 1] ?? []) : [];
+  const lastRel = devOf(d).map((rows) => rows[rows.length - 1] ?? []);
   const departure = Math.max(0, ...lastRel.flat().map((v) => Math.abs(v)));
   const bands = s.bands && departure < 0.01
     ? h('p', { class: 'muted' }, `No pattern to speak of at the end (densities within ${formatNumber(100 * departure, 2)} % of their means): no bands.`)
@@ -295,7 +346,7 @@ function doseSection(d: Dose, show: Show, index: number): HTMLElement {
     { class: 'dose', 'aria-labelledby': `dose-${index}` },
     h('h3', { id: `dose-${index}` }, title, ' ', h('span', { class: `state state-${d.linear.state}` }, STATES[d.linear.state]?.label ?? d.linear.state)),
     h('p', { class: 'muted' }, `Simulated ${fmtDuration(s.time)}${s.run.completed ? '' : ` of ${fmtDuration(s.duration)} asked for`} in ${s.run.steps} steps; particle numbers kept to ${s.conservation.maxRelativeError.toExponential(1)}; largest local volume fraction ${formatNumber(100 * s.run.maxVolumeFraction, 3)} %.`),
-    h('div', { class: 'dose-grid' }, h('div', null, s.grid.dims === 1 ? kymograph(d, show) : framesView(d, show)), h('div', null, growthTable(d), dominantPlot(d))),
+    h('div', { class: 'dose-grid' }, h('div', null, withNote(s.grid.dims === 1 ? kymograph(d, show) : framesView(d, show), shownNote(d))), h('div', null, growthTable(d), dominantPlot(d))),
     h('h4', null, 'Clusters and their make-up'),
     clustersView(d),
     bands,
