@@ -72,8 +72,14 @@ export interface SimulationSummary {
   run: {
     steps: number;
     rejected: number;
+    /** accepted steps in which a density below −10⁻⁹ of its species' mean was repaired (docs/model.md §15) */
     positivityRepairs: number;
+    /** largest share of a species' particles moved by the repair in one step */
     largestRepair: number;
+    /** largest over species of the share of its particles moved by all repairs together (a sum over steps) */
+    repairedMass: number;
+    /** widest neighbourhood a repair reached, in cells from the negative cell (0: none) */
+    repairReach: number;
     /** smallest density seen at a frame, relative to the species' mean (≥ 0: positivity kept) */
     minRelativeDensity: number;
     /** largest local volume fraction at a frame (≤ φ_max when the clusters are resolved) */
@@ -386,8 +392,13 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       message: `${fuelRunOut.chemical} would run out after about ${fuelRunOut.time.toPrecision(3)} s, before the end of the run (${duration.toPrecision(3)} s); the model holds the fuel at its starting level, so what is shown after that time would not happen in the sample`,
     });
   }
+  const repairedMass = Math.max(0, ...integ.stats.repairedMass);
   if (integ.stats.positivityRepairs > 0) {
-    warnings.push({ code: 'positivity-repaired', message: `${integ.stats.positivityRepairs} step(s) would have left a negative density at the smallest step; the negative part (at most ${integ.stats.largestRepair.toExponential(2)} of a species' particles) was cut off and the rest rescaled: the grid is probably too coarse for the clusters that formed` });
+    const st = integ.stats;
+    warnings.push({
+      code: 'positivity-repaired',
+      message: `${st.positivityRepairs} of ${st.accepted} steps left a negative density (below −1e-9 of the mean) that a shorter step did not remove (its two half steps did not leave clearly less negative mass, or the step was at its floor): each negative value was set to 0 and its deficit taken from the nearest positive cells (at most ${st.repairReach} cell(s) away), moving ${repairedMass.toExponential(2)} of a species' particles over the whole run (at most ${st.largestRepair.toExponential(2)} in one step); particle numbers are kept. Negative values here are ringing at cluster edges sharper than the grid resolves: use more points and compare two grid sizes before trusting the cluster edges`,
+    });
   }
   if (maxPhi > phiMax * 1.001) {
     warnings.push({ code: 'above-close-packing', message: `the local volume fraction reached ${maxPhi.toPrecision(3)}, above the close-packing limit ${phiMax}: the clusters are narrower than the grid resolves (the volume-filling factor acts at cell centres); use more points` });
@@ -411,6 +422,8 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       rejected: integ.stats.rejected,
       positivityRepairs: integ.stats.positivityRepairs,
       largestRepair: integ.stats.largestRepair,
+      repairedMass,
+      repairReach: integ.stats.repairReach,
       minRelativeDensity: minRel,
       maxVolumeFraction: maxPhi,
       chemistryIterations: field.chemIterationsMax,
