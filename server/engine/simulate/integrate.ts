@@ -289,9 +289,9 @@ export class Integrator {
   /**
    * Repair the negative values of species a's field v in place (localRepair on the chamber's cells; sealed walls:
    * the repaired chamber is mirrored back, so the extension stays exactly even) and book the mass moved.
-   * Returns whether a value below −10⁻⁹ of the mean was moved.
+   * Returns whether a value below −10⁻⁹ of the mean was moved. (Public for the tests; tryStep calls it.)
    */
-  private repair(a: number, v: Float64Array): boolean {
+  repair(a: number, v: Float64Array): boolean {
     const f = this.field;
     let any = false;
     for (let i = 0; i < v.length; i++) {
