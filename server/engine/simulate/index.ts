@@ -60,7 +60,8 @@ export interface SimulationSummary {
   measured: { growthRate: number | null; wavelength: number | null; oscillationPeriod: number | null };
   /** [t (s), dominant length (m) or null when uniform] at each frame */
   dominantLength: [number, number | null][];
-  clusters: { count: number; sizes: number[]; composition: { species: string; fraction: number }[] };
+  /** sizes largest first; cells: grid cells in each (same order); underResolved: how many span fewer than 3 cells across (docs/model.md §16) */
+  clusters: { count: number; sizes: number[]; cells: number[]; underResolved: number; composition: { species: string; fraction: number }[] };
   bands: Bands | null;
   conservation: { maxRelativeError: number };
   /** the earliest time a consumed chemical runs out (the fuel check, docs/model.md §8), s; null when none is consumed */
@@ -400,6 +401,13 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       message: `${st.positivityRepairs} of ${st.accepted} steps left a negative density (below −1e-9 of the mean) that a shorter step did not remove (its two half steps did not leave clearly less negative mass, or the step was at its floor): each negative value was set to 0 and its deficit taken from the nearest positive cells (at most ${st.repairReach} cell(s) away), moving ${repairedMass.toExponential(2)} of a species' particles over the whole run (at most ${st.largestRepair.toExponential(2)} in one step); particle numbers are kept. Negative values here are ringing at cluster edges sharper than the grid resolves: use more points and compare two grid sizes before trusting the cluster edges`,
     });
   }
+  if (clusters.underResolved > 0) {
+    const k = clusters.underResolved;
+    warnings.push({
+      code: 'clusters-under-resolved',
+      message: `${k} of the ${clusters.count} cluster(s) found at the end span${k === 1 ? 's' : ''} fewer than 3 grid cells across (${dims === 1 ? 'no cell of it has both neighbours in it' : 'no 3 × 3 block of cells lies inside it'}; the cells are ${h.toPrecision(3)} m): the number and sizes of such clusters depend on the grid (a cluster narrower than a cell still shows as one or two cells). Use more points and compare two grid sizes`,
+    });
+  }
   if (maxPhi > phiMax * 1.001) {
     warnings.push({ code: 'above-close-packing', message: `the local volume fraction reached ${maxPhi.toPrecision(3)}, above the close-packing limit ${phiMax}: the clusters are narrower than the grid resolves (the volume-filling factor acts at cell centres); use more points` });
   }
@@ -410,7 +418,7 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
     linear: { growthRate: lambda, wavelength: analysis.fastestMode.wavelength, state: analysis.state, oscillationPeriod: period },
     measured: { growthRate: measured.growthRate, wavelength: measured.wavelength, oscillationPeriod: measured.oscillationPeriod },
     dominantLength: dominant,
-    clusters: { count: clusters.count, sizes: clusters.sizes, composition: clusters.composition },
+    clusters: { count: clusters.count, sizes: clusters.sizes, cells: clusters.cells, underResolved: clusters.underResolved, composition: clusters.composition },
     bands,
     conservation: { maxRelativeError: maxConsErr },
     fuelRunOut,
