@@ -396,9 +396,10 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   const repairedMass = Math.max(0, ...integ.stats.repairedMass);
   if (integ.stats.positivityRepairs > 0) {
     const st = integ.stats;
+    const share = (x: number) => (x >= 0.01 ? x.toPrecision(3) : x.toExponential(2));
     warnings.push({
       code: 'positivity-repaired',
-      message: `${st.positivityRepairs} of ${st.accepted} steps left a negative density (below −1e-9 of the mean) that a shorter step did not remove (its two half steps did not leave clearly less negative mass, or the step was at its floor): each negative value was set to 0 and its deficit taken from the nearest positive cells (at most ${st.repairReach} cell(s) away), moving ${repairedMass.toExponential(2)} of a species' particles over the whole run (at most ${st.largestRepair.toExponential(2)} in one step); particle numbers are kept. Negative values here are ringing at cluster edges sharper than the grid resolves: use more points and compare two grid sizes before trusting the cluster edges`,
+      message: `${st.positivityRepairs} of ${st.accepted} steps left a negative density (below −1e-9 of the mean) that a shorter step did not remove (its two half steps did not leave clearly less negative mass, or the step was at its floor): each negative value was set to 0 and its deficit taken from the nearest positive cells (at most ${st.repairReach} cell(s) away), so particle numbers are kept. Summed over the steps the repair moved ${share(repairedMass)} of a species' particles (at most ${share(st.largestRepair)} in one step${repairedMass > 1 ? '; above 1, the same particles were moved again and again' : ''}). Negative densities here are ringing at cluster edges sharper than the grid resolves: use more points and compare two grid sizes before trusting the clusters`,
     });
   }
   if (clusters.underResolved > 0) {

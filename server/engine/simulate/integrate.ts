@@ -12,8 +12,8 @@
  * it is below the tolerance and the locally extrapolated 2y_{h/2} − y_h (second
  * order) is kept when it is non-negative, else y_{h/2}. Negative densities: a
  * step whose two half steps leave clearly less negative mass than the full step
- * (and some value below −10⁻⁹ of the mean) is retried with a quarter of the step
- * (the step was too long); otherwise every negative value is set to 0 and its
+ * (and some value below −10⁻⁹ of the mean, and the step above its floor) is
+ * retried with a quarter of the step (the step was too long); otherwise every negative value is set to 0 and its
  * deficit taken from the nearest positive cells (`localRepair`: the smallest
  * square, or interval in 1D, around the cell that holds enough, in proportion to
  * their density), so the total is unchanged and the correction stays where the
