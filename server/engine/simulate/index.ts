@@ -399,14 +399,14 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
     const share = (x: number) => (x >= 0.01 ? x.toPrecision(3) : x.toExponential(2));
     warnings.push({
       code: 'positivity-repaired',
-      message: `${st.positivityRepairs} of ${st.accepted} steps left a negative density (below −1e-9 of the mean) that a shorter step did not remove (its two half steps did not leave clearly less negative mass, or the step was at its floor): each negative value was set to 0 and its deficit taken from the nearest positive cells (at most ${st.repairReach} cell(s) away), so particle numbers are kept. Summed over the steps the repair moved ${share(repairedMass)} of a species' particles (at most ${share(st.largestRepair)} in one step${repairedMass > 1 ? '; above 1, the same particles were moved again and again' : ''}). Negative densities here are ringing at cluster edges sharper than the grid resolves: use more points and compare two grid sizes before trusting the clusters`,
+      message: `${st.positivityRepairs} of ${st.accepted} steps left a negative density (below −1e-9 of the mean) that a shorter step would not remove (its two half steps left no clearly less negative mass than the full step, or the step was at its floor of ${floor.toPrecision(3)} s): each negative value was set to 0 and its deficit taken from the nearest positive cells (at most ${st.repairReach} cell(s) away), so particle numbers are kept. Summed over the steps the repair moved ${repairedMass >= 1 ? `${repairedMass.toPrecision(3)} times a species' particle number (the ringing recurs at the same edges step after step)` : `${share(repairedMass)} of a species' particles`}, at most ${share(st.largestRepair)} of them in one step. Negative densities here are ringing at cluster edges sharper than the grid resolves: use more points and compare two grid sizes before trusting the clusters`,
     });
   }
   if (clusters.underResolved > 0) {
     const k = clusters.underResolved;
     warnings.push({
       code: 'clusters-under-resolved',
-      message: `${k} of the ${clusters.count} cluster(s) found at the end span${k === 1 ? 's' : ''} fewer than 3 grid cells across (${dims === 1 ? 'no cell of it has both neighbours in it' : 'no 3 × 3 block of cells lies inside it'}; the cells are ${h.toPrecision(3)} m): the number and sizes of such clusters depend on the grid (a cluster narrower than a cell still shows as one or two cells). Use more points and compare two grid sizes`,
+      message: `${k} of the ${clusters.count} cluster(s) found at the end span${k === 1 ? 's' : ''} fewer than 3 grid cells across (a cluster spans 3 cells when ${dims === 1 ? 'one of its cells has both neighbours in it' : 'a 3 × 3 block of cells lies inside it'}; the cells are ${h.toExponential(3)} m): the number and sizes of such clusters depend on the grid (a cluster narrower than a cell still shows as one or two cells). Use more points and compare two grid sizes`,
     });
   }
   if (maxPhi > phiMax * 1.001) {

@@ -13,11 +13,11 @@
  * order) is kept when it is non-negative, else y_{h/2}. Negative densities: a
  * step whose two half steps leave clearly less negative mass than the full step
  * (and some value below −10⁻⁹ of the mean, and the step above its floor) is
- * retried with a quarter of the step (the step was too long); otherwise every negative value is set to 0 and its
- * deficit taken from the nearest positive cells (`localRepair`: the smallest
- * square, or interval in 1D, around the cell that holds enough, in proportion to
- * their density), so the total is unchanged and the correction stays where the
- * ringing is. A step that moved a value below −10⁻⁹ of the mean (the grid's
+ * retried with a quarter of the step (the step was too long); otherwise every
+ * negative value of the kept state is set to 0 and its deficit taken from the
+ * nearest positive cells (`localRepair`: the smallest square, or interval in
+ * 1D, around the cell that holds enough, in proportion to their density), so
+ * the total is unchanged and the correction stays where the ringing is. A step that moved a value below −10⁻⁹ of the mean (the grid's
  * resolution: Gibbs ringing at a sharp cluster edge) counts in
  * `positivityRepairs`; the mass moved is summed in `repairedMass`. The k = 0 mode
  * is untouched by N, so every species' total is conserved to rounding.
