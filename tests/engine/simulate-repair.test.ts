@@ -77,6 +77,18 @@ describe('localRepair: one negative cell, values by hand', () => {
     for (const v of [p, s]) expect(Math.abs(sum(v) - sum(u)) / sum(u)).toBeLessThan(1e-12);
   });
 
+  it('1D: when only a far cell holds particles the window grows to it (sealed), or to the whole chamber (periodic)', () => {
+    const s = Float64Array.from([-0.5, 0, 0, 0, 0, 0, 0, 3]);
+    const rs = localRepair(s, 8, 1, false);
+    expect(rs.reach).toBe(7);
+    expect(Array.from(s)).toEqual([0, 0, 0, 0, 0, 0, 0, 2.5]);
+    // periodic: a window of ±3 around cell 0 holds cells 5…3 but not cell 4; the whole chamber gives (reach = 8 cells)
+    const p = Float64Array.from([-0.5, 0, 0, 0, 3, 0, 0, 0]);
+    const rp = localRepair(p, 8, 1, true);
+    expect(rp.reach).toBe(8);
+    expect(Array.from(p)).toEqual([0, 0, 0, 0, 2.5, 0, 0, 0]);
+  });
+
   it('2D periodic: the 3 × 3 block around the cell gives, in proportion; outside it nothing changes', () => {
     const n = 8;
     const u = new Float64Array(n * n).fill(1);

@@ -48,7 +48,8 @@ export interface StepStats {
  * negative and the total is unchanged to rounding. When no window short of the
  * whole chamber holds enough, the whole chamber gives (the total is positive).
  * Returns the mass moved (Σ d), the deficit below `tiny` alone (0 when every
- * negative value was rounding-level) and the widest r used.
+ * negative value was rounding-level) and the widest r used (`points` when the
+ * whole chamber gave).
  */
 export function localRepair(v: Float64Array, points: number, dims: 1 | 2, periodic: boolean, tiny = 0): { moved: number; beyond: number; reach: number } {
   const n = points;
