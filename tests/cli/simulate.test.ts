@@ -33,7 +33,9 @@ describe('brink simulate', () => {
     expect(s.linear.state).toBe('oscillatory');
     expect(s.dominantLength).toHaveLength(7);
     expect(s.dominantLength[6][0]).toBeCloseTo(1800, 9); // seconds
-    expect(Object.keys(s.clusters).sort()).toEqual(['composition', 'count', 'sizes']);
+    expect(Object.keys(s.clusters).sort()).toEqual(['cells', 'composition', 'count', 'sizes', 'underResolved']);
+    expect(s.clusters.cells).toHaveLength(s.clusters.count);
+    expect(Object.keys(s.run)).toEqual(expect.arrayContaining(['positivityRepairs', 'largestRepair', 'repairedMass', 'repairReach']));
     expect(s.clusters.composition.map((c: { species: string }) => c.species)).toEqual(['ptj-swim', 'cat-bead']);
     expect(s.bands === null || (typeof s.bands.speed === 'number' && 'period' in s.bands)).toBe(true);
     expect(s.conservation.maxRelativeError).toBeLessThan(1e-10);

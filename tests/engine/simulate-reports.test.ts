@@ -6,7 +6,8 @@
  *   wave); a standing, static pattern gives no bands;
  * - clusters: blocks of raised volume fraction drawn on a grid are counted with their
  *   sizes and the share of each species inside them; a block cut by a periodic edge
- *   is one cluster, by a sealed wall two.
+ *   is one cluster, by a sealed wall two; a cluster is resolved when it spans at least 3
+ *   cells across (some cell has its whole neighbourhood inside it: docs/model.md §16).
  */
 import { describe, expect, it } from 'vitest';
 import { findBands, findClusters } from '../../server/engine/simulate/reports.js';
@@ -65,5 +66,48 @@ describe('clusters by threshold and connected components', () => {
     expect(c.sizes[0]).toBeCloseTo(2 * Math.sqrt(16e-12 / Math.PI), 15);
     expect(c.sizes[1]).toBeCloseTo(2 * Math.sqrt(4e-12 / Math.PI), 15);
     expect(findClusters(new Float64Array(n * n).fill(0.1), [phi], ['a'], n, 2, true, 1e-6).count).toBe(0);
+  });
+
+  it('1D: a cluster spans 3 cells across when some cell has both neighbours in it; at a sealed wall it counts with its mirror image', () => {
+    const n = 64;
+    const phi = new Float64Array(n).fill(0.01);
+    phi[10] = 0.3; // 1 cell
+    phi[20] = phi[21] = 0.3; // 2 cells
+    for (let i = 30; i < 33; i++) phi[i] = 0.3; // 3 cells
+    for (let i = 40; i < 50; i++) phi[i] = 0.3; // 10 cells
+    const c = findClusters(phi, [phi], ['a'], n, 1, true, 1e-6);
+    expect(c.count).toBe(4);
+    expect(c.cells).toEqual([10, 3, 2, 1]);
+    expect(c.resolved).toEqual([true, true, false, false]);
+    expect(c.underResolved).toBe(2);
+    // two cells against a sealed wall: with its mirror image 4 cells across (the cell next to the wall has the
+    // wall's mirror cell, itself, and its other neighbour inside); one cell at the wall: 2 across, under-resolved
+    const w = new Float64Array(n).fill(0.01);
+    w[0] = w[1] = 0.3;
+    w[n - 1] = 0.3;
+    const sealed = findClusters(w, [w], ['a'], n, 1, false, 1e-6);
+    expect(sealed.cells).toEqual([2, 1]);
+    expect(sealed.resolved).toEqual([true, false]);
+    // periodic, the same cells are one cluster of 3 across the edge
+    const periodic = findClusters(w, [w], ['a'], n, 1, true, 1e-6);
+    expect(periodic.cells).toEqual([3]);
+    expect(periodic.resolved).toEqual([true]);
+  });
+
+  it('2D: a cluster spans 3 cells across when some 3 × 3 block of cells lies inside it', () => {
+    const n = 32;
+    const phi = new Float64Array(n * n).fill(0.02);
+    const block = (x0: number, y0: number, w: number, hgt: number) => {
+      for (let y = y0; y < y0 + hgt; y++) for (let x = x0; x < x0 + w; x++) phi[y * n + x] = 0.5;
+    };
+    block(2, 2, 3, 3); // 3 × 3: resolved
+    block(10, 2, 12, 2); // a bar 2 cells thick, 24 cells: under-resolved however long
+    block(2, 10, 5, 5); // 5 × 5: resolved
+    for (let k = 0; k < 6; k++) block(14 + k, 10 + k, 2, 1); // a staircase 1 cell thick
+    const c = findClusters(phi, [phi], ['a'], n, 2, true, 1e-6);
+    expect(c.count).toBe(4);
+    expect(c.cells).toEqual([25, 24, 12, 9]);
+    expect(c.resolved).toEqual([true, false, false, true]);
+    expect(c.underResolved).toBe(2);
   });
 });

@@ -65,7 +65,8 @@ export interface SimulationSummary {
   measured: { growthRate: number | null; wavelength: number | null; oscillationPeriod: number | null };
   /** [t (s), dominant length (m) or null when uniform] at each frame */
   dominantLength: [number, number | null][];
-  clusters: { count: number; sizes: number[]; composition: { species: string; fraction: number }[] };
+  /** sizes largest first; cells: grid cells in each (same order); underResolved: how many span fewer than 3 cells across (docs/model.md §16) */
+  clusters: { count: number; sizes: number[]; cells: number[]; underResolved: number; composition: { species: string; fraction: number }[] };
   bands: Bands | null;
   conservation: { maxRelativeError: number };
   /** the earliest time a consumed chemical runs out (the fuel check, docs/model.md §8), s; null when none is consumed */
@@ -77,8 +78,14 @@ export interface SimulationSummary {
   run: {
     steps: number;
     rejected: number;
+    /** accepted steps in which a density below −10⁻⁹ of its species' mean was repaired (docs/model.md §15) */
     positivityRepairs: number;
+    /** largest share of a species' particles moved by the repair in one step */
     largestRepair: number;
+    /** largest over species of the share of its particles moved by all repairs together (a sum over steps) */
+    repairedMass: number;
+    /** widest neighbourhood a repair reached, in cells from the negative cell (0: none) */
+    repairReach: number;
     /** smallest density seen at a frame, relative to the species' mean (≥ 0: positivity kept) */
     minRelativeDensity: number;
     /** largest local volume fraction at a frame (≤ φ_max when the clusters are resolved) */
@@ -441,8 +448,21 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       message: `${fuelRunOut.chemical} would run out after about ${fuelRunOut.time.toPrecision(3)} s, before the end of the run (${t.toPrecision(3)} s reached); the model holds the fuel at its starting level, so what is shown after that time would not happen in the sample`,
     });
   }
+  const repairedMass = Math.max(0, ...integ.stats.repairedMass);
   if (integ.stats.positivityRepairs > 0) {
-    warnings.push({ code: 'positivity-repaired', message: `${integ.stats.positivityRepairs} step(s) would have left a negative density at the smallest step; the negative part (at most ${integ.stats.largestRepair.toExponential(2)} of a species' particles) was cut off and the rest rescaled: the grid is probably too coarse for the clusters that formed` });
+    const st = integ.stats;
+    const share = (x: number) => (x >= 0.01 ? x.toPrecision(3) : x.toExponential(2));
+    warnings.push({
+      code: 'positivity-repaired',
+      message: `${st.positivityRepairs} of ${st.accepted} steps left a negative density (below −1e-9 of the mean) that a shorter step would not remove (its two half steps left no clearly less negative mass than the full step, or the step was at its floor of ${floor.toPrecision(3)} s): each negative value was set to 0 and its deficit taken from the nearest positive cells (at most ${st.repairReach} cell(s) away), so particle numbers are kept. Summed over the steps the repair moved ${repairedMass >= 1 ? `${repairedMass.toPrecision(3)} times a species' particle number (the ringing recurs at the same edges step after step)` : `${share(repairedMass)} of a species' particles`}, at most ${share(st.largestRepair)} of them in one step. Negative densities here are ringing at cluster edges sharper than the grid resolves: use more points and compare two grid sizes before trusting the clusters`,
+    });
+  }
+  if (clusters.underResolved > 0) {
+    const k = clusters.underResolved;
+    warnings.push({
+      code: 'clusters-under-resolved',
+      message: `${k} of the ${clusters.count} cluster(s) found at the end span${k === 1 ? 's' : ''} fewer than 3 grid cells across (a cluster spans 3 cells when ${dims === 1 ? 'one of its cells has both neighbours in it' : 'a 3 × 3 block of cells lies inside it'}; the cells are ${h.toExponential(3)} m): the number and sizes of such clusters depend on the grid (a cluster narrower than a cell still shows as one or two cells). Use more points and compare two grid sizes`,
+    });
   }
   if (maxPhi > phiMax * 1.001) {
     warnings.push({ code: 'above-close-packing', message: `the local volume fraction reached ${maxPhi.toPrecision(3)}, above the close-packing limit ${phiMax}: the clusters are narrower than the grid resolves (the volume-filling factor acts at cell centres); use more points` });
@@ -464,7 +484,7 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
     linear: { growthRate: lambda, wavelength: analysis.fastestMode.wavelength, state: analysis.state, oscillationPeriod: period },
     measured: { growthRate: measured.growthRate, wavelength: measured.wavelength, oscillationPeriod: measured.oscillationPeriod },
     dominantLength: dominant,
-    clusters: { count: clusters.count, sizes: clusters.sizes, composition: clusters.composition },
+    clusters: { count: clusters.count, sizes: clusters.sizes, cells: clusters.cells, underResolved: clusters.underResolved, composition: clusters.composition },
     bands,
     conservation: { maxRelativeError: maxConsErr },
     fuelRunOut,
@@ -476,6 +496,8 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       rejected: integ.stats.rejected,
       positivityRepairs: integ.stats.positivityRepairs,
       largestRepair: integ.stats.largestRepair,
+      repairedMass,
+      repairReach: integ.stats.repairReach,
       minRelativeDensity: minRel,
       maxVolumeFraction: maxPhi,
       chemistryIterations: field.chemIterationsMax,

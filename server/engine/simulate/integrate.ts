@@ -10,22 +10,117 @@
  * Ordinary Differential Equations I, 2nd ed., §II.4): one step of h and two of
  * h/2; their difference estimates the local error, the step is accepted when
  * it is below the tolerance and the locally extrapolated 2y_{h/2} − y_h (second
- * order) is kept when it is non-negative, else y_{h/2}. Negative densities:
- * those within rounding (above −10⁻⁹ of the mean) are cut off; a step whose two
- * half steps leave clearly less negative mass than the full step is retried with
- * a quarter of the step (the step was too long); otherwise the negative part is
- * the grid's resolution (Gibbs ringing at a sharp cluster edge): it is cut off
- * and the rest rescaled so the total is unchanged, counted in `positivityRepairs`. The k = 0 mode is untouched by N, so every
- * species' total is conserved to rounding.
+ * order) is kept when it is non-negative, else y_{h/2}. Negative densities: a
+ * step whose two half steps leave clearly less negative mass than the full step
+ * (and some value below −10⁻⁹ of the mean, and the step above its floor) is
+ * retried with a quarter of the step (the step was too long); otherwise every
+ * negative value of the kept state is set to 0 and its deficit taken from the
+ * nearest positive cells (`localRepair`: the smallest square, or interval in
+ * 1D, around the cell that holds enough, in proportion to their density), so
+ * the total is unchanged and the correction stays where the ringing is. A step that moved a value below −10⁻⁹ of the mean (the grid's
+ * resolution: Gibbs ringing at a sharp cluster edge) counts in
+ * `positivityRepairs`; the mass moved is summed in `repairedMass`. The k = 0 mode
+ * is untouched by N, so every species' total is conserved to rounding.
  */
 import type { SpectralField } from './field.js';
 
 export interface StepStats {
   accepted: number;
   rejected: number;
+  /** accepted steps whose repair moved a density below −10⁻⁹ of its species' mean */
   positivityRepairs: number;
-  /** largest share of a species' total moved by one repair */
+  /** largest share of a species' total moved by the repair in one step */
   largestRepair: number;
+  /** per species, the share of its total moved by all repairs together (rounding-level cuts included) */
+  repairedMass: Float64Array;
+  /** widest neighbourhood any repair reached, in cells from the negative cell (0: no repair) */
+  repairReach: number;
+}
+
+/**
+ * Local, mass-conserving positivity repair of one field on the chamber's cells
+ * (points^dims, x fastest), in place. Each negative cell, in index order, is set
+ * to 0 and its deficit d is taken from the positive cells of the smallest
+ * neighbourhood around it that holds at least d: the cells within r cells along
+ * every axis (a square in 2D), r = 1, 2, … — across the edges when `periodic`,
+ * cut at the walls otherwise (sealed: the wall is a mirror, whose images are the
+ * same particles) — each positive cell giving d·v/P (P their sum), so none turns
+ * negative and the total is unchanged to rounding. When no window short of the
+ * whole chamber holds enough, the whole chamber gives (the total is positive).
+ * Returns the mass moved (Σ d), the deficit below `tiny` alone (0 when every
+ * negative value was rounding-level) and the widest r used (`points` when the
+ * whole chamber gave).
+ */
+export function localRepair(v: Float64Array, points: number, dims: 1 | 2, periodic: boolean, tiny = 0): { moved: number; beyond: number; reach: number } {
+  const n = points;
+  const ny = dims === 2 ? n : 1;
+  const cells = n * ny;
+  let moved = 0;
+  let beyond = 0;
+  let reach = 0;
+  // the largest r whose window holds no cell twice (periodic) or still grows (sealed)
+  const rMax = periodic ? Math.floor((n - 1) / 2) : n - 1;
+  for (let i = 0; i < cells; i++) {
+    const vi = v[i]!;
+    if (!(vi < 0)) continue;
+    const d = -vi;
+    v[i] = 0;
+    moved += d;
+    if (vi < tiny) beyond += d;
+    const x0 = i % n;
+    const y0 = (i - x0) / n;
+    let P = 0;
+    let r = 0;
+    let whole = false;
+    // grow the window one shell at a time until its positive cells hold d
+    while (P < d) {
+      r++;
+      if (r > rMax) {
+        whole = true;
+        break;
+      }
+      const ry = dims === 2 ? r : 0;
+      for (let dy = -ry; dy <= ry; dy++) {
+        let y = y0 + dy;
+        if (periodic) y = (y + ny) % ny;
+        else if (y < 0 || y >= ny) continue;
+        const edgeRow = dy === -r || dy === r;
+        const step = edgeRow ? 1 : 2 * r;
+        for (let dx = -r; dx <= r; dx += step) {
+          let x = x0 + dx;
+          if (periodic) x = (x + n) % n;
+          else if (x < 0 || x >= n) continue;
+          const c = v[y * n + x]!;
+          if (c > 0) P += c;
+        }
+      }
+    }
+    if (whole) {
+      P = 0;
+      for (let j = 0; j < cells; j++) if (v[j]! > 0) P += v[j]!;
+      if (!(P > 0)) continue;
+      const keep = Math.max(0, 1 - d / P);
+      for (let j = 0; j < cells; j++) if (v[j]! > 0) v[j] = v[j]! * keep;
+      reach = Math.max(reach, n);
+      continue;
+    }
+    reach = Math.max(reach, r);
+    const keep = Math.max(0, 1 - d / P);
+    const ry = dims === 2 ? r : 0;
+    for (let dy = -ry; dy <= ry; dy++) {
+      let y = y0 + dy;
+      if (periodic) y = (y + ny) % ny;
+      else if (y < 0 || y >= ny) continue;
+      for (let dx = -r; dx <= r; dx++) {
+        let x = x0 + dx;
+        if (periodic) x = (x + n) % n;
+        else if (x < 0 || x >= n) continue;
+        const j = y * n + x;
+        if (v[j]! > 0) v[j] = v[j]! * keep;
+      }
+    }
+  }
+  return { moved, beyond, reach };
 }
 
 export class Integrator {
@@ -47,8 +142,10 @@ export class Integrator {
   private readonly im: Float64Array;
   /** whether rRe/nRe hold the spectra of the current rho */
   private fresh = false;
-  readonly stats: StepStats = { accepted: 0, rejected: 0, positivityRepairs: 0, largestRepair: 0 };
+  readonly stats: StepStats;
   readonly mean: Float64Array;
+  /** the chamber's cells of one field (the repair works there; sealed walls: mirrored back after) */
+  private readonly chamber: Float64Array;
 
   constructor(
     readonly field: SpectralField,
@@ -76,6 +173,8 @@ export class Integrator {
     this.re = new Float64Array(size);
     this.im = new Float64Array(size);
     this.mean = Float64Array.from(this.rho.map((r) => r.reduce((a, b) => a + b, 0) / size));
+    this.stats = { accepted: 0, rejected: 0, positivityRepairs: 0, largestRepair: 0, repairedMass: new Float64Array(field.M), repairReach: 0 };
+    this.chamber = new Float64Array(field.grid.dims === 2 ? field.grid.points ** 2 : field.grid.points);
   }
 
   /** Spectra of the current state (ρ̂_m), for the reports. */
@@ -156,9 +255,9 @@ export class Integrator {
       this.stats.rejected++;
       return { taken: false, err: Number.isFinite(err) ? err : 1e6, negative: false };
     }
-    // negative densities: rounding-level ones (≥ −1e-9 of the mean) are cut off; larger ones are a too-long step when
-    // the two half steps make clearly less of them than the full step (retry with h/4), else the grid's resolution
-    // (cut off and rescaled, counted as a repair)
+    // negative densities: larger ones (< −1e-9 of the mean) are a too-long step when the two half steps make clearly
+    // less of them than the full step (retry with h/4); else, like rounding-level ones, they are repaired locally
+    // (localRepair; counted as a repair when beyond rounding: the grid's resolution)
     let negFull = 0;
     let negHalf = 0;
     let negExtrap = false;
@@ -180,32 +279,49 @@ export class Integrator {
       this.stats.rejected++;
       return { taken: false, err, negative: true };
     }
+    let repaired = false;
     for (let a = 0; a < f.N; a++) {
       const y1 = this.yFull[a]!;
       const yb = y2[a]!;
       if (!negExtrap) for (let i = 0; i < f.size; i++) yb[i] = 2 * yb[i]! - y1[i]!;
-      if (a < f.M && negHalf > 0) this.repair(yb, beyondRounding);
+      else if (a < f.M && this.repair(a, yb)) repaired = true;
     }
+    if (repaired) this.stats.positivityRepairs++;
     for (let a = 0; a < f.N; a++) save[a]!.set(y2[a]!);
     this.fresh = false;
     this.stats.accepted++;
     return { taken: true, err, negative: negHalf > 0 };
   }
 
-  /** Cut negative densities to 0 and rescale the rest so the total is unchanged. */
-  private repair(v: Float64Array, count: boolean): void {
-    let total = 0;
-    let neg = 0;
+  /**
+   * Repair the negative values of species a's field v in place (localRepair on the chamber's cells; sealed walls:
+   * the repaired chamber is mirrored back, so the extension stays exactly even) and book the mass moved.
+   * Returns whether a value below −10⁻⁹ of the mean was moved. (Public for the tests; tryStep calls it.)
+   */
+  repair(a: number, v: Float64Array): boolean {
+    const f = this.field;
+    let any = false;
     for (let i = 0; i < v.length; i++) {
-      total += v[i]!;
-      if (v[i]! < 0) neg -= v[i]!;
+      if (v[i]! < 0) {
+        any = true;
+        break;
+      }
     }
-    if (neg === 0) return;
-    const pos = total + neg;
-    const s = total / pos;
-    for (let i = 0; i < v.length; i++) v[i] = v[i]! < 0 ? 0 : v[i]! * s;
-    if (!count) return;
-    this.stats.positivityRepairs++;
-    this.stats.largestRepair = Math.max(this.stats.largestRepair, neg / Math.max(total, 1e-300));
+    if (!any) return false;
+    const mean = this.mean[a]!;
+    const { points, dims, mirror } = f.grid;
+    const tiny = -1e-9 * mean;
+    let r: { moved: number; beyond: number; reach: number };
+    if (mirror) {
+      f.toChamber(v, this.chamber);
+      r = localRepair(this.chamber, points, dims, false, tiny);
+      f.fromChamber(this.chamber, v);
+    } else r = localRepair(v, points, dims, true, tiny);
+    const total = mean * this.chamber.length;
+    const share = r.moved / Math.max(total, 1e-300);
+    this.stats.repairedMass[a]! += share;
+    this.stats.largestRepair = Math.max(this.stats.largestRepair, share);
+    this.stats.repairReach = Math.max(this.stats.repairReach, r.reach);
+    return r.beyond > 0;
   }
 }

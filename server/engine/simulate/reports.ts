@@ -188,6 +188,12 @@ export interface Clusters {
   count: number;
   /** 1D: lengths (m); 2D: diameters of the circle of equal area (m); largest first */
   sizes: number[];
+  /** grid cells in each cluster, in the order of `sizes` */
+  cells: number[];
+  /** whether each cluster (order of `sizes`) spans at least 3 cells across: some cell of it has all its neighbours in it */
+  resolved: boolean[];
+  /** how many clusters span fewer than 3 cells across (see `resolved`) */
+  underResolved: number;
   /** per species, the fraction of its particles inside the clusters */
   composition: { species: string; fraction: number }[];
   /** total volume fraction that marks a cell as clustered (null when the field has too little contrast) */
@@ -204,6 +210,11 @@ export const CLUSTER_CONTRAST = 0.2;
  * half-height threshold φ̄ + (max φ − φ̄)/2, joined into connected components
  * (nearest neighbours; across the edges when the chamber is periodic). No
  * clusters when max φ < (1 + CLUSTER_CONTRAST) φ̄ (no pattern to speak of).
+ * A cluster counts as resolved when it spans at least 3 cells across: some cell
+ * of it has its whole neighbourhood in it — both neighbours in 1D, the 3 × 3
+ * block around it in 2D (across the edges when periodic; at a sealed wall the
+ * mirror image of a cell is the cell itself, so a cluster against the wall
+ * counts with its reflection, as the no-flux field does).
  */
 export function findClusters(phi: Float64Array, rho: Float64Array[], speciesIds: string[], points: number, dims: 1 | 2, periodic: boolean, cellSize: number): Clusters {
   const cells = phi.length;
@@ -214,7 +225,7 @@ export function findClusters(phi: Float64Array, rho: Float64Array[], speciesIds:
     max = Math.max(max, phi[i]!);
   }
   mean /= cells;
-  const empty = (): Clusters => ({ count: 0, sizes: [], composition: speciesIds.map((species) => ({ species, fraction: 0 })), threshold: null, coveredFraction: 0 });
+  const empty = (): Clusters => ({ count: 0, sizes: [], cells: [], resolved: [], underResolved: 0, composition: speciesIds.map((species) => ({ species, fraction: 0 })), threshold: null, coveredFraction: 0 });
   if (!(mean > 0) || max < (1 + CLUSTER_CONTRAST) * mean) return empty();
   const threshold = mean + (max - mean) / 2;
   const label = new Int32Array(cells).fill(-1);
@@ -253,6 +264,26 @@ export function findClusters(phi: Float64Array, rho: Float64Array[], speciesIds:
     inside += count;
     sizes.push(count);
   }
+  // resolved: some cell's whole neighbourhood (± 1 cell along each axis, diagonals included) lies in its cluster
+  const resolved = sizes.map(() => false);
+  const wrap = (u: number, m: number) => (periodic ? (u + m) % m : Math.min(m - 1, Math.max(0, u)));
+  const reach = dims === 2 ? 1 : 0;
+  for (let c = 0; c < cells; c++) {
+    const id = label[c]!;
+    if (id < 0 || resolved[id]) continue;
+    const x = c % points;
+    const y = (c - x) / points;
+    let all = true;
+    for (let dy = -reach; dy <= reach && all; dy++) {
+      for (let dx = -1; dx <= 1; dx++) {
+        if (label[wrap(y + dy, ny) * points + wrap(x + dx, points)] !== id) {
+          all = false;
+          break;
+        }
+      }
+    }
+    if (all) resolved[id] = true;
+  }
   const composition = speciesIds.map((species, a) => {
     let total = 0;
     let inC = 0;
@@ -264,9 +295,14 @@ export function findClusters(phi: Float64Array, rho: Float64Array[], speciesIds:
     return { species, fraction: total > 0 ? inC / total : 0 };
   });
   const size = (count: number) => (dims === 1 ? count * cellSize : 2 * Math.sqrt((count * cellSize * cellSize) / Math.PI));
+  // largest first (a stable sort of the cluster ids by cell count)
+  const order = sizes.map((_, id) => id).sort((a, b) => sizes[b]! - sizes[a]!);
   return {
     count: sizes.length,
-    sizes: sizes.map(size).sort((a, b) => b - a),
+    sizes: order.map((id) => size(sizes[id]!)),
+    cells: order.map((id) => sizes[id]!),
+    resolved: order.map((id) => resolved[id]!),
+    underResolved: resolved.filter((r) => !r).length,
     composition,
     threshold,
     coveredFraction: inside / cells,
