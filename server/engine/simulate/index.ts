@@ -95,6 +95,8 @@ export interface SimulationSummary {
     measuredWindow: number;
     /** the starting perturbation holds the chamber modes up to this index per axis (noiseModes) */
     seededModes: number;
+    /** how the chemical fields were computed */
+    chemicals: 'quasi-static' | 'dynamic';
     clusterThreshold: number | null;
     clusterCoveredFraction: number;
     completed: boolean;
@@ -478,6 +480,17 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       message: `at the end of the run the largest departure from the uniform sample is ${(endDeparture * 100).toPrecision(2)} % of the mean: the sample is still in its early, linear stage and nothing has formed yet. How soon something forms depends on the starting perturbation (rms ${noise} of the mean here, standing in for the sample's own unevenness; a stronger one forms patterns sooner)${more !== null ? `; at the linear growth rate, order-one patterns need about ${more.toPrecision(2)} s more` : ''}`,
     });
   }
+  if (field.dynamic) {
+    // how much faster than the pattern the chemicals relax, at the predicted wavelength (slowest chemical)
+    const k2 = linearWl !== null ? ((2 * Math.PI) / linearWl) ** 2 : 0;
+    let slowest = Infinity;
+    for (let s = 0; s < field.S; s++) slowest = Math.min(slowest, field.dChem[s]! * k2 + field.kappa[s]!);
+    const ratio = lambda !== 0 ? slowest / Math.abs(lambda) : null;
+    warnings.push({
+      code: 'dynamic-chemicals',
+      message: `the chemical fields evolve in time in this run; \`linear\` is analyze()'s quasi-static prediction, which the run approaches when the chemicals relax much faster than the pattern grows${ratio !== null && Number.isFinite(ratio) ? ` (here the slowest chemical relaxes at ${slowest.toPrecision(3)} 1/s at the predicted wavelength, ${ratio.toPrecision(3)} times the growth rate${ratio < 20 ? ': expect the measured growth and wavelength to differ from it' : ''})` : ''}`,
+    });
+  }
   if (dims === 2) warnings.push({ code: 'linear-modes-1d', message: 'the linear prediction is for modes along one axis; in 2D the fastest mode may lie off the axes' });
 
   const summary: SimulationSummary = {
@@ -504,6 +517,7 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       measuredMode: measured.mode,
       measuredWindow: measured.window,
       seededModes: seeded,
+      chemicals,
       clusterThreshold: clusters.threshold,
       clusterCoveredFraction: clusters.coveredFraction,
       completed,
