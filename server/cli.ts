@@ -81,7 +81,8 @@ usage:
   brink analyze <mixture.json> [--format json|text]   linear stability of one sample
   brink screen <request.json> [--format json|text]   smallest dose of each candidate that crosses a boundary
   brink simulate <mixture.json> [--dims 1|2] [--points N] [--duration T] [--out DIR]
-              [--tolerance E] [--noise A] [--seed N] [--frames N] [--max-steps N]
+              [--tolerance E] [--noise A] [--seed N] [--frames N] [--max-steps N] [--chemicals quasi-static|dynamic]
+              [--repair global|local]
                                                      simulate the sample past onset (nonlinear model, docs/model.md §14):
                                                      prints a JSON summary (SI units): the linear and the measured early
                                                      growth, the dominant length over time, clusters and their make-up,
@@ -91,6 +92,10 @@ usage:
                                                      --duration: e.g. "20 min" or seconds (default: the mixture's duration,
                                                      else 20 growth times); --max-steps (default 100000): a run that
                                                      needs more steps stops there and says so (run.completed false)
+                                                     --chemicals dynamic: the chemical fields evolve in time instead of
+                                                     following the particles at once (slower; compare with the default)
+                                                     --repair local: negative densities at under-resolved cluster edges
+                                                     are made up from the nearest cells, not the whole chamber (slower)
   brink fit <msd|kinetics|drift> <file.csv|file.json> [options]   coefficients from raw data
       msd:      --model passive-2d|passive-3d|active-2d|active-3d|active-focal  --offset
                 --radius R (fix the rotation time by Stokes–Einstein–Debye)  --temperature T
@@ -386,7 +391,7 @@ async function cmdRestore(args: string[], io: Io): Promise<number> {
 const PAST_WORD = { stationary: 'stationary', oscillatory: 'oscillatory', any: 'unstable', restore: 'stable' } as const;
 
 function cmdSimulate(args: string[], io: Io): number {
-  const usage = 'usage: brink simulate <mixture.json> [--dims 1|2] [--points N] [--duration T] [--out DIR] [--tolerance E] [--noise A] [--seed N] [--frames N] [--max-steps N]';
+  const usage = 'usage: brink simulate <mixture.json> [--dims 1|2] [--points N] [--duration T] [--out DIR] [--tolerance E] [--noise A] [--seed N] [--frames N] [--max-steps N] [--chemicals quasi-static|dynamic] [--repair global|local]';
   const { values, positionals } = parseArgs({
     args,
     allowPositionals: true,
@@ -400,9 +405,15 @@ function cmdSimulate(args: string[], io: Io): number {
       seed: { type: 'string' },
       frames: { type: 'string' },
       'max-steps': { type: 'string' },
+      chemicals: { type: 'string' },
+      repair: { type: 'string' },
     },
   });
   if (positionals.length !== 1) throw new UsageError(usage);
+  const chemicals = values.chemicals ?? 'quasi-static';
+  if (chemicals !== 'quasi-static' && chemicals !== 'dynamic') throw new UsageError(`--chemicals: expected quasi-static or dynamic, got "${values.chemicals}"`);
+  const repair = values.repair ?? 'global';
+  if (repair !== 'global' && repair !== 'local') throw new UsageError(`--repair: expected global or local, got "${values.repair}"`);
   const dims = values.dims === undefined ? 1 : Number(values.dims);
   if (dims !== 1 && dims !== 2) throw new UsageError(`--dims: expected 1 or 2, got "${values.dims}"`);
   let duration: number | undefined;
@@ -428,6 +439,8 @@ function cmdSimulate(args: string[], io: Io): number {
       ...(values.seed !== undefined ? { seed: numberFlag('seed', values.seed, true)! } : {}),
       ...(values.frames !== undefined ? { frames: numberFlag('frames', values.frames, true)! } : {}),
       ...(values['max-steps'] !== undefined ? { maxSteps: numberFlag('max-steps', values['max-steps'], true)! } : {}),
+      chemicals,
+      repair,
       ...(bar ? { progress: bar.update } : {}),
     });
   } finally {

@@ -63,6 +63,14 @@ describe('brink simulate', () => {
     expect(s.warnings.map((w: { code: string }) => w.code)).toContain('linear-modes-1d');
   });
 
+  it('--chemicals dynamic evolves the chemical fields and says so', async () => {
+    const r = await run(['simulate', join(root, 'seeds/examples/stationary-janus-clusters.json'), '--points', '64', '--duration', '600', '--frames', '3', '--chemicals', 'dynamic']);
+    expect(r.code).toBe(0);
+    const s = JSON.parse(r.out);
+    expect(s.run.chemicals).toBe('dynamic');
+    expect(s.warnings.map((w: { code: string }) => w.code)).toContain('dynamic-chemicals');
+  });
+
   it('refuses bad options with status 2', async () => {
     const file = join(root, 'seeds/examples/stationary-janus-clusters.json');
     for (const [args, msg] of [
@@ -70,6 +78,8 @@ describe('brink simulate', () => {
       [['--points', '100'], /power of two/],
       [['--duration', '3 mM'], /--duration/],
       [['--duration', '-5'], /--duration/],
+      [['--chemicals', 'slow'], /--chemicals/],
+      [['--repair', 'nearby'], /--repair/],
     ] as const) {
       const r = await run(['simulate', file, ...args]);
       expect(r.code).toBe(2);

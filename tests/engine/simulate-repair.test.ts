@@ -14,7 +14,7 @@
 import { describe, expect, it } from 'vitest';
 import { Random } from '../../server/engine/random.js';
 import { SpectralField } from '../../server/engine/simulate/field.js';
-import { Integrator, localRepair } from '../../server/engine/simulate/integrate.js';
+import { globalRepair, Integrator, localRepair } from '../../server/engine/simulate/integrate.js';
 import { chemical, mixture, species } from '../helpers/mixtures.js';
 
 /** Neumaier-compensated sum (an independent summation, not the engine's). */
@@ -153,9 +153,34 @@ describe('localRepair: random fields with many negative cells', () => {
   }
 });
 
+describe('globalRepair (the default): every positive cell gives in proportion', () => {
+  it('negatives to 0, every positive value scaled by 1 − d/P worked by hand, the total kept', () => {
+    const v = Float64Array.from([3, -1, 2, 5, -0.5, 0, 4]);
+    const d = 1.5;
+    const P = 14;
+    const r = globalRepair(v, 7, -0.75);
+    expect(r.moved).toBe(d);
+    expect(r.beyond).toBe(1); // only the −1 is below −0.75
+    expect(r.reach).toBe(7);
+    const keep = 1 - d / P;
+    expect(Array.from(v)).toEqual([3 * keep, 0, 2 * keep, 5 * keep, 0, 0, 4 * keep]);
+    expect(Math.abs(v.reduce((a, b) => a + b, 0) - 12.5)).toBeLessThan(1e-12);
+  });
+  it('leaves a field without negatives alone', () => {
+    const v = Float64Array.from([1, 2, 3]);
+    expect(globalRepair(v, 3)).toEqual({ moved: 0, beyond: 0, reach: 0 });
+    expect(Array.from(v)).toEqual([1, 2, 3]);
+  });
+});
+
 describe('Integrator.repair on the mirror extension of a sealed chamber', () => {
-  for (const dims of [1, 2] as const) {
-    it(`${dims}D: the field stays exactly even, the chamber total is kept, the moved share is booked`, () => {
+  for (const [dims, mode] of [
+    [1, 'local'],
+    [2, 'local'],
+    [1, 'global'],
+    [2, 'global'],
+  ] as const) {
+    it(`${dims}D, ${mode}: the field stays exactly even, the chamber total is kept, the moved share is booked`, () => {
       const n = dims === 1 ? 32 : 16;
       const rho0 = 1e15;
       const mix = mixture([chemical('inert', 1e-9)], [species('bead', 2e-13, rho0, [])], 'sealed', 1e-3);
@@ -163,7 +188,7 @@ describe('Integrator.repair on the mirror extension of a sealed chamber', () => 
       const cells = dims === 2 ? n * n : n;
       const start = new Float64Array(field.size);
       field.fromChamber(new Float64Array(cells).fill(rho0), start);
-      const integ = new Integrator(field, [start], 1e-4);
+      const integ = new Integrator(field, [start], 1e-4, mode);
       // a chamber field with dips below zero, two of them against walls (cells 0 and n − 1 along x)
       const rng = new Random(3);
       const chamber = Float64Array.from({ length: cells }, () => rho0 * (0.5 + rng.uniform()));
@@ -188,7 +213,7 @@ describe('Integrator.repair on the mirror extension of a sealed chamber', () => 
       expect(integ.stats.repairedMass[0]! / share - 1).toBeLessThan(1e-12);
       expect(1 - integ.stats.repairedMass[0]! / share).toBeLessThan(1e-12);
       expect(integ.stats.largestRepair).toBe(integ.stats.repairedMass[0]);
-      expect(integ.stats.repairReach).toBe(1);
+      expect(integ.stats.repairReach).toBe(mode === 'local' ? 1 : n);
     });
   }
 });

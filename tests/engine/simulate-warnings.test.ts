@@ -72,6 +72,23 @@ describe('nothing formed yet, and nothing forms', () => {
   });
 });
 
+describe('a species with no particles (a dose-0 control)', () => {
+  it('is left out of the linear prediction, which the run then bears out, and the summary says so', () => {
+    const base = example('stable-janus-dispersed');
+    // a slow tracer species at zero density: analyze() of the whole mixture reports its slow diffusive decay
+    const tracer = { ...base.species[0]!, id: 'absent-dopant', density: 0, diffusivity: base.species[0]!.diffusivity / 50 };
+    const mix = { ...base, species: [...base.species, tracer] };
+    const whole = analyze(mix);
+    const present = analyze(base);
+    expect(rel(whole.growthRate, present.growthRate)).toBeGreaterThan(0.5); // the trace's decay is far slower
+    const r = simulate(mix, { dims: 1, points: 128, duration: 20 / -present.growthRate });
+    expect(r.summary.linear.growthRate).toBe(present.growthRate);
+    expect(rel(r.summary.measured.growthRate!, present.growthRate)).toBeLessThan(0.02);
+    expect(r.summary.warnings.find((w) => w.code === 'absent-species')?.message).toMatch(/absent-dopant/);
+    expect(codes(simulate(base, { dims: 1, points: 64, duration: 1 / -present.growthRate, frames: 3 }))).not.toContain('absent-species');
+  });
+});
+
 describe('bands', () => {
   it('are not read from a pattern with no contrast (findBands)', () => {
     // a travelling cosine of relative amplitude 1e-3 of the mean: below BAND_CONTRAST, so no reading at all

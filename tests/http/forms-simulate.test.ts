@@ -56,7 +56,7 @@ describe('simulate at doses of a plan', () => {
     const direct = simulate(mix, { dims: 1, points: 256, seed: 7, frames: 201, maxSteps: SIMULATE_BOUNDS.maxSteps[1], duration: 8 / a.growthRate });
     // the summary as it crossed the worker and JSON (measured on the full grid and all 201 frames)
     expect(got.summary).toEqual(JSON.parse(JSON.stringify(direct.summary)));
-    expect(got.linear.growthRate).toBe(a.growthRate);
+    expect(got.linear.growthRate).toBe(a.growthRate); // every species is present at this dose
     expect(got.linear.composition).toEqual(JSON.parse(JSON.stringify(a.composition)));
     // the kymograph: 101 of the 201 stored frames (evenly spaced: every 2nd), 128 positions each the mean of 2 of the 256 cells
     const k = got.kymograph;
@@ -143,6 +143,14 @@ describe('simulate at doses of a plan', () => {
     expect(job.result.doses[0].kymograph).toBeNull();
   }, 120_000);
 
+  it("chemicals: 'dynamic' runs the dynamic-chemicals model and says so", async () => {
+    const { job } = await run({ doses: ['2.5e8 1/mL'], dims: 1, points: 32, growthTimes: 2, chemicals: 'dynamic' });
+    expect(job.state).toBe('done');
+    expect(job.result.chemicals).toBe('dynamic');
+    expect(job.result.doses[0].summary.run.chemicals).toBe('dynamic');
+    expect(job.result.doses[0].summary.warnings.map((w: { code: string }) => w.code)).toContain('dynamic-chemicals');
+  });
+
   it('refuses out-of-bounds requests with 400 before any job, and an unknown candidate with 404', async () => {
     const bad = [
       { points: 100 },
@@ -155,6 +163,7 @@ describe('simulate at doses of a plan', () => {
       { growthTimes: 5, duration: '1 h' },
       { doses: ['1e20 1/mL'] },
       { seed: -1 },
+      { chemicals: 'slow' },
     ];
     for (const body of bad) {
       const r = await run(body);

@@ -90,7 +90,7 @@ function routeCases(plan: string, measurement: string, job: string): Record<stri
     'PATCH /api/plans/:id': { body: () => ({ baseRevision: 1, name: 'fuzzed name', notes: 'fuzzed notes' }), params: { id: [plan] } },
     'POST /api/plans/:id/rerun': { body: () => ({}), params: { id: [plan] } },
     'POST /api/plans/:id/candidates/:species/spectrum': { body: () => ({ dose: '1e8 1/mL', points: 40 }), params: { id: [plan], species: ['ptj-1um-b07', 'gox-e1'] } },
-    'POST /api/plans/:id/candidates/:species/simulate': { body: () => ({ doses: ['1e8 1/mL'], dims: 1, points: 32, growthTimes: 2, seed: 3 }), params: { id: [plan], species: ['ptj-1um-b07', 'gox-e1'] } },
+    'POST /api/plans/:id/candidates/:species/simulate': { body: () => ({ doses: ['1e8 1/mL'], dims: 1, points: 32, growthTimes: 2, seed: 3, chemicals: 'dynamic' }), params: { id: [plan], species: ['ptj-1um-b07', 'gox-e1'] } },
     'GET /plans/:id/forms': { params: { id: [plan] }, body: null },
     'POST /api/plans/:id/outcomes': { body: () => ({ tubes: [{ tube: 'C0a', state: 'stable', onsetTime: '12 min', patternLength: '0.4 mm', notes: 'n' }] }), params: { id: [plan] }, query: ['author', 'note', 'baseRevision', 'candidate', 'replicates'] },
     'GET /api/plans/:id/outcomes': { body: null, params: { id: [plan] }, query: ['candidate'] },

@@ -14,10 +14,13 @@
  * step whose two half steps leave clearly less negative mass than the full step
  * (and some value below −10⁻⁹ of the mean, and the step above its floor) is
  * retried with a quarter of the step (the step was too long); otherwise every
- * negative value of the kept state is set to 0 and its deficit taken from the
- * nearest positive cells (`localRepair`: the smallest square, or interval in
- * 1D, around the cell that holds enough, in proportion to their density), so
- * the total is unchanged and the correction stays where the ringing is. A step that moved a value below −10⁻⁹ of the mean (the grid's
+ * negative value of the kept state is set to 0 and the deficit made up, so the
+ * total is unchanged: by default from every positive cell in proportion to its
+ * density (`globalRepair`, a rescaling by 1 − d/P), or with `repair: 'local'`
+ * from the nearest positive cells (`localRepair`: the smallest square, or
+ * interval in 1D, around the cell that holds enough), which keeps the correction
+ * where the ringing is but leaves dents that ring again: in under-resolved runs
+ * it takes 2–5 times as many steps (docs/model.md §15). A step that moved a value below −10⁻⁹ of the mean (the grid's
  * resolution: Gibbs ringing at a sharp cluster edge) counts in
  * `positivityRepairs`; the mass moved is summed in `repairedMass`. The k = 0 mode
  * is untouched by N, so every species' total is conserved to rounding.
@@ -35,6 +38,29 @@ export interface StepStats {
   repairedMass: Float64Array;
   /** widest neighbourhood any repair reached, in cells from the negative cell (0: no repair) */
   repairReach: number;
+}
+
+/**
+ * Global, mass-conserving positivity repair of one field on the chamber's cells, in place: every negative cell is
+ * set to 0 and every positive one scaled by 1 − d/P (d the total deficit, P the sum of the positive values), so
+ * none turns negative and the total is unchanged to rounding. Returns the mass moved (d), the deficit below `tiny`
+ * alone and `points` as the reach (the whole chamber gives).
+ */
+export function globalRepair(v: Float64Array, points: number, tiny = 0): { moved: number; beyond: number; reach: number } {
+  let d = 0;
+  let beyond = 0;
+  let P = 0;
+  for (let i = 0; i < v.length; i++) {
+    const x = v[i]!;
+    if (x < 0) {
+      d -= x;
+      if (x < tiny) beyond -= x;
+    } else P += x;
+  }
+  if (d === 0) return { moved: 0, beyond: 0, reach: 0 };
+  const keep = P > 0 ? Math.max(0, 1 - d / P) : 0;
+  for (let i = 0; i < v.length; i++) v[i] = v[i]! < 0 ? 0 : v[i]! * keep;
+  return { moved: d, beyond, reach: points };
 }
 
 /**
@@ -152,6 +178,8 @@ export class Integrator {
     initial: Float64Array[],
     /** relative tolerance on the local error, measured against each species' fluctuation */
     readonly tolerance: number,
+    /** how a negative density's deficit is made up: from the whole chamber (default) or the nearest cells */
+    readonly repairMode: 'global' | 'local' = 'global',
   ) {
     const { N, S, size } = field;
     if (initial.length !== N) throw new Error(`the integrator needs ${N} starting fields, got ${initial.length}`);
@@ -294,7 +322,7 @@ export class Integrator {
   }
 
   /**
-   * Repair the negative values of species a's field v in place (localRepair on the chamber's cells; sealed walls:
+   * Repair the negative values of species a's field v in place (globalRepair or localRepair on the chamber's cells; sealed walls:
    * the repaired chamber is mirrored back, so the extension stays exactly even) and book the mass moved.
    * Returns whether a value below −10⁻⁹ of the mean was moved. (Public for the tests; tryStep calls it.)
    */
@@ -312,11 +340,12 @@ export class Integrator {
     const { points, dims, mirror } = f.grid;
     const tiny = -1e-9 * mean;
     let r: { moved: number; beyond: number; reach: number };
+    const fix = (w: Float64Array, periodic: boolean) => (this.repairMode === 'local' ? localRepair(w, points, dims, periodic, tiny) : globalRepair(w, points, tiny));
     if (mirror) {
       f.toChamber(v, this.chamber);
-      r = localRepair(this.chamber, points, dims, false, tiny);
+      r = fix(this.chamber, false);
       f.fromChamber(this.chamber, v);
-    } else r = localRepair(v, points, dims, true, tiny);
+    } else r = fix(v, true);
     const total = mean * this.chamber.length;
     const share = r.moved / Math.max(total, 1e-300);
     this.stats.repairedMass[a]! += share;

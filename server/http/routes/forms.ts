@@ -19,7 +19,7 @@ import type { ZodTypeProvider } from 'fastify-type-provider-zod';
 import { z } from 'zod';
 import type { AnalysisResult } from '../../engine/analyze.js';
 import { withDose, type Dosing } from '../../engine/planner.js';
-import type { SimulationResult, SimulationSummary } from '../../engine/simulate/index.js';
+import { presentSpecies, type SimulationResult, type SimulationSummary } from '../../engine/simulate/index.js';
 import type { Mixture, Species } from '../../engine/types.js';
 import type { SimulateTaskOptions } from '../../jobs/tasks.js';
 import { quantity } from '../../schema/mixture.js';
@@ -109,6 +109,10 @@ const bodySchema = z
       .optional()
       .describe(`the doses to simulate (at most ${SIMULATE_BOUNDS.doses}; default: the candidate's default bench-sheet series, dose 0 included)`),
     dims: z.union([z.literal(1), z.literal(2)]).optional().describe('1: a line across the chamber (default); 2: a square of the chamber length'),
+    chemicals: z
+      .enum(['quasi-static', 'dynamic'])
+      .optional()
+      .describe("'quasi-static' (default): the chemical fields follow the particles at once, as in the linear prediction; 'dynamic': they evolve in time (slower runs; docs/model.md §14)"),
     points: z
       .number()
       .int()
@@ -213,7 +217,7 @@ export const formsRoutes: FastifyPluginAsync = async (base) => {
       tags: ['planner'],
       summary: "Start a job that simulates what forms past onset at each dose of a candidate's bench-sheet series (or the doses given)",
       description:
-        "Answers 202 with the job (header location: /api/jobs/:id). For each dose, the plan's base with the candidate at that dose (on the plan's stored SI inputs, as the spectrum route builds it) is simulated with the nonlinear model of docs/model.md §14–§16 from a seeded random perturbation; the job's result is { plan, candidate, dims, points, seed, durationFrom, series: { from, note } | null, doses: [{ dose, factor, linear: { state, growthRate, growthTime, wavelength, oscillationPeriod, composition }, summary (as `brink simulate` prints it), species: [{ id, mean, particleVolume }], kymograph (1D: times, positions, block, simulated, downsampled, deviation) | null, frames (2D: times, points, cellSize, block, simulated, downsampled, deviation) | null }] }. " +
+        "Answers 202 with the job (header location: /api/jobs/:id). For each dose, the plan's base with the candidate at that dose (on the plan's stored SI inputs, as the spectrum route builds it) is simulated with the nonlinear model of docs/model.md §14–§16 from a seeded random perturbation; the job's result is { plan, candidate, dims, points, seed, chemicals, durationFrom, series: { from, note } | null, doses: [{ dose, factor, linear: { state, growthRate, growthTime, wavelength, oscillationPeriod, composition }, summary (as `brink simulate` prints it), species: [{ id, mean, particleVolume }], kymograph (1D: times, positions, block, simulated, downsampled, deviation) | null, frames (2D: times, points, cellSize, block, simulated, downsampled, deviation) | null }] }. " +
         "The pictures are made compact: 1D keeps 101 of the engine's 201 stored times (those nearest to evenly spaced times; the engine adds a frame at the end of a run that stops between two) at ≤ 128 positions, 2D 12 frames of ≤ 64 × 64 cells; a shown cell is the mean of block (1D) or block × block (2D) simulated cells, so each species keeps its amount; points and cellSize are those of the shown cells, simulated: { points, times } the simulated cells per side and the engine's stored frames, downsampled the same in words; the summary (clusters, dominant length, bands, growth) is measured on the full grid and every stored frame. " +
         "deviation: { scale[species][frame], values[species][frame][cell] }: density ÷ the species' mean − 1 = values × scale to within scale ÷ 2; values are integers in ±999, scale (3 significant digits) is 1/999 of that frame's largest departure (0 for a species absent at the dose); cells are positions in 1D, rows of y with x fastest in 2D. " +
         `Bounds (the work budget of one request): at most ${SIMULATE_BOUNDS.doses} doses; points a power of two, 32–512 in 1D, 16–64 in 2D; duration at most 30 days, or growthTimes 1–40; each dose stops after ${SIMULATE_BOUNDS.maxSteps[1]} steps in 1D, ${SIMULATE_BOUNDS.maxSteps[2]} in 2D (its summary then warns step-limit). Out of bounds: 400 before any job. A candidate that does not cross has no series: give doses.`,
@@ -250,6 +254,7 @@ export const formsRoutes: FastifyPluginAsync = async (base) => {
       if (problems.length) throw new InputError(problems);
       const dosing: Dosing = plan.request.dosing ?? 'add';
       const seed = body.seed ?? 1;
+      const chemicals = body.chemicals ?? 'quasi-static';
       const growthTimes = body.duration ? null : (body.growthTimes ?? SIMULATE_BOUNDS.growthTimes.default);
       const mixtures = doses.map((x) => withDose(plan.inputs.base, dopant, x, dosing));
 
@@ -259,7 +264,8 @@ export const formsRoutes: FastifyPluginAsync = async (base) => {
           const n = doses.length;
           // the linear prediction of every dose first (a moment each): it sets the durations in growth times
           const analyses: AnalysisResult[] = [];
-          for (const mixture of mixtures) analyses.push(await app.pool.run('analyze', { mixture }, { ...ctx.runOptions, onProgress: () => undefined }));
+          // of the species present: a dose-0 control has no dopant particles, whose trace modes it would otherwise list
+          for (const mixture of mixtures) analyses.push(await app.pool.run('analyze', { mixture: presentSpecies(mixture) }, { ...ctx.runOptions, onProgress: () => undefined }));
           const grows = analyses.filter((a) => a.growthRate > 0).map((a) => growthTimes! / a.growthRate);
           const durationOf = (a: AnalysisResult): number | undefined => {
             if (body.duration) return body.duration.value;
@@ -271,7 +277,7 @@ export const formsRoutes: FastifyPluginAsync = async (base) => {
           for (let i = 0; i < n; i++) {
             const a = analyses[i]!;
             const d = durationOf(a);
-            const options: SimulateTaskOptions = { dims, points, seed, frames: dims === 1 ? SIMULATE_BOUNDS.kymograph.engineFrames : SIMULATE_BOUNDS.frames2d.frames, maxSteps: SIMULATE_BOUNDS.maxSteps[dims], ...(d !== undefined ? { duration: Math.min(d, SIMULATE_BOUNDS.maxDuration) } : {}) };
+            const options: SimulateTaskOptions = { dims, points, seed, chemicals, frames: dims === 1 ? SIMULATE_BOUNDS.kymograph.engineFrames : SIMULATE_BOUNDS.frames2d.frames, maxSteps: SIMULATE_BOUNDS.maxSteps[dims], ...(d !== undefined ? { duration: Math.min(d, SIMULATE_BOUNDS.maxDuration) } : {}) };
             const label = `dose ${i + 1} of ${n}`;
             const result = await app.pool.run('simulate', { mixture: mixtures[i]!, options }, { ...ctx.runOptions, onProgress: (f, stage) => ctx.runOptions.onProgress?.((i + f) / n, `${label}: ${stage}`) });
             const means = mixtures[i]!.species.map((s) => s.density);
@@ -284,7 +290,7 @@ export const formsRoutes: FastifyPluginAsync = async (base) => {
               ...shrink(result, means),
             });
           }
-          return { plan: req.params.id, candidate: dopant.id, dims, points, seed, durationFrom: body.duration ? 'given' : `${growthTimes} growth times`, series, doses: out };
+          return { plan: req.params.id, candidate: dopant.id, dims, points, seed, chemicals, durationFrom: body.duration ? 'given' : `${growthTimes} growth times`, series, doses: out };
         },
         { label: `what forms: plan ${req.params.id}, ${dopant.id}` },
       );

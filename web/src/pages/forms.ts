@@ -93,6 +93,7 @@ interface Result {
   plan: number;
   candidate: string;
   dims: 1 | 2;
+  chemicals: 'quasi-static' | 'dynamic';
   points: number;
   seed: number;
   durationFrom: string;
@@ -125,9 +126,17 @@ const perMl = (x: number) => (x === 0 ? '0 particles/mL' : fmt(x, 'numberDensity
 /** What the run's warnings mean, in words a researcher reads first (the engine's own message follows). */
 const WARNING_WORDS: Record<string, string> = {
   'step-limit': 'The run stopped at its step limit before the end: what is shown ends early. Fewer points or a shorter duration reach the end.',
-  'positivity-repaired': 'The grid is too coarse for the sharpest cluster edges (under-resolved): a small negative part was cut off. Use more points to trust the cluster edges.',
+  'positivity-repaired': 'The grid is too coarse for the sharpest cluster edges: the spectral field dipped below zero beside them and the missing amount was taken from the cells next to it. Use more points to trust the cluster edges.',
+  'clusters-under-resolved': 'Some clusters are only one or two grid cells wide: their number and sizes depend on the grid. Use more points before trusting them.',
+  'nothing-formed-yet': 'Nothing has formed yet: at the end of the run the sample is still nearly uniform. This does not mean it stays uniform: run longer (the message says about how much).',
+  'stable-nothing-forms': 'Stable: the starting unevenness dies away and nothing forms.',
+  'fastest-mode-unresolved': 'The predicted pattern is finer than this grid can show: use more points.',
+  'fastest-mode-coarse': 'The predicted pattern spans only a few grid cells: what forms from it is narrower still; use more points.',
+  'bands-not-read-in-2d': 'Travelling bands are measured only in 1D: run the 1D chamber for their speed and period.',
+  'absent-species': 'A species has no particles at this dose (the no-dopant control): the linear prediction is for the species present.',
+  'dynamic-chemicals': 'The chemicals evolve in time in this run; the linear prediction beside it assumes they follow the particles at once.',
   'above-close-packing': 'The clusters reached close packing narrower than the grid resolves: use more points.',
-  'measured-mode-differs': 'The mode that grew fastest in the run is not the one the linear prediction names (neighbouring modes grow almost alike).',
+  'measured-mode-differs': 'The mode that grew fastest in the run is not the one the linear prediction names: the message gives the linear growth of both.',
   'fuel-runs-out-first': 'The fuel would run out before the end of the run: the model holds the fuel at its starting level, so what is shown after the marked time would not happen in the sample.',
   'no-linear-window': 'The pattern left the small-perturbation regime too early to measure its early growth.',
   'linear-modes-1d': 'In 2D the linear prediction is for modes along one side; a diagonal mode may grow slightly faster.',
@@ -302,7 +311,7 @@ function clustersView(d: Dose): HTMLElement {
   return h(
     'div',
     { class: 'clusters' },
-    h('p', null, c.count === 0 ? 'No clusters at the end of the run (nowhere is the volume fraction 1.2 × the mean).' : `${c.count} cluster${c.count === 1 ? '' : 's'} at the end, ${d.summary.grid.dims === 1 ? 'lengths' : 'diameters'} ${c.sizes.map((x) => `${formatNumber(x * Lu.f, 3)} ${Lu.label}`).join(', ')}; together they cover ${formatNumber(100 * covered, 3)} % of the chamber.`),
+    h('p', null, c.count === 0 ? (d.summary.warnings.some((w) => w.code === 'nothing-formed-yet') ? 'No clusters yet: the run ended while the sample was still nearly uniform (see the warnings), not because none form.' : d.linear.state === 'stable' ? 'No clusters: the sample is stable.' : 'No clusters at the end of the run (nowhere is the volume fraction 1.2 × the mean).') : `${c.count} cluster${c.count === 1 ? '' : 's'} at the end, ${d.summary.grid.dims === 1 ? 'lengths' : 'diameters'} ${c.sizes.map((x) => `${formatNumber(x * Lu.f, 3)} ${Lu.label}`).join(', ')}; together they cover ${formatNumber(100 * covered, 3)} % of the chamber.`),
     h(
       'table',
       { class: 'compare', 'aria-label': 'Cluster make-up beside the linear prediction' },
@@ -335,10 +344,10 @@ function doseSection(d: Dose, show: Show, index: number): HTMLElement {
         s.bands.speed === 0 ? 'The pattern changes in time but does not travel' : `Bands travel at ${fmt(Math.abs(s.bands.speed), 'speed')}`,
         s.bands.period !== null ? `, period ${fmtDuration(s.bands.period)}` : '',
         '.',
-        s.warnings.some((w) => w.code === 'positivity-repaired' || w.code === 'above-close-packing') ? h('span', { class: 'flag' }, ' The grid is too coarse for the cluster edges (see the warnings): this motion may come from the grid, not the sample; run with more points before trusting it.') : null,
+        s.warnings.some((w) => w.code === 'positivity-repaired' || w.code === 'above-close-packing' || w.code === 'clusters-under-resolved') ? h('span', { class: 'flag' }, ' The grid is too coarse for the cluster edges (see the warnings): this motion may come from the grid, not the sample; run with more points before trusting it.') : null,
       )
     : s.grid.dims === 1
-      ? h('p', { class: 'muted' }, 'No travelling bands: the pattern is static over the second half of the run.')
+      ? h('p', { class: 'muted' }, departure < 0.01 ? 'No bands to read: no pattern has formed.' : 'No travelling bands: the pattern is static over the second half of the run.')
       : null;
   const warnings = s.warnings.filter((w) => w.code !== 'linear-modes-1d' || s.grid.dims === 2);
   return h(
@@ -419,6 +428,7 @@ async function main(): Promise<void> {
     growthField.hidden = mode.value !== 'growth';
     timeField.hidden = mode.value !== 'time';
   });
+  const chemicals = h('select', { id: 'chemicals' }, h('option', { value: 'quasi-static' }, 'follow the particles at once (as the linear prediction)'), h('option', { value: 'dynamic' }, 'evolve in time (slower)'));
   const showSel = h('select', { id: 'show' });
   const run = h('button', { type: 'submit' }, 'Run');
   const form = h(
@@ -430,6 +440,7 @@ async function main(): Promise<void> {
     field('Duration in', mode),
     growthField,
     timeField,
+    field('Chemicals', chemicals, 'when the chemicals spread and decay slowly next to the pattern\'s growth, compare the two'),
     field('Seed', seed, 'the same seed gives the same run'),
     h('div', { class: 'actions' }, run),
   );
@@ -448,7 +459,7 @@ async function main(): Promise<void> {
     const fuel = r.doses.find((d) => d.summary.fuelRunOut)?.summary.fuelRunOut;
     put(
       results,
-      h('h2', null, `${r.candidate}: ${r.doses.length} dose${r.doses.length === 1 ? '' : 's'}, ${r.dims}D, ${r.dims === 1 ? r.points : `${r.points} × ${r.points}`} cells, ${r.durationFrom}, seed ${r.seed}`),
+      h('h2', null, `${r.candidate}: ${r.doses.length} dose${r.doses.length === 1 ? '' : 's'}, ${r.dims}D, ${r.dims === 1 ? r.points : `${r.points} × ${r.points}`} cells, ${r.durationFrom}, seed ${r.seed}${r.chemicals === 'dynamic' ? ', chemicals evolving in time' : ''}`),
       r.series ? h('p', { class: 'muted' }, `Doses: the bench sheet's series — ${r.series.note}`) : null,
       fuel ? h('p', { class: 'flag' }, `${fuel.chemical} would run out after about ${fmtDuration(fuel.time)} at the lowest dose that consumes it (sooner at larger doses): the model does not deplete it, so anything later on the time axes would not happen in the sample unless the fuel is replenished.`) : null,
       field('Colour shows', showSel),
@@ -460,7 +471,7 @@ async function main(): Promise<void> {
   form.addEventListener('submit', async (ev) => {
     ev.preventDefault();
     page.clear();
-    const body: Record<string, unknown> = { dims: Number(dims.value), points: Number(points.value), seed: Number(seed.value) };
+    const body: Record<string, unknown> = { dims: Number(dims.value), points: Number(points.value), seed: Number(seed.value), chemicals: chemicals.value };
     if (mode.value === 'growth') body.growthTimes = Number(growth.value);
     else body.duration = time.value.trim();
     run.disabled = true;

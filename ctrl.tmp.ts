@@ -1,0 +1,1 @@
+import { buildApp } from './server/http/app.js';
