@@ -548,46 +548,38 @@ export function chemicalRelaxation(
   const pct = (x: number) => `${fmt(Math.abs(100 * x))} %`;
   const slowerFaster = (x: number) => `${pct(x)} ${x < 0 ? 'slower' : 'faster'}`;
   const where = mode.k > 0 ? `the ${metres((2 * Math.PI) / kSI)} wave` : 'the longest waves';
-  const times = `${fmt(slowest.ratio)} times`;
-  const against = mode.omega > Math.abs(mode.rate) ? 'the pattern turns (angular frequency' : mode.rate > 0 ? 'the pattern grows (growth rate' : 'the least stable mode decays (rate';
-  const head = `${slowest.chemical} relaxes only ${times} faster than ${against} ${fmt(scale)} 1/s; its D k² + loss is ${fmt(slowest.relaxationRate)} 1/s at ${where}): the linear answer assumes the chemicals follow the particles at once.`;
-  const tail = '`brink simulate --chemicals dynamic` shows the difference.';
+  // rates said as times, as a bench reads them: 1/Γ against the growth time 1/λ, or 1/|ω| (period/2π), or the decay time
+  const against =
+    mode.omega > Math.abs(mode.rate)
+      ? `the pattern turns (1/ω = ${seconds(1 / mode.omega)}, a period of ${seconds((2 * Math.PI) / mode.omega)})`
+      : mode.rate > 0
+        ? `the pattern grows (growth time ${seconds(1 / mode.rate)})`
+        : `the least stable mode decays (decay time ${seconds(1 / Math.abs(mode.rate))})`;
+  const head = `${slowest.chemical} relaxes only ${fmt(slowest.ratio)} times faster than ${against}: its relaxation time across ${where} is about ${seconds(1 / slowest.relaxationRate)} (1/(D k² + loss)). The linear answer assumes the chemicals follow the particles at once.`;
+  const tail = 'A simulation with evolving chemicals (brink simulate --chemicals dynamic) shows the difference.';
   const sameMode = Math.abs(best.k - k) <= 1e-9 * k;
+  const fields = {
+    chemical: slowest.chemical,
+    ratio: slowest.ratio,
+    relaxationRate: slowest.relaxationRate,
+    dynamicGrowthRate: dynamic.growthRate,
+    dynamicWavelength: dynamic.wavelength,
+    relativeChange: check.relativeChange,
+  };
+  const turning = dynamic.oscillationPeriod !== null ? ` and oscillates with a period of ${seconds(dynamic.oscillationPeriod)}` : '';
   if (mode.rate <= 0) {
     // a mode that grows by more than rounding (1e-6 of the judged rate) with the chemicals evolving
     if (!(dynamic.growthRate > 1e-6 * scale)) return { check, warnings: [] };
-    return {
-      check,
-      warnings: [
-        {
-          code: 'slow-chemistry',
-          message: `${head} With the chemicals evolving at their own pace the mixture is not stable: the ${metres(dynamic.wavelength)} wave grows at ${fmt(dynamic.growthRate)} 1/s${dynamic.oscillationPeriod !== null ? ` and oscillates with a period of ${seconds(dynamic.oscillationPeriod)}` : ''}. ${tail}`,
-          chemical: slowest.chemical,
-          ratio: slowest.ratio,
-          relaxationRate: slowest.relaxationRate,
-          dynamicGrowthRate: dynamic.growthRate,
-          dynamicWavelength: dynamic.wavelength,
-          relativeChange: check.relativeChange,
-        },
-      ],
-    };
+    const message = `${head} With the chemicals evolving at their own pace the mixture is not stable: the ${metres(dynamic.wavelength)} wave grows (growth time ${seconds(1 / dynamic.growthRate)})${turning}. ${tail}`;
+    return { check, warnings: [{ code: 'slow-chemistry', message, ...fields }] };
+  }
+  if (!(dynamic.growthRate > 0)) {
+    const message = `${head} With the chemicals evolving at their own pace no mode grows (the least stable, at ${metres(dynamic.wavelength)}, decays in about ${seconds(1 / Math.abs(dynamic.growthRate))}): the predicted pattern may not form. ${tail}`;
+    return { check, warnings: [{ code: 'slow-chemistry', message, ...fields }] };
   }
   const atMode = changeAtMode !== null && !sameMode ? ` (at ${where} itself ${slowerFaster(changeAtMode)})` : '';
   const moved = sameMode ? ' at the same wavelength' : `, at wavelength ${metres(dynamic.wavelength)} instead of ${mode.k > 0 ? metres((2 * Math.PI) / kSI) : 'the longest wave'}${atMode}`;
   const period = dynamic.oscillationPeriod !== null ? `, oscillating with a period of ${seconds(dynamic.oscillationPeriod)}` : mode.omega > 0 ? ', without oscillating' : '';
-  return {
-    check,
-    warnings: [
-      {
-        code: 'slow-chemistry',
-        message: `${head} With the chemicals evolving at their own pace the fastest mode grows ${slowerFaster(check.relativeChange!)} (${fmt(dynamic.growthRate)} 1/s)${moved}${period}: the growth rate may be off by about that much. ${tail}`,
-        chemical: slowest.chemical,
-        ratio: slowest.ratio,
-        relaxationRate: slowest.relaxationRate,
-        dynamicGrowthRate: dynamic.growthRate,
-        dynamicWavelength: dynamic.wavelength,
-        relativeChange: check.relativeChange,
-      },
-    ],
-  };
+  const message = `${head} With the chemicals evolving at their own pace the fastest mode grows ${slowerFaster(check.relativeChange!)} (growth time ${seconds(1 / dynamic.growthRate)})${moved}${period}: the growth rate may be off by about that much. ${tail}`;
+  return { check, warnings: [{ code: 'slow-chemistry', message, ...fields }] };
 }
