@@ -549,13 +549,15 @@ export function chemicalRelaxation(
   const slowerFaster = (x: number) => `${pct(x)} ${x < 0 ? 'slower' : 'faster'}`;
   const where = mode.k > 0 ? `the ${metres((2 * Math.PI) / kSI)} wave` : 'the longest waves';
   // rates said as times, as a bench reads them: 1/Γ against the growth time 1/λ, or 1/|ω| (period/2π), or the decay time
+  const subject = mode.rate > 0 ? 'the pattern' : 'the least stable mode';
   const against =
     mode.omega > Math.abs(mode.rate)
-      ? `the pattern turns (1/ω = ${seconds(1 / mode.omega)}, a period of ${seconds((2 * Math.PI) / mode.omega)})`
+      ? `${subject} turns (1/ω = ${seconds(1 / mode.omega)}, a period of ${seconds((2 * Math.PI) / mode.omega)})`
       : mode.rate > 0
-        ? `the pattern grows (growth time ${seconds(1 / mode.rate)})`
-        : `the least stable mode decays (decay time ${seconds(1 / Math.abs(mode.rate))})`;
-  const head = `${slowest.chemical} relaxes only ${fmt(slowest.ratio)} times faster than ${against}: its relaxation time across ${where} is about ${seconds(1 / slowest.relaxationRate)} (1/(D k² + loss)). The linear answer assumes the chemicals follow the particles at once.`;
+        ? `${subject} grows (growth time ${seconds(1 / mode.rate)})`
+        : `${subject} decays (decay time ${seconds(1 / Math.abs(mode.rate))})`;
+  const pace = slowest.ratio >= 1 ? `only ${fmt(slowest.ratio)} times faster` : `${fmt(1 / slowest.ratio)} times slower`;
+  const head = `${slowest.chemical} relaxes ${pace} than ${against}: its relaxation time across ${where} is about ${seconds(1 / slowest.relaxationRate)} (1/(D k² + loss)). The linear answer assumes the chemicals follow the particles at once.`;
   const tail = 'A simulation with evolving chemicals (brink simulate --chemicals dynamic) shows the difference.';
   const sameMode = Math.abs(best.k - k) <= 1e-9 * k;
   const fields = {

@@ -201,7 +201,10 @@ describe('slow chemistry: the quasi-static answer against the chemicals evolving
     expect(best.re).toBeGreaterThan(0); // ml-matrix: with the chemical evolving, a mode grows
     expect(best.im).toBeGreaterThan(0); // and oscillates
     const w = a.warnings.find((x) => x.code === 'slow-chemistry')!;
-    expect(w.message).toMatch(/the mixture is not stable/);
+    // the chemical relaxes (1/Γ at k₁ = π/L: 1/(2.4e-11 (π/1e-3)² + 2e-5) = 3.88e3 s = 1.08 h, by hand) slower than the
+    // least stable mode turns: the message says "slower", not "only 0.1 times faster"
+    expect(w.message).toMatch(/^c relaxes [\d.]+ times slower than the least stable mode turns .*its relaxation time across the 2\.00 mm wave is about 1\.08 h/);
+    expect(w.message).toMatch(/the mixture is not stable: the [\d.]+ µm wave grows \(growth time [\d.]+ min\) and oscillates with a period of [\d.]+ min/);
     expect(rel(w.dynamicGrowthRate as number, best.re)).toBeLessThan(1e-6);
     expect(rel(w.dynamicWavelength as number, (2 * 1e-3) / best.n)).toBeLessThan(1e-12);
     expect(rel(a.checks.relaxation!.dynamic!.oscillationPeriod!, (2 * Math.PI) / best.im)).toBeLessThan(1e-6);
