@@ -214,4 +214,27 @@ describe('slow chemistry: the quasi-static answer against the chemicals evolving
     expect(calm.warnings.map((x) => x.code)).not.toContain('slow-chemistry');
     expect(dynamicBest(example('stable-janus-dispersed')).re).toBeLessThan(0);
   });
+
+  it('an unbounded chamber: the log grid finds the dynamic peak that a dense scan with ml-matrix finds, to 10⁻³', () => {
+    const mix = mixture([chemical('c', 3e-11, 1e-3)], [species('b', D, rho, [constant('c', alpha, mu)], 1e-6)], 'unbounded', null);
+    const a = analyze(mix);
+    expect(a.state).toBe('stationary');
+    // the Keller–Segel peak by hand: k*² = (√(Aκ/D) − κ)/D_c with A = −αμρ (docs/references.md)
+    const A = -alpha * mu * rho;
+    expect(rel(a.fastestMode.wavenumber ** 2, (Math.sqrt((A * 1e-3) / D) - 1e-3) / 3e-11)).toBeLessThan(1e-6);
+    const w = a.warnings.find((x) => x.code === 'slow-chemistry')!;
+    expect(w).toBeDefined();
+    let best = { k: 0, re: -Infinity };
+    const k0 = a.fastestMode.wavenumber;
+    for (let i = 0; i <= 4000; i++) {
+      const k = (k0 / 30) * 900 ** (i / 4000);
+      const g = dynamicGrowth(mix, k).re;
+      if (g > best.re) best = { k, re: g };
+    }
+    const got = w.dynamicGrowthRate as number;
+    expect(got).toBeLessThanOrEqual(best.re * (1 + 1e-9));
+    expect(got).toBeGreaterThan(best.re * (1 - 1e-3));
+    expect(Math.abs(Math.log((2 * Math.PI) / (w.dynamicWavelength as number) / best.k))).toBeLessThan(0.05);
+    expect(a.checks.relaxation!.dynamic!.index).toBeNull();
+  });
 });
