@@ -557,8 +557,8 @@ export function chemicalRelaxation(
         ? `${subject} grows (growth time ${seconds(1 / mode.rate)})`
         : `${subject} decays (decay time ${seconds(1 / Math.abs(mode.rate))})`;
   const pace = slowest.ratio >= 1 ? `only ${fmt(slowest.ratio)} times faster` : `${fmt(1 / slowest.ratio)} times slower`;
-  const head = `${slowest.chemical} relaxes ${pace} than ${against}: its relaxation time across ${where} is about ${seconds(1 / slowest.relaxationRate)} (1/(D k² + loss)). The linear answer assumes the chemicals follow the particles at once.`;
-  const tail = 'A simulation with evolving chemicals (brink simulate --chemicals dynamic) shows the difference.';
+  const head = `${slowest.chemical} relaxes ${pace} than ${against}: in about ${seconds(1 / slowest.relaxationRate)} across ${where}. The answer assumes the chemicals follow the particles at once`;
+  const tail = 'Check with a simulation: brink simulate --chemicals dynamic.';
   const sameMode = Math.abs(best.k - k) <= 1e-9 * k;
   const fields = {
     chemical: slowest.chemical,
@@ -572,16 +572,16 @@ export function chemicalRelaxation(
   if (mode.rate <= 0) {
     // a mode that grows by more than rounding (1e-6 of the judged rate) with the chemicals evolving
     if (!(dynamic.growthRate > 1e-6 * scale)) return { check, warnings: [] };
-    const message = `${head} With the chemicals evolving at their own pace the mixture is not stable: the ${metres(dynamic.wavelength)} wave grows (growth time ${seconds(1 / dynamic.growthRate)})${turning}. ${tail}`;
+    const message = `${head}; with them evolving the mixture is not stable: the ${metres(dynamic.wavelength)} wave grows (growth time ${seconds(1 / dynamic.growthRate)})${turning}. ${tail}`;
     return { check, warnings: [{ code: 'slow-chemistry', message, ...fields }] };
   }
   if (!(dynamic.growthRate > 0)) {
-    const message = `${head} With the chemicals evolving at their own pace no mode grows (the least stable, at ${metres(dynamic.wavelength)}, decays in about ${seconds(1 / Math.abs(dynamic.growthRate))}): the predicted pattern may not form. ${tail}`;
+    const message = `${head}; with them evolving no mode grows (the least stable, at ${metres(dynamic.wavelength)}, decays in about ${seconds(1 / Math.abs(dynamic.growthRate))}): the predicted pattern may not form. ${tail}`;
     return { check, warnings: [{ code: 'slow-chemistry', message, ...fields }] };
   }
-  const atMode = changeAtMode !== null && !sameMode ? ` (at ${where} itself ${slowerFaster(changeAtMode)})` : '';
-  const moved = sameMode ? ' at the same wavelength' : `, at wavelength ${metres(dynamic.wavelength)} instead of ${mode.k > 0 ? metres((2 * Math.PI) / kSI) : 'the longest wave'}${atMode}`;
+  const atMode = changeAtMode !== null && !sameMode ? `; ${slowerFaster(changeAtMode)} at ${where} itself` : '';
+  const moved = sameMode ? ' at the same wavelength' : ` at ${metres(dynamic.wavelength)} instead of ${mode.k > 0 ? metres((2 * Math.PI) / kSI) : 'the longest wave'}${atMode}`;
   const period = dynamic.oscillationPeriod !== null ? `, oscillating with a period of ${seconds(dynamic.oscillationPeriod)}` : mode.omega > 0 ? ', without oscillating' : '';
-  const message = `${head} With the chemicals evolving at their own pace the fastest mode grows ${slowerFaster(check.relativeChange!)} (growth time ${seconds(1 / dynamic.growthRate)})${moved}${period}: the growth rate may be off by about that much. ${tail}`;
+  const message = `${head}, so the growth rate may be off by about ${pct(check.relativeChange!)}: with them evolving the fastest mode grows ${slowerFaster(check.relativeChange!)} (growth time ${seconds(1 / dynamic.growthRate)})${moved}${period}. ${tail}`;
   return { check, warnings: [{ code: 'slow-chemistry', message, ...fields }] };
 }
