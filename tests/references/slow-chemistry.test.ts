@@ -25,6 +25,7 @@ import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { analyze } from '../../server/engine/analyze.js';
 import { RELAXATION_CHANGE, RELAXATION_RATIO } from '../../server/engine/checks.js';
+import { findDose, withDose } from '../../server/engine/planner.js';
 import type { Mixture } from '../../server/engine/types.js';
 import { parseMixture } from '../../server/schema/mixture.js';
 import { chemical, constant, mixture, rel, species } from '../helpers/mixtures.js';
@@ -238,5 +239,23 @@ describe('slow chemistry: the quasi-static answer against the chemicals evolving
     expect(got).toBeGreaterThan(best.re * (1 - 1e-3));
     expect(Math.abs(Math.log((2 * Math.PI) / (w.dynamicWavelength as number) / best.k))).toBeLessThan(0.05);
     expect(a.checks.relaxation!.dynamic!.index).toBeNull();
+  });
+
+  it('a stationary threshold is the same with evolving chemicals: at the planner\'s dose the dynamic system has an eigenvalue 0 at the crossing mode', () => {
+    // det of the dynamic system = det(−(k² D_s + R)) · det J_qs(k) (Schur complement on the chemical block, by hand):
+    // a real eigenvalue crosses 0 in one exactly when it does in the other, however slow the chemicals are
+    const base = mixture([chemical('c', 3e-11, 1e-3)], [species('b', 2e-13, 1e16, [constant('c', -1e-16, -1e-12)])], 'sealed', 2e-3);
+    const dopant = species('d', 2e-13, 0, [constant('c', -1e-16, 1e-12)]);
+    const r = findDose(base, dopant, { boundary: 'stationary', dosing: 'add' });
+    expect(r.feasible).toBe(true);
+    const mix = withDose(base, dopant, r.threshold!.density, 'add');
+    const n = analyze(mix).fastestMode.index!;
+    const k = modeK(mix, n);
+    const top = dynamicGrowth(mix, k);
+    const gamma = 3e-11 * k * k + 1e-3;
+    expect(Math.abs(top.re)).toBeLessThan(1e-5 * gamma);
+    expect(top.im).toBe(0);
+    // and just above it the dynamic system grows, as the quasi-static one does
+    expect(dynamicGrowth(withDose(base, dopant, r.threshold!.density * 1.01, 'add'), k).re).toBeGreaterThan(0);
   });
 });
