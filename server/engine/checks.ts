@@ -389,7 +389,7 @@ export function missingConcentrationWarnings(base: Mixture, candidates: readonly
  * (to first order λ_dyn ≈ λ_qs (1 − C/Γ) with C ≥ λ_qs the chemical drive; docs/model.md §8).
  */
 export const RELAXATION_RATIO = 20;
-/** Warn also when the growth rate with evolving chemicals differs by more than this fraction at the judged mode. */
+/** Warn also when the growth rate with evolving chemicals differs at the judged mode by more than this fraction of max(|λ|, |ω|). */
 export const RELAXATION_CHANGE = 0.05;
 /** At most this many allowed modes of a finite chamber (or points of an unbounded chamber's log grid) in the dynamic scan. */
 const DYNAMIC_MODES = 4000;
@@ -510,10 +510,12 @@ export function chemicalRelaxation(
     relativeChange: null,
   };
   const changeAtMode = dynamicRateAtMode === null || mode.rate === 0 ? null : (dynamicRateAtMode - mode.rate) / Math.abs(mode.rate);
-  // The change at the mode is a second trigger (several species can lag more than one ratio says), judged only
-  // where the mode's rate is not negligible beside the chemistry (ratio ≤ 1e6): at a threshold λ ≈ 0 and its
-  // relative change is rounding.
-  const slow = slowest.ratio < RELAXATION_RATIO || (changeAtMode !== null && slowest.ratio <= 1e6 && Math.abs(changeAtMode) > RELAXATION_CHANGE);
+  // The change at the mode is a second trigger (several species can lag more than one ratio says), measured
+  // against the same max(|λ|, |ω|) as the ratio (near an oscillatory threshold λ ≈ 0 while ω is not) and judged
+  // only where that is not negligible beside the chemistry (ratio ≤ 1e6): at a stationary threshold λ ≈ 0 and
+  // its change is rounding.
+  const shiftAtMode = dynamicRateAtMode === null || scale === 0 ? null : Math.abs(dynamicRateAtMode - mode.rate) / scale;
+  const slow = slowest.ratio < RELAXATION_RATIO || (shiftAtMode !== null && slowest.ratio <= 1e6 && shiftAtMode > RELAXATION_CHANGE);
   if (!slow) return { check, warnings: [] };
 
   // the fastest mode with evolving chemicals: the allowed modes (finite chamber) or a log grid (unbounded)

@@ -258,4 +258,27 @@ describe('slow chemistry: the quasi-static answer against the chemicals evolving
     // and just above it the dynamic system grows, as the quasi-static one does
     expect(dynamicGrowth(withDose(base, dopant, r.threshold!.density * 1.01, 'add'), k).re).toBeGreaterThan(0);
   });
+
+  it('at an oscillatory threshold (λ ≈ 0, ω not) of the travelling-bands demo, fast chemistry does not warn: the change is judged against |ω|', () => {
+    const demo = example('oscillatory-travelling-bands');
+    const at = (f: number): Mixture => ({ ...demo, species: demo.species.map((sp) => ({ ...sp, density: sp.density * f })) });
+    let [lo, hi] = [1e-3, 1];
+    expect(analyze(at(hi)).state).toBe('oscillatory');
+    expect(analyze(at(lo)).state).toBe('stable');
+    for (let i = 0; i < 60; i++) {
+      const mid = Math.sqrt(lo * hi);
+      if (analyze(at(mid)).growthRate > 0) hi = mid;
+      else lo = mid;
+    }
+    const a = analyze(at(hi));
+    const r = a.checks.relaxation!;
+    expect(Math.abs(a.growthRate)).toBeLessThan(1e-6 * r.angularFrequency); // at the crossing
+    expect(r.angularFrequency).toBeGreaterThan(0);
+    expect(r.smallestRatio!).toBeGreaterThan(RELAXATION_RATIO);
+    expect(a.warnings.map((w) => w.code)).not.toContain('slow-chemistry');
+    // ml-matrix: with the chemical evolving, the crossing mode's growth moves by far less than 5 % of ω
+    const dyn = dynamicGrowth(at(hi), a.fastestMode.wavenumber);
+    expect(Math.abs(dyn.re - a.growthRate)).toBeLessThan(RELAXATION_CHANGE * r.angularFrequency);
+    expect(rel(r.dynamicRateAtMode!, dyn.re)).toBeLessThan(1e-3);
+  });
 });
