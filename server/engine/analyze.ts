@@ -3,7 +3,7 @@
  * its composition, the long-wavelength criteria as numbers, and the practical
  * checks of §8. Input and output are SI.
  */
-import { practicalChecks, type PracticalChecks, type Warning } from './checks.js';
+import { chemicalRelaxation, practicalChecks, type PracticalChecks, type RelaxationCheck, type Warning } from './checks.js';
 import { determinant, solveInPlace } from './linalg/dense.js';
 import { buildModel, type ScaledModel } from './model.js';
 import { scanModes, scanState, type BranchBest, type ScanOptions } from './scan.js';
@@ -76,7 +76,8 @@ export interface AnalysisResult {
     stationary: { growthRate: number; wavenumber: number; index: number | null } | null;
     oscillatory: { growthRate: number; wavenumber: number; index: number | null; oscillationPeriod: number } | null;
   };
-  checks: PracticalChecks;
+  /** The practical checks of docs/model.md §8, and whether the chemicals relax fast enough for the quasi-static answer (null without kept chemicals) */
+  checks: PracticalChecks & { relaxation: RelaxationCheck | null };
   scan: {
     walls: Mixture['chamber']['walls'];
     /** 1/m: no mode above it can be the fastest */
@@ -235,6 +236,9 @@ export function analyze(mix: Mixture, options: ScanOptions = {}): AnalysisResult
   const growthTime = unstable ? 1 / growthRate : null;
   const practical = practicalChecks(mix, growthTime, unstable ? fastestMode.wavelength : null);
   warnings.push(...practical.warnings);
+  // the chemicals' own pace against the judged (fastest, or least stable) mode: `slow-chemistry`
+  const relaxation = chemicalRelaxation(model, mix, { k: o.k, rate: growthRate, omega: o.im / model.timeUnit }, scan.upperWavenumber);
+  warnings.push(...relaxation.warnings);
 
   const osc = scan.complex;
   return {
@@ -252,7 +256,7 @@ export function analyze(mix: Mixture, options: ScanOptions = {}): AnalysisResult
           ? null
           : { ...branchSI(model, osc)!, oscillationPeriod: (2 * Math.PI * model.timeUnit) / osc.im },
     },
-    checks: practical.checks,
+    checks: { ...practical.checks, relaxation: relaxation.check },
     scan: {
       walls: mix.chamber.walls,
       upperWavenumber: scan.upperWavenumber / model.lengthUnit,

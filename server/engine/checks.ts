@@ -25,7 +25,8 @@
  * Sources: docs/references.md.
  */
 import { BOLTZMANN, STANDARD_GRAVITY } from './constants.js';
-import { linearise } from './model.js';
+import { eigenvalues } from './linalg/eigen.js';
+import { linearise, type ScaledModel } from './model.js';
 import { stokesSettlingSpeed, waterViscosity } from './transport.js';
 import { EngineInputError, type Mixture } from './types.js';
 
@@ -378,4 +379,211 @@ export function missingConcentrationWarnings(base: Mixture, candidates: readonly
         chemical: c.id,
       };
     });
+}
+
+// ------------------------------------------------------------------ how fast the chemicals relax
+
+/**
+ * Warn when the kept chemicals relax fewer than this many times faster than the judged mode
+ * grows (or turns): the quasi-static answer's growth rate is then off by about 1/ratio or more
+ * (to first order λ_dyn ≈ λ_qs (1 − C/Γ) with C ≥ λ_qs the chemical drive; docs/model.md §8).
+ */
+export const RELAXATION_RATIO = 20;
+/** Warn also when the growth rate with evolving chemicals differs at the judged mode by more than this fraction of max(|λ|, |ω|). */
+export const RELAXATION_CHANGE = 0.05;
+/** At most this many allowed modes of a finite chamber (or points of an unbounded chamber's log grid) in the dynamic scan. */
+const DYNAMIC_MODES = 4000;
+
+export interface RelaxationEntry {
+  chemical: string;
+  /** Γ_s = D_s k² + R_ss at the judged mode (R includes the loss and the saturating slope), 1/s */
+  relaxationRate: number;
+  /** Γ_s / max(|λ|, |ω|) */
+  ratio: number;
+}
+
+export interface DynamicMode {
+  /** Largest Re λ of the (M+S)×(M+S) dynamic Jacobian, 1/s */
+  growthRate: number;
+  /** 1/m */
+  wavenumber: number;
+  /** n of a finite chamber's mode, null when unbounded */
+  index: number | null;
+  /** 2π/k, m */
+  wavelength: number;
+  /** 2π/|Im λ|, s; null when that eigenvalue is real */
+  oscillationPeriod: number | null;
+}
+
+export interface RelaxationCheck {
+  /** The mode judged: analyze's fastest (or, when stable, least stable) mode */
+  wavenumber: number;
+  /** λ there (Re), 1/s: negative when stable */
+  rate: number;
+  /** |Im λ| there, rad/s (0 for a stationary mode) */
+  angularFrequency: number;
+  /** One entry per chemical the linear model keeps */
+  chemicals: RelaxationEntry[];
+  /** The smallest ratio (null when no chemical is kept) */
+  smallestRatio: number | null;
+  /** Largest Re λ at the judged mode with the chemicals evolving (∂c/∂t kept), 1/s; null when not computed */
+  dynamicRateAtMode: number | null;
+  /**
+   * The fastest mode with the chemicals evolving, over the modes up to the analysis' scan bound; computed
+   * only when the check warns or a stable result has slow chemicals (null otherwise)
+   */
+  dynamic: DynamicMode | null;
+  /** (dynamic.growthRate − rate)/|rate|, null when dynamic is null */
+  relativeChange: number | null;
+}
+
+/**
+ * The (M+S)×(M+S) Jacobian of the linearised particles and chemicals at scaled wavenumber k, in the
+ * model's units (docs/model.md §3): d/dt [δρ; δc] = [[−k²𝔇', −k² P'], [Q'ᵀ, −(k² D'_c + R')]] — setting
+ * d(δc)/dt = 0 gives J'(k') = −k'²[𝔇' + P' G' Q'ᵀ]. Its largest eigenvalue (Re, |Im|), in 1/τ.
+ */
+export function dynamicLeading(model: ScaledModel, k: number): { re: number; im: number } | null {
+  const { M, S } = model;
+  const n = M + S;
+  const k2 = k * k;
+  const A = new Float64Array(n * n);
+  for (let m = 0; m < M; m++) {
+    for (let j = 0; j < M; j++) A[m * n + j] = -k2 * model.diffusion[m * M + j]!;
+    for (let s = 0; s < S; s++) A[m * n + M + s] = -k2 * model.P[m * S + s]!;
+  }
+  for (let s = 0; s < S; s++) {
+    for (let m = 0; m < M; m++) A[(M + s) * n + m] = model.Q[m * S + s]!;
+    for (let t = 0; t < S; t++) A[(M + s) * n + M + t] = -model.reaction[s * S + t]!;
+    A[(M + s) * n + M + s]! -= k2 * model.chemDiffusivity[s]!;
+  }
+  const e = eigenvalues(A, n);
+  if (!e.converged) return null;
+  let re = -Infinity;
+  let im = 0;
+  for (let i = 0; i < n; i++) if (e.re[i]! > re) [re, im] = [e.re[i]!, Math.abs(e.im[i]!)];
+  return { re, im };
+}
+
+/**
+ * Are the chemicals fast enough for the quasi-static answer (docs/model.md §8, `slow-chemistry`)?
+ * For each kept chemical, Γ_s = D_s k² + R_ss at the judged mode against max(|λ|, |ω|); the growth
+ * rate at that mode with the chemicals evolving (the (M+S) dynamic Jacobian); and, when the smallest
+ * ratio is under RELAXATION_RATIO or that growth differs by more than RELAXATION_CHANGE, the fastest
+ * dynamic mode over the allowed modes up to the scan bound, and a warning that says the numbers.
+ * A stable result warns only when some mode grows with evolving chemicals (the state itself differs).
+ *
+ * @param model     the scaled model (model.ts)
+ * @param mix       the sample (for the chemicals' diffusivities and the chamber)
+ * @param mode      the judged mode: scaled wavenumber k' (0: the long-wave limit), λ and |ω| in 1/s
+ * @param upper     the analysis' scan bound, scaled
+ * @example chemicalRelaxation(model, mix, { k: 1, rate: 1.7e-3, omega: 0 }, 40).check.smallestRatio // 2.03
+ */
+export function chemicalRelaxation(
+  model: ScaledModel,
+  mix: Mixture,
+  mode: { k: number; rate: number; omega: number },
+  upper: number,
+): { check: RelaxationCheck | null; warnings: Warning[] } {
+  if (model.M === 0 || model.S === 0) return { check: null, warnings: [] };
+  const { timeUnit: tau, lengthUnit: ell } = model;
+  const walls = mix.chamber.walls;
+  // the long-wave limit (k → 0) is judged at a tiny wavenumber, as analyze does for its eigenvector
+  const k = mode.k > 0 ? mode.k : Math.max(upper, 1) * 1e-8;
+  const kSI = k / ell;
+  const scale = Math.max(Math.abs(mode.rate), mode.omega);
+  const chemicals = model.chemicalIds.map((id, s) => {
+    const c = mix.chemicals[model.chemicalIndex[s]!]!;
+    const relaxationRate = c.diffusivity * kSI * kSI + model.si.reaction[s * model.S + s]!;
+    return { chemical: id, relaxationRate, ratio: scale > 0 ? relaxationRate / scale : Infinity };
+  });
+  const slowest = chemicals.reduce((a, b) => (b.ratio < a.ratio ? b : a));
+  const at = dynamicLeading(model, k);
+  const dynamicRateAtMode = at === null ? null : at.re / tau;
+  const check: RelaxationCheck = {
+    wavenumber: mode.k / ell,
+    rate: mode.rate,
+    angularFrequency: mode.omega,
+    chemicals,
+    smallestRatio: slowest.ratio,
+    dynamicRateAtMode,
+    dynamic: null,
+    relativeChange: null,
+  };
+  const changeAtMode = dynamicRateAtMode === null || mode.rate === 0 ? null : (dynamicRateAtMode - mode.rate) / Math.abs(mode.rate);
+  // The change at the mode is a second trigger (several species can lag more than one ratio says), measured
+  // against the same max(|λ|, |ω|) as the ratio (near an oscillatory threshold λ ≈ 0 while ω is not) and judged
+  // only where that is not negligible beside the chemistry (ratio ≤ 1e6): at a stationary threshold λ ≈ 0 and
+  // its change is rounding.
+  const shiftAtMode = dynamicRateAtMode === null || scale === 0 ? null : Math.abs(dynamicRateAtMode - mode.rate) / scale;
+  const slow = slowest.ratio < RELAXATION_RATIO || (shiftAtMode !== null && slowest.ratio <= 1e6 && shiftAtMode > RELAXATION_CHANGE);
+  if (!slow) return { check, warnings: [] };
+
+  // the fastest mode with evolving chemicals: the allowed modes (finite chamber) or a log grid (unbounded)
+  const ks: { k: number; index: number | null }[] = [];
+  if (walls === 'unbounded') {
+    const lo = Math.min(k, Math.max(upper, 1)) * 1e-4;
+    const hi = Math.max(upper, k);
+    const N = 400;
+    for (let i = 0; i <= N; i++) ks.push({ k: lo * Math.pow(hi / lo, i / N), index: null });
+    ks.push({ k, index: null });
+  } else {
+    // scaled wavenumbers of a finite chamber are the integers n (model.ts: ℓ = L/π sealed, L/2π periodic)
+    const nMax = Math.min(Math.max(1, Math.ceil(upper)), DYNAMIC_MODES);
+    for (let n = 1; n <= nMax; n++) ks.push({ k: n, index: n });
+  }
+  let best: { k: number; index: number | null; re: number; im: number } | null = null;
+  for (const q of ks) {
+    const d = dynamicLeading(model, q.k);
+    if (d !== null && (best === null || d.re > best.re)) best = { ...q, ...d };
+  }
+  if (best === null) return { check, warnings: [] };
+  const dynamic: DynamicMode = {
+    growthRate: best.re / tau,
+    wavenumber: best.k / ell,
+    index: best.index,
+    wavelength: (2 * Math.PI * ell) / best.k,
+    oscillationPeriod: best.im > 1e-9 * Math.abs(best.re) && best.im > 0 ? (2 * Math.PI * tau) / best.im : null,
+  };
+  check.dynamic = dynamic;
+  check.relativeChange = mode.rate === 0 ? null : (dynamic.growthRate - mode.rate) / Math.abs(mode.rate);
+
+  const pct = (x: number) => `${fmt(Math.abs(100 * x))} %`;
+  const slowerFaster = (x: number) => `${pct(x)} ${x < 0 ? 'slower' : 'faster'}`;
+  const where = mode.k > 0 ? `the ${metres((2 * Math.PI) / kSI)} wave` : 'the longest waves';
+  // rates said as times, as a bench reads them: 1/Γ against the growth time 1/λ, or 1/|ω| (period/2π), or the decay time
+  const subject = mode.rate > 0 ? 'the pattern' : 'the least stable mode';
+  const against =
+    mode.omega > Math.abs(mode.rate)
+      ? `${subject} turns (1/ω = ${seconds(1 / mode.omega)}, a period of ${seconds((2 * Math.PI) / mode.omega)})`
+      : mode.rate > 0
+        ? `${subject} grows (growth time ${seconds(1 / mode.rate)})`
+        : `${subject} decays (decay time ${seconds(1 / Math.abs(mode.rate))})`;
+  const pace = slowest.ratio >= 1 ? `only ${fmt(slowest.ratio)} times faster` : `${fmt(1 / slowest.ratio)} times slower`;
+  const head = `${slowest.chemical} relaxes ${pace} than ${against}: in about ${seconds(1 / slowest.relaxationRate)} across ${where}. The answer assumes the chemicals follow the particles at once`;
+  const tail = 'Check with a simulation: brink simulate --chemicals dynamic.';
+  const sameMode = Math.abs(best.k - k) <= 1e-9 * k;
+  const fields = {
+    chemical: slowest.chemical,
+    ratio: slowest.ratio,
+    relaxationRate: slowest.relaxationRate,
+    dynamicGrowthRate: dynamic.growthRate,
+    dynamicWavelength: dynamic.wavelength,
+    relativeChange: check.relativeChange,
+  };
+  const turning = dynamic.oscillationPeriod !== null ? ` and oscillates with a period of ${seconds(dynamic.oscillationPeriod)}` : '';
+  if (mode.rate <= 0) {
+    // a mode that grows by more than rounding (1e-6 of the judged rate) with the chemicals evolving
+    if (!(dynamic.growthRate > 1e-6 * scale)) return { check, warnings: [] };
+    const message = `${head}; with them evolving the mixture is not stable: the ${metres(dynamic.wavelength)} wave grows (growth time ${seconds(1 / dynamic.growthRate)})${turning}. ${tail}`;
+    return { check, warnings: [{ code: 'slow-chemistry', message, ...fields }] };
+  }
+  if (!(dynamic.growthRate > 0)) {
+    const message = `${head}; with them evolving no mode grows (the least stable, at ${metres(dynamic.wavelength)}, decays in about ${seconds(1 / Math.abs(dynamic.growthRate))}): the predicted pattern may not form. ${tail}`;
+    return { check, warnings: [{ code: 'slow-chemistry', message, ...fields }] };
+  }
+  const atMode = changeAtMode !== null && !sameMode ? `; ${slowerFaster(changeAtMode)} at ${where} itself` : '';
+  const moved = sameMode ? ' at the same wavelength' : ` at ${metres(dynamic.wavelength)} instead of ${mode.k > 0 ? metres((2 * Math.PI) / kSI) : 'the longest wave'}${atMode}`;
+  const period = dynamic.oscillationPeriod !== null ? `, oscillating with a period of ${seconds(dynamic.oscillationPeriod)}` : mode.omega > 0 ? ', without oscillating' : '';
+  const message = `${head}, so the growth rate may be off by about ${pct(check.relativeChange!)}: with them evolving the fastest mode grows ${slowerFaster(check.relativeChange!)} (growth time ${seconds(1 / dynamic.growthRate)})${moved}${period}. ${tail}`;
+  return { check, warnings: [{ code: 'slow-chemistry', message, ...fields }] };
 }
