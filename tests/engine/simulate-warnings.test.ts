@@ -127,3 +127,39 @@ describe('the fuel runs out', () => {
     expect(codes(cut)).not.toContain('fuel-runs-out-first');
   });
 });
+
+describe('what happens in the sample before the end of the run (the practical checks, docs/model.md §8)', () => {
+  it('settling and gas bubbles are warned when the run reaches their times, and not before', () => {
+    const base = example('stationary-janus-clusters');
+    // the example's colloids also make oxygen (1.2 mM solubility, roughly that of O2 in water at 25 °C, from memory),
+    // at a rate that passes it within minutes
+    const o2 = { ...chemical('o2', 2e-9, 0, 0), solubility: 1.2 };
+    const mix = { ...base, chemicals: [...base.chemicals, o2], species: base.species.map((sp) => ({ ...sp, couplings: [...sp.couplings, constant('o2', 1e-17, 0)] })) };
+    const a = analyze(mix);
+    const settle = a.checks.sedimentation.find((x) => x.sedimentationLength < mix.chamber.depth!)!;
+    const gas = a.checks.gas.find((g) => g.timeToSaturation < 3600)!;
+    expect(settle.timeToCrossDepth).toBeLessThan(600);
+    const long = simulate(mix, { dims: 1, points: 64, duration: 1200, frames: 3 });
+    expect(long.summary.warnings.find((w) => w.code === 'settles-first')?.message).toContain(settle.species);
+    expect(long.summary.warnings.find((w) => w.code === 'gas-first')?.message).toContain(gas.chemical);
+    const first = Math.min(settle.timeToCrossDepth!, gas.timeToSaturation);
+    const short = simulate(mix, { dims: 1, points: 64, duration: 0.5 * first, frames: 3 });
+    expect(codes(short)).not.toContain('settles-first');
+    expect(codes(short)).not.toContain('gas-first');
+  });
+});
+
+describe('clusters as narrow as the particles', () => {
+  it('are flagged as beyond the continuum model (the Janus example: a peak about one particle across)', () => {
+    const mix = example('stationary-janus-clusters');
+    const r = simulate(mix, { dims: 1, points: 1024, duration: 12 / analyze(mix).growthRate });
+    const d = 2 * Math.max(...mix.species.map((s) => s.radius));
+    const narrow = r.summary.clusters.sizes.filter((x) => x < 5 * d).length;
+    expect(narrow).toBeGreaterThan(0);
+    expect(r.summary.warnings.find((w) => w.code === 'clusters-at-particle-size')?.message).toContain(`${narrow} of the ${r.summary.clusters.count}`);
+    // the convergence case's bands are hundreds of particle diameters wide: no such warning
+    const wide = simulate(clustering(1e-3), { dims: 1, points: 1024, tolerance: 2.5e-5, duration: 20 / analyze(clustering(1e-3)).growthRate });
+    expect(wide.summary.clusters.count).toBeGreaterThan(0);
+    expect(codes(wide)).not.toContain('clusters-at-particle-size');
+  }, 60_000);
+});

@@ -142,6 +142,9 @@ export function noiseModes(points: number, fastestIndex: number | null): number 
  */
 export const LINEAR_WINDOW = 1e-3;
 
+/** A cluster narrower than this many particle diameters is beyond what the continuum model can size. */
+export const PARTICLE_CLUSTER = 5;
+
 /** At the end of an unstable run whose largest departure from the mean is below this share, nothing has formed yet. */
 export const STILL_LINEAR = 0.1;
 
@@ -316,7 +319,10 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   const frameTimes = Array.from({ length: F }, (_, f) => (duration * f) / (F - 1));
   const sampleStep = Math.min(scaleTime / 8, period !== null ? period / 16 : Infinity, duration / 16);
   const windowMax = Math.min(12 * scaleTime, duration);
-  const modes = trackedModes(field, dims === 1 ? Math.min(field.nx / 2, 256) : Math.min(field.nx / 2, 16));
+  // the modes whose early amplitudes are recorded: up to 256 (1D) or 16 (2D) per axis, and at least 1.5 times the
+  // fastest mode's index, so the fastest mode and its faster-looking neighbours are always among them
+  const trackTo = Math.ceil(1.5 * (fastestIndex ?? 0));
+  const modes = trackedModes(field, Math.min(field.nx / 2, Math.max(dims === 1 ? 256 : 16, trackTo)));
   const samples: Float64Array[] = [];
   let sampling = true;
 
@@ -434,17 +440,41 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
 
   const measured: Measured = measureGrowth(field, modes, samples, sampleStep, integ.mean);
   if (measured.growthRate === null) warnings.push({ code: 'no-linear-window', message: 'too few samples before the pattern left the linear regime to measure the early growth' });
-  if (measured.wavelength !== null && linearWl !== null && Math.abs(measured.wavelength - linearWl) > 1e-6 * linearWl) {
-    // the linear growth at the mode the run found fastest, for comparison (the same J(k), docs/model.md §3)
-    let atMeasured: number | null = null;
+  // the linear growth at the mode the run found fastest, for comparison (the same J(k), docs/model.md §3, of the
+  // species present)
+  let atMeasured: number | null = null;
+  if (measured.wavelength !== null) {
     try {
-      atMeasured = eigenvaluesAt(mix, (2 * Math.PI) / measured.wavelength)[0]?.re ?? null;
+      atMeasured = eigenvaluesAt(presentSpecies(mix), (2 * Math.PI) / measured.wavelength)[0]?.re ?? null;
     } catch {
       atMeasured = null;
     }
+  }
+  const fmtRate = (r: number) => `${r.toPrecision(3)} 1/s`;
+  if (measured.growthRate !== null && atMeasured !== null && !field.dynamic) {
+    // the run's early growth must be the linear growth of the mode it was read at: a different sign, or a rate more
+    // than 10 % of the predicted rate away, is not the sample's early growth
+    const off = Math.abs(measured.growthRate - atMeasured);
+    if (Math.sign(measured.growthRate) !== Math.sign(atMeasured) || off > 0.1 * Math.max(Math.abs(atMeasured), Math.abs(lambda))) {
+      warnings.push({
+        code: 'measured-contradicts-linear',
+        message: `the early growth read from the run (${fmtRate(measured.growthRate)} at wavelength ${measured.wavelength!.toPrecision(3)} m) is not the linear growth of that mode (${fmtRate(atMeasured)}): it does not show the sample's early growth but an effect of the grid or of the nonlinear terms (a mode fed by stronger ones); use more points, or a longer run for a slowly growing sample`,
+      });
+    }
+  }
+  if (measured.wavelength !== null && linearWl !== null && Math.abs(measured.wavelength - linearWl) > 1e-6 * linearWl) {
+    const gap = atMeasured !== null && lambda !== 0 ? Math.abs(atMeasured - lambda) / Math.abs(lambda) : null;
+    const why =
+      gap !== null && gap <= 0.01
+        ? 'the two modes grow within 1 % of each other, closer than the early measurement resolves (docs/model.md §16)'
+        : field.dynamic
+          ? 'the chemicals evolve in time here, which moves the fastest mode away from the quasi-static prediction (see dynamic-chemicals)'
+          : dims === 2
+            ? 'in 2D the lattice also has modes off the axes, which the prediction along one axis does not list'
+            : 'the modes are too far apart to be confused: see the other warnings about the measured growth';
     warnings.push({
       code: 'measured-mode-differs',
-      message: `the fastest mode in the run has wavelength ${measured.wavelength.toPrecision(4)} m, not the predicted ${linearWl.toPrecision(4)} m; ${atMeasured !== null ? `the linear growth rate of that mode is ${atMeasured.toPrecision(4)} 1/s against ${lambda.toPrecision(4)} 1/s at the predicted one (${lambda !== 0 ? `${(Math.abs(atMeasured - lambda) / Math.abs(lambda) * 100).toPrecision(2)} % apart` : 'apart'}): ` : ''}the early measurement resolves growth rates to about 1 % (docs/model.md §16), so modes closer than that cannot be told apart${dims === 2 ? '; in 2D the lattice also has modes off the axes, which the prediction along one axis does not list' : ''}`,
+      message: `the fastest mode in the run has wavelength ${measured.wavelength.toPrecision(4)} m, not the predicted ${linearWl.toPrecision(4)} m${atMeasured !== null ? `; the linear growth rate of that mode is ${fmtRate(atMeasured)} against ${fmtRate(lambda)} at the predicted one${gap !== null ? ` (${(gap * 100).toPrecision(2)} % apart)` : ''}` : ''}: ${why}`,
     });
   }
 
@@ -474,6 +504,23 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       message: `${fuelRunOut.chemical} would run out after about ${fuelRunOut.time.toPrecision(3)} s, before the end of the run (${t.toPrecision(3)} s reached); the model holds the fuel at its starting level, so what is shown after that time would not happen in the sample`,
     });
   }
+  // other things the practical checks (docs/model.md §8) say happen in the sample before the end of the run
+  const depth = mix.chamber.depth;
+  for (const sc of analysis.checks.sedimentation) {
+    if (depth === null || depth === undefined || !(sc.sedimentationLength < depth) || sc.timeToCrossDepth === null || !(sc.timeToCrossDepth < t)) continue;
+    warnings.push({
+      code: 'settles-first',
+      message: `${sc.species} ${sc.direction} across the chamber depth in about ${sc.timeToCrossDepth.toPrecision(3)} s, before the end of the run (${t.toPrecision(3)} s reached), into a layer about ${sc.sedimentationLength.toExponential(2)} m thick: the model's sample stays uniform in depth, so what is shown after that time is a suspension the chamber no longer holds`,
+    });
+  }
+  for (const gc of analysis.checks.gas) {
+    const tg = gc.fuelAbsent ? gc.expectedTimeToSaturation : gc.timeToSaturation;
+    if (tg === null || !(tg < t)) continue;
+    warnings.push({
+      code: 'gas-first',
+      message: `${gc.chemical} passes its solubility after about ${tg.toPrecision(3)} s, before the end of the run (${t.toPrecision(3)} s reached): bubbles may form and stir the sample, which the model does not include${mix.chamber.walls === 'sealed' ? '; in a sealed chamber the gas also builds pressure' : ''}`,
+    });
+  }
   const repairedMass = Math.max(0, ...integ.stats.repairedMass);
   if (integ.stats.positivityRepairs > 0) {
     const st = integ.stats;
@@ -490,13 +537,29 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
       message: `${k} of the ${clusters.count} cluster(s) found at the end span${k === 1 ? 's' : ''} fewer than 3 grid cells across (a cluster spans 3 cells when ${dims === 1 ? 'one of its cells has both neighbours in it' : 'a 3 × 3 block of cells lies inside it'}; the cells are ${h.toExponential(3)} m): the number and sizes of such clusters depend on the grid (a cluster narrower than a cell still shows as one or two cells). Use more points and compare two grid sizes`,
     });
   }
+  // clusters about as narrow as the particles: the continuum model cannot size them (a density field needs many
+  // particles per cell); only the share of particles gathered is meaningful
+  const diameter = 2 * Math.max(...mix.species.filter((sp) => sp.density > 0).map((sp) => sp.radius));
+  const narrow = clusters.sizes.filter((x) => x < PARTICLE_CLUSTER * diameter).length;
+  if (narrow > 0) {
+    warnings.push({
+      code: 'clusters-at-particle-size',
+      message: `${narrow} of the ${clusters.count} cluster(s) are narrower than ${PARTICLE_CLUSTER} particle diameters (${(PARTICLE_CLUSTER * diameter).toExponential(2)} m): there a continuum of density no longer describes the particles, and the cluster's size comes from the model's limits (and the grid), not from the sample; more points will not settle it. The share of each species gathered into the clusters is the meaningful figure`,
+    });
+  }
   if (maxPhi > phiMax * 1.001) {
     warnings.push({ code: 'above-close-packing', message: `the local volume fraction reached ${maxPhi.toPrecision(3)}, above the close-packing limit ${phiMax}: the clusters are narrower than the grid resolves (the volume-filling factor acts at cell centres); use more points` });
   }
   if (field.chemUnconverged > 0) warnings.push({ code: 'chemistry-not-converged', message: `the saturating chemistry did not converge in ${field.chemUnconverged} solve(s) (2,000 iterations)` });
   const endDeparture = largestDeparture();
   if (analysis.state === 'stable') {
-    warnings.push({ code: 'stable-nothing-forms', message: `the linear analysis calls this sample stable: the starting perturbation decays (to ${endDeparture.toExponential(1)} of the mean by the end) and nothing forms` });
+    warnings.push({
+      code: 'stable-nothing-forms',
+      message:
+        endDeparture <= startDeparture
+          ? `the linear analysis calls this sample stable: the starting unevenness decays (from ${startDeparture.toExponential(1)} to ${endDeparture.toExponential(1)} of the mean by the end) and nothing forms`
+          : `the linear analysis calls this sample stable, yet the largest departure from the mean grew from ${startDeparture.toExponential(1)} to ${endDeparture.toExponential(1)} in the run: that growth is the grid's or the nonlinear terms', not the sample's; use more points`,
+    });
   } else if (endDeparture < STILL_LINEAR) {
     const more = lambda > 0 && endDeparture > 0 ? Math.log(1 / endDeparture) / lambda : null;
     warnings.push({

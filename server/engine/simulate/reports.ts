@@ -4,8 +4,9 @@
  * early growth of the fastest mode, clusters by thresholding and connected
  * components, and the speed and period of travelling bands from the kymograph.
  */
-import { eigenvalues } from '../linalg/eigen.js';
+import { eigenDecomposition } from '../linalg/eigen.js';
 import { solveInPlace } from '../linalg/dense.js';
+import { symmetricEigen } from '../linalg/symmetric.js';
 import { FFT } from './fft.js';
 import type { SpectralField } from './field.js';
 
@@ -54,6 +55,21 @@ export function trackedModes(field: SpectralField, limit: number): number[] {
  */
 export const RESIDUAL_LIMIT = 1e-2;
 
+/**
+ * A direction of a mode's state enters its fitted propagator only when the recorded history explores it with at
+ * least this share of the leading singular value (the Gram matrix's eigenvalue ratio is its square).
+ */
+export const SUPPORT_FLOOR = 1e-3;
+
+/** A fitted eigenvalue counts only when the recorded history explores its eigenvector with at least this support (see measureGrowth). */
+export const SUPPORT_MIN = 0.1;
+
+/** The fastest rate of a mode fitted on each half of the window must agree to this share of its rate (a fed mode changes pace). */
+export const HALVES_LIMIT = 0.05;
+
+/** Only modes ending the window weaker than this share of the strongest take the halves test (HALVES_LIMIT). */
+export const HALVES_BELOW = 0.1;
+
 /** Modes that end the linear window weaker than this share of the strongest are not fitted (their samples near rounding). */
 export const AMPLITUDE_FLOOR = 1e-3;
 
@@ -68,18 +84,24 @@ export interface Measured {
 }
 
 /**
- * The early growth, measured: for each recorded mode the M×M propagator A over
- * one sampling interval Δ is fitted by least squares to the recorded amplitudes
+ * The early growth, measured: for each recorded mode the propagator A over one
+ * sampling interval Δ is fitted by least squares to the recorded amplitudes
  * (u_{j+1} ≈ A u_j, real and imaginary parts as two trajectories of the same real
- * A); its eigenvalues z give λ = ln z / Δ. In the linear regime every mode
- * follows its own law whatever its amplitude, so every mode that ends the window
- * above AMPLITUDE_FLOOR (0.1 %) of the strongest is fitted: a weakly seeded
- * fastest mode is still found. Each pair of samples is weighted equally
- * (normalised by |u_j|), and a mode whose history one propagator does not explain
- * to RESIDUAL_LIMIT (1 %, relative residual) — one fed by the harmonics of
- * stronger modes — is passed over when any mode is so explained. The fastest
- * mode is the one whose largest Re λ is largest among the rest. An oscillation is
- * reported only when the window holds at least a quarter of its period.
+ * A, each pair weighted equally); its eigenvalues z give λ = ln z / Δ. The fit is
+ * made only in the directions the history explores (the Gram matrix's eigenvectors
+ * down to SUPPORT_FLOOR of the leading singular value, as in a truncated dynamic
+ * mode decomposition), and an eigenvalue counts only when its eigenvector is
+ * supported by the history (SUPPORT_MIN): with sealed walls a mode has one real
+ * trajectory, which soon lines up with its fastest eigenvector, and the other
+ * directions are read from too little data. Every mode that ends the window above
+ * AMPLITUDE_FLOOR (0.1 %) of the strongest is fitted, so a weakly seeded fastest
+ * mode is still found; a mode whose history one propagator does not explain to
+ * RESIDUAL_LIMIT is passed over, and a weak one (below HALVES_BELOW of the
+ * strongest, where the harmonics of the strong modes can take it over) is read
+ * only over the longest leading part of the window whose two halves give the same
+ * rate to HALVES_LIMIT. The fastest mode is the one with the largest rate left.
+ * An oscillation is reported only when the window holds at least a quarter of its
+ * period.
  */
 export function measureGrowth(field: SpectralField, modes: number[], samples: Float64Array[], interval: number, mean: Float64Array): Measured {
   const none: Measured = { growthRate: null, wavelength: null, oscillationPeriod: null, mode: null, window: interval * Math.max(0, samples.length - 1) };
@@ -108,13 +130,14 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
   let top = 0;
   for (let q = 0; q < modes.length; q++) top = Math.max(top, amp(J, q));
   if (!(top > 0)) return none;
-  let best: { re: number; im: number; q: number } | null = null;
-  const fits: { re: number; im: number; q: number; residual: number }[] = [];
-  for (let q = 0; q < modes.length; q++) {
-    if (amp(J, q) < AMPLITUDE_FLOOR * top) continue;
+  /**
+   * The propagator of mode q fitted over the sample pairs j0 … j1−1 (see above): its eigenvalues as rates with
+   * their support, and the relative residual. null when nothing can be fitted.
+   */
+  const fit = (q: number, j0: number, j1: number, basis?: Float64Array[]): { eigs: { re: number; im: number; support: number }[]; residual: number; basis: Float64Array[] } | null => {
     const G = new Float64Array(n * n);
     const H = new Float64Array(n * n);
-    for (let j = 0; j < J; j++) {
+    for (let j = j0; j < j1; j++) {
       for (let part = 0; part < 2; part++) {
         const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / scale[a]!);
         const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / scale[a]!);
@@ -129,47 +152,136 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
         for (let r = 0; r < n; r++) {
           for (let c = 0; c < n; c++) {
             G[r * n + c]! += x[r]! * x[c]!;
-            H[c * n + r]! += y[r]! * x[c]!; // Hᵀ: G Aᵀ = Hᵀ with H = Σ y xᵀ
+            H[r * n + c]! += y[r]! * x[c]!; // H = Σ y xᵀ
           }
         }
       }
     }
-    if (!solveInPlace(G, n, H, n)) continue;
-    // H now holds Aᵀ; transpose into A
-    const A = new Float64Array(n * n);
-    for (let r = 0; r < n; r++) for (let c = 0; c < n; c++) A[r * n + c] = H[c * n + r]!;
-    // how well one linear propagator explains this mode's history (relative residual of the normalised pairs)
+    // only the directions the recorded history explores: G's eigenvectors u_i with σ_i ≥ SUPPORT_FLOOR σ_1. With
+    // sealed walls a mode's amplitude is real, one trajectory, which soon lines up with the fastest eigenvector; the
+    // full M×M fit then reads an arbitrary eigenvalue in a direction the data hardly touch (truncated as in dynamic
+    // mode decomposition)
+    let U: Float64Array[] = [];
+    if (basis) U = basis;
+    else {
+      const eig = symmetricEigen(G, n);
+      for (let i = 0; i < n; i++) if (eig.values[i]! > 0 && eig.values[i]! >= SUPPORT_FLOOR * SUPPORT_FLOOR * eig.values[0]!) U.push(eig.vectors[i]!);
+    }
+    const r = U.length;
+    if (r === 0) return null;
+    const dot = (u: Float64Array, v: ArrayLike<number>) => {
+      let acc = 0;
+      for (let k = 0; k < n; k++) acc += u[k]! * v[k]!;
+      return acc;
+    };
+    // the reduced propagator Ã = (Uᵀ H U)(Uᵀ G U)⁻¹ (least squares of the projected pairs; Uᵀ G U is diagonal, σ_i²,
+    // in the basis of G's own eigenvectors)
+    const Gu = U.map((u) => Float64Array.from({ length: n }, (_, row) => dot(u, G.subarray(row * n, row * n + n))));
+    const Hu = U.map((u) => Float64Array.from({ length: n }, (_, row) => dot(u, H.subarray(row * n, row * n + n))));
+    const Gr = new Float64Array(r * r);
+    const At = new Float64Array(r * r); // (Uᵀ H U)ᵀ, then Ãᵀ
+    for (let i = 0; i < r; i++) {
+      for (let j = 0; j < r; j++) {
+        Gr[i * r + j] = dot(U[i]!, Gu[j]!);
+        At[j * r + i] = dot(U[i]!, Hu[j]!);
+      }
+    }
+    const s2 = Array.from({ length: r }, (_, i) => Gr[i * r + i]!);
+    if (!solveInPlace(Gr, r, At, r)) return null;
+    const A = new Float64Array(r * r);
+    for (let i = 0; i < r; i++) for (let j = 0; j < r; j++) A[i * r + j] = At[j * r + i]!;
+    // how well one linear propagator explains this mode's history in those directions (relative residual)
     let res = 0;
     let tot = 0;
-    for (let j = 0; j < J; j++) {
+    for (let j = j0; j < j1; j++) {
       for (let part = 0; part < 2; part++) {
         const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / scale[a]!);
         const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / scale[a]!);
         const norm = Math.hypot(...x);
         if (!(norm > 0)) continue;
-        for (let r = 0; r < n; r++) {
-          let ax = 0;
-          for (let c = 0; c < n; c++) ax += A[r * n + c]! * x[c]!;
-          res += ((y[r]! - ax) / norm) ** 2;
-          tot += (y[r]! / norm) ** 2;
+        const ax = U.map((u) => dot(u, x) / norm);
+        for (let i = 0; i < r; i++) {
+          let pred = 0;
+          for (let c = 0; c < r; c++) pred += A[i * r + c]! * ax[c]!;
+          const yi = dot(U[i]!, y) / norm;
+          res += (yi - pred) ** 2;
+          tot += yi * yi;
         }
       }
     }
     const residual = tot > 0 ? Math.sqrt(res / tot) : Infinity;
-    const sp = eigenvalues(A, n);
-    if (!sp.converged) continue;
-    for (let e = 0; e < n; e++) {
+    // each eigenvalue with its support: how strongly the recorded history explores its eigenvector,
+    // √(Σ_i |w_i|² σ_i²/σ_1² / Σ_i |w_i|²) for the eigenvector w in the explored directions u_i. The fastest
+    // eigenvalue of a mode dominates its own history (support near 1); one whose eigenvector lies in directions the
+    // history hardly touches is read from too little data (an arbitrary value, often a spurious growth)
+    const sp = eigenDecomposition(A, r);
+    if (!sp.converged) return null;
+    const eigs: { re: number; im: number; support: number }[] = [];
+    for (let e = 0; e < r; e++) {
+      const w = sp.vectors[e]!;
+      let num = 0;
+      let den = 0;
+      for (let i = 0; i < r; i++) {
+        const m2 = w.re[i]! * w.re[i]! + w.im[i]! * w.im[i]!;
+        num += (m2 * s2[i]!) / s2[0]!;
+        den += m2;
+      }
       const mod = Math.hypot(sp.re[e]!, sp.im[e]!);
       if (!(mod > 0)) continue;
-      const lre = Math.log(mod) / interval;
-      const lim = Math.atan2(sp.im[e]!, sp.re[e]!) / interval;
-      fits.push({ re: lre, im: lim, q, residual });
+      eigs.push({ re: Math.log(mod) / interval, im: Math.atan2(sp.im[e]!, sp.re[e]!) / interval, support: den > 0 ? Math.sqrt(num / den) : 0 });
     }
+    return { eigs, residual, basis: U };
+  };
+  /** the fastest rate of mode q over a part of the window, in the directions of its whole-window fit (null when that part cannot be fitted) */
+  const fastestOver = (q: number, j0: number, j1: number, basis: Float64Array[]): { re: number; im: number } | null => {
+    if (j1 - j0 < basis.length + 2) return null;
+    const f = fit(q, j0, j1, basis);
+    if (f === null) return null;
+    let top: { re: number; im: number } | null = null;
+    for (const e of f.eigs) if (e.support >= SUPPORT_MIN && (top === null || e.re > top.re)) top = { re: e.re, im: e.im };
+    return top;
+  };
+
+  const fits: { re: number; im: number; q: number; residual: number; support: number }[] = [];
+  const bases = new Map<number, Float64Array[]>();
+  for (let q = 0; q < modes.length; q++) {
+    if (amp(J, q) < AMPLITUDE_FLOOR * top) continue;
+    const f = fit(q, 0, J);
+    if (f === null) continue;
+    bases.set(q, f.basis);
+    for (const e of f.eigs) fits.push({ re: e.re, im: e.im, support: e.support, q, residual: f.residual });
   }
   // a mode fed by the harmonics of stronger ones is not linear: keep the fits a single propagator explains to
-  // RESIDUAL_LIMIT (all of them when none is), then the largest growth
-  const clean = fits.filter((f) => f.residual <= RESIDUAL_LIMIT);
-  for (const f of clean.length > 0 ? clean : fits) if (best === null || f.re > best.re) best = f;
+  // RESIDUAL_LIMIT and whose eigenvector the history supports (all of them when none is). A weak mode is read only
+  // where the two halves of its window agree (HALVES_LIMIT): a linear mode grows alike in both, a fed one changes
+  // pace as the feeding takes over (it can even seem to outgrow the fastest mode, at the sum of its feeders' rates)
+  const clean = fits.filter((f) => f.residual <= RESIDUAL_LIMIT && f.support >= SUPPORT_MIN);
+  // per mode, its fastest clean rate; a weak mode's only over the longest leading part of the window whose two halves
+  // agree (its earliest samples, before its feeders took over), or not at all
+  const byMode = new Map<number, { re: number; im: number; q: number }>();
+  for (const f of clean.length > 0 ? clean : fits) {
+    const had = byMode.get(f.q);
+    if (!had || f.re > had.re) byMode.set(f.q, { re: f.re, im: f.im, q: f.q });
+  }
+  let best: { re: number; im: number; q: number } | null = null;
+  for (const [q, f] of byMode) {
+    let rate: { re: number; im: number } | null = f;
+    if (amp(J, q) < HALVES_BELOW * top) {
+      rate = null;
+      const basis = bases.get(q)!;
+      for (let end = J; end >= 2 * (basis.length + 2); end = Math.floor(end / 2)) {
+        const whole = fastestOver(q, 0, end, basis);
+        const h1 = fastestOver(q, 0, Math.floor(end / 2), basis);
+        const h2 = fastestOver(q, Math.floor(end / 2), end, basis);
+        if (whole === null) break;
+        if (h1 === null || h2 === null || Math.abs(h1.re - h2.re) <= HALVES_LIMIT * Math.abs(whole.re)) {
+          rate = whole;
+          break;
+        }
+      }
+    }
+    if (rate !== null && (best === null || rate.re > best.re)) best = { re: rate.re, im: rate.im, q };
+  }
   if (best === null) return none;
   const i = modes[best.q]!;
   const k = Math.sqrt(field.k2[i]!);

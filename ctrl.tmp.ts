@@ -1,1 +1,0 @@
-import { buildApp } from './server/http/app.js';
