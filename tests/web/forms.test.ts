@@ -86,6 +86,8 @@ describe('the What forms page', () => {
     }
     // the control's dopant is absent: said once, in words, with the engine's own message behind details
     expect(items.map((w) => w.code)).toContain('absent-species');
+    await page.locator('section.dose:nth-of-type(1)').screenshot({ path: 'screenshots/forms-control.png' });
+    if (await page.$('.every-dose')) await page.locator('.every-dose').screenshot({ path: 'screenshots/forms-every-dose.png' });
     // the series is the sheet's default, and the page says so
     expect(await page.textContent('#doses-from')).toMatch(/^Doses: the bench sheet's default series — /);
     const text = await page.textContent('#results');
@@ -160,6 +162,7 @@ describe('the What forms page', () => {
     expect(await page.textContent('#results')).not.toMatch(/the bench sheet's default series/);
     // the dose headings: particles/mL with µg/mL beside them, as the plan page writes a dose
     expect(await page.textContent('section.dose:nth-of-type(3) h3')).toMatch(/^2\.5 × 10⁸ particles\/mL \([\d.]+ µg\/mL\)/);
+    await page.locator('#results').screenshot({ path: 'screenshots/forms-sheet-doses.png' });
     // more than the route takes: said on the page before any request
     await page.fill('#doses', Array.from({ length: 13 }, (_, i) => `${i}e7 1/mL`).join(', '));
     await page.click('form.options button[type="submit"]');

@@ -197,6 +197,11 @@ function heldDomain(d: Dose, show: Show): [number, number] | null {
   const c = uniformOf(d, show);
   return c > 0 ? [c * (1 - NO_PATTERN), c * (1 + NO_PATTERN)] : null;
 }
+/** The legend's ticks for a held range: inside it (a tick at an end of the ramp has its label cut off). */
+const heldTicks = (held: [number, number]) => {
+  const c = (held[0] + held[1]) / 2;
+  return { ticks: [c - (c - held[0]) / 2, c, c + (held[1] - c) / 2], tickFormat: (v: number) => formatNumber(v, 4) };
+};
 /** The caption's words for a held colour range. */
 function heldNote(d: Dose, show: Show): string {
   if (show.kind === 'species' && !(d.species[show.index]!.mean > 0)) return ' This species is absent at this dose: one colour.';
@@ -216,7 +221,7 @@ function kymograph(d: Dose, show: Show): HTMLElement {
     height: 300,
     x: { label: `position across the chamber (${Lu.label})`, domain: [0, d.summary.grid.length * Lu.f] },
     y: { label: `time (${Tu.label})`, domain: [0, d.summary.time * Tu.f], reverse: true, grid: false },
-    color: { type: 'linear', scheme: 'viridis', legend: true, label: showLabel(d, show), ...(held ? { domain: held } : {}) },
+    color: { type: 'linear', scheme: 'viridis', legend: true, label: showLabel(d, show), ...(held ? { domain: held, ...heldTicks(held) } : {}) },
     marks: [
       Plot.raster(values, { width: k.positions.length, height: k.times.length, x1: 0, x2: d.summary.grid.length * Lu.f, y1: 0, y2: d.summary.time * Tu.f, imageRendering: 'pixelated' }),
       fuel ? Plot.ruleY([fuel.time * Tu.f], { stroke: '#ffffff', strokeDasharray: '6,4', strokeWidth: 1.5 }) : null,
@@ -281,7 +286,7 @@ function framesView(d: Dose, show: Show): HTMLElement {
       draw(j);
     }, 400);
   });
-  const legend = Plot.legend({ color: { type: 'linear', scheme: 'viridis', domain: [lo, hi], label: showLabel(d, show) }, marginLeft: 24, marginRight: 24, width: 320 });
+  const legend = Plot.legend({ color: { type: 'linear', scheme: 'viridis', domain: [lo, hi], label: showLabel(d, show), ...(held ? heldTicks(held) : {}) }, marginLeft: 24, marginRight: 24, width: 320 });
   for (const s of legend.querySelectorAll('style')) s.remove();
   queueMicrotask(() => draw(f.times.length - 1));
   return h(
@@ -290,7 +295,7 @@ function framesView(d: Dose, show: Show): HTMLElement {
     legend,
     canvas,
     h('div', { class: 'row' }, play, h('label', null, 'Frame ', slider), when),
-    h('figcaption', null, `${showLabel(d, show)} over the square chamber: x across (left to right) and y across (bottom to top), each 0–${formatNumber(d.summary.grid.length * Lu.f, 3)} ${Lu.label}; one colour scale for all frames.${held ? heldNote(d, show) : ''}`),
+    h('figcaption', null, `Colour: ${showLabel(d, show)} over the square chamber: x across (left to right) and y across (bottom to top), each 0–${formatNumber(d.summary.grid.length * Lu.f, 3)} ${Lu.label}; one colour scale for all frames.${held ? heldNote(d, show) : ''}`),
   );
 }
 
@@ -359,7 +364,7 @@ function clustersView(d: Dose): HTMLElement {
   return h(
     'div',
     { class: 'clusters' },
-    h('p', null, c.count === 0 ? (d.summary.warnings.some((w) => w.code === 'nothing-formed-yet') ? 'No clusters yet: the run ended while the sample was still nearly uniform (see the warnings), not because none form.' : d.linear.state === 'stable' ? 'No clusters: the sample is stable.' : 'No clusters at the end of the run (nowhere is the volume fraction 1.2 × the mean).') : `${c.count} cluster${c.count === 1 ? '' : 's'} at the end, ${d.summary.grid.dims === 1 ? 'lengths' : 'diameters'} ${c.sizes.map((x) => fmt(x, 'length')).join(', ')}; together they cover ${formatNumber(100 * covered, 3)} % of the chamber.`),
+    h('p', null, c.count === 0 ? (d.summary.warnings.some((w) => w.code === 'nothing-formed-yet') ? 'No clusters yet: the run ended while the sample was still nearly uniform (see the warnings), not because none form.' : d.linear.state === 'stable' ? 'No clusters: the sample is stable.' : 'No clusters at the end of the run (nowhere is the volume fraction 1.2 × the mean).') : `${c.count} cluster${c.count === 1 ? '' : 's'} at the end, ${d.summary.grid.dims === 1 ? 'length' : 'diameter'}${c.count === 1 ? '' : 's'} ${c.sizes.map((x) => fmt(x, 'length')).join(', ')}; together they cover ${formatNumber(100 * covered, 3)} % of the chamber.`),
     h(
       'table',
       { class: 'compare', 'aria-label': 'Cluster make-up beside the linear prediction' },
@@ -490,7 +495,7 @@ async function main(): Promise<void> {
     dimsHint.textContent = dims.value === '2' ? '2D takes a minute or more, and a dose that clusters may reach its step limit (its warnings say so)' : '1D takes seconds; 2D a minute or more';
   });
   const isFeasible = plan.result.candidates.find((c) => c.species === candidate)?.feasible ?? false;
-  const dosesIn = h('input', { id: 'doses', type: 'text', class: 'wide', value: sheetDoses.join(', '), placeholder: isFeasible ? "blank: the bench sheet's default series" : 'e.g. 0, 1e8 1/mL, 2e8 1/mL', autocomplete: 'off', spellcheck: 'false' });
+  const dosesIn = h('input', { id: 'doses', type: 'text', class: 'wide', value: sheetDoses.join(', '), placeholder: isFeasible ? "the bench sheet's default series" : 'e.g. 0, 1e8 1/mL, 2e8 1/mL', autocomplete: 'off', spellcheck: 'false' });
   const dosesField = field(
     'Doses (comma-separated)',
     dosesIn,
@@ -560,13 +565,13 @@ async function main(): Promise<void> {
       results,
       h('h2', null, `${r.candidate}: ${r.doses.length} dose${r.doses.length === 1 ? '' : 's'}, ${r.dims}D, ${r.dims === 1 ? r.points : `${r.points} × ${r.points}`} cells, ${r.durationFrom}, seed ${r.seed}${r.chemicals === 'dynamic' ? ', chemicals evolving in time' : ''}`),
       h('p', { class: 'muted', id: 'doses-from' }, r.series ? `Doses: the bench sheet's default series — ${r.series.note.replace(/\s*Give doses or doseFactors to print another series\.?$/, '')}` : dosesFrom),
-      fuel ? h('p', { class: 'flag' }, `The fuel ${fuel.chemical} would run out after about ${fmtDuration(fuel.time)} at the lowest dose that consumes it (sooner at larger doses): the model does not deplete it, so anything later on the time axes would not happen in the sample unless the fuel is replenished.`) : null,
+      fuel && !common.has('fuel-runs-out-first') ? h('p', { class: 'flag' }, `The fuel ${fuel.chemical} would run out after about ${fmtDuration(fuel.time)} at the lowest dose that consumes it (sooner at larger doses): the model does not deplete it, so anything later on the time axes would not happen in the sample unless the fuel is replenished.`) : null,
       common.size
         ? h(
             'div',
             { class: 'warnings every-dose' },
             h('h3', null, 'Warnings for every dose'),
-            h('ul', null, [...common].map((code) => warningItem(code, r.doses.map((d) => ({ dose: doseText(d.dose), message: d.summary.warnings.find((w) => w.code === code)!.message })), ids))),
+            h('ul', null, [...common].map((code) => warningItem(code, r.doses.map((d) => ({ dose: doseText(d.dose), message: d.summary.warnings.find((w) => w.code === code)!.message })), ids, code === 'fuel-runs-out-first' && fuel ? ` The fuel ${fuel.chemical} runs out after about ${fmtDuration(fuel.time)} at the lowest dose that consumes it (sooner at larger doses), unless it is replenished.` : null))),
           )
         : null,
       field('Colour shows', showSel),
