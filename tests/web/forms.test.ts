@@ -169,6 +169,16 @@ describe('the What forms page', () => {
     expect(await page.textContent('#messages')).toMatch(/13 doses: this page simulates at most 12/);
   }, 180_000);
 
+  it('a candidate that does not cross asks for doses on the page (it has no bench-sheet series)', async () => {
+    await page.goto(`${base}/plans/${planId}/forms?candidate=catb-0.22-l04`);
+    await page.waitForSelector('form.options');
+    expect(await page.textContent('#candidate option[value="catb-0.22-l04"]')).toBe('catb-0.22-l04 (does not cross: type the doses to simulate below)');
+    expect(await page.textContent('#results .empty')).toMatch(/each dose you type is simulated/);
+    await page.click('form.options button[type="submit"]');
+    expect(await page.textContent('#messages')).toMatch(/catb-0\.22-l04 does not cross the boundary, so it has no bench-sheet series: type the doses to simulate/);
+    expect(await page.$$('.job progress')).toHaveLength(0);
+  }, 60_000);
+
   it('2D: the frames with a slider and Play', async () => {
     await page.goto(`${base}/plans/${planId}/forms?candidate=ptj-1um-b07`);
     await page.waitForSelector('form.options');
