@@ -337,7 +337,7 @@ function growthTable(d: Dose): HTMLElement {
   const gt = (r: number | null) => (r === null ? '—' : r > 0 ? `grows ×e every ${fmtDuration(1 / r)}` : `decays (×1/e every ${fmtDuration(-1 / r)})`);
   const wl = (x: number | null) => (x === null ? 'none (uniform)' : fmt(x, 'length'));
   const rows: Child[][] = [
-    ['growth', gt(d.linear.growthRate), unfounded ? h('span', null, 'not measurable: ', h('span', { class: 'muted' }, `the pattern did not grow (largest departure from the mean ${dep.first.toExponential(1)} at the start, ${dep.last.toExponential(1)} at the end), so the early-window fit (${gt(s.measured.growthRate)}) saw rounding, not growth`)) : gt(s.measured.growthRate)],
+    ['growth', gt(d.linear.growthRate), unfounded ? h('span', null, 'not measurable: ', h('span', { class: 'muted' }, `the pattern did not grow (largest departure from the mean ${formatNumber(100 * dep.first, 2)} % at the start, ${formatNumber(100 * dep.last, 2)} % at the end), so the early-window fit (${gt(s.measured.growthRate)}) saw rounding, not growth`)) : gt(s.measured.growthRate)],
     ['wavelength', wl(d.linear.wavelength), unfounded ? '—' : wl(s.measured.wavelength)],
   ];
   if (d.linear.oscillationPeriod !== null || (!unfounded && s.measured.oscillationPeriod !== null)) rows.push(['period', d.linear.oscillationPeriod === null ? '—' : fmtDuration(d.linear.oscillationPeriod), s.measured.oscillationPeriod === null || unfounded ? '—' : fmtDuration(s.measured.oscillationPeriod)]);
@@ -425,7 +425,7 @@ function doseSection(d: Dose, show: Show, index: number, common: Set<string>): H
     'section',
     { class: 'dose', 'aria-labelledby': `dose-${index}` },
     h('h3', { id: `dose-${index}` }, title, ' ', h('span', { class: `state state-${d.linear.state}` }, STATES[d.linear.state]?.label ?? d.linear.state)),
-    h('p', { class: 'muted' }, `Simulated ${fmtDuration(s.time)}${s.run.completed ? '' : ` of ${fmtDuration(s.duration)} asked for`} in ${s.run.steps} steps; particle numbers kept to ${s.conservation.maxRelativeError.toExponential(1)}; largest local volume fraction ${formatNumber(100 * s.run.maxVolumeFraction, 3)} %.`),
+    h('p', { class: 'muted' }, `Simulated ${fmtDuration(s.time)}${s.run.completed ? '' : ` of ${fmtDuration(s.duration)} asked for`} in ${s.run.steps} steps; particle numbers kept to within ${s.conservation.maxRelativeError > 0 ? `${formatNumber(100 * s.conservation.maxRelativeError, 2)} %` : 'rounding'}; largest local volume fraction ${formatNumber(100 * s.run.maxVolumeFraction, 3)} %.`),
     h('div', { class: 'dose-grid' }, h('div', null, withNote(s.grid.dims === 1 ? kymograph(d, show) : framesView(d, show), shownNote(d))), h('div', null, growthTable(d), dominantPlot(d))),
     h('h4', null, 'Clusters and their make-up'),
     clustersView(d),
