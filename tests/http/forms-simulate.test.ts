@@ -123,21 +123,23 @@ describe('simulate at doses of a plan', () => {
     expect(job.result.durationFrom).toBe('given');
     for (const d of job.result.doses) expect(d.summary.duration).toBe(1800);
     expect(job.result.doses[1].factor).toBeNull();
+    // doses given are not the sheet's default series, and the result does not call them so
+    expect(job.result.series).toBeNull();
   }, 120_000);
 
   it('2D: 12 frames of points × points (at most 64 × 64: see shrink below)', async () => {
-    const { job } = await run({ doses: ['3e8 1/mL'], dims: 2, points: 16, growthTimes: 1 });
+    const { job } = await run({ doses: ['3e8 1/mL'], dims: 2, points: 32, growthTimes: 1 });
     expect(job.state).toBe('done');
     const f = job.result.doses[0].frames;
     expect(f.times).toHaveLength(12);
-    expect(f.points).toBe(16);
+    expect(f.points).toBe(32);
     expect(f.block).toBe(1);
-    expect(f.simulated).toEqual({ points: 16, times: 12 });
-    expect(f.downsampled).toBe('all 12 stored times; all 16 × 16 simulated cells');
+    expect(f.simulated).toEqual({ points: 32, times: 12 });
+    expect(f.downsampled).toBe('all 12 stored times; all 32 × 32 simulated cells');
     expect(f.cellSize).toBe(job.result.doses[0].summary.grid.cellSize);
     expect(f.deviation.scale[0]).toHaveLength(12);
     expect(f.deviation.values[0]).toHaveLength(12);
-    expect(f.deviation.values[0][0]).toHaveLength(256);
+    expect(f.deviation.values[0][0]).toHaveLength(1024);
     // the starting perturbation (rms 1e-5 of the mean) survives the rounding
     expect(Math.max(...decode(f.deviation)[0]![0]!.map(Math.abs))).toBeGreaterThan(1e-6);
     expect(job.result.doses[0].kymograph).toBeNull();
@@ -156,6 +158,9 @@ describe('simulate at doses of a plan', () => {
       { points: 100 },
       { points: 1024 },
       { dims: 2, points: 128 },
+      // the smallest 2D grid is 32 × 32: at 16 × 16 single bright cells read as clusters
+      { dims: 2, points: 16 },
+      { dims: 2, points: 8 },
       { dims: 3 },
       { doses: Array.from({ length: 13 }, (_, i) => `${i + 1}e7 1/mL`) },
       { duration: '40 d' },
@@ -170,6 +175,8 @@ describe('simulate at doses of a plan', () => {
       expect(r.status, JSON.stringify(body)).toBe(400);
       expect(r.body.message).toBeTruthy();
     }
+    const small = await run({ dims: 2, points: 16 });
+    expect(small.body.problems).toEqual([{ path: 'points', message: 'in 2D give a power of two from 32 to 64 cells per side' }]);
     expect((await run({}, 'no-such-species')).status).toBe(404);
   });
 });

@@ -1,7 +1,7 @@
 /**
  * What forms past onset, from a stored plan:
  *
- *   POST /api/plans/:id/candidates/:species/simulate   { doses?, dims?, points?, duration? | growthTimes?, seed? }
+ *   POST /api/plans/:id/candidates/:species/simulate   { doses?, dims?, chemicals?, points?, duration? | growthTimes?, seed? }
  *
  * A job (202, header location /api/jobs/:id) that simulates the plan's base with the candidate at each dose
  * (docs/model.md §14–§16; the mixture at a dose as the spectrum route builds it, on the plan's stored SI
@@ -32,7 +32,7 @@ import { DIMENSIONS } from '../../units/index.js';
 /** The bounds of one request (its work budget): doses × cells × steps stays below about 1.5·10⁸ cell-steps. */
 export const SIMULATE_BOUNDS = {
   doses: 12,
-  points: { 1: { min: 32, max: 512, default: 128 }, 2: { min: 16, max: 64, default: 32 } },
+  points: { 1: { min: 32, max: 512, default: 128 }, 2: { min: 32, max: 64, default: 32 } },
   /** accepted steps per dose before the run stops (the summary then says step-limit) */
   maxSteps: { 1: 50_000, 2: 3_000 },
   growthTimes: { min: 1, max: 40, default: 12 },
@@ -117,7 +117,7 @@ const bodySchema = z
       .number()
       .int()
       .optional()
-      .describe(`cells per side, a power of two: 32 to 512 in 1D (default 128), 16 to 64 in 2D (default 32)`),
+      .describe(`cells per side, a power of two: 32 to 512 in 1D (default 128), 32 to 64 in 2D (default 32; a 16 × 16 grid made single bright cells read as clusters)`),
     duration: quantity(DIMENSIONS.time, 'positive', `the simulated time of every dose (at most ${SIMULATE_BOUNDS.maxDuration / 86_400} days)`).optional(),
     growthTimes: z
       .number()
@@ -220,7 +220,7 @@ export const formsRoutes: FastifyPluginAsync = async (base) => {
         "Answers 202 with the job (header location: /api/jobs/:id). For each dose, the plan's base with the candidate at that dose (on the plan's stored SI inputs, as the spectrum route builds it) is simulated with the nonlinear model of docs/model.md §14–§16 from a seeded random perturbation; the job's result is { plan, candidate, dims, points, seed, chemicals, durationFrom, series: { from, note } | null, doses: [{ dose, factor, linear: { state, growthRate, growthTime, wavelength, oscillationPeriod, composition }, summary (as `brink simulate` prints it), species: [{ id, mean, particleVolume }], kymograph (1D: times, positions, block, simulated, downsampled, deviation) | null, frames (2D: times, points, cellSize, block, simulated, downsampled, deviation) | null }] }. " +
         "The pictures are made compact: 1D keeps 101 of the engine's 201 stored times (those nearest to evenly spaced times; the engine adds a frame at the end of a run that stops between two) at ≤ 128 positions, 2D 12 frames of ≤ 64 × 64 cells; a shown cell is the mean of block (1D) or block × block (2D) simulated cells, so each species keeps its amount; points and cellSize are those of the shown cells, simulated: { points, times } the simulated cells per side and the engine's stored frames, downsampled the same in words; the summary (clusters, dominant length, bands, growth) is measured on the full grid and every stored frame. " +
         "deviation: { scale[species][frame], values[species][frame][cell] }: density ÷ the species' mean − 1 = values × scale to within scale ÷ 2; values are integers in ±999, scale (3 significant digits) is 1/999 of that frame's largest departure (0 for a species absent at the dose); cells are positions in 1D, rows of y with x fastest in 2D. " +
-        `Bounds (the work budget of one request): at most ${SIMULATE_BOUNDS.doses} doses; points a power of two, 32–512 in 1D, 16–64 in 2D; duration at most 30 days, or growthTimes 1–40; each dose stops after ${SIMULATE_BOUNDS.maxSteps[1]} steps in 1D, ${SIMULATE_BOUNDS.maxSteps[2]} in 2D (its summary then warns step-limit). Out of bounds: 400 before any job. A candidate that does not cross has no series: give doses.`,
+        `Bounds (the work budget of one request): at most ${SIMULATE_BOUNDS.doses} doses; points a power of two, 32–512 in 1D, 32–64 in 2D; duration at most 30 days, or growthTimes 1–40; each dose stops after ${SIMULATE_BOUNDS.maxSteps[1]} steps in 1D, ${SIMULATE_BOUNDS.maxSteps[2]} in 2D (its summary then warns step-limit). Out of bounds: 400 before any job. A candidate that does not cross has no series: give doses.`,
       params: z.object({ id: z.coerce.number().int().min(1), species: keySchema }),
       body: bodySchema,
     },

@@ -8,10 +8,12 @@
  */
 import { api } from '../lib/api.js';
 import { field, h, put, type Child } from '../lib/dom.js';
-import { fmt, fmtDuration, formatNumber } from '../lib/format.js';
+import { fmt, fmtAmountOf, fmtDuration, formatNumber, type AmountContext } from '../lib/format.js';
 import { followJob, jobView, type Job } from '../lib/job.js';
 import { mountPage, pathId } from '../lib/layout.js';
 import { ACCENT, figure, INK, Plot, STATES } from '../lib/plot.js';
+import { GENERIC_WARNING, WARNING_WORDS } from './forms-words.js';
+import { splitList } from './sheet-options.js';
 import './forms.css';
 
 type State = 'stable' | 'stationary' | 'oscillatory';
@@ -104,7 +106,11 @@ interface PlanLite {
   id: number;
   name: string;
   result: { candidates: { species: string; feasible: boolean; rank: number }[] };
+  inputs?: { candidates?: { id: string; radius?: number | null; materialDensity?: number | null }[] };
 }
+
+/** At most this many doses per run (the route's bound, SIMULATE_BOUNDS.doses in server/http/routes/forms.ts). */
+const MAX_DOSES = 12;
 
 const page = mountPage('What forms past onset', 'plans');
 const planId = pathId(/^\/plans\/(\d+)\/forms/);
@@ -121,28 +127,34 @@ function timeUnit(T: number): { label: string; f: number } {
   if (T >= 180) return { label: 'min', f: 1 / 60 };
   return { label: 's', f: 1 };
 }
-const perMl = (x: number) => (x === 0 ? '0 particles/mL' : fmt(x, 'numberDensity'));
+/** The candidate's size and material (for µg/mL beside particles/mL, as the plan page writes a dose); set in main. */
+let amountCtx: AmountContext = {};
+const doseText = (x: number) => (x === 0 ? '0 particles/mL' : fmtAmountOf(x, amountCtx));
 
-/** What the run's warnings mean, in words a researcher reads first (the engine's own message follows). */
-const WARNING_WORDS: Record<string, string> = {
-  'step-limit': 'The run stopped at its step limit before the end: what is shown ends early. Fewer points or a shorter duration reach the end.',
-  'positivity-repaired': 'The grid is too coarse for the sharpest cluster edges: the spectral field dipped below zero beside them and the missing amount was taken from the cells next to it. Use more points to trust the cluster edges.',
-  'clusters-under-resolved': 'Some clusters are only one or two grid cells wide: their number and sizes depend on the grid. Use more points before trusting them.',
-  'nothing-formed-yet': 'Nothing has formed yet: at the end of the run the sample is still nearly uniform. This does not mean it stays uniform: run longer (the message says about how much).',
-  'stable-nothing-forms': 'Stable: the starting unevenness dies away and nothing forms.',
-  'fastest-mode-unresolved': 'The predicted pattern is finer than this grid can show: use more points.',
-  'fastest-mode-coarse': 'The predicted pattern spans only a few grid cells: what forms from it is narrower still; use more points.',
-  'bands-not-read-in-2d': 'Travelling bands are measured only in 1D: run the 1D chamber for their speed and period.',
-  'absent-species': 'A species has no particles at this dose (the no-dopant control): the linear prediction is for the species present.',
-  'dynamic-chemicals': 'The chemicals evolve in time in this run; the linear prediction beside it assumes they follow the particles at once.',
-  'above-close-packing': 'The clusters reached close packing narrower than the grid resolves: use more points.',
-  'measured-mode-differs': 'The mode that grew fastest in the run is not the one the linear prediction names: the message gives the linear growth of both.',
-  'fuel-runs-out-first': 'The fuel would run out before the end of the run: the model holds the fuel at its starting level, so what is shown after the marked time would not happen in the sample.',
-  'no-linear-window': 'The pattern left the small-perturbation regime too early to measure its early growth.',
-  'linear-modes-1d': 'In 2D the linear prediction is for modes along one side; a diagonal mode may grow slightly faster.',
-  'unbounded-as-periodic': 'The open chamber is simulated as a periodic box.',
-  'chemistry-not-converged': 'The saturating chemistry did not converge in some steps: treat the numbers with care.',
-};
+/** An engine message as a sentence: its first letter capitalised, unless it starts with a species' or chemical's id. */
+function sentence(message: string, ids: string[]): string {
+  const first = /^[a-z]+(?![\w.:-])/.exec(message)?.[0];
+  return first && !ids.includes(first) ? message[0]!.toUpperCase() + message.slice(1) : message;
+}
+
+/**
+ * A warning as the page shows it: the page's words (GENERIC_WARNING for a code it has no words for), then the
+ * engine's message(s) in a closed details — one per dose when the warning stands for every dose.
+ */
+function warningItem(code: string, messages: { dose?: string; message: string }[], ids: string[], extra: Child = null): HTMLElement {
+  return h(
+    'li',
+    { 'data-code': code },
+    h('span', { class: 'words' }, WARNING_WORDS[code] ?? GENERIC_WARNING),
+    extra,
+    h(
+      'details',
+      null,
+      h('summary', null, 'details (as the engine reports it, SI units)'),
+      messages.map((m) => h('p', { class: 'muted engine' }, m.dose ? h('strong', null, `${m.dose}: `) : null, sentence(m.message, ids))),
+    ),
+  );
+}
 
 // ------------------------------------------------------------------ the colour of a field
 
@@ -161,18 +173,55 @@ function fieldOf(d: Dose, show: Show, frame: (m: number) => number[]): number[] 
 const showLabel = (d: Dose, show: Show) =>
   show.kind === 'total' ? 'total volume fraction (%)' : d.species[show.index]!.mean > 0 ? `${d.species[show.index]!.id}: density ÷ its mean (×)` : `${d.species[show.index]!.id} is absent at this dose`;
 
+/** Below this largest departure from the mean (any species present, any stored frame) the page calls it no pattern. */
+const NO_PATTERN = 0.01;
+/** The largest |density ÷ mean − 1| of any species present at the dose over all stored frames. */
+function largestDeparture(d: Dose): number {
+  let big = 0;
+  devOf(d).forEach((frames, m) => {
+    if (d.species[m]!.mean > 0) for (const row of frames) for (const v of row) big = Math.max(big, Math.abs(v));
+  });
+  return big;
+}
+/** The shown field's value in a uniform sample. */
+function uniformOf(d: Dose, show: Show): number {
+  return show.kind === 'species' ? 1 : d.species.reduce((a, s) => a + s.mean * s.particleVolume * 100, 0);
+}
+/**
+ * With no pattern (or an absent species), the colour range is held at ±1 % of the uniform value: stretched
+ * to the starting unevenness (±1e-5), noise would look like a vivid pattern.
+ */
+function heldDomain(d: Dose, show: Show): [number, number] | null {
+  const absent = show.kind === 'species' && !(d.species[show.index]!.mean > 0);
+  if (!absent && largestDeparture(d) >= NO_PATTERN) return null;
+  const c = uniformOf(d, show);
+  return c > 0 ? [c * (1 - NO_PATTERN), c * (1 + NO_PATTERN)] : null;
+}
+/** The legend's ticks for a held range: inside it (a tick at an end of the ramp has its label cut off). */
+const heldTicks = (held: [number, number]) => {
+  const c = (held[0] + held[1]) / 2;
+  return { ticks: [c - (c - held[0]) / 2, c, c + (held[1] - c) / 2], tickFormat: (v: number) => formatNumber(v, 4) };
+};
+/** The caption's words for a held colour range. */
+function heldNote(d: Dose, show: Show): string {
+  if (show.kind === 'species' && !(d.species[show.index]!.mean > 0)) return ' This species is absent at this dose: one colour.';
+  const big = largestDeparture(d);
+  return ` No pattern: every species stays within ${formatNumber(100 * big, 2)} % of its mean over the whole run (${d.linear.state === 'stable' ? 'only the starting unevenness, dying away' : 'the growing unevenness is still too small to see'}); the colour range is held at ±1 % of the mean, so this shows as one colour.`;
+}
+
 function kymograph(d: Dose, show: Show): HTMLElement {
   const k = d.kymograph!;
   const Lu = lengthUnit(d.summary.grid.length);
   const Tu = timeUnit(d.summary.time);
   const values = k.times.flatMap((_, j) => fieldOf(d, show, (m) => devOf(d)[m]![j]!));
   const fuel = d.summary.fuelRunOut && d.summary.fuelRunOut.time <= d.summary.time ? d.summary.fuelRunOut : null;
+  const held = heldDomain(d, show);
   return figure({
-    caption: `Kymograph at ${perMl(d.dose)}: ${showLabel(d, show)} across the chamber (horizontal) over time (down).${fuel ? ` Dashed line: ${fuel.chemical} would run out (${fmtDuration(fuel.time)}).` : ''}`,
+    caption: `Kymograph at ${doseText(d.dose)}: ${showLabel(d, show)} across the chamber (horizontal) over time (down).${fuel ? ` Dashed line: ${fuel.chemical} would run out (${fmtDuration(fuel.time)}).` : ''}${held ? heldNote(d, show) : ''}`,
     height: 300,
     x: { label: `position across the chamber (${Lu.label})`, domain: [0, d.summary.grid.length * Lu.f] },
     y: { label: `time (${Tu.label})`, domain: [0, d.summary.time * Tu.f], reverse: true, grid: false },
-    color: { type: 'linear', scheme: 'viridis', legend: true, label: showLabel(d, show) },
+    color: { type: 'linear', scheme: 'viridis', legend: true, label: showLabel(d, show), ...(held ? { domain: held, ...heldTicks(held) } : {}) },
     marks: [
       Plot.raster(values, { width: k.positions.length, height: k.times.length, x1: 0, x2: d.summary.grid.length * Lu.f, y1: 0, y2: d.summary.time * Tu.f, imageRendering: 'pixelated' }),
       fuel ? Plot.ruleY([fuel.time * Tu.f], { stroke: '#ffffff', strokeDasharray: '6,4', strokeWidth: 1.5 }) : null,
@@ -191,6 +240,8 @@ function framesView(d: Dose, show: Show): HTMLElement {
     if (v < lo) lo = v;
     if (v > hi) hi = v;
   }
+  const held = heldDomain(d, show);
+  if (held) [lo, hi] = held;
   if (!(hi > lo)) hi = lo + 1e-9;
   const scale = Plot.scale({ color: { type: 'linear', scheme: 'viridis', domain: [lo, hi] } });
   const size = 320;
@@ -235,7 +286,7 @@ function framesView(d: Dose, show: Show): HTMLElement {
       draw(j);
     }, 400);
   });
-  const legend = Plot.legend({ color: { type: 'linear', scheme: 'viridis', domain: [lo, hi], label: showLabel(d, show) }, marginLeft: 24, marginRight: 24, width: 320 });
+  const legend = Plot.legend({ color: { type: 'linear', scheme: 'viridis', domain: [lo, hi], label: showLabel(d, show), ...(held ? heldTicks(held) : {}) }, marginLeft: 24, marginRight: 24, width: 320 });
   for (const s of legend.querySelectorAll('style')) s.remove();
   queueMicrotask(() => draw(f.times.length - 1));
   return h(
@@ -244,17 +295,20 @@ function framesView(d: Dose, show: Show): HTMLElement {
     legend,
     canvas,
     h('div', { class: 'row' }, play, h('label', null, 'Frame ', slider), when),
-    h('figcaption', null, `${showLabel(d, show)} over the square chamber, ${formatNumber(d.summary.grid.length * Lu.f, 3)} ${Lu.label} a side; one colour scale for all frames.`),
+    h('figcaption', null, `Colour: ${showLabel(d, show)} over the square chamber: x across (left to right) and y across (bottom to top), each 0–${formatNumber(d.summary.grid.length * Lu.f, 3)} ${Lu.label}; one colour scale for all frames.${held ? heldNote(d, show) : ''}`),
   );
 }
 
 function dominantPlot(d: Dose): HTMLElement {
+  const flat = largestDeparture(d) < NO_PATTERN;
+  if (flat && d.linear.state === 'stable')
+    return h('p', { class: 'muted no-length' }, 'No dominant length: no pattern forms, and the length read from the dying starting unevenness would mean nothing, so it is not plotted.');
   const Lu = lengthUnit(d.summary.grid.length);
   const Tu = timeUnit(d.summary.time);
   const pts = d.summary.dominantLength.filter((p): p is [number, number] => p[1] !== null).map(([t, l]) => ({ t: t * Tu.f, l: l * Lu.f }));
   const fuel = d.summary.fuelRunOut && d.summary.fuelRunOut.time <= d.summary.time ? d.summary.fuelRunOut : null;
   return figure({
-    caption: `Dominant length over time (the structure factor's mean wavelength)${d.linear.wavelength !== null ? '; dotted: the linear wavelength' : ''}${fuel ? `; dashed: ${fuel.chemical} would run out` : ''}.`,
+    caption: `Dominant length over time (the structure factor's mean wavelength)${d.linear.wavelength !== null ? '; dotted: the linear wavelength' : ''}${fuel ? `; dashed: ${fuel.chemical} would run out` : ''}.${flat ? ' No pattern yet (every species within 1 % of its mean): this is the length of the growing unevenness, not of clusters.' : ''}`,
     height: 200,
     x: { label: `time (${Tu.label})`, domain: [0, d.summary.time * Tu.f] },
     y: { label: `dominant length (${Lu.label})`, zero: true },
@@ -283,7 +337,7 @@ function growthTable(d: Dose): HTMLElement {
   const gt = (r: number | null) => (r === null ? '—' : r > 0 ? `grows ×e every ${fmtDuration(1 / r)}` : `decays (×1/e every ${fmtDuration(-1 / r)})`);
   const wl = (x: number | null) => (x === null ? 'none (uniform)' : fmt(x, 'length'));
   const rows: Child[][] = [
-    ['growth', gt(d.linear.growthRate), unfounded ? h('span', null, 'not measurable: ', h('span', { class: 'muted' }, `the pattern did not grow (largest departure from the mean ${dep.first.toExponential(1)} at the start, ${dep.last.toExponential(1)} at the end), so the early-window fit (${gt(s.measured.growthRate)}) saw rounding, not growth`)) : gt(s.measured.growthRate)],
+    ['growth', gt(d.linear.growthRate), unfounded ? h('span', null, 'not measurable: ', h('span', { class: 'muted' }, `the pattern did not grow (largest departure from the mean ${formatNumber(100 * dep.first, 2)} % at the start, ${formatNumber(100 * dep.last, 2)} % at the end), so the early-window fit (${gt(s.measured.growthRate)}) saw rounding, not growth`)) : gt(s.measured.growthRate)],
     ['wavelength', wl(d.linear.wavelength), unfounded ? '—' : wl(s.measured.wavelength)],
   ];
   if (d.linear.oscillationPeriod !== null || (!unfounded && s.measured.oscillationPeriod !== null)) rows.push(['period', d.linear.oscillationPeriod === null ? '—' : fmtDuration(d.linear.oscillationPeriod), s.measured.oscillationPeriod === null || unfounded ? '—' : fmtDuration(s.measured.oscillationPeriod)]);
@@ -297,7 +351,6 @@ function growthTable(d: Dose): HTMLElement {
 
 function clustersView(d: Dose): HTMLElement {
   const c = d.summary.clusters;
-  const Lu = lengthUnit(d.summary.grid.length);
   const covered = d.summary.run.clusterCoveredFraction;
   const lin = new Map(d.linear.composition.map((x) => [x.species, x]));
   const linWord = (id: string) => {
@@ -311,7 +364,7 @@ function clustersView(d: Dose): HTMLElement {
   return h(
     'div',
     { class: 'clusters' },
-    h('p', null, c.count === 0 ? (d.summary.warnings.some((w) => w.code === 'nothing-formed-yet') ? 'No clusters yet: the run ended while the sample was still nearly uniform (see the warnings), not because none form.' : d.linear.state === 'stable' ? 'No clusters: the sample is stable.' : 'No clusters at the end of the run (nowhere is the volume fraction 1.2 × the mean).') : `${c.count} cluster${c.count === 1 ? '' : 's'} at the end, ${d.summary.grid.dims === 1 ? 'lengths' : 'diameters'} ${c.sizes.map((x) => `${formatNumber(x * Lu.f, 3)} ${Lu.label}`).join(', ')}; together they cover ${formatNumber(100 * covered, 3)} % of the chamber.`),
+    h('p', null, c.count === 0 ? (d.summary.warnings.some((w) => w.code === 'nothing-formed-yet') ? 'No clusters yet: the run ended while the sample was still nearly uniform (see the warnings), not because none form.' : d.linear.state === 'stable' ? 'No clusters: the sample is stable.' : 'No clusters at the end of the run (nowhere is the volume fraction 1.2 × the mean).') : `${c.count} cluster${c.count === 1 ? '' : 's'} at the end, ${d.summary.grid.dims === 1 ? 'length' : 'diameter'}${c.count === 1 ? '' : 's'} ${c.sizes.map((x) => fmt(x, 'length')).join(', ')}; together they cover ${formatNumber(100 * covered, 3)} % of the chamber.`),
     h(
       'table',
       { class: 'compare', 'aria-label': 'Cluster make-up beside the linear prediction' },
@@ -321,6 +374,7 @@ function clustersView(d: Dose): HTMLElement {
         null,
         d.species.map((sp) => {
           const f = c.composition.find((x) => x.species === sp.id)?.fraction ?? 0;
+          if (!(sp.mean > 0)) return h('tr', { class: 'absent' }, h('th', { scope: 'row', class: 'mono' }, sp.id), h('td', null, '—'), h('td', { colspan: 2 }, 'absent at this dose (no particles)'));
           return h('tr', null, h('th', { scope: 'row', class: 'mono' }, sp.id), h('td', null, c.count === 0 ? '—' : `${formatNumber(100 * f, 3)} %`), h('td', null, runWord(f)), h('td', null, linWord(sp.id)));
         }),
       ),
@@ -329,9 +383,26 @@ function clustersView(d: Dose): HTMLElement {
   );
 }
 
-function doseSection(d: Dose, show: Show, index: number): HTMLElement {
+/** The extra words of a warning that the page can put in bench units (how much longer to run). */
+function warningExtra(d: Dose, w: { code: string; message: string }): Child {
+  if (w.code !== 'nothing-formed-yet') return null;
+  const more = /need about ([\d.e+-]+) s more/.exec(w.message);
+  return more && Number(more[1]) > 0 ? ` At the linear growth rate, a clear pattern needs about ${fmtDuration(Number(more[1]))} more.` : null;
+}
+
+/** The ids an engine message may start with (kept as written). */
+const idsOf = (d: Dose): string[] => [...d.species.map((x) => x.id), ...(d.summary.fuelRunOut ? [d.summary.fuelRunOut.chemical] : [])];
+
+/** The warnings every dose has (the same words for each): listed once above the doses, with each dose's details. */
+function commonWarnings(r: Result): Set<string> {
+  if (r.doses.length < 2) return new Set();
+  const sets = r.doses.map((d) => new Set(d.summary.warnings.map((w) => w.code)));
+  return new Set([...sets[0]!].filter((c) => c !== 'nothing-formed-yet' && sets.every((x) => x.has(c))));
+}
+
+function doseSection(d: Dose, show: Show, index: number, common: Set<string>): HTMLElement {
   const s = d.summary;
-  const title = `${perMl(d.dose)}${d.factor !== null ? ` (${formatNumber(d.factor, 3)} × the sheet's 1 × dose)` : ''}${d.dose === 0 ? ' — the no-dopant control' : ''}`;
+  const title = `${doseText(d.dose)}${d.factor !== null ? ` (${formatNumber(d.factor, 3)} × the sheet's 1 × dose)` : ''}${d.dose === 0 ? ' — the no-dopant control' : ''}`;
   // the largest departure from the mean at the end of the run: a decaying or barely grown pattern has no bands to speak of
   const lastRel = devOf(d).map((rows) => rows[rows.length - 1] ?? []);
   const departure = Math.max(0, ...lastRel.flat().map((v) => Math.abs(v)));
@@ -349,18 +420,18 @@ function doseSection(d: Dose, show: Show, index: number): HTMLElement {
     : s.grid.dims === 1
       ? h('p', { class: 'muted' }, departure < 0.01 ? 'No bands to read: no pattern has formed.' : 'No travelling bands: the pattern is static over the second half of the run.')
       : null;
-  const warnings = s.warnings.filter((w) => w.code !== 'linear-modes-1d' || s.grid.dims === 2);
+  const warnings = s.warnings.filter((w) => (w.code !== 'linear-modes-1d' || s.grid.dims === 2) && !common.has(w.code));
   return h(
     'section',
     { class: 'dose', 'aria-labelledby': `dose-${index}` },
     h('h3', { id: `dose-${index}` }, title, ' ', h('span', { class: `state state-${d.linear.state}` }, STATES[d.linear.state]?.label ?? d.linear.state)),
-    h('p', { class: 'muted' }, `Simulated ${fmtDuration(s.time)}${s.run.completed ? '' : ` of ${fmtDuration(s.duration)} asked for`} in ${s.run.steps} steps; particle numbers kept to ${s.conservation.maxRelativeError.toExponential(1)}; largest local volume fraction ${formatNumber(100 * s.run.maxVolumeFraction, 3)} %.`),
+    h('p', { class: 'muted' }, `Simulated ${fmtDuration(s.time)}${s.run.completed ? '' : ` of ${fmtDuration(s.duration)} asked for`} in ${s.run.steps} steps; particle numbers kept to within ${s.conservation.maxRelativeError > 0 ? `${formatNumber(100 * s.conservation.maxRelativeError, 2)} %` : 'rounding'}; largest local volume fraction ${formatNumber(100 * s.run.maxVolumeFraction, 3)} %.`),
     h('div', { class: 'dose-grid' }, h('div', null, withNote(s.grid.dims === 1 ? kymograph(d, show) : framesView(d, show), shownNote(d))), h('div', null, growthTable(d), dominantPlot(d))),
     h('h4', null, 'Clusters and their make-up'),
     clustersView(d),
     bands,
     warnings.length
-      ? h('div', { class: 'warnings' }, h('h4', null, 'Warnings'), h('ul', null, warnings.map((w) => h('li', null, h('strong', null, WARNING_WORDS[w.code] ?? w.code), ' ', h('span', { class: 'muted' }, w.message)))))
+      ? h('div', { class: 'warnings' }, h('h4', null, common.size ? 'Warnings (besides those for every dose above)' : 'Warnings'), h('ul', null, warnings.map((w) => warningItem(w.code, [{ message: w.message }], idsOf(d), warningExtra(d, w)))))
       : null,
   );
 }
@@ -381,25 +452,40 @@ async function main(): Promise<void> {
     return;
   }
   const feasible = plan.result.candidates.filter((c) => c.feasible).sort((a, b) => a.rank - b.rank);
-  const asked = new URLSearchParams(location.search).get('candidate');
+  const query = new URLSearchParams(location.search);
+  const asked = query.get('candidate');
   const candidate = asked ?? feasible[0]?.species ?? null;
+  // the doses the bench sheet was opened with (?doses=…, as the sheet's address carries them): blank, the default series
+  const sheetDoses = splitList(query.get('doses') ?? '');
+  const stored = plan.inputs?.candidates?.find((c) => c.id === candidate);
+  if (candidate) {
+    amountCtx = { radius: stored?.radius ?? null, materialDensity: stored?.materialDensity ?? null };
+    try {
+      const r = await api<{ record: { kind?: string; molarMass?: { si: number } | null; radius?: { si: number }; materialDensity?: { si: number } } }>(`/api/species/${encodeURIComponent(candidate)}`);
+      const rec = r.record;
+      amountCtx = { kind: rec.kind ?? null, molarMass: rec.molarMass?.si ?? null, radius: amountCtx.radius ?? rec.radius?.si ?? null, materialDensity: amountCtx.materialDensity ?? rec.materialDensity?.si ?? null };
+    } catch {
+      // not on the shelf any more: particles/mL alone (with µg/mL only if the plan stored the size and material)
+    }
+  }
+  const sheetHref = candidate ? `/plans/${plan.id}/sheet?candidate=${encodeURIComponent(candidate)}${sheetDoses.length ? `&doses=${encodeURIComponent(sheetDoses.join(','))}` : ''}` : '';
 
   const head = h(
     'div',
     null,
     h('h1', null, 'What forms past onset'),
-    h('p', null, 'Plan ', h('a', { href: `/plans/${plan.id}` }, plan.name), candidate ? [' · ', h('a', { href: `/plans/${plan.id}/sheet?candidate=${encodeURIComponent(candidate)}` }, 'its bench sheet')] : null),
+    h('p', null, 'Plan ', h('a', { href: `/plans/${plan.id}` }, plan.name), candidate ? [' · ', h('a', { href: sheetHref }, 'its bench sheet')] : null),
     h(
       'p',
       { class: 'muted' },
-      'The linear prediction says when the sample tips, how fast, at what length and which species gather. This page simulates what forms afterwards — clusters, their size and make-up, travelling bands — at each dose of the bench sheet, with the same shelf data. The model holds the fuel at its starting level (its run-out time is marked) and starts from a tiny random unevenness (the seed).',
+      'The linear prediction says when the sample tips, how fast, at what length and which species gather. This page simulates what forms afterwards — clusters, their size and make-up, travelling bands — at each dose of the bench-sheet series (or the doses you type below), with the same shelf data. The model holds the fuel at its starting level (its run-out time is marked) and starts from a tiny random unevenness (the seed).',
     ),
   );
   if (!candidate) {
     put(page.main, head, h('div', { class: 'empty' }, 'No candidate of this plan crosses the boundary, so there is no dose series to simulate. Start a plan with other candidates in the ', h('a', { href: '/planner' }, 'planner'), '.'));
     return;
   }
-  const pick = h('select', { id: 'candidate' }, plan.result.candidates.map((c) => h('option', { value: c.species, ...(c.species === candidate ? { selected: true } : {}) }, `${c.species}${c.feasible ? '' : ' (does not cross: give doses via the API)'}`)));
+  const pick = h('select', { id: 'candidate' }, plan.result.candidates.map((c) => h('option', { value: c.species, ...(c.species === candidate ? { selected: true } : {}) }, `${c.species}${c.feasible ? '' : ' (does not cross: type the doses to simulate below)'}`)));
   pick.addEventListener('change', () => {
     location.search = `?candidate=${encodeURIComponent(pick.value)}`;
   });
@@ -408,10 +494,22 @@ async function main(): Promise<void> {
   dims.addEventListener('change', () => {
     dimsHint.textContent = dims.value === '2' ? '2D takes a minute or more, and a dose that clusters may reach its step limit (its warnings say so)' : '1D takes seconds; 2D a minute or more';
   });
+  const isFeasible = plan.result.candidates.find((c) => c.species === candidate)?.feasible ?? false;
+  const dosesIn = h('input', { id: 'doses', type: 'text', class: 'wide', value: sheetDoses.join(', '), placeholder: isFeasible ? "the bench sheet's default series" : 'e.g. 0, 1e8 1/mL, 2e8 1/mL', autocomplete: 'off', spellcheck: 'false' });
+  const dosesField = field(
+    'Doses (comma-separated)',
+    dosesIn,
+    sheetDoses.length
+      ? `the doses the bench sheet was built with (from its link); at most ${MAX_DOSES}; blank: the sheet's default series`
+      : isFeasible
+        ? `blank: the bench sheet's default series, dose 0 included; or type up to ${MAX_DOSES} doses, e.g. 0, 1e8 1/mL`
+        : `this candidate does not cross, so it has no bench-sheet series: type up to ${MAX_DOSES} doses, e.g. 0, 1e8 1/mL`,
+  );
   const points = h('select', { id: 'points' });
   const fillPoints = () => {
     const two = dims.value === '2';
-    const opts = two ? [16, 32, 64] : [32, 64, 128, 256, 512];
+    // 2D starts at 32 × 32: on a 16 × 16 grid single bright cells read as clusters (the route refuses it too)
+    const opts = two ? [32, 64] : [32, 64, 128, 256, 512];
     const def = two ? 32 : 128;
     put(points, opts.map((n) => h('option', { value: n, ...(n === def ? { selected: true } : {}) }, two ? `${n} × ${n}` : String(n))));
   };
@@ -435,6 +533,7 @@ async function main(): Promise<void> {
     'form',
     { class: 'options', 'aria-label': 'Simulation options' },
     field('Candidate', pick),
+    dosesField,
     field('Chamber', dims, dimsHint),
     field('Points per side', points, 'more points resolve sharper clusters and take longer'),
     field('Duration in', mode),
@@ -445,10 +544,13 @@ async function main(): Promise<void> {
     h('div', { class: 'actions' }, run),
   );
   const jobSlot = h('div', null);
-  const results = h('div', { id: 'results' }, h('div', { class: 'empty' }, 'Choose the options and Run: each dose of the bench sheet is simulated in turn (the defaults take seconds to a minute). The results appear here.'));
+  const empty = h('div', { class: 'empty' }, `Choose the options and Run: each dose ${sheetDoses.length ? 'of the series the bench sheet was built with' : isFeasible ? "of the bench sheet's series" : 'you type'} is simulated in turn (the defaults take seconds to a minute). The results appear here.`);
+  const results = h('div', { id: 'results' }, empty);
   put(page.main, head, form, jobSlot, results);
 
   let last: Result | null = null;
+  /** Where the doses of the last run came from, in words (the result's series says so only for the sheet's default). */
+  let dosesFrom = '';
   const render = () => {
     if (!last) return;
     const r = last;
@@ -457,13 +559,23 @@ async function main(): Promise<void> {
     if (showSel.options.length !== sp.length + 1) put(showSel, h('option', { value: 'total' }, 'total volume fraction'), sp.map((s, i) => h('option', { value: i }, `${s.id} (÷ its mean)`)));
     const show = showOf();
     const fuel = r.doses.find((d) => d.summary.fuelRunOut)?.summary.fuelRunOut;
+    const common = commonWarnings(r);
+    const ids = r.doses[0] ? idsOf(r.doses[0]) : [];
     put(
       results,
       h('h2', null, `${r.candidate}: ${r.doses.length} dose${r.doses.length === 1 ? '' : 's'}, ${r.dims}D, ${r.dims === 1 ? r.points : `${r.points} × ${r.points}`} cells, ${r.durationFrom}, seed ${r.seed}${r.chemicals === 'dynamic' ? ', chemicals evolving in time' : ''}`),
-      r.series ? h('p', { class: 'muted' }, `Doses: the bench sheet's series — ${r.series.note}`) : null,
-      fuel ? h('p', { class: 'flag' }, `${fuel.chemical} would run out after about ${fmtDuration(fuel.time)} at the lowest dose that consumes it (sooner at larger doses): the model does not deplete it, so anything later on the time axes would not happen in the sample unless the fuel is replenished.`) : null,
+      h('p', { class: 'muted', id: 'doses-from' }, r.series ? `Doses: the bench sheet's default series — ${r.series.note.replace(/\s*Give doses or doseFactors to print another series\.?$/, '')}` : dosesFrom),
+      fuel && !common.has('fuel-runs-out-first') ? h('p', { class: 'flag' }, `The fuel ${fuel.chemical} would run out after about ${fmtDuration(fuel.time)} at the lowest dose that consumes it (sooner at larger doses): the model does not deplete it, so anything later on the time axes would not happen in the sample unless the fuel is replenished.`) : null,
+      common.size
+        ? h(
+            'div',
+            { class: 'warnings every-dose' },
+            h('h3', null, 'Warnings for every dose'),
+            h('ul', null, [...common].map((code) => warningItem(code, r.doses.map((d) => ({ dose: doseText(d.dose), message: d.summary.warnings.find((w) => w.code === code)!.message })), ids, code === 'fuel-runs-out-first' && fuel ? ` The fuel ${fuel.chemical} runs out after about ${fmtDuration(fuel.time)} at the lowest dose that consumes it (sooner at larger doses), unless it is replenished.` : null))),
+          )
+        : null,
       field('Colour shows', showSel),
-      r.doses.map((d, i) => doseSection(d, show, i)),
+      r.doses.map((d, i) => doseSection(d, show, i, common)),
     );
   };
   showSel.addEventListener('change', render);
@@ -474,9 +586,25 @@ async function main(): Promise<void> {
     const body: Record<string, unknown> = { dims: Number(dims.value), points: Number(points.value), seed: Number(seed.value), chemicals: chemicals.value };
     if (mode.value === 'growth') body.growthTimes = Number(growth.value);
     else body.duration = time.value.trim();
+    const typed = splitList(dosesIn.value);
+    if (typed.length > MAX_DOSES) {
+      page.say(`${typed.length} doses: this page simulates at most ${MAX_DOSES} at a time. Leave some out, or run the series in two parts.`, 'error');
+      dosesIn.focus();
+      return;
+    }
+    if (typed.length === 0 && !isFeasible) {
+      page.say(`${candidate} does not cross the boundary, so it has no bench-sheet series: type the doses to simulate.`, 'error');
+      dosesIn.focus();
+      return;
+    }
+    if (typed.length) body.doses = typed;
+    const fromSheet = typed.length > 0 && typed.join(',') === sheetDoses.join(',');
+    const sentFrom = typed.length === 0 ? '' : fromSheet ? `Doses: the series the bench sheet was built with (${typed.join(', ')}), carried here by its link.` : `Doses: as typed on this page (${typed.join(', ')}), not the bench sheet's series.`;
     run.disabled = true;
     const view = jobView('Simulating');
     put(jobSlot, view.el);
+    // while a job runs, the "choose the options and Run" note would mislead
+    empty.hidden = true;
     let stopped = false;
     view.onCancel(() => {
       stopped = true;
@@ -486,6 +614,7 @@ async function main(): Promise<void> {
       const end = await followJob(job, (j) => view.update(j));
       if (end.state === 'done' && end.result) {
         last = end.result;
+        dosesFrom = sentFrom;
         render();
         page.say(`Simulated ${end.result.doses.length} doses.`, 'ok');
       } else if (end.state === 'cancelled' || stopped) page.say('The run was cancelled; the results shown (if any) are from the run before.', 'info');
@@ -495,6 +624,7 @@ async function main(): Promise<void> {
       put(jobSlot);
     } finally {
       run.disabled = false;
+      empty.hidden = false;
     }
   });
 }

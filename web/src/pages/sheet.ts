@@ -320,6 +320,17 @@ function showNotFit(nf: NotFit): void {
   status.className = 'sheet-status error';
 }
 
+/** The "what forms past onset" link (set once the plan is read) and its address: the sheet's candidate and its doses when typed. */
+let formsLink: HTMLElement | null = null;
+function formsHref(): void {
+  if (!formsLink || !planId) return;
+  const q = new URLSearchParams();
+  if (candidate.value) q.set('candidate', candidate.value);
+  const list = splitList(doses.value);
+  if (list.length) q.set('doses', list.join(','));
+  formsLink.setAttribute('href', `/plans/${planId}/forms${qs(q)}`);
+}
+
 async function build(): Promise<void> {
   if (!planId) return;
   controller?.abort();
@@ -333,6 +344,7 @@ async function build(): Promise<void> {
   view.setAttribute('aria-busy', 'true');
   history.replaceState(null, '', `${location.pathname}${qs(pageQuery(o, paper.value !== 'A4' ? { paper: paper.value } : {}))}`);
   putLinks(o);
+  formsHref();
   try {
     // a plan that does not fit is answered as an explanation with its fixes (200 here: it is what the page shows)
     const sh = await api<Sheet | NotFit>(`/api/plans/${planId}/sheet?format=json&paper=${paper.value}&notFitStatus=200`, { body: optionsBody(o), signal: mine.signal });
@@ -344,6 +356,7 @@ async function build(): Promise<void> {
     last = sh;
     for (const s of sh.stocks) stockField(s.id, s.kind, s.name, s.source === 'shelf' ? `shelf: ${s.described}` : undefined);
     if (!candidate.value) candidate.value = sh.candidate.id;
+    formsHref();
     put(view, renderSections(sh.sections, paper.value as 'A4' | 'Letter'));
     putGlance(sh);
     const tubes = sh.tubes.reduce((n, t) => n + t.tubes.length, 0);
@@ -389,7 +402,7 @@ async function start(): Promise<void> {
     const plan = await api<PlanRow>(`/api/plans/${planId}`);
     document.title = `Bench sheet — plan ${plan.id} — brink`;
     const forms = h('a', { href: `/plans/${plan.id}/forms`, id: 'to-forms' }, 'what forms past onset');
-    const formsHref = () => forms.setAttribute('href', `/plans/${plan.id}/forms${candidate.value ? `?candidate=${encodeURIComponent(candidate.value)}` : ''}`);
+    formsLink = forms;
     candidate.addEventListener('change', formsHref);
     put(sub, `Plan ${plan.id}: ${plan.name} · `, h('a', { href: `/plans/${plan.id}` }, 'the plan'), ' · ', h('a', { href: `/plans/${plan.id}/outcomes` }, 'its outcomes'), ' · ', forms);
     for (const c of plan.result.candidates) candidate.append(h('option', { value: c.species, disabled: !c.feasible }, c.feasible ? c.species : `${c.species} — does not cross (${c.reason ?? 'no threshold'})`));
