@@ -145,6 +145,9 @@ export const LINEAR_WINDOW = 1e-3;
 /** A cluster narrower than this many particle diameters is beyond what the continuum model can size. */
 export const PARTICLE_CLUSTER = 5;
 
+/** The linear window stays open at least this many growth times while every departure stays below 10 × LINEAR_WINDOW. */
+export const MIN_WINDOW = 2;
+
 /** At the end of an unstable run whose largest departure from the mean is below this share, nothing has formed yet. */
 export const STILL_LINEAR = 0.1;
 
@@ -317,7 +320,9 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   // output and sampling times
   const F = Math.max(2, options.frames ?? (dims === 1 ? 201 : 41));
   const frameTimes = Array.from({ length: F }, (_, f) => (duration * f) / (F - 1));
-  const sampleStep = Math.min(scaleTime / 8, period !== null ? period / 16 : Infinity, duration / 16);
+  // 32 samples a growth time (and a period): a window closed early by a species that follows the chemicals at once
+  // (it departs from its mean well before the others) still holds enough samples to fit and to halve
+  const sampleStep = Math.min(scaleTime / 32, period !== null ? period / 32 : Infinity, duration / 16);
   const windowMax = Math.min(12 * scaleTime, duration);
   // the modes whose early amplitudes are recorded: up to 256 (1D) or 16 (2D) per axis, and at least 1.5 times the
   // fastest mode's index, so the fastest mode and its faster-looking neighbours are always among them
@@ -392,7 +397,11 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   // decayed to LINEAR_WINDOW of its start (the fits would otherwise read rounding)
   const linearEnd = () => {
     const d = largestDeparture();
-    return d > LINEAR_WINDOW || d < LINEAR_WINDOW * startDeparture;
+    // a species that follows the chemicals at once can depart by LINEAR_WINDOW long before the pattern has grown:
+    // the window then stays open for at least MIN_WINDOW growth times while no species departs by ten times as much
+    if (d > 10 * LINEAR_WINDOW) return true;
+    if (d > LINEAR_WINDOW) return !(lambda > 0 && t < MIN_WINDOW / lambda);
+    return d < LINEAR_WINDOW * startDeparture;
   };
 
   let t = 0;
@@ -439,7 +448,12 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
   if (times[times.length - 1] !== t) recordFrame(t);
 
   const measured: Measured = measureGrowth(field, modes, samples, sampleStep, integ.mean);
-  if (measured.growthRate === null) warnings.push({ code: 'no-linear-window', message: 'too few samples before the pattern left the linear regime to measure the early growth' });
+  if (measured.growthRate === null) {
+    warnings.push({
+      code: 'no-linear-window',
+      message: `the early growth could not be measured: the window it is read from (until some species departs from its mean by ${LINEAR_WINDOW} of it, ${measured.window.toPrecision(3)} s here) held too few samples or no mode its fit could trust`,
+    });
+  }
   // the linear growth at the mode the run found fastest, for comparison (the same J(k), docs/model.md §3, of the
   // species present)
   let atMeasured: number | null = null;
@@ -469,9 +483,9 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
         ? 'the two modes grow within 1 % of each other, closer than the early measurement resolves (docs/model.md §16)'
         : field.dynamic
           ? 'the chemicals evolve in time here, which moves the fastest mode away from the quasi-static prediction (see dynamic-chemicals)'
-          : dims === 2
+          : dims === 2 && measured.mode !== null && measured.mode.length === 2 && measured.mode[0]! > 0 && measured.mode[1]! > 0
             ? 'in 2D the lattice also has modes off the axes, which the prediction along one axis does not list'
-            : 'the modes are too far apart to be confused: see the other warnings about the measured growth';
+            : `the predicted fastest mode was not measured (its early history did not give a rate the fit could trust), so the measured growth ${atMeasured !== null && atMeasured < lambda ? "understates the sample's" : 'is not the predicted mode\'s'}; use more points or a longer run`;
     warnings.push({
       code: 'measured-mode-differs',
       message: `the fastest mode in the run has wavelength ${measured.wavelength.toPrecision(4)} m, not the predicted ${linearWl.toPrecision(4)} m${atMeasured !== null ? `; the linear growth rate of that mode is ${fmtRate(atMeasured)} against ${fmtRate(lambda)} at the predicted one${gap !== null ? ` (${(gap * 100).toPrecision(2)} % apart)` : ''}` : ''}: ${why}`,
@@ -568,14 +582,17 @@ export function simulate(mix: Mixture, options: SimulateOptions = {}): Simulatio
     });
   }
   if (field.dynamic) {
-    // how much faster than the pattern the chemicals relax, at the predicted wavelength (slowest chemical)
+    // how much faster than the pattern grows (or turns) the chemicals relax, at the predicted wavelength (slowest
+    // chemical), and the linear growth with evolving chemicals there (analyze()'s slow-chemistry check, §8)
     const k2 = linearWl !== null ? ((2 * Math.PI) / linearWl) ** 2 : 0;
     let slowest = Infinity;
     for (let s = 0; s < field.S; s++) slowest = Math.min(slowest, field.dChem[s]! * k2 + field.kappa[s]!);
-    const ratio = lambda !== 0 ? slowest / Math.abs(lambda) : null;
+    const pace = Math.max(Math.abs(lambda), period !== null ? (2 * Math.PI) / period : 0);
+    const ratio = pace > 0 ? slowest / pace : null;
+    const dyn = analysis.checks.relaxation?.dynamicRateAtMode ?? null;
     warnings.push({
       code: 'dynamic-chemicals',
-      message: `the chemical fields evolve in time in this run; \`linear\` is analyze()'s quasi-static prediction, which the run approaches when the chemicals relax much faster than the pattern grows${ratio !== null && Number.isFinite(ratio) ? ` (here the slowest chemical relaxes at ${slowest.toPrecision(3)} 1/s at the predicted wavelength, ${ratio.toPrecision(3)} times the growth rate${ratio < 20 ? ': expect the measured growth and wavelength to differ from it' : ''})` : ''}`,
+      message: `the chemical fields evolve in time in this run, while \`linear\` is analyze()'s quasi-static prediction${ratio !== null && Number.isFinite(ratio) ? `; the slowest chemical relaxes at ${slowest.toPrecision(3)} 1/s at the predicted wavelength, ${ratio.toPrecision(3)} times the pattern's pace` : ''}${dyn !== null ? `; with evolving chemicals the linear growth there is ${dyn.toPrecision(4)} 1/s (quasi-static ${lambda.toPrecision(4)} 1/s), which is what the run's early growth should show` : ''}`,
     });
   }
   if (dims === 2) warnings.push({ code: 'linear-modes-1d', message: 'the linear prediction is for modes along one axis; in 2D the fastest mode may lie off the axes' });

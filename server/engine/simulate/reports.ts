@@ -259,7 +259,8 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
   // per mode, its fastest clean rate; a weak mode's only over the longest leading part of the window whose two halves
   // agree (its earliest samples, before its feeders took over), or not at all
   const byMode = new Map<number, { re: number; im: number; q: number }>();
-  for (const f of clean.length > 0 ? clean : fits) {
+  const supported = fits.filter((f) => f.support >= SUPPORT_MIN);
+  for (const f of clean.length > 0 ? clean : supported.length > 0 ? supported : fits) {
     const had = byMode.get(f.q);
     if (!had || f.re > had.re) byMode.set(f.q, { re: f.re, im: f.im, q: f.q });
   }
@@ -267,18 +268,24 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
   for (const [q, f] of byMode) {
     let rate: { re: number; im: number } | null = f;
     if (amp(J, q) < HALVES_BELOW * top) {
-      rate = null;
+      // the whole window, its first half, first quarter, …: the longest whose halves agree; when none does, the
+      // first half of the whole window (before the feeders took over, if they did); when the window is too short
+      // to be halved, the whole-window fit
       const basis = bases.get(q)!;
+      let earliest: { re: number; im: number } | null = null;
+      rate = null;
       for (let end = J; end >= 2 * (basis.length + 2); end = Math.floor(end / 2)) {
         const whole = fastestOver(q, 0, end, basis);
         const h1 = fastestOver(q, 0, Math.floor(end / 2), basis);
         const h2 = fastestOver(q, Math.floor(end / 2), end, basis);
         if (whole === null) break;
+        if (end === J) earliest = h1;
         if (h1 === null || h2 === null || Math.abs(h1.re - h2.re) <= HALVES_LIMIT * Math.abs(whole.re)) {
           rate = whole;
           break;
         }
       }
+      if (rate === null) rate = earliest ?? (J < 2 * (basis.length + 2) ? f : null);
     }
     if (rate !== null && (best === null || rate.re > best.re)) best = { re: rate.re, im: rate.im, q };
   }
