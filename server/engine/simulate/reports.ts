@@ -134,26 +134,32 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
    * The propagator of mode q fitted over the sample pairs j0 … j1−1 (see above): its eigenvalues as rates with
    * their support, and the relative residual. null when nothing can be fitted.
    */
-  const fit = (q: number, j0: number, j1: number, basis?: Float64Array[]): { eigs: { re: number; im: number; support: number }[]; residual: number; basis: Float64Array[] } | null => {
-    const G = new Float64Array(n * n);
-    const H = new Float64Array(n * n);
+  /**
+   * The recorded pairs (u_j, u_{j+1}) of mode q for j0 ≤ j < j1, real and imaginary parts as two trajectories,
+   * each divided by |u_j| so every pair weighs alike: the late, largest samples, where harmonics of the strongest
+   * modes begin to feed the weaker ones, do not dominate the fit.
+   */
+  const pairsOf = (q: number, j0: number, j1: number): { x: number[]; y: number[] }[] => {
+    const out: { x: number[]; y: number[] }[] = [];
     for (let j = j0; j < j1; j++) {
       for (let part = 0; part < 2; part++) {
         const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / scale[a]!);
-        const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / scale[a]!);
-        // each pair weighted equally (normalised by |x|): the late, largest samples, where harmonics of the
-        // strongest modes begin to feed the weaker ones, do not dominate the fit
         const norm = Math.hypot(...x);
         if (!(norm > 0)) continue;
-        for (let r = 0; r < n; r++) {
-          x[r] = x[r]! / norm;
-          y[r] = y[r]! / norm;
-        }
-        for (let r = 0; r < n; r++) {
-          for (let c = 0; c < n; c++) {
-            G[r * n + c]! += x[r]! * x[c]!;
-            H[r * n + c]! += y[r]! * x[c]!; // H = Σ y xᵀ
-          }
+        out.push({ x: x.map((v) => v / norm), y: live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / scale[a]! / norm) });
+      }
+    }
+    return out;
+  };
+  const fit = (q: number, j0: number, j1: number, basis?: Float64Array[]): { eigs: { re: number; im: number; support: number }[]; residual: number; basis: Float64Array[] } | null => {
+    const pairs = pairsOf(q, j0, j1);
+    const G = new Float64Array(n * n);
+    const H = new Float64Array(n * n);
+    for (const { x, y } of pairs) {
+      for (let r = 0; r < n; r++) {
+        for (let c = 0; c < n; c++) {
+          G[r * n + c]! += x[r]! * x[c]!;
+          H[r * n + c]! += y[r]! * x[c]!; // H = Σ y xᵀ
         }
       }
     }
@@ -193,20 +199,14 @@ export function measureGrowth(field: SpectralField, modes: number[], samples: Fl
     // how well one linear propagator explains this mode's history in those directions (relative residual)
     let res = 0;
     let tot = 0;
-    for (let j = j0; j < j1; j++) {
-      for (let part = 0; part < 2; part++) {
-        const x = live.map((a) => samples[j]![(q * M + a) * 2 + part]! / scale[a]!);
-        const y = live.map((a) => samples[j + 1]![(q * M + a) * 2 + part]! / scale[a]!);
-        const norm = Math.hypot(...x);
-        if (!(norm > 0)) continue;
-        const ax = U.map((u) => dot(u, x) / norm);
-        for (let i = 0; i < r; i++) {
-          let pred = 0;
-          for (let c = 0; c < r; c++) pred += A[i * r + c]! * ax[c]!;
-          const yi = dot(U[i]!, y) / norm;
-          res += (yi - pred) ** 2;
-          tot += yi * yi;
-        }
+    for (const { x, y } of pairs) {
+      const ax = U.map((u) => dot(u, x));
+      for (let i = 0; i < r; i++) {
+        let pred = 0;
+        for (let c = 0; c < r; c++) pred += A[i * r + c]! * ax[c]!;
+        const yi = dot(U[i]!, y);
+        res += (yi - pred) ** 2;
+        tot += yi * yi;
       }
     }
     const residual = tot > 0 ? Math.sqrt(res / tot) : Infinity;
