@@ -183,3 +183,33 @@ export function eigenvalues(a: Float64Array, n: number): Spectrum {
   const { re, im, converged } = decompose(a, n, false);
   return { re, im, converged };
 }
+
+/** Eigenvalues (largest first) and unit eigenvectors of a real symmetric matrix. */
+export interface SymmetricEigen {
+  values: Float64Array;
+  /** vectors[i] is the unit eigenvector of values[i] */
+  vectors: Float64Array[];
+}
+
+/**
+ * Eigenvalues and orthonormal eigenvectors of a real symmetric n×n matrix (row-major, not modified; the upper
+ * triangle is read), by ml-matrix's symmetric decomposition (tridiagonalisation and QL). For the small Gram
+ * matrices of the simulation's early-growth fit.
+ *
+ * @example symmetricEigen(Float64Array.of(2, 1, 1, 2), 2).values // [3, 1]
+ */
+export function symmetricEigen(a: Float64Array, n: number): SymmetricEigen {
+  const rows = Array.from({ length: n }, (_, i) => Array.from({ length: n }, (_, j) => a[Math.min(i, j) * n + Math.max(i, j)]!));
+  const e = new EigenvalueDecomposition(new Matrix(rows), { assumeSymmetric: true });
+  const values = e.realEigenvalues;
+  const V = e.eigenvectorMatrix;
+  const order = Array.from({ length: n }, (_, i) => i).sort((i, j) => values[j]! - values[i]!);
+  return {
+    values: Float64Array.from(order, (i) => values[i]!),
+    vectors: order.map((i) => {
+      const v = Float64Array.from({ length: n }, (_, k) => V.get(k, i));
+      const norm = Math.hypot(...v);
+      return norm > 0 ? v.map((x) => x / norm) : v;
+    }),
+  };
+}

@@ -4,9 +4,8 @@
  * early growth of the fastest mode, clusters by thresholding and connected
  * components, and the speed and period of travelling bands from the kymograph.
  */
-import { eigenDecomposition } from '../linalg/eigen.js';
 import { solveInPlace } from '../linalg/dense.js';
-import { symmetricEigen } from '../linalg/symmetric.js';
+import { eigenDecomposition, symmetricEigen } from '../linalg/eigen.js';
 import { FFT } from './fft.js';
 import type { SpectralField } from './field.js';
 
